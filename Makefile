@@ -1,0 +1,31 @@
+# contactplan: the two set-up commands are `make run` and `make test`.
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed-test
+DEMO := resources/demo/week.toml
+
+.PHONY: run test venv bench screenshots package clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+venv: $(STAMP)
+
+run: $(STAMP)
+	$(PY) -m contactplan $(DEMO)
+
+test: $(STAMP)
+	QT_QPA_PLATFORM=offscreen MPLBACKEND=Agg $(PY) -m pytest
+
+bench: $(STAMP)
+	@for b in benchmarks/bench_*.py; do echo "== $$b"; QT_QPA_PLATFORM=offscreen $(PY) $$b || exit 1; done
+
+screenshots: $(STAMP)
+	QT_QPA_PLATFORM=offscreen MPLBACKEND=Agg $(PY) -m contactplan.app.screenshots docs/images
+
+clean:
+	rm -rf $(VENV) build dist *.egg-info .pytest_cache

@@ -1,0 +1,5 @@
+import sys
+
+from contactplan.cli import main
+
+sys.exit(main())

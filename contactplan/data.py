@@ -1,0 +1,159 @@
+"""Packaged data, in one place, never downloaded.
+
+* Leap seconds and Earth-orientation parameters (UT1-UTC, polar motion) come
+  from the ``astropy-iers-data`` package (IERS Bulletin A ``finals2000A.all``
+  and ``Leap_Second.dat``).
+* The planetary ephemeris (JPL DE421) comes from ``skyfield-data``.
+* :func:`configure_astropy` makes astropy use the packaged tables and never
+  reach for the network; call it before any astropy time/coordinate work.
+
+Past the end of the Earth-orientation predictions the last values are held and
+one plain warning is issued (:class:`EOPWarning`), instead of failing.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+import warnings
+from importlib import resources
+from pathlib import Path
+
+import numpy as np
+
+
+class EOPWarning(UserWarning):
+    """Earth-orientation values are extrapolated past the packaged table."""
+
+
+class NetworkAccessWarning(UserWarning):
+    """Something tried to reach the network; tests turn this into an error."""
+
+
+def _iers_dir() -> Path:
+    return Path(str(resources.files("astropy_iers_data") / "data"))
+
+
+def skyfield_data_dir() -> Path:
+    """Folder holding ``de421.bsp`` (and an older ``finals2000A.all`` we do not use)."""
+    return Path(str(resources.files("skyfield_data") / "data"))
+
+
+@functools.lru_cache(maxsize=1)
+def leap_second_table() -> tuple[np.ndarray, np.ndarray, str]:
+    """Return (mjd_utc, tai_minus_utc_s, expires_text) from ``Leap_Second.dat``.
+
+    Row *i* says that from 0h UTC of ``mjd_utc[i]`` on, TAI-UTC is ``tai_minus_utc_s[i]``.
+    """
+    path = _iers_dir() / "Leap_Second.dat"
+    text = path.read_text()
+    mjd, dat = [], []
+    for line in text.splitlines():
+        if line.startswith("#") or not line.strip():
+            continue
+        parts = line.split()
+        mjd.append(float(parts[0]))
+        dat.append(float(parts[4]))
+    m = re.search(r"File expires on\s+(.+)", text)
+    return np.array(mjd), np.array(dat), (m.group(1).strip() if m else "unknown")
+
+
+@functools.lru_cache(maxsize=1)
+def eop_table() -> dict[str, np.ndarray]:
+    """Earth-orientation parameters from the packaged IERS ``finals2000A.all``.
+
+    Returns a dict of arrays: ``mjd_utc``, ``ut1_minus_utc_s``, ``xp_arcsec``,
+    ``yp_arcsec`` (Bulletin A values, observed then predicted), daily at 0h UTC.
+    """
+    path = _iers_dir() / "finals2000A.all"
+    mjd, dut1, xp, yp = [], [], [], []
+    with open(path, "r") as fh:
+        for line in fh:
+            # Fixed columns (ReadMe.finals2000A): MJD 8-15, PM-x 19-27, PM-y 38-46, UT1-UTC 59-68.
+            if len(line) < 68:
+                continue
+            s_dut1 = line[58:68].strip()
+            if not s_dut1:
+                continue
+            mjd.append(float(line[7:15]))
+            xp.append(float(line[18:27]) if line[18:27].strip() else 0.0)
+            yp.append(float(line[37:46]) if line[37:46].strip() else 0.0)
+            dut1.append(float(s_dut1))
+    return {
+        "mjd_utc": np.array(mjd),
+        "ut1_minus_utc_s": np.array(dut1),
+        "xp_arcsec": np.array(xp),
+        "yp_arcsec": np.array(yp),
+    }
+
+
+_warned_eop = False
+
+
+def _warn_eop_once(last_mjd: float) -> None:
+    global _warned_eop
+    if not _warned_eop:
+        _warned_eop = True
+        warnings.warn(
+            f"Earth-orientation predictions end at MJD {last_mjd:.0f}; later times use the last "
+            "values (UT1 error grows by about 1 ms a day). Update the astropy-iers-data package.",
+            EOPWarning,
+            stacklevel=3,
+        )
+
+
+def earth_orientation(mjd_utc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """UT1-UTC (s), polar motion x and y (arcsec) at UTC MJDs, linearly interpolated.
+
+    Outside the table the end values are held; past its end one warning is issued.
+    UT1-UTC jumps by one second at leap seconds, so interpolation is done on
+    UT1-TAI, which is continuous, then converted back.
+    """
+    tab = eop_table()
+    mjd_utc = np.asarray(mjd_utc, dtype=float)
+    if mjd_utc.size and np.nanmax(mjd_utc) > tab["mjd_utc"][-1] + 1.0:
+        _warn_eop_once(tab["mjd_utc"][-1])
+    leap_mjd, leap_dat, _ = leap_second_table()
+    dat_tab = leap_dat[np.searchsorted(leap_mjd, tab["mjd_utc"], side="right") - 1]
+    ut1_tai_tab = tab["ut1_minus_utc_s"] - dat_tab
+    dat = leap_dat[np.clip(np.searchsorted(leap_mjd, mjd_utc, side="right") - 1, 0, None)]
+    ut1_tai = np.interp(mjd_utc, tab["mjd_utc"], ut1_tai_tab)
+    xp = np.interp(mjd_utc, tab["mjd_utc"], tab["xp_arcsec"])
+    yp = np.interp(mjd_utc, tab["mjd_utc"], tab["yp_arcsec"])
+    return ut1_tai + dat, xp, yp
+
+
+@functools.lru_cache(maxsize=1)
+def planetary_ephemeris():
+    """The packaged JPL DE421 kernel, opened with skyfield (never downloaded)."""
+    from skyfield.api import load_file
+
+    return load_file(str(skyfield_data_dir() / "de421.bsp"))
+
+
+@functools.lru_cache(maxsize=1)
+def skyfield_timescale():
+    """A skyfield timescale built from the packaged tables (no download, no expiry nag)."""
+    from skyfield.api import load
+
+    # builtin=True uses skyfield's own bundled leap seconds and Delta T; UT1 for
+    # station rotation is applied by contactplan.geometry from eop_table().
+    return load.timescale(builtin=True)
+
+
+_astropy_done = False
+
+
+def configure_astropy() -> None:
+    """Point astropy at the packaged IERS tables and forbid downloads. Idempotent."""
+    global _astropy_done
+    if _astropy_done:
+        return
+    from astropy.utils import iers
+    from astropy.utils.data import conf as data_conf
+
+    iers.conf.auto_download = False
+    iers.conf.auto_max_age = None
+    iers.conf.iers_degraded_accuracy = "warn"
+    data_conf.allow_internet = False
+    _astropy_done = True

@@ -1,0 +1,372 @@
+"""Read and validate a scenario TOML file (contract: docs/scenario.md).
+
+Every problem is an :class:`~contactplan.errors.InputError` naming the file and
+the field path (``stations[NRV].latitude_deg``) or the TOML line.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+import re
+from pathlib import Path
+
+from contactplan.errors import InputError
+from contactplan.scenario import model as m
+from contactplan.timescale import parse_time_value
+
+try:  # Python 3.11+
+    import tomllib
+except ModuleNotFoundError:  # pragma: no cover
+    import tomli as tomllib  # type: ignore
+
+_ID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{0,31}$")
+_MISSING = object()
+
+
+class Table:
+    """A TOML table with typed, validated getters that name the field on error."""
+
+    def __init__(self, data, path: Path | None, where: str):
+        if not isinstance(data, dict):
+            raise InputError(f"expected a table, got {type(data).__name__}", path, where)
+        self.data = data
+        self.path = path
+        self.where = where
+        self.loaded: dict = {}
+
+    def _field(self, key: str) -> str:
+        return f"{self.where}.{key}" if self.where else key
+
+    def fail(self, key: str | None, message: str):
+        raise InputError(message, self.path, self._field(key) if key else self.where)
+
+    def _get(self, key, default):
+        if key in self.data:
+            return self.data[key]
+        if default is _MISSING:
+            self.fail(key, "missing (required)")
+        return default
+
+    def sub(self, key: str, required: bool = True) -> "Table | None":
+        v = self.data.get(key, _MISSING)
+        if v is _MISSING:
+            if required:
+                self.fail(key, "missing section (required)")
+            return None
+        return Table(v, self.path, self._field(key))
+
+    def str(self, key, default=_MISSING, choices=None, pattern=None):
+        v = self._get(key, default)
+        if v is None and default is None:
+            self.loaded[key] = None
+            return None
+        if not isinstance(v, str):
+            self.fail(key, f"expected text, got {v!r}")
+        if choices and v not in choices:
+            self.fail(key, f"{v!r} is not one of {', '.join(choices)}")
+        if pattern is not None and not pattern.match(v):
+            self.fail(key, f"{v!r} is not a valid id (letters, digits, _ . : -, at most 32)")
+        self.loaded[key] = v
+        return v
+
+    def num(self, key, default=_MISSING, lo=None, hi=None, lo_open=False, integer=False):
+        v = self._get(key, default)
+        if v is None and default is None:
+            self.loaded[key] = None
+            return None
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            self.fail(key, f"expected a number, got {v!r}")
+        if integer and not (isinstance(v, int) or float(v).is_integer()):
+            self.fail(key, f"expected a whole number, got {v!r}")
+        if not math.isfinite(v):
+            self.fail(key, f"{v} is not a finite number")
+        if lo is not None and (v < lo or (lo_open and v == lo)):
+            self.fail(key, f"{v} is out of range (must be {'>' if lo_open else '>='} {lo})")
+        if hi is not None and v > hi:
+            self.fail(key, f"{v} is out of range (must be <= {hi})")
+        out = int(v) if integer else float(v)
+        self.loaded[key] = out
+        return out
+
+    def bool(self, key, default=_MISSING):
+        v = self._get(key, default)
+        if not isinstance(v, bool):
+            self.fail(key, f"expected true or false, got {v!r}")
+        self.loaded[key] = v
+        return v
+
+    def time(self, key, default=_MISSING):
+        v = self._get(key, default)
+        if v is None and default is None:
+            self.loaded[key] = None
+            return None
+        try:
+            out = parse_time_value(v)
+        except InputError as exc:
+            raise InputError(exc.message, self.path, self._field(key)) from None
+        self.loaded[key] = out
+        return out
+
+    def list(self, key, default=_MISSING):
+        v = self._get(key, default)
+        if not isinstance(v, list):
+            self.fail(key, f"expected a list, got {v!r}")
+        return v
+
+    def records(self, key) -> list["Table"]:
+        v = self.data.get(key, [])
+        if not isinstance(v, list):
+            self.fail(key, "expected an array of tables ([[" + key + "]])")
+        out = []
+        for i, item in enumerate(v):
+            label = item.get("id") if isinstance(item, dict) and isinstance(item.get("id"), str) else f"#{i + 1}"
+            out.append(Table(item, self.path, f"{self._field(key)}[{label}]"))
+        return out
+
+    def keep(self, rec):
+        rec.raw = self.data
+        rec.loaded = dict(self.loaded)
+        return rec
+
+
+# ---------------------------------------------------------------- sections
+def _station(t: Table) -> m.Station:
+    sid = t.str("id", pattern=_ID_RE)
+    st = m.Station(
+        id=sid,
+        name=t.str("name", sid),
+        latitude_deg=t.num("latitude_deg", lo=-90, hi=90),
+        longitude_deg=t.num("longitude_deg", lo=-180, hi=360),
+        height_m=t.num("height_m", 0.0, lo=-500, hi=9000),
+        min_elevation_deg=t.num("min_elevation_deg", 0.0, lo=-5, hi=89),
+        g_over_t_dbk=t.num("g_over_t_dbk", None, lo=-40, hi=80),
+        zenith_attenuation_db=t.num("zenith_attenuation_db", None, lo=0, hi=50),
+        setup_min=t.num("setup_min", 0.0, lo=0, hi=600),
+        teardown_min=t.num("teardown_min", 0.0, lo=0, hi=600),
+        cost_per_hour=t.num("cost_per_hour", 1.0, lo=0),
+        max_hours_per_week=t.num("max_hours_per_week", None, lo=0, hi=168),
+    )
+    mask = t.list("horizon_mask", [])
+    points = []
+    for i, p in enumerate(mask):
+        f = f"horizon_mask[{i + 1}]"
+        if not (isinstance(p, list) and len(p) == 2 and all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in p)):
+            t.fail(f, f"expected [azimuth_deg, elevation_deg], got {p!r}")
+        az, el = float(p[0]), float(p[1])
+        if not (math.isfinite(az) and 0.0 <= az < 360.0):
+            t.fail(f, f"azimuth {p[0]} is out of range (0 <= azimuth < 360)")
+        if not (math.isfinite(el) and -5.0 <= el <= 90.0):
+            t.fail(f, f"elevation {p[1]} is out of range (-5 to 90)")
+        if points and az <= points[-1][0]:
+            t.fail(f, f"azimuth {az} is not after {points[-1][0]}: sort the mask by increasing azimuth")
+        points.append([az, el])
+    st.horizon_mask = points
+    t.loaded["horizon_mask"] = copy.deepcopy(points)
+    outages = []
+    for o in t.records("outages"):
+        out = o.keep(m.Outage(start_tt=o.time("start"), end_tt=o.time("end"), reason=o.str("reason", "")))
+        if out.end_tt <= out.start_tt:
+            o.fail("end", "outage ends before it starts")
+        outages.append(out)
+    st.outages = outages
+    return t.keep(st)
+
+
+def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
+    keys = [k for k in ("oem", "libration") if k in t.data]
+    if len(keys) != 1:
+        t.fail(None, "give exactly one of oem = \"file.oem\" or libration = { ... }")
+    if keys[0] == "oem":
+        rel = t.str("oem")
+        p = Path(rel)
+        if not p.is_absolute() and base is not None:
+            p = base / p
+        return t.keep(m.EphemerisSpec(kind="oem", oem_path=p))
+    lt = t.sub("libration")
+    lib = lt.keep(m.LibrationSpec(
+        system=lt.str("system", "sun-earth", choices=("sun-earth",)),
+        point=lt.str("point", "L2", choices=("L1", "L2")),
+        vertical_amplitude_km=lt.num("vertical_amplitude_km", 300000.0, lo=50000.0, hi=1500000.0),
+        branch=lt.str("branch", "north", choices=("north", "south")),
+        epoch_tt=lt.time("epoch"),
+        phase_deg=lt.num("phase_deg", 0.0, lo=-360.0, hi=360.0),
+    ))
+    return t.keep(m.EphemerisSpec(kind="libration", libration=lib))
+
+
+def _link(t: Table) -> m.Link:
+    rates = t.list("rates_kbps")
+    if not rates:
+        t.fail("rates_kbps", "give at least one rate")
+    for i, r in enumerate(rates):
+        if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(r) or r <= 0:
+            t.fail(f"rates_kbps[{i + 1}]", f"expected a positive rate in kbit/s, got {r!r}")
+    t.loaded["rates_kbps"] = sorted(float(r) for r in rates)
+    return t.keep(m.Link(
+        frequency_mhz=t.num("frequency_mhz", lo=100.0, hi=100000.0),
+        eirp_dbw=t.num("eirp_dbw", lo=-50, hi=120),
+        required_ebn0_db=t.num("required_ebn0_db", lo=-10, hi=40),
+        margin_db=t.num("margin_db", 3.0, lo=0, hi=40),
+        other_losses_db=t.num("other_losses_db", 0.0, lo=0, hi=60),
+        rates_kbps=sorted(float(r) for r in rates),
+    ))
+
+
+def _recorder(t: Table) -> m.Recorder:
+    rec = m.Recorder(
+        capacity_gbit=t.num("capacity_gbit", lo=0, lo_open=True),
+        initial_gbit=t.num("initial_gbit", 0.0, lo=0),
+        generation_kbps=t.num("generation_kbps", 0.0, lo=0),
+    )
+    if rec.initial_gbit > rec.capacity_gbit:
+        t.fail("initial_gbit", f"{rec.initial_gbit} exceeds capacity_gbit {rec.capacity_gbit}")
+    return t.keep(rec)
+
+
+def _margins(t: Table, kind: str) -> dict:
+    out = {
+        "duration_min": t.num("duration_min", lo=0, hi=7 * 1440),
+        "downlink_keepout_min": t.num("downlink_keepout_min", 0.0, lo=0, hi=1440),
+        "monitor_before_min": t.num("monitor_before_min", 0.0, lo=0, hi=1440),
+        "monitor_after_min": t.num("monitor_after_min", 0.0, lo=0, hi=1440),
+    }
+    return out
+
+
+def _activity(t: Table) -> m.Activity:
+    kind = t.str("kind", choices=m.ACTIVITY_KINDS)
+    return t.keep(m.Activity(id=t.str("id", pattern=_ID_RE), kind=kind, start_tt=t.time("start"), **_margins(t, kind)))
+
+
+def _series(t: Table) -> m.ActivitySeries:
+    kind = t.str("kind", choices=m.ACTIVITY_KINDS)
+    return t.keep(m.ActivitySeries(
+        id=t.str("id", pattern=_ID_RE), kind=kind, first_start_tt=t.time("first_start"),
+        every_days=t.num("every_days", lo=0, lo_open=True, hi=3650),
+        count=t.num("count", lo=1, hi=1000, integer=True), **_margins(t, kind)))
+
+
+def _booking(t: Table, station_ids: set) -> m.Booking:
+    b = m.Booking(
+        id=t.str("id", pattern=_ID_RE),
+        station=t.str("station"),
+        start_tt=t.time("start"),
+        end_tt=t.time("end"),
+        locked=t.bool("locked", False),
+    )
+    if b.station not in station_ids:
+        t.fail("station", f"no station with id {b.station!r} (known: {', '.join(sorted(station_ids)) or 'none'})")
+    if b.end_tt <= b.start_tt:
+        t.fail("end", "booking ends before it starts")
+    purposes = t.list("purposes", ["downlink"])
+    for i, p in enumerate(purposes):
+        if p not in m.PURPOSES:
+            t.fail(f"purposes[{i + 1}]", f"{p!r} is not one of {', '.join(m.PURPOSES)}")
+    if not purposes:
+        t.fail("purposes", "give at least one purpose")
+    b.purposes = list(purposes)
+    t.loaded["purposes"] = list(purposes)
+    return t.keep(b)
+
+
+def _unique(items, kind: str, path, where: str):
+    seen = set()
+    for it in items:
+        if it.id in seen:
+            raise InputError(f"{kind} id {it.id!r} is used twice", path, where)
+        seen.add(it.id)
+
+
+def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
+    """Build a :class:`Scenario` from an already parsed TOML document."""
+    base = path.parent if path is not None else None
+    root = Table(doc, path, "")
+    fv = root.num("format_version", m.FORMAT_VERSION, lo=1, integer=True)
+    if fv > m.FORMAT_VERSION:
+        root.fail("format_version", f"version {fv} is newer than this program reads ({m.FORMAT_VERSION}); update contactplan")
+    sc = root.sub("scenario")
+    name = sc.str("name")
+    start = sc.time("start")
+    end = sc.time("end")
+    if end <= start:
+        sc.fail("end", "planning window ends before it starts")
+    revision = sc.num("revision", 0, lo=0, integer=True)
+
+    sp = root.sub("spacecraft")
+    et = sp.sub("ephemeris")
+    spacecraft = m.Spacecraft(name=sp.str("name"), ephemeris=_ephemeris(et, base))
+    lt = sp.sub("link", required=False)
+    spacecraft.link = _link(lt) if lt is not None else None
+    rt = sp.sub("recorder", required=False)
+    spacecraft.recorder = _recorder(rt) if rt is not None else None
+    sp.keep(spacecraft)
+
+    stations = [_station(t) for t in root.records("stations")]
+    _unique(stations, "station", path, "stations")
+    series = [_series(t) for t in root.records("activity_series")]
+    _unique(series, "activity series", path, "activity_series")
+    activities = [_activity(t) for t in root.records("activities")]
+    for s in series:
+        activities.extend(s.expand())
+    _unique(activities, "activity", path, "activities")
+    activities.sort(key=lambda a: a.start_tt)
+    ids = {s.id for s in stations}
+    bookings = [_booking(t, ids) for t in root.records("bookings")]
+    _unique(bookings, "booking", path, "bookings")
+
+    rq = root.sub("requirements", required=False) or Table({}, path, "requirements")
+    req = rq.keep(m.Requirements(
+        contact_per_day_min_h=rq.num("contact_per_day_min_h", None, lo=0, hi=24),
+        ranging_per_day_min=rq.num("ranging_per_day_min", None, lo=0, hi=48, integer=True),
+        booking_min_h=rq.num("booking_min_h", None, lo=0, hi=24),
+        booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
+        recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
+    ))
+    gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
+    geo = gt.keep(m.GeometryOptions(
+        refraction=gt.bool("refraction", False),
+        moon_separation_min_deg=gt.num("moon_separation_min_deg", 5.0, lo=0, hi=180),
+        sun_separation_min_deg=gt.num("sun_separation_min_deg", 5.0, lo=0, hi=180),
+    ))
+    scen = m.Scenario(
+        name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
+        activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
+        format_version=fv, revision=revision, path=path, document=doc,
+    )
+    sc.keep(scen)  # raw/loaded of the [scenario] table
+    return scen
+
+
+def parse_text(text: str, path: Path | None = None) -> m.Scenario:
+    """Parse scenario TOML text; errors carry the TOML line where the syntax is wrong."""
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        msg = str(exc)
+        mm = re.search(r"\(at line (\d+), column \d+\)", msg)
+        line = int(mm.group(1)) if mm else None
+        msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
+        raise InputError(f"not valid TOML: {msg}", path, line) from None
+    return parse_document(doc, path)
+
+
+def load_scenario(path: str | Path) -> m.Scenario:
+    """Read and validate a scenario file."""
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError("file not found", path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read: {exc.strerror}", path) from None
+    if not data.strip():
+        raise InputError("file is empty", path)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise InputError("not UTF-8 text (is this a scenario file?)", path, line) from None
+    if "\x00" in text:
+        raise InputError("binary content, not a TOML scenario", path, text[: text.index("\x00")].count("\n") + 1)
+    return parse_text(text, path)
