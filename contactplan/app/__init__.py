@@ -1,0 +1,1 @@
+"""The desktop planner: the only package that imports Qt."""

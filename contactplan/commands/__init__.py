@@ -1,0 +1,1 @@
+"""Sub-commands of the CLI (see contactplan.cli)."""

@@ -1,0 +1,1 @@
+"""Station geometry: Earth orientation, topocentric look angles, passes, shadows."""

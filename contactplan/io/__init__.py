@@ -1,0 +1,1 @@
+"""Readers and writers: CCSDS OEM, tables, calendars, the weekly report."""

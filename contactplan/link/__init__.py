@@ -1,0 +1,1 @@
+"""Link budget, downlink rate and data volume, and the onboard recorder."""

@@ -1,0 +1,1 @@
+"""The contact plan: findings, rules, the compute pipeline, drafting."""
