@@ -27,5 +27,10 @@ bench: $(STAMP)
 screenshots: $(STAMP)
 	QT_QPA_PLATFORM=offscreen MPLBACKEND=Agg $(PY) -m contactplan.app.screenshots docs/images
 
+package: $(STAMP)
+	$(PY) -m pip install --quiet 'pyinstaller>=6.0'
+	$(PY) -m PyInstaller --noconfirm --clean --distpath dist --workpath build packaging/contactplan.spec
+	QT_QPA_PLATFORM=offscreen bash packaging/smoke.sh dist/contactplan/contactplan resources/demo/week.toml
+
 clean:
 	rm -rf $(VENV) build dist *.egg-info .pytest_cache

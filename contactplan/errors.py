@@ -24,13 +24,10 @@ class InputError(Exception):
         super().__init__(str(self))
 
     def __str__(self) -> str:
-        parts = []
-        if self.path:
-            parts.append(self.path)
-        if self.where is not None and self.where != "":
-            parts.append(str(self.where))
-        parts.append(self.message)
-        return ": ".join(parts)
+        head = ":".join(
+            p for p in (self.path or "", "" if self.where is None else str(self.where)) if p
+        )
+        return f"{head}: {self.message}" if head else self.message
 
     def at(self, path: str | Path | None = None, where: int | str | None = None) -> "InputError":
         """Return a copy with the file and/or location filled in where missing."""
