@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from contactplan.errors import Cancelled
+
 
 @dataclass(eq=False)
 class PlanResult:
@@ -27,12 +29,95 @@ class PlanResult:
     def warnings(self) -> int:
         return sum(1 for f in self.findings if f.severity == "warning")
 
+    def findings_for(self, subject: str) -> list:
+        """Findings that name ``subject`` (a booking, activity or station id)."""
+        return [f for f in self.findings if subject in f.subjects]
+
+
+def _stage(progress, lo: float, hi: float):
+    """A progress callback mapping a stage's 0..1 onto lo..hi of the whole."""
+    if progress is None:
+        return None
+
+    def cb(fraction: float) -> None:
+        progress(lo + (hi - lo) * min(max(float(fraction), 0.0), 1.0))
+
+    return cb
+
+
+def _check_cancel(cancel) -> None:
+    if cancel is not None and cancel():
+        raise Cancelled()
+
+
+def _annotate(scenario, ephemeris, passes, progress, cancel) -> dict:
+    """Link columns on the passes and their rate profiles (empty without a link model)."""
+    try:
+        from contactplan.link.volume import annotate_passes
+    except ImportError:  # link stage not installed in this build
+        return {}
+    if scenario.spacecraft.link is None:
+        return {}
+    out = annotate_passes(scenario, ephemeris, passes)
+    return dict(out or {})
+
+
+def _recorder(scenario, passes, profiles):
+    """Recorder fill for the scenario's current bookings (None without a recorder model)."""
+    if scenario.spacecraft.recorder is None:
+        return None
+    try:
+        from contactplan.link.recorder import simulate_recorder
+    except ImportError:
+        return None
+    return simulate_recorder(scenario, passes, profiles)
+
+
+def _shadows(scenario, ephemeris) -> list:
+    try:
+        from contactplan.geometry import shadow
+    except ImportError:
+        return []
+    fn = getattr(shadow, "shadow_spans", None) or getattr(shadow, "find_shadows", None)
+    if fn is None:
+        return []
+    return list(fn(scenario, ephemeris) or [])
+
 
 def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanResult:
-    """Everything the views need: passes with link columns, recorder, findings."""
-    raise NotImplementedError("filled in by the plan work")
+    """Everything the views need: passes with link columns, recorder, findings.
+
+    ``ephemeris`` defaults to the scenario's own (:func:`contactplan.ephemeris.ephemeris_for`).
+    ``progress(fraction)`` is called with 0..1; ``cancel()`` returning True raises
+    :class:`~contactplan.errors.Cancelled`.
+    """
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.geometry.passes import find_passes
+
+    _check_cancel(cancel)
+    eph = ephemeris if ephemeris is not None else ephemeris_for(scenario)
+    passes = find_passes(scenario, eph, progress=_stage(progress, 0.0, 0.7), cancel=cancel)
+    passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
+    _check_cancel(cancel)
+    profiles = _annotate(scenario, eph, passes, _stage(progress, 0.7, 0.9), cancel)
+    _check_cancel(cancel)
+    shadows = _shadows(scenario, eph)
+    _check_cancel(cancel)
+    result = PlanResult(scenario=scenario, ephemeris=eph, passes=passes, profiles=profiles, shadows=shadows)
+    check(result)
+    if progress is not None:
+        progress(1.0)
+    return result
 
 
 def check(result: PlanResult) -> PlanResult:
-    """Re-run the recorder and the rules for the scenario's current bookings (passes kept)."""
-    raise NotImplementedError("filled in by the plan work")
+    """Re-run the recorder and the rules for the scenario's current bookings (passes kept).
+
+    Updates ``result.recorder`` and ``result.findings`` in place and returns ``result``.
+    """
+    from contactplan.plan.rules import RuleContext, run_rules
+
+    sc = result.scenario
+    result.recorder = _recorder(sc, result.passes, result.profiles)
+    result.findings = run_rules(RuleContext.build(sc, result.passes, result.profiles, result.recorder))
+    return result

@@ -1,0 +1,574 @@
+"""The plan rules: each rule is a small function ``(ctx) -> list[Finding]``.
+
+A rule reads already computed passes, profiles and recorder result from a
+:class:`RuleContext` and never recomputes geometry, so it is cheap and testable
+with hand-built passes. To add a rule, write one function and append it to
+:data:`RULES`. :func:`run_rules` runs them all, clips every finding span to the
+planning window and sorts by start time, then severity.
+
+Terms used by several rules (all times TT seconds since J2000):
+
+- *visibility* of a station: its passes, with two passes joined when the gap
+  between them is covered by one of the station's outages (so a booking across
+  an outage is reported once, as ``station-outage``).
+- *tracked time* of a booking: ``[start + setup, end - teardown]`` of its
+  station, intersected with the station's passes and minus its outages. Setup
+  and teardown carry no data, so they neither monitor a burn nor count as
+  contact.
+- *keep-out* of an activity: ``[start - downlink_keepout, end + downlink_keepout]``
+  for burns and slews (and for other activities that give a keep-out).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from contactplan.plan.findings import ERROR, WARNING, Finding
+from contactplan.timescale import format_utc, utc_day_start, utc_days
+
+#: a booking edge may miss a pass edge by this much (s) and still count as inside
+EDGE_TOLERANCE_S = 1.0
+#: recorder fill above this fraction of capacity gives ``recorder-high``
+RECORDER_HIGH_FRACTION = 0.9
+_SEVERITY_ORDER = {ERROR: 0, WARNING: 1}
+
+
+# ---------------------------------------------------------------- intervals
+def union(spans) -> list[tuple[float, float]]:
+    """Merge (start, end) spans into sorted, disjoint spans (empty ones dropped)."""
+    out: list[list[float]] = []
+    for a, b in sorted((float(a), float(b)) for a, b in spans if b > a):
+        if out and a <= out[-1][1]:
+            out[-1][1] = max(out[-1][1], b)
+        else:
+            out.append([a, b])
+    return [(a, b) for a, b in out]
+
+
+def intersect(spans_a, spans_b) -> list[tuple[float, float]]:
+    """Intersection of two lists of disjoint sorted spans."""
+    a, b = union(spans_a), union(spans_b)
+    i = j = 0
+    out = []
+    while i < len(a) and j < len(b):
+        lo, hi = max(a[i][0], b[j][0]), min(a[i][1], b[j][1])
+        if hi > lo:
+            out.append((lo, hi))
+        if a[i][1] < b[j][1]:
+            i += 1
+        else:
+            j += 1
+    return out
+
+
+def subtract(spans, holes) -> list[tuple[float, float]]:
+    """``spans`` minus ``holes``."""
+    out = []
+    holes = union(holes)
+    for a, b in union(spans):
+        cur = a
+        for h0, h1 in holes:
+            if h1 <= cur or h0 >= b:
+                continue
+            if h0 > cur:
+                out.append((cur, h0))
+            cur = max(cur, h1)
+            if cur >= b:
+                break
+        if cur < b:
+            out.append((cur, b))
+    return out
+
+
+def total_s(spans) -> float:
+    return float(sum(b - a for a, b in spans))
+
+
+# ---------------------------------------------------------------- text helpers
+def t_text(tt: float) -> str:
+    """Time for messages: ``2027-01-12T19:00:00Z``."""
+    return format_utc(float(tt), 0)
+
+
+def span_text(a: float, b: float) -> str:
+    return f"{t_text(a)} to {t_text(b)}"
+
+
+def minutes(s: float) -> str:
+    m = s / 60.0
+    return f"{m:.0f} min" if abs(m - round(m)) < 0.05 else f"{m:.1f} min"
+
+
+# ---------------------------------------------------------------- context
+def downlink_keepouts(scenario) -> list[tuple[float, float, object]]:
+    """(start_tt, end_tt, activity) of every span where no downlink may be booked."""
+    out = []
+    for a in scenario.activities:
+        if a.kind in ("burn", "slew") or a.downlink_keepout_min > 0:
+            k0, k1 = a.keepout_span_tt
+            if k1 > k0:
+                out.append((k0, k1, a))
+    out.sort(key=lambda x: x[0])
+    return out
+
+
+@dataclass(eq=False)
+class RuleContext:
+    """Everything a rule reads. Build with :meth:`build`."""
+
+    scenario: object
+    passes: list = field(default_factory=list)  # [Pass]
+    profiles: dict = field(default_factory=dict)  # id(Pass) -> PassProfile
+    recorder: object | None = None  # RecorderResult
+    start_tt: float = 0.0
+    end_tt: float = 0.0
+    passes_by_station: dict = field(default_factory=dict)  # id -> [Pass] sorted by AOS
+    visibility: dict = field(default_factory=dict)  # id -> [(start, end)]
+    outages: dict = field(default_factory=dict)  # id -> [(start, end, Outage)]
+    stations: dict = field(default_factory=dict)  # id -> Station
+
+    @classmethod
+    def build(cls, scenario, passes, profiles=None, recorder=None) -> "RuleContext":
+        ctx = cls(scenario=scenario, passes=list(passes), profiles=dict(profiles or {}), recorder=recorder,
+                  start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt))
+        ctx.stations = {s.id: s for s in scenario.stations}
+        for sid, st in ctx.stations.items():
+            ctx.passes_by_station[sid] = []
+            ctx.outages[sid] = sorted(((o.start_tt, o.end_tt, o) for o in st.outages), key=lambda x: x[0])
+        for p in sorted(ctx.passes, key=lambda p: p.aos_tt):
+            ctx.passes_by_station.setdefault(p.station, []).append(p)
+        for sid, plist in ctx.passes_by_station.items():
+            spans = [[p.aos_tt, p.los_tt] for p in plist]
+            # a pass clipped by the window is open on that side
+            for s, p in zip(spans, plist):
+                if p.clipped_start:
+                    s[0] = -np.inf
+                if p.clipped_end:
+                    s[1] = np.inf
+            merged: list[list[float]] = []
+            outs = ctx.outages.get(sid, [])
+            for a, b in sorted(spans):
+                if merged:
+                    gap0, gap1 = merged[-1][1], a
+                    joined = gap1 <= gap0 or any(o0 <= gap0 + EDGE_TOLERANCE_S and o1 >= gap1 - EDGE_TOLERANCE_S
+                                                 for o0, o1, _ in outs)
+                    if joined:
+                        merged[-1][1] = max(merged[-1][1], b)
+                        continue
+                merged.append([a, b])
+            ctx.visibility[sid] = [(a, b) for a, b in merged]
+        return ctx
+
+    def station(self, sid):
+        return self.stations.get(sid)
+
+    def setup_s(self, booking) -> float:
+        st = self.stations.get(booking.station)
+        return 0.0 if st is None else st.setup_min * 60.0
+
+    def teardown_s(self, booking) -> float:
+        st = self.stations.get(booking.station)
+        return 0.0 if st is None else st.teardown_min * 60.0
+
+    def tracked(self, booking) -> list[tuple[float, float]]:
+        """Spans of a booking where its station can actually hear the spacecraft (see module doc)."""
+        a = booking.start_tt + self.setup_s(booking)
+        b = booking.end_tt - self.teardown_s(booking)
+        if b <= a:
+            return []
+        inside = intersect([(a, b)], [(p.aos_tt, p.los_tt) for p in self.passes_by_station.get(booking.station, [])])
+        return subtract(inside, [(o0, o1) for o0, o1, _ in self.outages.get(booking.station, [])])
+
+    def tracked_union(self, purposes=None) -> list[tuple[float, float]]:
+        spans = []
+        for b in self.scenario.bookings:
+            if purposes is None or any(p in b.purposes for p in purposes):
+                spans.extend(self.tracked(b))
+        return union(spans)
+
+    def pass_holding(self, booking):
+        """The pass of the booking's station that overlaps it most (None if none overlaps)."""
+        best, best_s = None, 0.0
+        for p in self.passes_by_station.get(booking.station, []):
+            ov = min(p.los_tt, booking.end_tt) - max(p.aos_tt, booking.start_tt)
+            if ov > best_s:
+                best, best_s = p, ov
+        return best
+
+
+def _finding(rule, severity, subjects, a, b, message) -> Finding:
+    return Finding(rule=rule, severity=severity, subjects=list(subjects), start_tt=float(a), end_tt=float(b),
+                   message=message)
+
+
+# ---------------------------------------------------------------- rules
+def rule_outside_pass(ctx: RuleContext) -> list[Finding]:
+    """``outside-pass`` (error): a booking, setup and teardown included, not inside one pass of its station."""
+    out = []
+    tol = EDGE_TOLERANCE_S
+    for b in ctx.scenario.bookings:
+        vis = ctx.visibility.get(b.station, [])
+        if any(v0 - tol <= b.start_tt and b.end_tt <= v1 + tol for v0, v1 in vis):
+            continue
+        plist = ctx.passes_by_station.get(b.station, [])
+        if not plist:
+            msg = (f"{b.id} books {b.station} but {b.station} has no pass in the window: "
+                   f"move it to another station or delete it")
+            out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg))
+            continue
+        p = ctx.pass_holding(b)
+        if p is not None:
+            lo, hi = max(b.start_tt, p.aos_tt), min(b.end_tt, p.los_tt)
+            msg = (f"{b.id} at {b.station} runs outside the pass {p.key} ({span_text(p.aos_tt, p.los_tt)}); "
+                   f"setup included it must lie inside the pass: change it to {span_text(lo, hi)}")
+        else:
+            mid = 0.5 * (b.start_tt + b.end_tt)
+            p = min(plist, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
+            msg = (f"{b.id} at {b.station} lies in no pass of {b.station}; the nearest pass is {p.key} "
+                   f"({span_text(p.aos_tt, p.los_tt)}): move the booking into it")
+        out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg))
+    return out
+
+
+def rule_station_outage(ctx: RuleContext) -> list[Finding]:
+    """``station-outage`` (error): a booking overlapping an outage of its station."""
+    out = []
+    for b in ctx.scenario.bookings:
+        for o0, o1, o in ctx.outages.get(b.station, []):
+            if o0 < b.end_tt and b.start_tt < o1:
+                why = f" ({o.reason})" if getattr(o, "reason", "") else ""
+                msg = (f"{b.id} overlaps the outage of {b.station} {span_text(o0, o1)}{why}: "
+                       f"end it by {t_text(o0)} or start it after {t_text(o1)}")
+                out.append(_finding("station-outage", ERROR, [b.id, b.station], max(o0, b.start_tt),
+                                    min(o1, b.end_tt), msg))
+    return out
+
+
+def rule_double_booking(ctx: RuleContext) -> list[Finding]:
+    """``double-booking`` (error): two bookings of the same station overlap."""
+    out = []
+    by_station: dict = {}
+    for b in ctx.scenario.bookings:
+        by_station.setdefault(b.station, []).append(b)
+    for sid, bl in by_station.items():
+        bl = sorted(bl, key=lambda b: (b.start_tt, b.id))
+        for i, b1 in enumerate(bl):
+            for b2 in bl[i + 1:]:
+                if b2.start_tt >= b1.end_tt:
+                    break
+                lo, hi = b2.start_tt, min(b1.end_tt, b2.end_tt)
+                msg = (f"{b1.id} and {b2.id} both book {sid} from {span_text(lo, hi)}: "
+                       f"end {b1.id} by {t_text(b2.start_tt)}, move {b2.id}, or merge them")
+                out.append(_finding("double-booking", ERROR, [b1.id, b2.id, sid], lo, hi, msg))
+    return out
+
+
+def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
+    """``downlink-in-keepout`` (error): a downlink booking overlapping a burn's or slew's keep-out."""
+    out = []
+    keepouts = downlink_keepouts(ctx.scenario)
+    for b in ctx.scenario.bookings:
+        if "downlink" not in b.purposes:
+            continue
+        for k0, k1, act in keepouts:
+            if not (k0 < b.end_tt and b.start_tt < k1):
+                continue
+            parts = []
+            need = ctx.setup_s(b) + ctx.teardown_s(b)
+            if k0 - b.start_tt > need:
+                parts.append(span_text(b.start_tt, k0))
+            if b.end_tt - k1 > need:
+                parts.append(span_text(k1, b.end_tt))
+            if len(parts) == 2:
+                fix = f"split it into {parts[0]} and {parts[1]}"
+            elif parts:
+                fix = f"cut it to {parts[0]}"
+            else:
+                fix = "move it"
+            others = [p for p in b.purposes if p != "downlink"]
+            alt = f", or keep it for {' and '.join(others)} only" if others else ""
+            msg = (f"downlink booking {b.id} ({b.station}) overlaps the keep-out of {act.kind} {act.id} "
+                   f"({span_text(k0, k1)}): {fix}{alt}")
+            out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, b.start_tt),
+                                min(k1, b.end_tt), msg))
+    return out
+
+
+def rule_burn_unmonitored(ctx: RuleContext) -> list[Finding]:
+    """``burn-unmonitored`` (error): a burn's monitor span not covered by tracked commanding/ranging time."""
+    out = []
+    burns = [a for a in ctx.scenario.activities if a.kind == "burn"]
+    if not burns:
+        return out
+    cover = ctx.tracked_union(("commanding", "ranging"))
+    for a in burns:
+        m0, m1 = a.monitor_span_tt
+        m0, m1 = max(m0, ctx.start_tt), min(m1, ctx.end_tt)
+        if m1 <= m0:
+            continue
+        gaps = subtract([(m0, m1)], cover)
+        gaps = [(g0, g1) for g0, g1 in gaps if g1 - g0 > EDGE_TOLERANCE_S]
+        if not gaps:
+            continue
+        lost = total_s(gaps)
+        where = "; ".join(span_text(g0, g1) for g0, g1 in gaps[:3]) + (" ..." if len(gaps) > 3 else "")
+        msg = (f"burn {a.id} is not monitored for {minutes(lost)} of its monitor span {span_text(m0, m1)} "
+               f"(uncovered: {where}): book commanding or ranging contact over these times "
+               f"(setup and teardown do not count)")
+        out.append(_finding("burn-unmonitored", ERROR, [a.id], gaps[0][0], gaps[-1][1], msg))
+    return out
+
+
+def rule_recorder_overflow(ctx: RuleContext) -> list[Finding]:
+    """``recorder-overflow`` (error): data lost because the recorder is full."""
+    rec = ctx.recorder
+    if rec is None:
+        return []
+    out = []
+    for span in rec.overflow_spans:
+        s0, s1, lost = float(span[0]), float(span[1]), float(span[2])
+        msg = (f"recorder full from {span_text(s0, s1)}: {lost:.2f} Gbit lost; "
+               f"book more downlink before {t_text(s0)}")
+        out.append(_finding("recorder-overflow", ERROR, ["recorder"], s0, s1, msg))
+    return out
+
+
+def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
+    """(first, last) index of each run of True."""
+    if mask.size == 0:
+        return []
+    d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
+    starts = np.flatnonzero(d == 1)
+    ends = np.flatnonzero(d == -1) - 1
+    return list(zip(starts.tolist(), ends.tolist()))
+
+
+def rule_recorder_high(ctx: RuleContext) -> list[Finding]:
+    """``recorder-high`` (warning): fill above 90 % of capacity (spans with an overflow are errors already)."""
+    rec = ctx.recorder
+    if rec is None or rec.capacity_gbit <= 0:
+        return []
+    t = np.asarray(rec.t_tt, dtype=float)
+    fill = np.asarray(rec.fill_gbit, dtype=float)
+    limit = RECORDER_HIGH_FRACTION * rec.capacity_gbit
+    out = []
+    for i, j in _runs(fill > limit):
+        s0, s1 = t[i], t[min(j + 1, len(t) - 1)]
+        if any(o0 < s1 + EDGE_TOLERANCE_S and s0 - EDGE_TOLERANCE_S < o1 for o0, o1, _ in rec.overflow_spans):
+            continue
+        peak = float(fill[i:j + 1].max())
+        msg = (f"recorder above {RECORDER_HIGH_FRACTION:.0%} from {span_text(s0, s1)} "
+               f"(peak {peak:.1f} of {rec.capacity_gbit:.1f} Gbit, {peak / rec.capacity_gbit:.0%}): "
+               f"book downlink earlier to keep a margin")
+        out.append(_finding("recorder-high", WARNING, ["recorder"], s0, s1, msg))
+    return out
+
+
+def rule_recorder_end(ctx: RuleContext) -> list[Finding]:
+    """``recorder-end`` (warning): more left on board at the window end than ``recorder_end_max_gbit``."""
+    limit = ctx.scenario.requirements.recorder_end_max_gbit
+    rec = ctx.recorder
+    if limit is None or rec is None or rec.end_gbit <= limit + 1e-9:
+        return []
+    msg = (f"{rec.end_gbit:.1f} Gbit left on board at the end of the window, more than the {limit:g} Gbit "
+           f"allowed: book {rec.end_gbit - limit:.1f} Gbit more downlink")
+    return [_finding("recorder-end", WARNING, ["recorder"], ctx.end_tt, ctx.end_tt, msg)]
+
+
+def rule_short_booking(ctx: RuleContext) -> list[Finding]:
+    """``short-booking`` (warning): no data time left after setup and teardown."""
+    out = []
+    for b in ctx.scenario.bookings:
+        need = ctx.setup_s(b) + ctx.teardown_s(b)
+        if b.duration_s <= need:
+            msg = (f"{b.id} at {b.station} lasts {minutes(b.duration_s)}, no more than setup and teardown "
+                   f"({minutes(need)}): lengthen it past {minutes(need)} or delete it")
+            out.append(_finding("short-booking", WARNING, [b.id], b.start_tt, b.end_tt, msg))
+    return out
+
+
+def rule_outside_window(ctx: RuleContext) -> list[Finding]:
+    """``outside-window`` (warning): a booking that reaches outside the planning window."""
+    out = []
+    for b in ctx.scenario.bookings:
+        if b.start_tt < ctx.start_tt or b.end_tt > ctx.end_tt:
+            msg = (f"{b.id} ({span_text(b.start_tt, b.end_tt)}) reaches outside the planning window "
+                   f"{span_text(ctx.start_tt, ctx.end_tt)}: the part outside is not checked; "
+                   f"trim it or widen the window")
+            out.append(_finding("outside-window", WARNING, [b.id], b.start_tt, b.end_tt, msg))
+    return out
+
+
+def _whole_days(ctx: RuleContext):
+    """UTC days lying wholly inside the window, as (start_tt, end_tt)."""
+    days = list(utc_days(ctx.start_tt, ctx.end_tt))
+    out = []
+    for i, d0 in enumerate(days):
+        d1 = days[i + 1] if i + 1 < len(days) else float(utc_day_start(d0 + 90000.0))
+        if d0 >= ctx.start_tt - 1e-6 and d1 <= ctx.end_tt + 1e-6:
+            out.append((float(d0), float(d1)))
+    return out
+
+
+def rule_no_ranging(ctx: RuleContext) -> list[Finding]:
+    """``no-ranging`` (warning): a whole UTC day with fewer ranging bookings than ``ranging_per_day_min``.
+
+    A ranging booking counts for a day when its tracked time overlaps that day.
+    """
+    need = ctx.scenario.requirements.ranging_per_day_min
+    if not need:
+        return []
+    tracked = [(b, ctx.tracked(b)) for b in ctx.scenario.bookings if "ranging" in b.purposes]
+    out = []
+    for d0, d1 in _whole_days(ctx):
+        n = sum(1 for _, spans in tracked if intersect(spans, [(d0, d1)]))
+        if n < need:
+            day = format_utc(d0, 0)[:10]
+            msg = (f"{day} has {n} ranging booking{'s' if n != 1 else ''}, {need} required: "
+                   f"add ranging to {'a booking' if need - n == 1 else f'{need - n} bookings'} that day")
+            out.append(_finding("no-ranging", WARNING, [day], d0, d1, msg))
+    return out
+
+
+def rule_contact_per_day(ctx: RuleContext) -> list[Finding]:
+    """``contact-per-day`` (warning): a whole UTC day with less tracked time than ``contact_per_day_min_h``."""
+    need_h = ctx.scenario.requirements.contact_per_day_min_h
+    if not need_h:
+        return []
+    cover = ctx.tracked_union()
+    out = []
+    for d0, d1 in _whole_days(ctx):
+        have_h = total_s(intersect(cover, [(d0, d1)])) / 3600.0
+        if have_h + 1e-9 < need_h:
+            day = format_utc(d0, 0)[:10]
+            msg = (f"{day} has {have_h:.2f} h of contact (tracked, all stations together), {need_h:g} h required: "
+                   f"book {need_h - have_h:.2f} h more that day")
+            out.append(_finding("contact-per-day", WARNING, [day], d0, d1, msg))
+    return out
+
+
+def rule_booking_length(ctx: RuleContext) -> list[Finding]:
+    """``booking-too-short`` / ``booking-too-long`` (warning) against ``booking_min_h`` / ``booking_max_h``."""
+    rq = ctx.scenario.requirements
+    out = []
+    for b in ctx.scenario.bookings:
+        h = b.duration_s / 3600.0
+        if rq.booking_min_h is not None and h + 1e-9 < rq.booking_min_h:
+            out.append(_finding("booking-too-short", WARNING, [b.id], b.start_tt, b.end_tt,
+                                f"{b.id} lasts {h:.2f} h, less than the {rq.booking_min_h:g} h minimum: "
+                                f"lengthen it or merge it with a neighbour"))
+        if rq.booking_max_h is not None and h > rq.booking_max_h + 1e-9:
+            cut = b.start_tt + rq.booking_max_h * 3600.0
+            out.append(_finding("booking-too-long", WARNING, [b.id], b.start_tt, b.end_tt,
+                                f"{b.id} lasts {h:.2f} h, more than the {rq.booking_max_h:g} h maximum: "
+                                f"end it by {t_text(cut)} or split it"))
+    return out
+
+
+def rule_station_hours(ctx: RuleContext) -> list[Finding]:
+    """``station-hours`` (warning): a station booked longer than its ``max_hours_per_week`` in a 7-day block."""
+    out = []
+    week = 7 * 86400.0
+    for sid, st in ctx.stations.items():
+        if st.max_hours_per_week is None:
+            continue
+        spans = union((b.start_tt, b.end_tt) for b in ctx.scenario.bookings if b.station == sid)
+        w0 = ctx.start_tt
+        while w0 < ctx.end_tt:
+            w1 = min(w0 + week, ctx.end_tt)
+            h = total_s(intersect(spans, [(w0, w1)])) / 3600.0
+            if h > st.max_hours_per_week + 1e-9:
+                out.append(_finding("station-hours", WARNING, [sid], w0, w1,
+                                    f"{sid} is booked {h:.1f} h from {span_text(w0, w1)}, more than its "
+                                    f"{st.max_hours_per_week:g} h a week: move {h - st.max_hours_per_week:.1f} h "
+                                    f"to other stations"))
+            w0 += week
+    return out
+
+
+def rule_no_downlink_station(ctx: RuleContext) -> list[Finding]:
+    """``no-downlink-station`` (warning): downlink booked at a station that takes no downlink (no G/T)."""
+    out = []
+    for b in ctx.scenario.bookings:
+        st = ctx.stations.get(b.station)
+        if st is not None and "downlink" in b.purposes and not st.takes_downlink:
+            out.append(_finding("no-downlink-station", WARNING, [b.id, b.station], b.start_tt, b.end_tt,
+                                f"{b.id} asks for downlink at {b.station}, which takes no downlink "
+                                f"(no g_over_t_dbk): book a downlink station or drop downlink from its purposes"))
+    return out
+
+
+def rule_body_in_beam(ctx: RuleContext) -> list[Finding]:
+    """``moon-in-beam`` / ``sun-in-beam`` (warning): a downlink booking on a pass where the Moon or Sun
+    comes closer to the line of sight than the scenario's ``[geometry]`` limits."""
+    geo = ctx.scenario.geometry
+    out = []
+    for b in ctx.scenario.bookings:
+        if "downlink" not in b.purposes:
+            continue
+        for p in ctx.passes_by_station.get(b.station, []):
+            if not (p.aos_tt < b.end_tt and b.start_tt < p.los_tt):
+                continue
+            lo, hi = max(p.aos_tt, b.start_tt), min(p.los_tt, b.end_tt)
+            if p.moon_flag or p.moon_separation_min_deg < geo.moon_separation_min_deg:
+                out.append(_finding("moon-in-beam", WARNING, [b.id, b.station], lo, hi,
+                                    f"the Moon comes within {p.moon_separation_min_deg:.1f} deg of the line of "
+                                    f"sight during pass {p.key} used by {b.id}: expect a noisier downlink, "
+                                    f"or book another pass"))
+            if p.sun_separation_min_deg < geo.sun_separation_min_deg:
+                out.append(_finding("sun-in-beam", WARNING, [b.id, b.station], lo, hi,
+                                    f"the Sun comes within {p.sun_separation_min_deg:.1f} deg of the line of "
+                                    f"sight during pass {p.key} used by {b.id}: the downlink may fail, "
+                                    f"book another pass"))
+    return out
+
+
+#: every rule, in the order they run; a new rule is one function added here
+RULES = [
+    rule_outside_pass,
+    rule_station_outage,
+    rule_double_booking,
+    rule_downlink_in_keepout,
+    rule_burn_unmonitored,
+    rule_recorder_overflow,
+    rule_recorder_high,
+    rule_recorder_end,
+    rule_short_booking,
+    rule_outside_window,
+    rule_no_ranging,
+    rule_contact_per_day,
+    rule_booking_length,
+    rule_station_hours,
+    rule_no_downlink_station,
+    rule_body_in_beam,
+]
+
+
+def sort_key(f: Finding):
+    return (f.start_tt, _SEVERITY_ORDER.get(f.severity, 9), f.rule, list(map(str, f.subjects)))
+
+
+def clip(findings, start_tt: float, end_tt: float) -> list[Finding]:
+    """Clip every finding span into [start_tt, end_tt] (a span wholly outside shrinks to the nearer edge)."""
+    for f in findings:
+        a = min(max(f.start_tt, start_tt), end_tt)
+        b = min(max(f.end_tt, start_tt), end_tt)
+        f.start_tt, f.end_tt = a, max(a, b)
+    return findings
+
+
+def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
+    """Run ``rules`` (default :data:`RULES`), clip spans to the window, sort by start then severity."""
+    found: list[Finding] = []
+    for rule in RULES if rules is None else rules:
+        found.extend(rule(ctx))
+    clip(found, ctx.start_tt, ctx.end_tt)
+    found.sort(key=sort_key)
+    return found
+
+
+def check_plan(scenario, passes, profiles=None, recorder=None) -> list[Finding]:
+    """Findings for a scenario's bookings given computed passes, profiles and recorder result."""
+    return run_rules(RuleContext.build(scenario, passes, profiles, recorder))
