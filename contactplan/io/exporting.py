@@ -1,0 +1,255 @@
+"""One door for every export: what + file extension -> writer -> one line saying what was written.
+
+``export(...)`` is what the CLI (``contactplan export``) and the app call. It
+picks the format from the extension where that is unambiguous (``.xlsx`` and
+``.json``/``.csv`` default to the pass table, ``.ics`` is the booking calendar,
+``.oem`` the ephemeris, ``.pdf`` the weekly report) and returns a line such as
+``wrote 38 passes to passes.xlsx``. Every file is written atomically.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+from contactplan.errors import InputError
+
+WHATS = ("passes", "bookings", "ephemeris", "report")
+
+#: (what, format) pairs that exist
+SUPPORTED = {
+    ("passes", "csv"), ("passes", "json"), ("passes", "xlsx"),
+    ("bookings", "csv"), ("bookings", "json"), ("bookings", "xlsx"), ("bookings", "ics"),
+    ("ephemeris", "oem"),
+    ("report", "pdf"),
+}
+
+_EXT = {".csv": "csv", ".json": "json", ".xlsx": "xlsx", ".ics": "ics", ".ical": "ics",
+        ".oem": "oem", ".txt": "oem", ".kvn": "oem", ".pdf": "pdf"}
+_IMPLIED = {"ics": "bookings", "oem": "ephemeris", "pdf": "report"}
+
+#: first columns of the pass table (passes issue contract); used only until
+#: contactplan.io.passtable provides PASS_COLUMNS / pass_rows
+FALLBACK_PASS_COLUMNS = (
+    "station", "aos_utc", "los_utc", "duration_s", "max_elevation_deg", "max_elevation_utc",
+    "aos_azimuth_deg", "los_azimuth_deg", "min_range_km", "max_range_km",
+    "clipped_start", "clipped_end", "light_time_s", "sun_separation_min_deg",
+    "moon_separation_min_deg", "sun_earth_probe_deg", "max_rate_kbps", "volume_gbit",
+)
+
+
+def resolve(out, what: str | None = None) -> tuple[str, str]:
+    """(what, format) for an output path and an optional ``what``; InputError when it makes no sense."""
+    ext = Path(str(out)).suffix.lower()
+    fmt = _EXT.get(ext)
+    if fmt is None:
+        known = ", ".join(sorted({".csv", ".json", ".xlsx", ".ics", ".oem", ".pdf"}))
+        raise InputError(f"cannot tell the format from the extension {ext or '(none)'!r}: use one of {known}", out)
+    if what is not None and what not in WHATS:
+        raise InputError(f"unknown export {what!r}: choose {', '.join(WHATS)}", out)
+    if what is None:
+        what = _IMPLIED.get(fmt, "passes")
+    if what == "ephemeris" and fmt != "oem":
+        fmt = "oem" if ext in (".txt", ".kvn") else fmt
+    if (what, fmt) not in SUPPORTED:
+        fits = sorted(f".{f}" for w, f in SUPPORTED if w == what)
+        raise InputError(f"{what} cannot be written as {ext}: use {' or '.join(fits)}", out)
+    return what, fmt
+
+
+# ------------------------------------------------------------ pass table
+def _fallback_rows(passes) -> list[list]:
+    from contactplan.timescale import format_utc
+
+    rows = []
+    for p in passes:
+        rows.append([
+            p.station, format_utc(p.aos_tt), format_utc(p.los_tt), round(p.duration_s, 3),
+            round(p.max_elevation_deg, 4), format_utc(p.max_elevation_tt),
+            round(p.aos_azimuth_deg, 4), round(p.los_azimuth_deg, 4),
+            round(p.min_range_km, 3), round(p.max_range_km, 3),
+            bool(p.clipped_start), bool(p.clipped_end), round(p.light_time_s, 6),
+            round(p.sun_separation_min_deg, 3), round(p.moon_separation_min_deg, 3),
+            round(p.sun_earth_probe_deg, 3),
+            None if p.max_rate_kbps is None else float(p.max_rate_kbps),
+            None if p.volume_gbit is None else round(float(p.volume_gbit), 6),
+        ])
+    return rows
+
+
+def typed(value):
+    """A table cell as a Python value: numbers from numeric text, booleans from true/false, '' -> None."""
+    if value is None or isinstance(value, (bool, int, float)):
+        if isinstance(value, float) and not math.isfinite(value):
+            return None
+        return value
+    if hasattr(value, "item"):  # numpy scalar
+        return typed(value.item())
+    s = str(value).strip()
+    if s == "":
+        return None
+    low = s.lower()
+    if low in ("true", "false"):
+        return low == "true"
+    try:
+        return int(s) if s.lstrip("+-").isdigit() else float(s) if _numeric(s) else s
+    except ValueError:
+        return s
+
+
+def _numeric(s: str) -> bool:
+    try:
+        v = float(s)
+    except ValueError:
+        return False
+    return math.isfinite(v)
+
+
+def pass_table(passes) -> tuple[list[str], list[list]]:
+    """Columns and typed rows of the pass table, sorted by AOS.
+
+    Uses ``contactplan.io.passtable`` (PASS_COLUMNS, pass_rows) so every export
+    shows exactly the columns of ``contactplan passes``.
+    """
+    passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
+    try:
+        from contactplan.io.passtable import PASS_COLUMNS, pass_rows
+    except ImportError:
+        return list(FALLBACK_PASS_COLUMNS), [[typed(v) for v in r] for r in _fallback_rows(passes)]
+    columns = list(PASS_COLUMNS)
+    rows = []
+    for r in pass_rows(passes):
+        if isinstance(r, dict):
+            r = [r.get(c) for c in columns]
+        rows.append([typed(v) for v in r])
+    return columns, rows
+
+
+def passes_csv(passes) -> str:
+    from contactplan.io.bookings import table_csv
+
+    columns, rows = pass_table(passes)
+    return table_csv(columns, rows)
+
+
+def passes_json(scenario, passes, now_tt: float | None = None) -> str:
+    from contactplan.io.bookings import header
+
+    columns, rows = pass_table(passes)
+    doc = header(scenario, now_tt)
+    doc["columns"] = columns
+    doc["passes"] = [dict(zip(columns, r)) for r in rows]
+    return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+
+
+# ------------------------------------------------------------ dispatcher
+def _plural(n: int, word: str, plural: str | None = None) -> str:
+    return f"{n} {word}" if n == 1 else f"{n} {plural or word + 's'}"
+
+
+def _plan_for(scenario, plan, progress=None, cancel=None):
+    if plan is not None:
+        return plan
+    from contactplan.plan.pipeline import compute_plan
+
+    return compute_plan(scenario, progress=progress, cancel=cancel)
+
+
+def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
+           end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
+           now_tt: float | None = None, progress=None, cancel=None) -> str:
+    """Write one export and return the line that says what was written.
+
+    ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
+    (computed here when needed and not given). ``start_tt``/``end_tt`` bound the
+    ephemeris span (default: the scenario window) and ``step_s`` its spacing.
+    ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
+    """
+    what, fmt = resolve(out, what)
+    out = Path(out)
+    if what == "passes":
+        plan = _plan_for(scenario, plan, progress, cancel)
+        passes = plan.passes
+        if fmt == "csv":
+            from contactplan.fileio import atomic_write
+
+            atomic_write(out, passes_csv(passes))
+        elif fmt == "json":
+            from contactplan.fileio import atomic_write
+
+            atomic_write(out, passes_json(scenario, passes, now_tt))
+        else:
+            from contactplan.io.xlsx import write_passes_xlsx
+
+            write_passes_xlsx(scenario, passes, out, now_tt=now_tt)
+        return f"wrote {_plural(len(passes), 'pass', 'passes')} to {out}"
+    if what == "bookings":
+        if fmt == "ics":
+            from contactplan.io.ical import write_ical
+
+            n = write_ical(scenario, out, plan=plan, now_tt=now_tt)
+        elif fmt == "xlsx":
+            from contactplan.io.xlsx import write_bookings_xlsx
+
+            n = write_bookings_xlsx(scenario, out, plan=plan, now_tt=now_tt)
+        else:
+            from contactplan.io.bookings import write_bookings
+
+            n = write_bookings(scenario, out, fmt, plan=plan, now_tt=now_tt)
+        return f"wrote {_plural(n, 'booking')} to {out}"
+    if what == "ephemeris":
+        n, t0, t1 = write_ephemeris(scenario, out, start_tt, end_tt, step_s, ephemeris=getattr(plan, "ephemeris", None))
+        from contactplan.timescale import format_utc
+
+        return f"wrote {_plural(n, 'ephemeris point')} ({format_utc(t0, 0)} to {format_utc(t1, 0)}, every {step_s:g} s) to {out}"
+    # report
+    plan = _plan_for(scenario, plan, progress, cancel)
+    from contactplan.io.report import write_report
+
+    pages = write_report(plan, out, paper=paper, now_tt=now_tt)
+    return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
+
+
+def paper_name(paper: str) -> str:
+    return {"a4": "A4", "letter": "Letter"}.get(str(paper).lower(), str(paper))
+
+
+def ephemeris_epochs(start_tt: float, end_tt: float, step_s: float):
+    """Epochs from start to end every ``step_s`` seconds, the end always included."""
+    import numpy as np
+
+    if not (step_s > 0 and math.isfinite(step_s)):
+        raise InputError(f"step must be a positive number of seconds, got {step_s:g}")
+    if not end_tt > start_tt:
+        raise InputError("the ephemeris span ends before it starts")
+    n = int(math.floor((end_tt - start_tt) / step_s + 1e-9))
+    if n > 5_000_000:
+        raise InputError(f"{n + 1} ephemeris points asked for: use a larger step")
+    t = start_tt + step_s * np.arange(n + 1, dtype=float)
+    if end_tt - t[-1] > 1e-6:
+        t = np.append(t, end_tt)
+    return t
+
+
+def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 600.0, ephemeris=None):
+    """Sample the scenario's ephemeris and write CCSDS OEM KVN; returns (points, first_tt, last_tt)."""
+    from contactplan.ephemeris import ephemeris_for
+
+    start = scenario.start_tt if start_tt is None else float(start_tt)
+    end = scenario.end_tt if end_tt is None else float(end_tt)
+    t = ephemeris_epochs(start, end, float(step_s))
+    eph = ephemeris
+    if eph is None or not bool(eph.covers(t).all()):
+        eph = ephemeris_for(scenario, start, end)
+    pos, vel = eph.state(t)  # raises OutOfSpanError naming the covered span
+    from contactplan.io.oem import write_oem
+
+    write_oem_samples(write_oem, out, scenario, t, pos, vel)
+    return len(t), float(t[0]), float(t[-1])
+
+
+def write_oem_samples(write_oem, out, scenario, t, pos, vel) -> None:
+    """Hand the samples to the OEM writer (kept apart so the writer's signature lives in one place)."""
+    write_oem(out, t, pos, vel, object_name=scenario.spacecraft.name,
+              comments=[f"Sampled by contactplan from scenario {scenario.name!r}, revision {scenario.revision}"])

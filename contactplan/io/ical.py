@@ -1,0 +1,94 @@
+"""The booking list as an iCalendar file (RFC 5545) through the ``icalendar`` package.
+
+One VEVENT per booking, times in UTC. The UID is derived from the scenario name
+and the booking id only, so re-exporting an edited plan updates the events
+already in a calendar instead of duplicating them; SEQUENCE is the plan
+revision, so a later revision wins. SUMMARY carries booking, station and
+purposes; DESCRIPTION the setup, data and teardown times and the caution.
+"""
+
+from __future__ import annotations
+
+import uuid
+
+from contactplan import CAUTION, __version__
+
+PRODID = f"-//contactplan//contactplan {__version__}//EN"
+#: fixed namespace for booking UIDs (any fixed UUID works; this one is ours)
+UID_NAMESPACE = uuid.UUID("6f3c2a1e-7d4b-5c8e-9a10-2b4d6e8f0a1c")
+UID_DOMAIN = "contactplan.invalid"  # RFC 2606 reserved name: never a real host
+
+
+def booking_uid(scenario_name: str, booking_id: str) -> str:
+    """Stable UID for a booking: the same scenario name and booking id always give the same UID."""
+    key = f"{' '.join(str(scenario_name).split()).casefold()}\n{booking_id}"
+    return f"{uuid.uuid5(UID_NAMESPACE, key)}@{UID_DOMAIN}"
+
+
+def _describe(rec: dict, station) -> str:
+    lines = [
+        f"Booking {rec['id']} on {rec['station']}" + (f" ({rec['station_name']})" if rec["station_name"] else ""),
+        f"Purposes: {', '.join(rec['purposes']) or 'none'}",
+        f"Booked: {rec['start_utc']} to {rec['end_utc']} ({rec['start_doy']} to {rec['end_doy']})",
+        f"Setup: {rec['setup_min']:g} min, {rec['start_utc']} to {rec['data_start_utc']}",
+        f"Data: {rec['data_start_utc']} to {rec['data_end_utc']}",
+        f"Teardown: {rec['teardown_min']:g} min, {rec['data_end_utc']} to {rec['end_utc']}",
+    ]
+    if rec["downlinked_gbit"] is not None:
+        lines.append(f"Planned downlink: {rec['downlinked_gbit']:.3f} Gbit")
+    if rec["findings"]:
+        lines.append(f"Open findings: {', '.join(rec['findings'])}")
+    if rec["locked"]:
+        lines.append("Locked: the drafter keeps this booking as it is.")
+    lines.append("")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def calendar(scenario, plan=None, now_tt: float | None = None):
+    """An ``icalendar.Calendar`` with one event per booking."""
+    from icalendar import Calendar, Event
+
+    from contactplan.io.bookings import booking_records
+    from contactplan.timescale import now_tt as _now, to_datetime
+
+    stamp = to_datetime(_now() if now_tt is None else now_tt).replace(microsecond=0)
+    cal = Calendar()
+    cal.add("prodid", PRODID)
+    cal.add("version", "2.0")
+    cal.add("calscale", "GREGORIAN")
+    cal.add("method", "PUBLISH")
+    cal.add("x-wr-calname", f"{scenario.name}: {scenario.spacecraft.name} contacts")
+    cal.add("x-wr-timezone", "UTC")
+    by_id = {b.id: b for b in scenario.bookings}
+    for rec in booking_records(scenario, plan):
+        b = by_id[rec["id"]]
+        try:
+            st = scenario.station(b.station)
+        except KeyError:
+            st = None
+        ev = Event()
+        ev.add("uid", booking_uid(scenario.name, b.id))
+        ev.add("dtstamp", stamp)
+        ev.add("sequence", int(scenario.revision))
+        ev.add("dtstart", to_datetime(b.start_tt))
+        ev.add("dtend", to_datetime(b.end_tt))
+        ev.add("summary", f"{b.id} {b.station}: {', '.join(b.purposes) or 'contact'}")
+        ev.add("description", _describe(rec, st))
+        if st is not None:
+            ev.add("location", f"{st.name} ({st.id})")
+            ev.add("geo", (float(st.latitude_deg), float(st.longitude_deg)))
+        if b.purposes:
+            ev.add("categories", list(b.purposes))
+        ev.add("status", "CONFIRMED" if b.locked else "TENTATIVE")
+        ev.add("transp", "OPAQUE")
+        cal.add_component(ev)
+    return cal
+
+
+def write_ical(scenario, path, plan=None, now_tt: float | None = None) -> int:
+    """Write the booking calendar atomically; returns the number of events."""
+    from contactplan.fileio import atomic_write
+
+    atomic_write(path, calendar(scenario, plan, now_tt).to_ical())
+    return len(scenario.bookings)

@@ -1,0 +1,441 @@
+"""The weekly report: one PDF for the planning meeting (A4 or Letter), rendered headless.
+
+Pages: a cover (mission, window in UTC and day of year, plan revision,
+generation time, a summary and the caution); the week as a timeline (one lane
+per station with passes, outages and bookings, a spacecraft lane with burns,
+slews and their monitor spans and keep-outs); the booking table; the findings;
+the recorder fill against capacity; achievable rate and volume per pass.
+
+Text uses the PDF base-14 Helvetica family (present in every PDF reader, nothing
+embedded); figures are drawn by matplotlib's Agg canvas (no display, no pyplot
+state) and placed as PNG. matplotlib and reportlab are imported only inside
+:func:`write_report` so the CLI start path stays light.
+
+Palette: our own assignment of the Okabe-Ito colour-blind-safe colours, each
+kind of block also told apart by hatching or outline so the picture survives a
+grey-scale printer.
+"""
+
+from __future__ import annotations
+
+import io
+from xml.sax.saxutils import escape
+
+from contactplan import CAUTION, __version__
+
+# Okabe-Ito colours (Okabe & Ito 2008, "Color Universal Design"); the roles are ours.
+COLOURS = {
+    "pass": "#56B4E9",  # sky blue, light fill
+    "booking": "#0072B2",  # blue
+    "setup": "#9CC3E0",  # lighter blue: setup and teardown inside a booking
+    "burn": "#D55E00",  # vermillion
+    "slew": "#E69F00",  # orange
+    "other": "#CC79A7",  # reddish purple
+    "monitor": "#009E73",  # bluish green
+    "keepout": "#7F7F7F",  # grey
+    "outage": "#000000",
+    "shadow": "#444444",
+    "error": "#D55E00",
+    "warning": "#E69F00",
+    "capacity": "#000000",
+}
+STATION_CYCLE = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F0E442", "#000000")
+STATION_HATCH = ("", "////", "....", "xxxx", "\\\\\\\\", "++", "oo", "--")
+DPI = 200
+
+
+# ------------------------------------------------------------ time axis helpers
+def _days(t_tt, t0_tt):
+    import numpy as np
+
+    return (np.asarray(t_tt, dtype=float) - t0_tt) / 86400.0
+
+
+def _day_axis(ax, start_tt: float, end_tt: float) -> None:
+    """x in days since the window start; ticks at UTC midnights labelled date and day of year."""
+    from contactplan.timescale import format_utc, utc_days, day_of_year
+
+    mids = [float(m) for m in utc_days(start_tt, end_tt) if m >= start_tt - 1e-6]
+    span_days = (end_tt - start_tt) / 86400.0
+    every = max(1, int(round(span_days / 10.0)))
+    ticks = mids[::every]
+    ax.set_xticks([(m - start_tt) / 86400.0 for m in ticks])
+    ax.set_xticklabels([f"{format_utc(m, 0)[5:10]}\nDOY {day_of_year(m):03d}" for m in ticks], fontsize=6.5)
+    for m in mids:
+        ax.axvline((m - start_tt) / 86400.0, color="#BBBBBB", lw=0.5, zorder=0)
+    ax.set_xlim(0.0, span_days)
+
+
+def _png(fig) -> io.BytesIO:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    FigureCanvasAgg(fig)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=DPI)
+    buf.seek(0)
+    return buf
+
+
+# ------------------------------------------------------------ figures
+def timeline_figure(plan, width_in: float):
+    """Stations as lanes (passes, outages, bookings), a spacecraft lane (burns, slews, monitor spans, shadows),
+    keep-outs shaded across every lane."""
+    from matplotlib.figure import Figure
+    from matplotlib.patches import Patch
+
+    sc = plan.scenario
+    t0, t1 = sc.start_tt, sc.end_tt
+    stations = [s.id for s in sc.stations]
+    lanes = ["Spacecraft"] + stations
+    n = len(lanes)
+    fig = Figure(figsize=(width_in, 1.5 + 0.42 * n), layout="constrained")
+    ax = fig.add_subplot()
+    y = {name: n - 1 - i for i, name in enumerate(lanes)}
+    ax.set_ylim(-0.6, n - 0.4)
+    ax.set_yticks([y[name] for name in lanes])
+    ax.set_yticklabels(lanes, fontsize=7)
+
+    def seg(a, b):
+        a, b = max(a, t0), min(b, t1)
+        return ((a - t0) / 86400.0, (b - a) / 86400.0) if b > a else None
+
+    def bars(lane, spans, h, **kw):
+        segs = [s for s in (seg(a, b) for a, b in spans) if s]
+        if segs:
+            ax.broken_barh(segs, (y[lane] - h / 2, h), **kw)
+
+    # keep-outs: faint across every lane
+    for act in sc.activities:
+        if act.downlink_keepout_min > 0 or act.kind in ("burn", "slew"):
+            s = seg(*act.keepout_span_tt)
+            if s:
+                ax.axvspan(s[0], s[0] + s[1], color=COLOURS["keepout"], alpha=0.13, lw=0, zorder=0.5)
+    for sid in stations:
+        bars(sid, [(p.aos_tt, p.los_tt) for p in plan.passes if p.station == sid], 0.8,
+             facecolors=COLOURS["pass"], alpha=0.45, edgecolors="none", zorder=1)
+        try:
+            st = sc.station(sid)
+            outs = [(o.start_tt, o.end_tt) for o in st.outages]
+            setup_s, tear_s = st.setup_min * 60.0, st.teardown_min * 60.0
+        except KeyError:
+            outs, setup_s, tear_s = [], 0.0, 0.0
+        bars(sid, outs, 0.8, facecolors="none", edgecolors=COLOURS["outage"], hatch="xxx", lw=0.5, zorder=2)
+        mine = [b for b in sc.bookings if b.station == sid]
+        bars(sid, [(b.start_tt, b.end_tt) for b in mine], 0.46, facecolors=COLOURS["setup"],
+             edgecolors=COLOURS["booking"], lw=0.6, zorder=3)
+        bars(sid, [(min(b.start_tt + setup_s, b.end_tt), max(b.end_tt - tear_s, b.start_tt)) for b in mine], 0.46,
+             facecolors=COLOURS["booking"], edgecolors="none", zorder=3.1)
+        flagged = {s for f in plan.findings if f.severity == "error" for s in f.subjects}
+        bars(sid, [(b.start_tt, b.end_tt) for b in mine if b.id in flagged], 0.62, facecolors="none",
+             edgecolors=COLOURS["error"], lw=1.4, zorder=3.5)
+        for b in mine:
+            s = seg(b.start_tt, b.end_tt)
+            if s and s[1] > 0.12:
+                ax.text(s[0] + s[1] / 2, y[sid], b.id, ha="center", va="center", fontsize=5, color="white",
+                        zorder=4, clip_on=True)
+    kinds = {"burn": ("////", COLOURS["burn"]), "slew": ("\\\\\\\\", COLOURS["slew"]), "other": ("..", COLOURS["other"])}
+    for act in sc.activities:
+        hatch, colour = kinds.get(act.kind, kinds["other"])
+        if act.kind == "burn" and (act.monitor_before_min or act.monitor_after_min):
+            bars("Spacecraft", [act.monitor_span_tt], 0.75, facecolors="none", edgecolors=COLOURS["monitor"],
+                 lw=1.0, zorder=2)
+        # draw at least ~20 minutes wide so a short slew stays visible at week scale
+        mid = 0.5 * (act.start_tt + act.end_tt)
+        half = max(act.end_tt - act.start_tt, 1200.0) / 2
+        bars("Spacecraft", [(mid - half, mid + half)], 0.5, facecolors=colour, edgecolors="black", hatch=hatch,
+             lw=0.4, zorder=3)
+    shadows = [(a, b) for a, b, *_ in (plan.shadows or [])]
+    bars("Spacecraft", shadows, 0.25, facecolors=COLOURS["shadow"], edgecolors="none", zorder=2.5)
+    _day_axis(ax, t0, t1)
+    ax.set_xlabel("UTC day (tick at 00:00 UTC)", fontsize=7)
+    ax.tick_params(axis="y", length=0)
+    legend = [
+        Patch(facecolor=COLOURS["pass"], alpha=0.45, label="pass"),
+        Patch(facecolor=COLOURS["booking"], edgecolor=COLOURS["booking"], label="booking (data)"),
+        Patch(facecolor=COLOURS["setup"], edgecolor=COLOURS["booking"], label="setup / teardown"),
+        Patch(facecolor="none", edgecolor=COLOURS["error"], lw=1.4, label="booking with an error"),
+        Patch(facecolor="none", edgecolor=COLOURS["outage"], hatch="xxx", label="station outage"),
+        Patch(facecolor=COLOURS["burn"], edgecolor="black", hatch="////", label="burn"),
+        Patch(facecolor="none", edgecolor=COLOURS["monitor"], label="burn monitor span"),
+        Patch(facecolor=COLOURS["slew"], edgecolor="black", hatch="\\\\\\\\", label="slew"),
+        Patch(facecolor=COLOURS["keepout"], alpha=0.25, label="downlink keep-out"),
+    ]
+    if shadows:
+        legend.append(Patch(facecolor=COLOURS["shadow"], label="shadow"))
+    fig.legend(handles=legend, loc="outside lower center", ncol=5, fontsize=6, frameon=False)
+    return fig
+
+
+def recorder_figure(plan, width_in: float):
+    """Recorder fill (Gbit) over the window against capacity and the 90 % line; overflow spans shaded."""
+    from matplotlib.figure import Figure
+
+    sc, rec = plan.scenario, plan.recorder
+    fig = Figure(figsize=(width_in, 2.6), layout="constrained")
+    ax = fig.add_subplot()
+    t0, t1 = sc.start_tt, sc.end_tt
+    x = _days(rec.t_tt, t0)
+    ax.plot(x, rec.fill_gbit, color=COLOURS["booking"], lw=1.2, label="on board")
+    ax.axhline(rec.capacity_gbit, color=COLOURS["capacity"], ls="--", lw=1.0, label="capacity")
+    ax.axhline(0.9 * rec.capacity_gbit, color=COLOURS["warning"], ls=":", lw=1.0, label="90 % of capacity")
+    for k, (a, b, _lost) in enumerate(rec.overflow_spans or []):
+        ax.axvspan((a - t0) / 86400.0, (b - t0) / 86400.0, color=COLOURS["error"], alpha=0.25, hatch="//",
+                   lw=0, label="overflow (data lost)" if k == 0 else None)
+    for b in sc.bookings:
+        if "downlink" in b.purposes:
+            ax.axvspan((b.start_tt - t0) / 86400.0, (b.end_tt - t0) / 86400.0, ymin=0, ymax=0.04,
+                       color=COLOURS["booking"], lw=0)
+    ax.set_ylim(0, max(rec.capacity_gbit * 1.12, float(max(rec.fill_gbit, default=0.0)) * 1.05, 1.0))
+    ax.set_ylabel("Gbit", fontsize=7)
+    ax.tick_params(axis="y", labelsize=6.5)
+    _day_axis(ax, t0, t1)
+    ax.legend(fontsize=6, loc="upper left", ncol=4, frameon=False)
+    return fig
+
+
+def rate_volume_figure(plan, width_in: float):
+    """Top: achievable rate along each profiled pass; bottom: volume each pass could return (bars span AOS-LOS)."""
+    import numpy as np
+    from matplotlib.figure import Figure
+    from matplotlib.patches import Patch
+
+    sc = plan.scenario
+    t0, t1 = sc.start_tt, sc.end_tt
+    sids = [s.id for s in sc.stations]
+    style = {sid: (STATION_CYCLE[i % len(STATION_CYCLE)], STATION_HATCH[i % len(STATION_HATCH)])
+             for i, sid in enumerate(sids)}
+    fig = Figure(figsize=(width_in, 3.6), layout="constrained")
+    ax1, ax2 = fig.subplots(2, 1, sharex=True)
+    for p in plan.passes:
+        prof = (plan.profiles or {}).get(id(p))
+        colour = style.get(p.station, ("#000000", ""))[0]
+        if prof is not None and len(prof.t_tt):
+            ax1.step(_days(prof.t_tt, t0), np.asarray(prof.rate_kbps, dtype=float) / 1000.0, where="post",
+                     color=colour, lw=0.9)
+        if p.volume_gbit:
+            a, b = max(p.aos_tt, t0), min(p.los_tt, t1)
+            if b > a:
+                colour, hatch = style.get(p.station, ("#000000", ""))
+                ax2.bar((a - t0) / 86400.0, p.volume_gbit, width=(b - a) / 86400.0, align="edge",
+                        color=colour, alpha=0.75, hatch=hatch, edgecolor="black", lw=0.4)
+    ax1.set_ylabel("rate (Mbit/s)", fontsize=7)
+    ax2.set_ylabel("volume per pass (Gbit)", fontsize=7)
+    for ax in (ax1, ax2):
+        ax.tick_params(axis="y", labelsize=6.5)
+    _day_axis(ax1, t0, t1)
+    ax1.tick_params(axis="x", labelbottom=False)
+    _day_axis(ax2, t0, t1)
+    handles = [Patch(facecolor=style[s][0], hatch=style[s][1], edgecolor="black", alpha=0.75, label=s) for s in sids
+               if any(p.station == s for p in plan.passes)]
+    if handles:
+        fig.legend(handles=handles, loc="outside lower center", ncol=min(8, len(handles)), fontsize=6, frameon=False)
+    return fig
+
+
+# ------------------------------------------------------------ the document
+def _fmt(t_tt) -> str:
+    from contactplan.timescale import format_utc
+
+    return format_utc(t_tt, 0)
+
+
+def _hours(seconds: float) -> str:
+    return f"{seconds / 3600.0:.2f}"
+
+
+def _num(v, fmt="{:.2f}", none="-"):
+    return none if v is None else fmt.format(v)
+
+
+def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> int:
+    """Write the weekly report PDF atomically; returns the number of pages."""
+    from reportlab.lib import colors
+    from reportlab.lib.enums import TA_LEFT
+    from reportlab.lib.pagesizes import A4, LETTER
+    from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
+    from reportlab.lib.units import inch, mm
+    from reportlab.platypus import (Image, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table,
+                                    TableStyle)
+
+    from contactplan.errors import InputError
+    from contactplan.fileio import atomic_write
+    from contactplan.io.bookings import booking_records
+    from contactplan.timescale import format_doy, now_tt as _now
+
+    paper = str(paper).lower()
+    if paper not in ("a4", "letter"):
+        raise InputError(f"unknown paper {paper!r}: choose a4 or letter")
+    pagesize = A4 if paper == "a4" else LETTER
+    sc = plan.scenario
+    gen_tt = _now() if now_tt is None else now_tt
+    margin = 15 * mm
+    frame_w = pagesize[0] - 2 * margin
+    fig_w_in = frame_w / inch
+
+    ss = getSampleStyleSheet()
+    body = ParagraphStyle("body", parent=ss["BodyText"], fontName="Helvetica", fontSize=9, leading=11.5)
+    small = ParagraphStyle("small", parent=body, fontSize=7, leading=8.5, alignment=TA_LEFT)
+    h1 = ParagraphStyle("h1", parent=ss["Heading1"], fontName="Helvetica-Bold", fontSize=20, leading=24)
+    h2 = ParagraphStyle("h2", parent=ss["Heading2"], fontName="Helvetica-Bold", fontSize=13, leading=16,
+                        spaceBefore=4, spaceAfter=6)
+    caution_style = ParagraphStyle("caution", parent=body, fontName="Helvetica-Bold", fontSize=10, leading=13,
+                                   borderColor=colors.HexColor("#D55E00"), borderWidth=1.2, borderPadding=8,
+                                   backColor=colors.HexColor("#FFF4E6"))
+
+    def P(text, style=body):
+        return Paragraph(escape(str(text)), style)
+
+    def figure(fig):
+        buf = _png(fig)
+        w_in, h_in = fig.get_size_inches()
+        return Image(buf, width=frame_w, height=frame_w * h_in / w_in)
+
+    def table(data, widths, header_bg="#DDE6F0", extra=()):
+        t = Table(data, colWidths=widths, repeatRows=1)
+        t.setStyle(TableStyle([
+            ("FONT", (0, 0), (-1, 0), "Helvetica-Bold", 7.5),
+            ("FONT", (0, 1), (-1, -1), "Helvetica", 7),
+            ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor(header_bg)),
+            ("GRID", (0, 0), (-1, -1), 0.25, colors.HexColor("#999999")),
+            ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("ROWBACKGROUNDS", (0, 1), (-1, -1), [colors.white, colors.HexColor("#F4F6F8")]),
+            *extra,
+        ]))
+        return t
+
+    records = booking_records(sc, plan)
+    rec = plan.recorder
+    booked_s = sum(b.duration_s for b in sc.bookings)
+    story = []
+
+    # ---- cover
+    story += [Spacer(1, 18 * mm), P("Weekly contact plan", h1), Spacer(1, 2 * mm),
+              P(f"{sc.spacecraft.name}: {sc.name}", h2), Spacer(1, 6 * mm)]
+    facts = [
+        ["Mission (spacecraft)", sc.spacecraft.name],
+        ["Scenario", sc.name],
+        ["Window (UTC)", f"{_fmt(sc.start_tt)} to {_fmt(sc.end_tt)}"],
+        ["Window (day of year, UTC)", f"{format_doy(sc.start_tt)} to {format_doy(sc.end_tt)}"],
+        ["Plan revision", str(sc.revision)],
+        ["Generated (UTC)", _fmt(gen_tt)],
+        ["Stations", ", ".join(f"{s.id} ({s.name})" for s in sc.stations) or "none"],
+        ["Passes", str(len(plan.passes))],
+        ["Bookings", f"{len(sc.bookings)} ({booked_s / 3600.0:.1f} station hours)"],
+        ["Activities", f"{sum(a.kind == 'burn' for a in sc.activities)} burns, "
+                       f"{sum(a.kind == 'slew' for a in sc.activities)} slews, "
+                       f"{sum(a.kind not in ('burn', 'slew') for a in sc.activities)} other"],
+        ["Findings", f"{plan.errors} errors, {plan.warnings} warnings"],
+    ]
+    if rec is not None:
+        facts.append(["Recorder (Gbit)", f"capacity {rec.capacity_gbit:.1f}, peak {float(max(rec.fill_gbit, default=0)):.1f}, "
+                                         f"end {rec.end_gbit:.1f}, lost {rec.lost_gbit:.1f}"])
+    facts.append(["Generator", f"contactplan {__version__}"])
+    story.append(table([[P(a, small), P(b, small)] for a, b in facts], [0.3 * frame_w, 0.7 * frame_w],
+                       extra=[("BACKGROUND", (0, 0), (-1, 0), colors.white),
+                              ("FONT", (0, 0), (0, -1), "Helvetica-Bold", 8)]))
+    story += [Spacer(1, 10 * mm), Paragraph(escape(CAUTION), caution_style), PageBreak()]
+
+    # ---- timeline
+    story += [P("The week at a glance", h2),
+              P("One lane per station: light bands are passes, dark blocks bookings (lighter ends: setup and "
+                "teardown), cross-hatched boxes outages. The top lane holds the spacecraft's burns, slews and "
+                "burn monitor spans; grey columns across all lanes are downlink keep-outs.", small),
+              Spacer(1, 3 * mm), figure(timeline_figure(plan, fig_w_in)), PageBreak()]
+
+    # ---- bookings
+    story.append(P(f"Bookings ({len(records)})", h2))
+    if records:
+        head = ["Id", "Station", "Start (UTC)", "End (UTC)", "Hours", "Purposes", "Down (Gbit)", "Findings"]
+        rows = [head]
+        for r in records:
+            b = sc.booking(r["id"])
+            rows.append([P(r["id"] + (" (locked)" if r["locked"] else ""), small), r["station"],
+                         P(f"{r['start_utc'][:19]}Z {r['start_doy'][5:8]}", small),
+                         P(f"{r['end_utc'][:19]}Z {r['end_doy'][5:8]}", small),
+                         _hours(b.duration_s), P(", ".join(r["purposes"]), small),
+                         _num(r["downlinked_gbit"]), P(", ".join(r["findings"]) or "-", small)])
+        w = frame_w
+        story.append(table(rows, [0.1 * w, 0.08 * w, 0.17 * w, 0.17 * w, 0.07 * w, 0.16 * w, 0.09 * w, 0.16 * w]))
+        story.append(P("Start and end include setup and teardown; the three digits after the time are the day of "
+                       "year.", small))
+    else:
+        story.append(P("No bookings in this plan yet."))
+    story.append(Spacer(1, 6 * mm))
+
+    # ---- findings
+    findings = sorted(plan.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+    story.append(P(f"Findings ({plan.errors} errors, {plan.warnings} warnings)", h2))
+    if findings:
+        rows = [["Severity", "Rule", "Concerns", "From (UTC)", "To (UTC)", "What to change"]]
+        extra = []
+        for i, f in enumerate(findings, start=1):
+            rows.append([f.severity, P(f.rule, small), P(", ".join(map(str, f.subjects)) or "-", small),
+                         P(_fmt(f.start_tt), small), P(_fmt(f.end_tt), small), P(f.message, small)])
+            colour = COLOURS["error"] if f.severity == "error" else COLOURS["warning"]
+            extra.append(("TEXTCOLOR", (0, i), (0, i), colors.HexColor(colour)))
+            extra.append(("FONT", (0, i), (0, i), "Helvetica-Bold", 7))
+        w = frame_w
+        story.append(table(rows, [0.08 * w, 0.13 * w, 0.12 * w, 0.15 * w, 0.15 * w, 0.37 * w], extra=extra))
+    else:
+        story.append(P("No findings: the plan passes every rule checked."))
+    story.append(PageBreak())
+
+    # ---- recorder
+    story.append(P("Recorder", h2))
+    if rec is not None and len(rec.t_tt):
+        story.append(P(f"Generated {rec.generated_gbit:.1f} Gbit, downlinked {rec.downlinked_gbit:.1f} Gbit, lost "
+                       f"{rec.lost_gbit:.1f} Gbit; {rec.end_gbit:.1f} Gbit on board at the end of the window "
+                       f"(capacity {rec.capacity_gbit:.1f} Gbit). Blue ticks along the bottom: booked downlink time.",
+                       small))
+        story += [Spacer(1, 2 * mm), figure(recorder_figure(plan, fig_w_in))]
+        if rec.overflow_spans:
+            rows = [["Overflow from (UTC)", "To (UTC)", "Lost (Gbit)"]]
+            rows += [[_fmt(a), _fmt(b), f"{lost:.2f}"] for a, b, lost in rec.overflow_spans]
+            story += [Spacer(1, 2 * mm), table(rows, [0.35 * frame_w, 0.35 * frame_w, 0.2 * frame_w])]
+    else:
+        story.append(P("The scenario has no recorder."))
+    story.append(Spacer(1, 6 * mm))
+
+    # ---- rate and volume per pass
+    block = [P("Rate and volume per pass", h2)]
+    has_link = any(p.volume_gbit is not None for p in plan.passes)
+    if plan.passes and has_link:
+        block += [P("Volume: what each pass could return from AOS to LOS at the best rate allowed moment by moment "
+                    "(not what is booked).", small), Spacer(1, 2 * mm), figure(rate_volume_figure(plan, fig_w_in))]
+    story.append(KeepTogether(block))
+    if plan.passes:
+        rows = [["Station", "AOS (UTC)", "LOS (UTC)", "Hours", "Max el. (deg)", "Max rate (kbit/s)", "Volume (Gbit)"]]
+        for p in sorted(plan.passes, key=lambda p: (p.aos_tt, p.station)):
+            mark = " *" if (p.clipped_start or p.clipped_end) else ""
+            rows.append([p.station, _fmt(p.aos_tt), _fmt(p.los_tt), _hours(p.duration_s) + mark,
+                         f"{p.max_elevation_deg:.1f}", _num(p.max_rate_kbps, "{:g}"), _num(p.volume_gbit)])
+        w = frame_w
+        story += [Spacer(1, 3 * mm), table(rows, [0.1 * w, 0.21 * w, 0.21 * w, 0.1 * w, 0.12 * w, 0.14 * w, 0.12 * w])]
+        if any(p.clipped_start or p.clipped_end for p in plan.passes):
+            story.append(P("* pass cut by the window's edge.", small))
+    else:
+        story.append(P("No passes in the window."))
+
+    pages = [0]
+
+    def on_page(canvas, doc):
+        canvas.saveState()
+        canvas.setFont("Helvetica", 7)
+        canvas.setFillColor(colors.HexColor("#444444"))
+        n = canvas.getPageNumber()
+        pages[0] = max(pages[0], n)
+        canvas.drawString(margin, 9 * mm, f"{sc.spacecraft.name}: {sc.name}, revision {sc.revision}, "
+                                          f"generated {_fmt(gen_tt)}")
+        canvas.drawRightString(pagesize[0] - margin, 9 * mm, f"page {n}")
+        canvas.setFont("Helvetica-Oblique", 6.5)
+        canvas.drawString(margin, 5.5 * mm, CAUTION)
+        canvas.restoreState()
+
+    buf = io.BytesIO()
+    doc = SimpleDocTemplate(buf, pagesize=pagesize, leftMargin=margin, rightMargin=margin, topMargin=margin,
+                            bottomMargin=margin + 4 * mm, title=f"Weekly contact plan: {sc.name}",
+                            author="contactplan", subject=f"{sc.spacecraft.name}, revision {sc.revision}",
+                            creator=f"contactplan {__version__}")
+    doc.build(story, onFirstPage=on_page, onLaterPages=on_page)
+    atomic_write(path, buf.getvalue())
+    return pages[0]
