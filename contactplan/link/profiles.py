@@ -9,18 +9,66 @@ import numpy as np
 
 @dataclass(eq=False)
 class PassProfile:
-    """Samples along one pass: times (TT s), elevation (deg), Eb/N0 at the best rate and rate (kbit/s, 0: none)."""
+    """Samples along one pass: times (TT s), elevation (deg), Eb/N0 at the best rate and rate (kbit/s, 0: none).
+
+    The samples run from AOS to LOS (both included). Between two samples the link is
+    taken to carry the lower of the two sample rates (a rate is used only over a
+    span where it closes at both ends), so volumes never count a rate the link
+    could not hold.
+    """
 
     station: str
     t_tt: np.ndarray
     elevation_deg: np.ndarray
     rate_kbps: np.ndarray
     ebn0_db: np.ndarray | None = None
+    range_km: np.ndarray | None = None  # slant range at the samples, km
+
+    def segment_rates_kbps(self) -> np.ndarray:
+        """Rate (kbit/s) held over each span [t_tt[i], t_tt[i+1]] (length len(t_tt) - 1)."""
+        r = np.asarray(self.rate_kbps, dtype=float)
+        return np.minimum(r[:-1], r[1:]) if r.size > 1 else np.zeros(0)
+
+    @property
+    def max_rate_kbps(self) -> float:
+        seg = self.segment_rates_kbps()
+        return float(seg.max()) if seg.size else 0.0
+
+    def rate_steps(self, start_tt: float | None = None, end_tt: float | None = None):
+        """The step function of rate over [start_tt, end_tt] clipped to the pass.
+
+        Returns (edges_tt, rates_kbps) with len(edges) = len(rates) + 1; neighbouring spans
+        of equal rate are merged. Empty arrays when the window misses the pass.
+        """
+        t = np.asarray(self.t_tt, dtype=float)
+        seg = self.segment_rates_kbps()
+        if seg.size == 0:
+            return np.zeros(0), np.zeros(0)
+        lo = t[0] if start_tt is None else max(float(start_tt), t[0])
+        hi = t[-1] if end_tt is None else min(float(end_tt), t[-1])
+        if not hi > lo:
+            return np.zeros(0), np.zeros(0)
+        inner = t[(t > lo) & (t < hi)]
+        edges = np.concatenate(([lo], inner, [hi]))
+        idx = np.clip(np.searchsorted(t, edges[:-1], side="right") - 1, 0, seg.size - 1)
+        rates = seg[idx]
+        keep = np.concatenate(([True], rates[1:] != rates[:-1]))
+        return np.concatenate((edges[:-1][keep], [hi])), rates[keep]
+
+    def volume_gbit(self, start_tt: float | None = None, end_tt: float | None = None) -> float:
+        """Gigabits (1e9 bit) the link can return over [start_tt, end_tt] (default the whole pass)."""
+        edges, rates = self.rate_steps(start_tt, end_tt)
+        if rates.size == 0:
+            return 0.0
+        return float(np.sum(rates * np.diff(edges)) * 1e-6)
 
 
 @dataclass(eq=False)
 class RecorderResult:
-    """Recorder fill over the window. Arrays share ``t_tt``; gigabits are 1e9 bits."""
+    """Recorder fill over the window. Arrays share ``t_tt``; gigabits are 1e9 bits.
+
+    Balance: initial_gbit + generated_gbit = downlinked_gbit + end_gbit + lost_gbit.
+    """
 
     t_tt: np.ndarray
     fill_gbit: np.ndarray
@@ -32,3 +80,16 @@ class RecorderResult:
     overflow_spans: list = field(default_factory=list)  # [(start_tt, end_tt, lost_gbit)]
     oldest_age_s: np.ndarray | None = None  # age of the oldest data on board at each t_tt
     downlinked_by_booking_gbit: dict = field(default_factory=dict)
+    initial_gbit: float = 0.0  # on board at the window's start
+    start_tt: float = 0.0
+    end_tt: float = 0.0
+    downlink_spans: list = field(default_factory=list)  # [(start_tt, end_tt, rate_kbps, booking id)] data flowing
+    empty_spans: list = field(default_factory=list)  # [(start_tt, end_tt)] recorder empty while downlink booked
+
+    def fill_at(self, t_tt):
+        """Fill (Gbit) at any instants (the fill is piecewise linear between ``t_tt``)."""
+        return np.interp(t_tt, self.t_tt, self.fill_gbit)
+
+    @property
+    def peak_gbit(self) -> float:
+        return float(np.max(self.fill_gbit)) if len(self.fill_gbit) else self.initial_gbit

@@ -1,0 +1,210 @@
+"""The onboard recorder over the planning window.
+
+fill(t) = initial + generated - downlinked, with
+
+* generation at the constant average rate ``generation_kbps``;
+* downlink only in booked downlink time (:mod:`contactplan.link.windows`) at the
+  rate the pass profile allows moment by moment, never more than is on board
+  (an empty recorder passes on only what is being generated);
+* one transmitter: where the downlink times of two bookings overlap, the higher
+  rate counts, credited to that booking (the first in booking order on a tie);
+* what cannot be stored when the recorder is full is lost (the newest data),
+  each overflow span kept with its start, end and amount;
+* first in, first out: the oldest data on board is read out first. Data on board at
+  the window's start is taken to have been produced at the generation rate just
+  before it.
+
+The bookkeeping is exact for this piecewise-linear model: the fill is evaluated at
+every rate change and at every instant the recorder becomes full or empty, so
+initial + generated = downlinked + on board + lost to rounding (far below a bit).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from contactplan.link.profiles import RecorderResult
+from contactplan.link.windows import downlink_pieces
+
+#: spacing (s) of the extra regular samples added to the result for plotting the age
+SAMPLE_S = 600.0
+
+
+def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, end_tt: float):
+    """The spacecraft's downlink rate over [start_tt, end_tt] as merged steps.
+
+    Returns (edges_tt, rate_kbps, booking_index) with len(edges) = len(rates) + 1;
+    booking_index is -1 where nothing is downlinked.
+    """
+    steps = []  # (e0, e1, rate, booking index)
+    for bi, booking in enumerate(bookings):
+        if booking.end_tt <= start_tt or booking.start_tt >= end_tt:
+            continue
+        for s0, s1, p in downlink_pieces(scenario, booking, passes):
+            prof = profiles.get(id(p))
+            if prof is None:
+                continue
+            edges, rates = prof.rate_steps(max(s0, start_tt), min(s1, end_tt))
+            for k in range(rates.size):
+                if rates[k] > 0:
+                    steps.append((edges[k], edges[k + 1], rates[k], bi))
+    if not steps:
+        return np.array([start_tt, end_tt]), np.zeros(1), np.full(1, -1)
+    grid = np.unique(np.concatenate(([start_tt, end_tt], [s[0] for s in steps], [s[1] for s in steps])))
+    rate = np.zeros(grid.size - 1)
+    owner = np.full(grid.size - 1, -1)
+    i0 = np.searchsorted(grid, [s[0] for s in steps])
+    i1 = np.searchsorted(grid, [s[1] for s in steps])
+    for (e0, e1, r, bi), a, b in zip(steps, i0, i1):
+        sl = slice(a, b)
+        better = r > rate[sl]
+        rate[sl] = np.where(better, r, rate[sl])
+        owner[sl] = np.where(better, bi, owner[sl])
+    keep = np.concatenate(([True], (rate[1:] != rate[:-1]) | (owner[1:] != owner[:-1])))
+    return np.concatenate((grid[:-1][keep], [grid[-1]])), rate[keep], owner[keep]
+
+
+def simulate_recorder(scenario, passes, profiles, bookings=None, start_tt=None, end_tt=None,
+                      sample_s: float = SAMPLE_S) -> RecorderResult | None:
+    """Recorder fill, losses and oldest-data age over [start_tt, end_tt] (default the scenario window).
+
+    ``profiles`` maps ``id(pass)`` to :class:`PassProfile` (from
+    :func:`contactplan.link.volume.annotate_passes`); ``bookings`` defaults to the
+    scenario's. Returns None when the scenario has no ``[spacecraft.recorder]``.
+    """
+    rec = scenario.spacecraft.recorder
+    if rec is None:
+        return None
+    t0 = float(scenario.start_tt if start_tt is None else start_tt)
+    t1 = float(scenario.end_tt if end_tt is None else end_tt)
+    if t1 < t0:
+        raise ValueError("end_tt before start_tt")
+    bookings = list(scenario.bookings if bookings is None else bookings)
+    cap = float(rec.capacity_gbit)
+    gen = float(rec.generation_kbps) * 1e-6  # Gbit/s
+    edges, rates_kbps, owner = downlink_rate_steps(scenario, passes, profiles or {}, bookings, t0, t1)
+    d_rates = rates_kbps * 1e-6
+
+    fill = float(rec.initial_gbit)
+    lost = 0.0
+    overflow = []
+    if fill > cap:  # more on board than fits: the excess is lost at once
+        overflow.append((t0, t0, fill - cap))
+        lost = fill - cap
+        fill = cap
+    initial = fill
+    down_total = 0.0
+    by_booking = {b.id: 0.0 for b in bookings}
+    downlink_spans = []
+    empty_spans = []
+
+    # points of the piecewise-linear curves: time, fill, stored (cumulative input), downlinked (cumulative)
+    pt_t = [t0]
+    pt_fill = [fill]
+    pt_stored = [initial]
+    pt_down = [0.0]
+    stored = initial
+
+    def add_point(t, f, s_cum, d_cum):
+        pt_t.append(t)
+        pt_fill.append(f)
+        pt_stored.append(s_cum)
+        pt_down.append(d_cum)
+
+    for k in range(d_rates.size):
+        a, b = float(edges[k]), float(edges[k + 1])
+        dt = b - a
+        if dt <= 0:
+            continue
+        d = float(d_rates[k])
+        net = gen - d
+        f0 = fill
+        if net > 0 and (cap - f0) / net < dt:  # fills up inside the span: the rest is lost
+            t_full = max((cap - f0) / net, 0.0)
+            if t_full > 0:
+                add_point(a + t_full, cap, stored + gen * t_full, down_total + d * t_full)
+            seg_down = d * dt
+            seg_lost = f0 + gen * dt - seg_down - cap
+            stored += gen * t_full + d * (dt - t_full)  # when full, only what is read out makes room
+            lost += seg_lost
+            fill = cap
+            s = a + t_full
+            if overflow and overflow[-1][1] == s and s > t0:
+                overflow[-1] = (overflow[-1][0], b, overflow[-1][2] + seg_lost)
+            else:
+                overflow.append((s, b, seg_lost))
+        elif net < 0 and f0 / -net < dt:  # empties inside the span: then only what is generated flows
+            t_empty = f0 / -net
+            if t_empty > 0:
+                add_point(a + t_empty, 0.0, stored + gen * t_empty, down_total + d * t_empty)
+            seg_down = f0 + gen * dt
+            stored += gen * dt
+            fill = 0.0
+            s = a + t_empty
+            if empty_spans and empty_spans[-1][1] == s:
+                empty_spans[-1] = (empty_spans[-1][0], b)
+            else:
+                empty_spans.append((s, b))
+        else:
+            seg_down = d * dt
+            stored += gen * dt
+            fill = f0 + net * dt
+            # rounding guards that keep the balance exact
+            if fill > cap:
+                lost += fill - cap
+                fill = cap
+            elif fill < 0:
+                seg_down += fill
+                fill = 0.0
+        down_total += seg_down
+        if owner[k] >= 0 and seg_down > 0:
+            bid = bookings[owner[k]].id
+            by_booking[bid] = by_booking.get(bid, 0.0) + seg_down
+            downlink_spans.append((a, b, float(rates_kbps[k]), bid))
+        add_point(b, fill, stored, down_total)
+
+    t_pts = np.array(pt_t)
+    fill_pts = np.array(pt_fill)
+    stored_pts = np.array(pt_stored)
+    down_pts = np.array(pt_down)
+
+    # regular samples besides the breakpoints, for plots of the age
+    if sample_s and t1 > t0:
+        grid = np.arange(t0, t1, float(sample_s))
+        t_out = np.union1d(t_pts, grid)
+    else:
+        t_out = np.unique(t_pts)
+    # np.interp needs increasing x: breakpoints may repeat (zero-length spans); keep the last value
+    uniq_t, last_idx = np.unique(t_pts[::-1], return_index=True)
+    last_idx = t_pts.size - 1 - last_idx
+    fill_out = np.interp(t_out, uniq_t, fill_pts[last_idx])
+    stored_out = np.interp(t_out, uniq_t, stored_pts[last_idx])
+    down_out = np.interp(t_out, uniq_t, down_pts[last_idx])
+    age = _oldest_age(t_out, down_out, stored_out - down_out, t_pts, stored_pts, t0, initial, gen)
+
+    return RecorderResult(
+        t_tt=t_out, fill_gbit=fill_out, capacity_gbit=cap, generated_gbit=gen * (t1 - t0),
+        downlinked_gbit=down_total, lost_gbit=lost, end_gbit=fill, overflow_spans=overflow,
+        oldest_age_s=age, downlinked_by_booking_gbit=by_booking, initial_gbit=float(rec.initial_gbit),
+        start_tt=t0, end_tt=t1, downlink_spans=downlink_spans, empty_spans=empty_spans,
+    )
+
+
+def _oldest_age(t_out, down_out, on_board, t_pts, stored_pts, t0, initial, gen):
+    """Age (s) of the oldest data on board at ``t_out`` (FIFO), 0 when the recorder is empty."""
+    # stored input curve, with the initial content spread over the time it took to produce
+    if initial > 0:
+        lead = initial / gen if gen > 0 else 0.0
+        ts = np.concatenate(([t0 - lead], t_pts))
+        ss = np.concatenate(([0.0], stored_pts))
+    else:
+        ts, ss = t_pts, stored_pts
+    ss = np.maximum.accumulate(ss)  # rounding: the input curve never decreases
+    j = np.clip(np.searchsorted(ss, down_out, side="right") - 1, 0, ss.size - 2) if ss.size > 1 else None
+    if j is None:
+        return np.zeros_like(t_out)
+    rise = ss[j + 1] - ss[j]
+    frac = np.where(rise > 0, (down_out - ss[j]) / np.where(rise > 0, rise, 1.0), 0.0)
+    tau = ts[j] + np.clip(frac, 0.0, 1.0) * (ts[j + 1] - ts[j])
+    age = np.maximum(t_out - tau, 0.0)
+    return np.where(on_board > 1e-12, age, 0.0)
