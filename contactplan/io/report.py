@@ -64,6 +64,12 @@ def _day_axis(ax, start_tt: float, end_tt: float) -> None:
     for m in mids:
         ax.axvline((m - start_tt) / 86400.0, color="#BBBBBB", lw=0.5, zorder=0)
     ax.set_xlim(0.0, span_days)
+    if span_days <= 16:  # minor ticks every 6 h
+        first = (mids[0] - start_tt) / 86400.0 if mids else 0.0
+        import numpy as np
+
+        minor = np.arange(first, span_days + 1e-9, 0.25)
+        ax.set_xticks(minor[(minor >= 0)], minor=True)
 
 
 def _png(fig) -> io.BytesIO:
@@ -88,7 +94,7 @@ def timeline_figure(plan, width_in: float):
     stations = [s.id for s in sc.stations]
     lanes = ["Spacecraft"] + stations
     n = len(lanes)
-    fig = Figure(figsize=(width_in, 1.5 + 0.42 * n), layout="constrained")
+    fig = Figure(figsize=(width_in, 1.6 + 0.6 * n), layout="constrained")
     ax = fig.add_subplot()
     y = {name: n - 1 - i for i, name in enumerate(lanes)}
     ax.set_ylim(-0.6, n - 0.4)
@@ -139,9 +145,9 @@ def timeline_figure(plan, width_in: float):
         if act.kind == "burn" and (act.monitor_before_min or act.monitor_after_min):
             bars("Spacecraft", [act.monitor_span_tt], 0.75, facecolors="none", edgecolors=COLOURS["monitor"],
                  lw=1.0, zorder=2)
-        # draw at least ~20 minutes wide so a short slew stays visible at week scale
+        # drawn at least 1/300 of the window wide so a short slew stays visible at week scale
         mid = 0.5 * (act.start_tt + act.end_tt)
-        half = max(act.end_tt - act.start_tt, 1200.0) / 2
+        half = max(act.end_tt - act.start_tt, (t1 - t0) / 300.0) / 2
         bars("Spacecraft", [(mid - half, mid + half)], 0.5, facecolors=colour, edgecolors="black", hatch=hatch,
              lw=0.4, zorder=3)
     shadows = [(a, b) for a, b, *_ in (plan.shadows or [])]
@@ -189,7 +195,7 @@ def recorder_figure(plan, width_in: float):
     ax.set_ylabel("Gbit", fontsize=7)
     ax.tick_params(axis="y", labelsize=6.5)
     _day_axis(ax, t0, t1)
-    ax.legend(fontsize=6, loc="upper left", ncol=4, frameon=False)
+    fig.legend(loc="outside lower center", fontsize=6, ncol=4, frameon=False)
     return fig
 
 
@@ -237,6 +243,10 @@ def _fmt(t_tt) -> str:
     from contactplan.timescale import format_utc
 
     return format_utc(t_tt, 0)
+
+
+def _count(n: int, word: str) -> str:
+    return f"{n} {word}" if n == 1 else f"{n} {word}s"
 
 
 def _hours(seconds: float) -> str:
@@ -306,6 +316,8 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     records = booking_records(sc, plan)
     rec = plan.recorder
     booked_s = sum(b.duration_s for b in sc.bookings)
+    acts = [a for a in sc.activities if a.end_tt > sc.start_tt and a.start_tt < sc.end_tt]
+    findings_text = f"{_count(plan.errors, 'error')}, {_count(plan.warnings, 'warning')}"
     story = []
 
     # ---- cover
@@ -321,10 +333,10 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         ["Stations", ", ".join(f"{s.id} ({s.name})" for s in sc.stations) or "none"],
         ["Passes", str(len(plan.passes))],
         ["Bookings", f"{len(sc.bookings)} ({booked_s / 3600.0:.1f} station hours)"],
-        ["Activities", f"{sum(a.kind == 'burn' for a in sc.activities)} burns, "
-                       f"{sum(a.kind == 'slew' for a in sc.activities)} slews, "
-                       f"{sum(a.kind not in ('burn', 'slew') for a in sc.activities)} other"],
-        ["Findings", f"{plan.errors} errors, {plan.warnings} warnings"],
+        ["Activities in the window", f"{_count(sum(a.kind == 'burn' for a in acts), 'burn')}, "
+                                     f"{_count(sum(a.kind == 'slew' for a in acts), 'slew')}, "
+                                     f"{sum(a.kind not in ('burn', 'slew') for a in acts)} other"],
+        ["Findings", findings_text],
     ]
     if rec is not None:
         facts.append(["Recorder (Gbit)", f"capacity {rec.capacity_gbit:.1f}, peak {float(max(rec.fill_gbit, default=0)):.1f}, "
@@ -364,7 +376,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
 
     # ---- findings
     findings = sorted(plan.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
-    story.append(P(f"Findings ({plan.errors} errors, {plan.warnings} warnings)", h2))
+    story.append(P(f"Findings ({findings_text})", h2))
     if findings:
         rows = [["Severity", "Rule", "Concerns", "From (UTC)", "To (UTC)", "What to change"]]
         extra = []
@@ -375,7 +387,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
             extra.append(("TEXTCOLOR", (0, i), (0, i), colors.HexColor(colour)))
             extra.append(("FONT", (0, i), (0, i), "Helvetica-Bold", 7))
         w = frame_w
-        story.append(table(rows, [0.08 * w, 0.13 * w, 0.12 * w, 0.15 * w, 0.15 * w, 0.37 * w], extra=extra))
+        story.append(table(rows, [0.08 * w, 0.13 * w, 0.1 * w, 0.18 * w, 0.18 * w, 0.33 * w], extra=extra))
     else:
         story.append(P("No findings: the plan passes every rule checked."))
     story.append(PageBreak())
