@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import copy
 import math
+import os
 from dataclasses import MISSING, fields
 from pathlib import Path
 
@@ -31,10 +32,13 @@ def format_time(tt: float) -> str:
     return text.replace(".000Z", "Z")
 
 
-def _same(a, b) -> bool:
+def _same(a, b, is_time: bool = False) -> bool:
+    """Unchanged since load? Times within half a millisecond (what the text keeps) count as unchanged."""
+    if is_time and isinstance(a, float) and isinstance(b, float):
+        return a == b or math.isclose(a, b, rel_tol=0, abs_tol=5e-4)
     if isinstance(a, float) and isinstance(b, float):
-        return a == b or (math.isclose(a, b, rel_tol=0, abs_tol=5e-4))
-    return a == b
+        return a == b
+    return a == b and type(a) is type(b) if isinstance(a, bool) or isinstance(b, bool) else a == b
 
 
 def encode(rec: m.Record, only: tuple[str, ...] | None = None, skip: set = frozenset()) -> dict:
@@ -46,8 +50,8 @@ def encode(rec: m.Record, only: tuple[str, ...] | None = None, skip: set = froze
             continue
         key = _TIME_KEYS.get(name, name)
         value = getattr(rec, name)
-        if key in rec.raw and key in rec.loaded and _same(rec.loaded[key], value):
-            continue  # unchanged: keep the text as it was written
+        if key in rec.loaded and _same(rec.loaded[key], value, name in _TIME_KEYS):
+            continue  # unchanged: keep the text as written (or keep it unwritten if it was a default)
         if value is None:
             out.pop(key, None)
         elif key in rec.raw or value != _default(f):
@@ -68,9 +72,51 @@ def _default(f):
     return MISSING
 
 
+def _in_file_order(records: list, doc: dict, key: str) -> list:
+    """Records in the order their tables appear in the loaded document; new ones after, in list order."""
+    tables = doc.get(key) if isinstance(doc.get(key), list) else []
+    pos = {id(t): i for i, t in enumerate(tables)}
+    n = len(tables)
+    ranked = [(pos.get(id(r.raw), n + j), j, r) for j, r in enumerate(records)]
+    return [r for _, _, r in sorted(ranked, key=lambda x: (x[0], x[1]))]
+
+
+def _series_intact(series: m.ActivitySeries, members: list) -> bool:
+    """True when the activities tagged with ``series`` are exactly what it expands to."""
+    expected = series.expand()
+    if len(expected) != len(members):
+        return False
+    got = {a.id: a for a in members}
+    for e in expected:
+        a = got.get(e.id)
+        if a is None or a.kind != e.kind:
+            return False
+        for f in ("start_tt", "duration_min", "monitor_before_min", "monitor_after_min", "downlink_keepout_min"):
+            if not math.isclose(getattr(a, f), getattr(e, f), rel_tol=0, abs_tol=5e-4):
+                return False
+    return True
+
+
+def _oem_text(eph: m.EphemerisSpec, sc: m.Scenario) -> str:
+    """The ``oem`` path as written: relative to the scenario's folder when it can be."""
+    p = Path(eph.oem_path)
+    if sc.path is not None:
+        try:
+            p = Path(os.path.relpath(p.resolve(), sc.path.parent.resolve()))
+        except ValueError:  # another drive (Windows)
+            p = p.resolve()
+    return str(p).replace("\\", "/")
+
+
 def dump_document(sc: m.Scenario) -> dict:
-    """The whole TOML document for a scenario (unknown sections kept)."""
-    doc = copy.deepcopy(sc.document) if sc.document else {}
+    """The whole TOML document for a scenario (unknown sections and keys kept).
+
+    Records keep the order their tables had in the file; new records follow. A series
+    whose generated activities were edited, added to or deleted is written out as
+    plain ``[[activities]]`` so the edits are not lost.
+    """
+    src = sc.document or {}
+    doc = copy.deepcopy(src)
     doc["format_version"] = m.FORMAT_VERSION
     doc["scenario"] = encode(sc, only=("name", "start_tt", "end_tt", "revision"))
 
@@ -78,16 +124,12 @@ def dump_document(sc: m.Scenario) -> dict:
     sp = encode(craft, only=("name",))
     eph = craft.ephemeris
     if eph.kind == "oem":
-        e = dict(eph.raw)
-        if "oem" not in e or (sc.path is None or (sc.path.parent / e["oem"]).resolve() != Path(eph.oem_path).resolve()):
-            e.pop("libration", None)
-            rel = Path(eph.oem_path)
-            if sc.path is not None:
-                try:
-                    rel = rel.resolve().relative_to(sc.path.parent.resolve())
-                except ValueError:
-                    pass
-            e["oem"] = str(rel).replace("\\", "/")
+        e = {k: v for k, v in eph.raw.items() if k != "libration"}
+        written = eph.raw.get("oem") if isinstance(eph.raw.get("oem"), str) else None
+        same_file = (written is not None and sc.path is not None and eph.oem_path is not None
+                     and (sc.path.parent / written).resolve() == Path(eph.oem_path).resolve())
+        if not same_file:
+            e["oem"] = _oem_text(eph, sc)
         sp["ephemeris"] = e
     else:
         e = {k: v for k, v in eph.raw.items() if k != "oem"}
@@ -101,7 +143,7 @@ def dump_document(sc: m.Scenario) -> dict:
     doc["spacecraft"] = sp
 
     stations = []
-    for st in sc.stations:
+    for st in _in_file_order(sc.stations, src, "stations"):
         t = encode(st)
         if st.outages:
             t["outages"] = [encode(o) for o in st.outages]
@@ -109,9 +151,24 @@ def dump_document(sc: m.Scenario) -> dict:
             t.pop("outages", None)
         stations.append(t)
     _put_list(doc, "stations", stations)
-    _put_list(doc, "activity_series", [encode(s) for s in sc.series])
-    _put_list(doc, "activities", [encode(a, skip={"series"}) for a in sc.activities if a.series is None])
-    _put_list(doc, "bookings", [encode(b) for b in sorted(sc.bookings, key=lambda b: (b.start_tt, b.id))])
+
+    kept_series, loose = [], []
+    for s in _in_file_order(sc.series, src, "activity_series"):
+        members = [a for a in sc.activities if a.series == s.id]
+        if _series_intact(s, members):
+            kept_series.append(s)
+        else:
+            loose.extend(members)
+    kept_ids = {s.id for s in kept_series}
+    plain = [a for a in sc.activities if a.series is None]
+    activities = [encode(a, skip={"series"}) for a in _in_file_order(plain, src, "activities")]
+    activities += [encode(a, skip={"series"}) for a in sorted(loose, key=lambda a: (a.start_tt, a.id))]
+    orphans = [a for a in sc.activities if a.series is not None and a.series not in kept_ids
+               and a not in loose]
+    activities += [encode(a, skip={"series"}) for a in orphans]
+    _put_list(doc, "activity_series", [encode(s) for s in kept_series])
+    _put_list(doc, "activities", activities)
+    _put_list(doc, "bookings", [encode(b) for b in _in_file_order(sc.bookings, src, "bookings")])
     for key, rec in (("requirements", sc.requirements), ("geometry", sc.geometry)):
         t = encode(rec)
         if t:
@@ -146,4 +203,5 @@ def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool =
         sc.path = old_path
     atomic_write(target, text, backup=backup)
     sc.path = target
+    sc.format_version = m.FORMAT_VERSION  # an older file is upgraded by its first save
     return target
