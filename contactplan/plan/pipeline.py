@@ -58,7 +58,9 @@ def _annotate(scenario, ephemeris, passes, progress, cancel) -> dict:
         return {}
     if scenario.spacecraft.link is None:
         return {}
-    out = annotate_passes(scenario, ephemeris, passes)
+    out = annotate_passes(scenario, passes, ephemeris)
+    if progress is not None:
+        progress(1.0)
     return dict(out or {})
 
 

@@ -16,7 +16,8 @@ Terms used by several rules (all times TT seconds since J2000):
   and teardown carry no data, so they neither monitor a burn nor count as
   contact.
 - *keep-out* of an activity: ``[start - downlink_keepout, end + downlink_keepout]``
-  for burns and slews (and for other activities that give a keep-out).
+  for every activity (burns, slews and others), the same spans the recorder model
+  (:mod:`contactplan.link.windows`) takes out of booked downlink time.
 """
 
 from __future__ import annotations
@@ -106,10 +107,9 @@ def downlink_keepouts(scenario) -> list[tuple[float, float, object]]:
     """(start_tt, end_tt, activity) of every span where no downlink may be booked."""
     out = []
     for a in scenario.activities:
-        if a.kind in ("burn", "slew") or a.downlink_keepout_min > 0:
-            k0, k1 = a.keepout_span_tt
-            if k1 > k0:
-                out.append((k0, k1, a))
+        k0, k1 = a.keepout_span_tt
+        if k1 > k0:
+            out.append((k0, k1, a))
     out.sort(key=lambda x: x[0])
     return out
 
@@ -266,7 +266,7 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
 
 
 def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
-    """``downlink-in-keepout`` (error): a downlink booking overlapping a burn's or slew's keep-out."""
+    """``downlink-in-keepout`` (error): a downlink booking overlapping an activity's keep-out (burn, slew...)."""
     out = []
     keepouts = downlink_keepouts(ctx.scenario)
     for b in ctx.scenario.bookings:
