@@ -195,6 +195,8 @@ def _oldest_age(t_out, down_out, on_board, t_pts, stored_pts, t0, initial, gen):
     # stored input curve, with the initial content spread over the time it took to produce
     if initial > 0:
         lead = initial / gen if gen > 0 else 0.0
+        if not np.isfinite(lead):
+            lead = 0.0
         ts = np.concatenate(([t0 - lead], t_pts))
         ss = np.concatenate(([0.0], stored_pts))
     else:
