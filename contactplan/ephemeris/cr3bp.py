@@ -435,16 +435,8 @@ def halo_orbit(mu: float, point, az_norm: float, branch: str = "north", samples:
     guess[2] = az_norm
     s0, period = correct_halo(mu, guess, rh.period / 2.0)
     samples_ = _symmetric_samples(s0, period, mu, samples)
-    if np.max(samples_[2]) > az_norm * (1 + 1e-9):
-        # The corrected orbit's largest excursion is at the other crossing: restart there.
-        half = samples_[:, samples // 2].copy()
-        half[[1, 3, 5]] = 0.0
-        half[[2, 5]] *= -1.0
-        scale = az_norm / half[2]
-        half[2] = az_norm
-        half[0] = rh.x_point + (half[0] - rh.x_point) * scale
-        s0, period = correct_halo(mu, half, period / 2.0)
-        samples_ = _symmetric_samples(s0, period, mu, samples)
+    if np.max(samples_[2]) > az_norm * (1 + 1e-9) or np.min(samples_[2]) < -az_norm:
+        raise InputError("halo orbit correction left the family (no largest excursion at the start)")
     cc, ss = _fourier(samples_)
     # The orbit is symmetric about the x-z plane: x, z, vy are even in phase, y, vx, vz odd.
     cc[[1, 3, 5]] = 0.0
