@@ -13,6 +13,7 @@ import json
 import math
 from pathlib import Path
 
+from contactplan import CAUTION, __version__
 from contactplan.errors import InputError
 
 WHATS = ("passes", "bookings", "ephemeris", "report")
@@ -162,12 +163,26 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     """Write one export and return the line that says what was written.
 
     ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
-    (computed here when needed and not given). ``start_tt``/``end_tt`` bound the
-    ephemeris span (default: the scenario window) and ``step_s`` its spacing.
+    (computed here when needed and not given). ``start_tt``/``end_tt`` (default: the
+    scenario window) are the sampled span of the ephemeris; for passes and the report
+    they replace the planning window (the plan is recomputed), for bookings they keep
+    those that overlap. ``step_s`` is the ephemeris spacing.
     ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
     """
     what, fmt = resolve(out, what)
     out = Path(out)
+    folder = out.parent if str(out.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(f"folder {folder} does not exist", out)
+    if what != "ephemeris" and (start_tt is not None or end_tt is not None):
+        windowed = with_window(scenario, start_tt, end_tt)
+        if (windowed.start_tt, windowed.end_tt) != (scenario.start_tt, scenario.end_tt):
+            if what == "bookings":
+                windowed.bookings = [b for b in scenario.bookings
+                                     if b.end_tt > windowed.start_tt and b.start_tt < windowed.end_tt]
+            else:
+                plan = None  # a plan for another window
+            scenario = windowed
     if what == "passes":
         plan = _plan_for(scenario, plan, progress, cancel)
         passes = plan.passes
@@ -199,7 +214,8 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
             n = write_bookings(scenario, out, fmt, plan=plan, now_tt=now_tt)
         return f"wrote {_plural(n, 'booking')} to {out}"
     if what == "ephemeris":
-        n, t0, t1 = write_ephemeris(scenario, out, start_tt, end_tt, step_s, ephemeris=getattr(plan, "ephemeris", None))
+        n, t0, t1 = write_ephemeris(scenario, out, start_tt, end_tt, step_s,
+                                   ephemeris=getattr(plan, "ephemeris", None), creation_tt=now_tt)
         from contactplan.timescale import format_utc
 
         return f"wrote {_plural(n, 'ephemeris point')} ({format_utc(t0, 0)} to {format_utc(t1, 0)}, every {step_s:g} s) to {out}"
@@ -209,6 +225,17 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
 
     pages = write_report(plan, out, paper=paper, now_tt=now_tt)
     return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
+
+
+def with_window(scenario, start_tt: float | None = None, end_tt: float | None = None):
+    """A shallow copy of the scenario with its planning window replaced (None keeps that edge)."""
+    import dataclasses
+
+    start = scenario.start_tt if start_tt is None else float(start_tt)
+    end = scenario.end_tt if end_tt is None else float(end_tt)
+    if not end > start:
+        raise InputError("the export window ends before it starts")
+    return dataclasses.replace(scenario, start_tt=start, end_tt=end, bookings=list(scenario.bookings))
 
 
 def paper_name(paper: str) -> str:
@@ -232,7 +259,8 @@ def ephemeris_epochs(start_tt: float, end_tt: float, step_s: float):
     return t
 
 
-def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 600.0, ephemeris=None):
+def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 600.0, ephemeris=None,
+                    creation_tt: float | None = None):
     """Sample the scenario's ephemeris and write CCSDS OEM KVN; returns (points, first_tt, last_tt)."""
     from contactplan.ephemeris import ephemeris_for
 
@@ -245,11 +273,11 @@ def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 6
     pos, vel = eph.state(t)  # raises OutOfSpanError naming the covered span
     from contactplan.io.oem import write_oem
 
-    write_oem_samples(write_oem, out, scenario, t, pos, vel)
-    return len(t), float(t[0]), float(t[-1])
-
-
-def write_oem_samples(write_oem, out, scenario, t, pos, vel) -> None:
-    """Hand the samples to the OEM writer (kept apart so the writer's signature lives in one place)."""
+    sc_raw = getattr(scenario.spacecraft, "raw", {}) or {}
     write_oem(out, t, pos, vel, object_name=scenario.spacecraft.name,
-              comments=[f"Sampled by contactplan from scenario {scenario.name!r}, revision {scenario.revision}"])
+              object_id=str(sc_raw.get("object_id") or "UNKNOWN"), center="EARTH", frame="ICRF",
+              time_system="UTC", creation_tt=creation_tt,
+              comments=[f"Sampled by contactplan {__version__} from scenario {scenario.name!r}, "
+                        f"revision {scenario.revision}, every {step_s:g} s",
+                        f"Source: {getattr(eph, 'name', 'ephemeris')}", CAUTION])
+    return len(t), float(t[0]), float(t[-1])
