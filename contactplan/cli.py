@@ -43,6 +43,7 @@ def _parser() -> argparse.ArgumentParser:
             if exc.name != module:
                 raise
             sp.set_defaults(_missing=True)
+            sp.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
             continue
         mod.add_arguments(sp)
         if getattr(mod, "EXAMPLES", None):
