@@ -33,9 +33,17 @@ def test_report_pages_text_and_size(data_dir, tmp_path, paper, size):
     n = len(reader.pages)
     assert msg == f"wrote the weekly report ({n} pages, {'A4' if paper == 'a4' else 'Letter'}) to {out}"
     assert n >= 4
+    orient = []
     for page in reader.pages:
         w, h = float(page.mediabox.width), float(page.mediabox.height)
+        if w > h:  # the timeline page is the same sheet turned to landscape
+            w, h = h, w
+            orient.append("wide")
+        else:
+            orient.append("tall")
         assert w == pytest.approx(size[0], abs=0.01) and h == pytest.approx(size[1], abs=0.01)
+    assert orient[:3] == ["tall", "wide", "tall"] and orient.count("wide") == 1
+    assert "The week at a glance" in " ".join((reader.pages[1].extract_text() or "").split())
     for bid in ("B001", "B002", "B003"):
         assert bid in text
     assert CAUTION in text

@@ -137,7 +137,7 @@ def timeline_figure(plan, width_in: float):
         for b in mine:
             s = seg(b.start_tt, b.end_tt)
             if s and s[1] > 0.12:
-                ax.text(s[0] + s[1] / 2, y[sid], b.id, ha="center", va="center", fontsize=5, color="white",
+                ax.text(s[0] + s[1] / 2, y[sid], b.id, ha="center", va="center", fontsize=6, color="white",
                         zorder=4, clip_on=True)
     kinds = {"burn": ("////", COLOURS["burn"]), "slew": ("\\\\\\\\", COLOURS["slew"]), "other": ("..", COLOURS["other"])}
     for act in sc.activities:
@@ -261,11 +261,11 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     """Write the weekly report PDF atomically; returns the number of pages."""
     from reportlab.lib import colors
     from reportlab.lib.enums import TA_LEFT
-    from reportlab.lib.pagesizes import A4, LETTER
+    from reportlab.lib.pagesizes import A4, LETTER, landscape
     from reportlab.lib.styles import ParagraphStyle, getSampleStyleSheet
     from reportlab.lib.units import inch, mm
-    from reportlab.platypus import (Image, KeepTogether, PageBreak, Paragraph, SimpleDocTemplate, Spacer, Table,
-                                    TableStyle)
+    from reportlab.platypus import (BaseDocTemplate, Frame, Image, KeepTogether, NextPageTemplate, PageBreak,
+                                    PageTemplate, Paragraph, Spacer, Table, TableStyle)
 
     from contactplan.errors import InputError
     from contactplan.fileio import atomic_write
@@ -281,6 +281,9 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     margin = 15 * mm
     frame_w = pagesize[0] - 2 * margin
     fig_w_in = frame_w / inch
+    wide = landscape(pagesize)
+    wide_w = wide[0] - 2 * margin
+    wide_h = wide[1] - 2 * margin - 4 * mm
 
     ss = getSampleStyleSheet()
     body = ParagraphStyle("body", parent=ss["BodyText"], fontName="Helvetica", fontSize=9, leading=11.5)
@@ -295,10 +298,14 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     def P(text, style=body):
         return Paragraph(escape(str(text)), style)
 
-    def figure(fig):
+    def figure(fig, width=None, max_height=None):
         buf = _png(fig)
         w_in, h_in = fig.get_size_inches()
-        return Image(buf, width=frame_w, height=frame_w * h_in / w_in)
+        width = frame_w if width is None else width
+        height = width * h_in / w_in
+        if max_height is not None and height > max_height:
+            width, height = width * max_height / height, max_height
+        return Image(buf, width=width, height=height)
 
     def table(data, widths, header_bg="#DDE6F0", extra=()):
         t = Table(data, colWidths=widths, repeatRows=1)
@@ -345,14 +352,16 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     story.append(table([[P(a, small), P(b, small)] for a, b in facts], [0.3 * frame_w, 0.7 * frame_w],
                        extra=[("BACKGROUND", (0, 0), (-1, 0), colors.white),
                               ("FONT", (0, 0), (0, -1), "Helvetica-Bold", 8)]))
-    story += [Spacer(1, 10 * mm), Paragraph(escape(CAUTION), caution_style), PageBreak()]
+    story += [Spacer(1, 10 * mm), Paragraph(escape(CAUTION), caution_style), NextPageTemplate("wide"), PageBreak()]
 
-    # ---- timeline
+    # ---- timeline, on a landscape page
     story += [P("The week at a glance", h2),
               P("One lane per station: light bands are passes, dark blocks bookings (lighter ends: setup and "
-                "teardown), cross-hatched boxes outages. The top lane holds the spacecraft's burns, slews and "
-                "burn monitor spans; grey columns across all lanes are downlink keep-outs.", small),
-              Spacer(1, 3 * mm), figure(timeline_figure(plan, fig_w_in)), PageBreak()]
+                "teardown), cross-hatched boxes outages; bookings outlined in vermillion have an error. The top "
+                "lane holds the spacecraft's burns, slews and burn monitor spans; grey columns across all lanes "
+                "are downlink keep-outs.", small),
+              Spacer(1, 3 * mm), figure(timeline_figure(plan, wide_w / inch), wide_w, wide_h - 20 * mm),
+              NextPageTemplate("tall"), PageBreak()]
 
     # ---- bookings
     story.append(P(f"Bookings ({len(records)})", h2))
@@ -438,16 +447,23 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         pages[0] = max(pages[0], n)
         canvas.drawString(margin, 9 * mm, f"{sc.spacecraft.name}: {sc.name}, revision {sc.revision}, "
                                           f"generated {_fmt(gen_tt)}")
-        canvas.drawRightString(pagesize[0] - margin, 9 * mm, f"page {n}")
+        canvas.drawRightString(canvas._pagesize[0] - margin, 9 * mm, f"page {n}")
         canvas.setFont("Helvetica-Oblique", 6.5)
         canvas.drawString(margin, 5.5 * mm, CAUTION)
         canvas.restoreState()
 
     buf = io.BytesIO()
-    doc = SimpleDocTemplate(buf, pagesize=pagesize, leftMargin=margin, rightMargin=margin, topMargin=margin,
-                            bottomMargin=margin + 4 * mm, title=f"Weekly contact plan: {sc.name}",
-                            author="contactplan", subject=f"{sc.spacecraft.name}, revision {sc.revision}",
-                            creator=f"contactplan {__version__}")
-    doc.build(story, onFirstPage=on_page, onLaterPages=on_page)
+    doc = BaseDocTemplate(buf, pagesize=pagesize, leftMargin=margin, rightMargin=margin, topMargin=margin,
+                          bottomMargin=margin + 4 * mm, title=f"Weekly contact plan: {sc.name}",
+                          author="contactplan", subject=f"{sc.spacecraft.name}, revision {sc.revision}",
+                          creator=f"contactplan {__version__}")
+
+    def frame(size):
+        return Frame(margin, margin + 4 * mm, size[0] - 2 * margin, size[1] - 2 * margin - 4 * mm, id="body",
+                     leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+
+    doc.addPageTemplates([PageTemplate("tall", [frame(pagesize)], onPage=on_page, pagesize=pagesize),
+                          PageTemplate("wide", [frame(wide)], onPage=on_page, pagesize=wide)])
+    doc.build(story)
     atomic_write(path, buf.getvalue())
     return pages[0]
