@@ -106,6 +106,14 @@ def test_typed_cells():
     assert typed(np.float64(2.5)) == 2.5 and typed(float("nan")) is None and typed("nan") == "nan"
 
 
+def test_ids_stay_text():
+    from contactplan.io.exporting import typed_cell
+
+    assert typed_cell("042", "station") == "042" and typed_cell("true", "station") == "true"
+    assert typed_cell("042", "duration_s") == 42 and typed_cell("1.5", "volume_gbit") == 1.5
+    assert typed_cell("false", "clipped_end") is False and typed_cell("", "station") is None
+
+
 def test_pass_table_sorted_and_starts_with_contract_columns(plan):
     from contactplan.io.exporting import pass_table
 

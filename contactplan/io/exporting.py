@@ -79,6 +79,20 @@ def _fallback_rows(passes) -> list[list]:
     return rows
 
 
+#: unit suffixes of numeric columns: only these turn numeric text into numbers (ids such as "042" stay text)
+NUMERIC_SUFFIXES = ("_s", "_deg", "_km", "_km_s", "_m", "_kbps", "_gbit", "_h", "_min", "_db", "_dbw", "_dbk")
+
+
+def typed_cell(value, column: str):
+    """``typed`` for a named column: text kept as text unless the column's unit says it is a number."""
+    if isinstance(value, str) and value.strip() and not column.endswith(NUMERIC_SUFFIXES):
+        low = value.strip().lower()
+        if low in ("true", "false") and column not in ("station", "id"):
+            return low == "true"
+        return value
+    return typed(value)
+
+
 def typed(value):
     """A table cell as a Python value: numbers from numeric text, booleans from true/false, '' -> None."""
     if value is None or isinstance(value, (bool, int, float)):
@@ -117,13 +131,14 @@ def pass_table(passes) -> tuple[list[str], list[list]]:
     try:
         from contactplan.io.passtable import PASS_COLUMNS, pass_rows
     except ImportError:
-        return list(FALLBACK_PASS_COLUMNS), [[typed(v) for v in r] for r in _fallback_rows(passes)]
+        cols = list(FALLBACK_PASS_COLUMNS)
+        return cols, [[typed_cell(v, c) for v, c in zip(r, cols)] for r in _fallback_rows(passes)]
     columns = list(PASS_COLUMNS)
     rows = []
     for r in pass_rows(passes):
         if isinstance(r, dict):
             r = [r.get(c) for c in columns]
-        rows.append([typed(v) for v in r])
+        rows.append([typed_cell(v, c) for v, c in zip(r, columns)])
     return columns, rows
 
 
