@@ -76,14 +76,11 @@ def _recorder(scenario, passes, profiles):
 
 
 def _shadows(scenario, ephemeris) -> list:
-    try:
-        from contactplan.geometry import shadow
-    except ImportError:
-        return []
-    fn = getattr(shadow, "shadow_spans", None) or getattr(shadow, "find_shadows", None)
-    if fn is None:
-        return []
-    return list(fn(scenario, ephemeris) or [])
+    """Earth and Moon shadow spans over the window: [(start_tt, end_tt, body, kind)]."""
+    from contactplan.geometry import passes as geometry_passes
+
+    fn = getattr(geometry_passes, "shadows", None)
+    return [] if fn is None else list(fn(scenario, ephemeris))
 
 
 def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanResult:

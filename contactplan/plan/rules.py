@@ -517,7 +517,7 @@ def rule_body_in_beam(ctx: RuleContext) -> list[Finding]:
                                     f"the Moon comes within {p.moon_separation_min_deg:.1f} deg of the line of "
                                     f"sight during pass {p.key} used by {b.id}: expect a noisier downlink, "
                                     f"or book another pass"))
-            if p.sun_separation_min_deg < geo.sun_separation_min_deg:
+            if getattr(p, "sun_flag", False) or p.sun_separation_min_deg < geo.sun_separation_min_deg:
                 out.append(_finding("sun-in-beam", WARNING, [b.id, b.station], lo, hi,
                                     f"the Sun comes within {p.sun_separation_min_deg:.1f} deg of the line of "
                                     f"sight during pass {p.key} used by {b.id}: the downlink may fail, "
