@@ -134,3 +134,11 @@ def test_export_messages(plan, tmp_path):
     msg = export(plan.scenario, tmp_path / "b.json", "bookings", plan=plan, now_tt=NOW_TT)
     assert msg == f"wrote 3 bookings to {tmp_path / 'b.json'}"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["b.ics", "b.json", "p.csv"]  # no temporary files left
+
+
+def test_every_menu_choice_resolves():
+    from contactplan.io.exporting import CHOICES, SUPPORTED, resolve
+
+    assert {(w, f) for w, f, _, _ in CHOICES} == SUPPORTED
+    for what, fmt, _label, ext in CHOICES:
+        assert resolve("out" + ext, what) == (what, fmt)

@@ -50,7 +50,8 @@ def test_report_pages_text_and_size(data_dir, tmp_path, paper, size):
     cover = " ".join((reader.pages[0].extract_text() or "").split())
     for words in ("Weekly contact plan", "Invented probe", "Week 03", "Plan revision 4",
                   "2027-01-12T00:00:00Z to 2027-01-19T00:00:00Z", "2027-012T00:00:00Z to 2027-019T00:00:00Z",
-                  "Generated (UTC) 2027-01-11T09:30:00Z", "1 error, 1 warning", CAUTION):
+                  "Generated (UTC) 2027-01-11T09:30:00Z", "1 error, 1 warning", CAUTION,
+                  "built-in libration-point orbit: a planning approximation"):
         assert words in cover, words
     for words in ("outside-pass", "no-ranging", "move it to start at 2027-01-14T09:12:00Z",
                   "Recorder", "lost 12.5 Gbit", "Rate and volume per pass", "16000"):

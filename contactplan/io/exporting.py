@@ -26,6 +26,19 @@ SUPPORTED = {
     ("report", "pdf"),
 }
 
+#: what the app offers in its export menu: (what, format, label, extension)
+CHOICES = (
+    ("passes", "xlsx", "Pass table (Excel workbook)", ".xlsx"),
+    ("passes", "csv", "Pass table (CSV)", ".csv"),
+    ("passes", "json", "Pass table (JSON)", ".json"),
+    ("bookings", "ics", "Booking calendar (iCalendar)", ".ics"),
+    ("bookings", "csv", "Booking list (CSV)", ".csv"),
+    ("bookings", "json", "Booking list (JSON)", ".json"),
+    ("bookings", "xlsx", "Booking list (Excel workbook)", ".xlsx"),
+    ("ephemeris", "oem", "Ephemeris (CCSDS OEM)", ".oem"),
+    ("report", "pdf", "Weekly report (PDF)", ".pdf"),
+)
+
 _EXT = {".csv": "csv", ".json": "json", ".xlsx": "xlsx", ".ics": "ics", ".ical": "ics",
         ".oem": "oem", ".txt": "oem", ".kvn": "oem", ".pdf": "pdf"}
 _IMPLIED = {"ics": "bookings", "oem": "ephemeris", "pdf": "report"}

@@ -348,11 +348,25 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     if rec is not None:
         facts.append(["Recorder (Gbit)", f"capacity {rec.capacity_gbit:.1f}, peak {float(max(rec.fill_gbit, default=0)):.1f}, "
                                          f"end {rec.end_gbit:.1f}, lost {rec.lost_gbit:.1f}"])
+    eph_name = getattr(plan.ephemeris, "name", None)
+    spec = getattr(sc.spacecraft, "ephemeris", None)
+    if eph_name is None and spec is not None:
+        eph_name = str(spec.oem_path.name) if spec.kind == "oem" and spec.oem_path else spec.kind
+    if eph_name:
+        facts.append(["Ephemeris source", str(eph_name)])
     facts.append(["Generator", f"contactplan {__version__}"])
     story.append(table([[P(a, small), P(b, small)] for a, b in facts], [0.3 * frame_w, 0.7 * frame_w],
                        extra=[("BACKGROUND", (0, 0), (-1, 0), colors.white),
                               ("FONT", (0, 0), (0, -1), "Helvetica-Bold", 8)]))
-    story += [Spacer(1, 10 * mm), Paragraph(escape(CAUTION), caution_style), NextPageTemplate("wide"), PageBreak()]
+    cautions = [CAUTION]
+    if spec is not None and spec.kind == "libration":
+        cautions.append("Spacecraft positions come from the built-in libration-point orbit: a planning "
+                        "approximation, not a flight-dynamics ephemeris. Re-check the plan when the delivered "
+                        "ephemeris arrives.")
+    story.append(Spacer(1, 10 * mm))
+    for k, text in enumerate(cautions):
+        story += [Paragraph(escape(text), caution_style if k == 0 else body), Spacer(1, 5 * mm)]
+    story += [NextPageTemplate("wide"), PageBreak()]
 
     # ---- timeline, on a landscape page
     story += [P("The week at a glance", h2),
