@@ -1,0 +1,123 @@
+"""``contactplan passes SCENARIO``: predict the passes of each station over a window.
+
+Without ``--out`` an aligned table goes to stdout; with it the extension picks the
+format (``.csv``, ``.json``, ``.xlsx``, ``.txt`` for the aligned table).
+"""
+
+from __future__ import annotations
+
+import sys
+
+HELP = "predict passes of each station over a window"
+
+EXAMPLES = """\
+  contactplan passes week.toml
+  contactplan passes week.toml --station NRV KAL --out passes.csv
+  contactplan passes week.toml --start 2027-01-12T00:00:00Z --end 2027-040T00:00:00Z --out passes.json
+
+Times are UTC (calendar or day of year, with Z). The window defaults to the
+scenario's; passes under way at its edges are kept, clipped and marked."""
+
+_FORMATS = {".csv": "csv", ".json": "json", ".xlsx": "xlsx", ".txt": "text"}
+
+
+def add_arguments(p) -> None:
+    p.add_argument("scenario", metavar="SCENARIO", help="scenario file (.toml)")
+    p.add_argument("--start", metavar="T", help="window start, UTC (default: the scenario's)")
+    p.add_argument("--end", metavar="T", help="window end, UTC (default: the scenario's)")
+    p.add_argument("--station", metavar="ID", nargs="+", action="extend", default=None,
+                   help="only these stations (repeatable; default: all)")
+    p.add_argument("--out", "-o", metavar="FILE",
+                   help="write the table to FILE; the extension picks the format (.csv .json .xlsx .txt)")
+
+
+def _time(text, opt):
+    from contactplan.errors import InputError
+    from contactplan.timescale import parse_utc
+
+    try:
+        return parse_utc(text)
+    except InputError as exc:
+        raise exc.at(None, f"--{opt}") from None
+
+
+def compute(scenario, start_tt, end_tt, stations=None, warn=None):
+    """Passes of the scenario over the window, with link columns when the scenario has a link."""
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.geometry.passes import coverage_spans, find_passes
+    from contactplan.timescale import format_utc
+
+    eph = ephemeris_for(scenario, start_tt, end_tt)
+    spans = coverage_spans(eph, start_tt, end_tt)
+    if warn is not None and spans and (spans[0][0] > start_tt or spans[-1][1] < end_tt or len(spans) > 1):
+        warn(f"the ephemeris covers only part of the window ({', '.join(format_utc(a, 0) + ' to ' + format_utc(b, 0) for a, b in spans)}); "
+             "passes at the coverage edges are clipped")
+    passes = find_passes(scenario, eph, start_tt, end_tt, stations=stations)
+    if scenario.spacecraft.link is not None and passes:
+        try:
+            from contactplan.link import annotate_passes
+        except ImportError:
+            try:
+                from contactplan.link.volume import annotate_passes
+            except ImportError:
+                annotate_passes = None
+        if annotate_passes is not None:
+            try:
+                annotate_passes(scenario, passes, eph)
+            except NotImplementedError:
+                pass
+    return passes
+
+
+def run(args) -> int:
+    import warnings
+    from pathlib import Path
+
+    from contactplan import CAUTION
+    from contactplan.errors import InputError
+    from contactplan.scenario.load import load_scenario
+
+    fmt = None
+    if args.out:
+        ext = Path(args.out).suffix.lower()
+        fmt = _FORMATS.get(ext)
+        if fmt is None:
+            raise InputError(f"cannot tell the format from the extension {ext or '(none)'!r}: "
+                             f"use .csv, .json, .xlsx or .txt", args.out)
+    start = _time(args.start, "start") if args.start else None
+    end = _time(args.end, "end") if args.end else None
+    scenario = load_scenario(args.scenario)
+    start = scenario.start_tt if start is None else start
+    end = scenario.end_tt if end is None else end
+    if not end > start:
+        raise InputError("the window must end after it starts (check --start and --end)")
+
+    def warn(msg):
+        print(f"contactplan: warning: {' '.join(str(msg).split())}", file=sys.stderr)
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        passes = compute(scenario, start, end, args.station, warn)
+    seen = set()
+    for w in caught:
+        if str(w.message) not in seen:
+            seen.add(str(w.message))
+            warn(w.message)
+
+    from contactplan.io import passtable
+
+    if fmt is None:
+        sys.stdout.write(passtable.passes_text(passes))
+        print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")
+        return 0
+    try:
+        if fmt == "xlsx":
+            from contactplan.io.xlsx import write_passes_xlsx
+
+            write_passes_xlsx(scenario, passes, args.out)
+        else:
+            passtable.write_passes(args.out, passes, fmt, scenario, start, end, args.station)
+    except OSError as exc:
+        raise InputError(f"cannot write: {exc.strerror or exc}", args.out) from None
+    print(f"wrote {len(passes)} pass{'es' if len(passes) != 1 else ''} to {args.out}")
+    return 0

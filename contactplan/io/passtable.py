@@ -1,0 +1,183 @@
+"""The pass table: one row per pass, sorted by AOS, and its CSV, JSON and aligned-text forms.
+
+The first ten columns are fixed (tools read them by position):
+``station, aos_utc, los_utc, duration_s, max_elevation_deg, max_elevation_utc,
+aos_azimuth_deg, los_azimuth_deg, min_range_km, max_range_km``. Times are UTC
+``YYYY-MM-DDTHH:MM:SS.sssZ``; ``aos_doy``/``los_doy`` repeat AOS and LOS as day of
+year (``YYYY-DDDTHH:MM:SSZ``, rounded to the second) for operations logs.
+Link columns (``max_rate_kbps``, ``volume_gbit``) are empty until the link budget
+has been computed.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+FIXED_COLUMNS = (
+    "station", "aos_utc", "los_utc", "duration_s", "max_elevation_deg", "max_elevation_utc",
+    "aos_azimuth_deg", "los_azimuth_deg", "min_range_km", "max_range_km",
+)
+PASS_COLUMNS = FIXED_COLUMNS + (
+    "aos_doy", "los_doy", "clipped_start", "clipped_end", "light_time_s",
+    "sun_separation_min_deg", "moon_separation_min_deg", "sun_earth_probe_deg",
+    "sun_flag", "moon_flag", "outages", "max_rate_kbps", "volume_gbit",
+)
+LINK_COLUMNS = ("max_rate_kbps", "volume_gbit")
+
+
+def _outage_text(outages) -> str:
+    from contactplan.timescale import format_utc
+
+    parts = []
+    for o in outages or []:
+        txt = f"{format_utc(o.start_tt, 0)}/{format_utc(o.end_tt, 0)}"
+        if getattr(o, "reason", ""):
+            txt += f" {o.reason}"
+        parts.append(txt)
+    return "; ".join(parts)
+
+
+def pass_rows(passes) -> list[dict]:
+    """Rows (dicts keyed by :data:`PASS_COLUMNS`) of the passes sorted by AOS.
+
+    Times are text, numbers are rounded Python floats (durations to the
+    millisecond, angles to 0.001 deg, ranges to the metre, light time to the
+    microsecond), flags are bools, link values None when not computed.
+    """
+    from contactplan.timescale import format_doy, format_utc
+
+    rows = []
+    for p in sorted(passes, key=lambda p: (p.aos_tt, p.station)):
+        rows.append({
+            "station": p.station,
+            "aos_utc": format_utc(p.aos_tt),
+            "los_utc": format_utc(p.los_tt),
+            "duration_s": round(p.los_tt - p.aos_tt, 3),
+            "max_elevation_deg": round(p.max_elevation_deg, 3),
+            "max_elevation_utc": format_utc(p.max_elevation_tt),
+            "aos_azimuth_deg": round(p.aos_azimuth_deg, 3),
+            "los_azimuth_deg": round(p.los_azimuth_deg, 3),
+            "min_range_km": round(p.min_range_km, 3),
+            "max_range_km": round(p.max_range_km, 3),
+            "aos_doy": format_doy(p.aos_tt),
+            "los_doy": format_doy(p.los_tt),
+            "clipped_start": bool(p.clipped_start),
+            "clipped_end": bool(p.clipped_end),
+            "light_time_s": round(p.light_time_s, 6),
+            "sun_separation_min_deg": round(p.sun_separation_min_deg, 3),
+            "moon_separation_min_deg": round(p.moon_separation_min_deg, 3),
+            "sun_earth_probe_deg": round(p.sun_earth_probe_deg, 3),
+            "sun_flag": bool(getattr(p, "sun_flag", False)),
+            "moon_flag": bool(getattr(p, "moon_flag", False)),
+            "outages": _outage_text(p.outages),
+            "max_rate_kbps": None if p.max_rate_kbps is None else round(float(p.max_rate_kbps), 3),
+            "volume_gbit": None if p.volume_gbit is None else round(float(p.volume_gbit), 6),
+        })
+    return rows
+
+
+def columns_for(rows) -> list[str]:
+    """PASS_COLUMNS, without the link columns when no row has a value in them."""
+    has_link = any(r.get(c) is not None for r in rows for c in LINK_COLUMNS)
+    return [c for c in PASS_COLUMNS if has_link or c not in LINK_COLUMNS]
+
+
+def _csv_cell(v):
+    if v is None:
+        return ""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    return v
+
+
+def passes_csv_text(passes, columns=None) -> str:
+    """RFC 4180 CSV (CRLF line ends, header first)."""
+    rows = pass_rows(passes)
+    cols = list(columns or columns_for(rows))
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\r\n")
+    w.writerow(cols)
+    for r in rows:
+        w.writerow([_csv_cell(r.get(c)) for c in cols])
+    return buf.getvalue()
+
+
+def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None) -> str:
+    """JSON document: what was computed (scenario, window, stations, caution) and the rows."""
+    from contactplan import CAUTION, __version__
+    from contactplan.timescale import format_utc, now_tt
+
+    rows = pass_rows(passes)
+    doc = {"generator": f"contactplan {__version__}", "generated": format_utc(now_tt(), 0), "caution": CAUTION}
+    if scenario is not None:
+        doc["scenario"] = scenario.name
+        doc["spacecraft"] = scenario.spacecraft.name
+        s = scenario.start_tt if start_tt is None else start_tt
+        e = scenario.end_tt if end_tt is None else end_tt
+        doc["window"] = {"start": format_utc(s), "end": format_utc(e)}
+        doc["refraction"] = bool(getattr(scenario.geometry, "refraction", False))
+    if stations:
+        doc["stations"] = list(stations)
+    doc["columns"] = columns_for(rows)
+    doc["passes"] = [{c: r[c] for c in doc["columns"]} for r in rows]
+    return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+
+
+def _hms(seconds: float) -> str:
+    s = int(round(seconds))
+    return f"{s // 3600:d}:{s % 3600 // 60:02d}:{s % 60:02d}"
+
+
+def passes_text(passes) -> str:
+    """An aligned table for a terminal: one line per pass, notes for clipped, flagged and cut passes."""
+    from contactplan.timescale import format_utc
+
+    head = ("STATION", "AOS (UTC)", "LOS (UTC)", "DURATION", "MAX EL", "MAX EL AT (UTC)",
+            "AZ AOS", "AZ LOS", "RANGE km", "NOTES")
+    lines = []
+    for p in sorted(passes, key=lambda p: (p.aos_tt, p.station)):
+        notes = []
+        if p.clipped_start:
+            notes.append("under way at window start")
+        if p.clipped_end:
+            notes.append("under way at window end")
+        if getattr(p, "moon_flag", False):
+            notes.append(f"Moon {p.moon_separation_min_deg:.1f} deg from beam")
+        if getattr(p, "sun_flag", False):
+            notes.append(f"Sun {p.sun_separation_min_deg:.1f} deg from beam")
+        for o in p.outages or []:
+            notes.append(f"outage {format_utc(o.start_tt, 0)[5:16]}-{format_utc(o.end_tt, 0)[11:16]}"
+                         + (f" {o.reason}" if getattr(o, "reason", "") else ""))
+        if p.volume_gbit is not None:
+            notes.append(f"{p.volume_gbit:.1f} Gbit")
+        lines.append((p.station, format_utc(p.aos_tt, 0), format_utc(p.los_tt, 0), _hms(p.duration_s),
+                      f"{p.max_elevation_deg:.2f}", format_utc(p.max_elevation_tt, 0),
+                      f"{p.aos_azimuth_deg:.1f}", f"{p.los_azimuth_deg:.1f}",
+                      f"{p.min_range_km:,.0f}", "; ".join(notes)))
+    widths = [max(len(h), *(len(r[i]) for r in lines)) if lines else len(h) for i, h in enumerate(head)]
+    right = {3, 4, 6, 7, 8}
+
+    def fmt(row):
+        cells = [c.rjust(w) if i in right else c.ljust(w) for i, (c, w) in enumerate(zip(row, widths))]
+        return "  ".join(cells).rstrip()
+
+    out = [fmt(head)] + [fmt(r) for r in lines]
+    return "\n".join(out) + "\n"
+
+
+def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=None, stations=None) -> int:
+    """Write the pass table as ``fmt`` ("csv", "json" or "text") atomically; returns the row count."""
+    from contactplan.fileio import atomic_write
+
+    if fmt == "csv":
+        text = passes_csv_text(passes)
+    elif fmt == "json":
+        text = passes_json_text(passes, scenario, start_tt, end_tt, stations)
+    elif fmt == "text":
+        text = passes_text(passes)
+    else:
+        raise ValueError(f"unknown pass-table format {fmt!r}")
+    atomic_write(path, text)
+    return len(passes)
