@@ -132,3 +132,36 @@ def test_balance_to_the_bit(plan):
     assert np.all(np.diff(r.t_tt) > 0) and np.all(r.oldest_age_s >= 0)
     # downlink never exceeds what the booked profiles allow
     assert r.downlinked_gbit <= sum(p.volume_gbit() for p in profiles.values()) + BIT
+
+
+def test_demo_week_recorder_is_consistent():
+    # The bundled demo (invented mission): real passes, profiles and bookings end to end.
+    from pathlib import Path
+
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.geometry.passes import find_passes
+    from contactplan.link.volume import annotate_passes
+    from contactplan.link.windows import downlink_windows
+    from contactplan.scenario import load_scenario
+
+    path = Path(__file__).resolve().parents[1] / "resources" / "demo" / "week.toml"
+    if not path.exists():
+        pytest.skip("demo scenario not written yet")
+    sc = load_scenario(path)
+    if sc.spacecraft.recorder is None or sc.spacecraft.link is None:
+        pytest.skip("demo has no recorder or link")
+    eph = ephemeris_for(sc)
+    passes = find_passes(sc, eph)
+    profiles = annotate_passes(sc, passes, eph)
+    r = simulate_recorder(sc, passes, profiles)
+    rec = sc.spacecraft.recorder
+    assert abs(r.initial_gbit + r.generated_gbit - (r.downlinked_gbit + r.end_gbit + r.lost_gbit)) < BIT
+    top = max(sc.spacecraft.link.rates_kbps) * 1e-6
+    for b in sc.bookings:
+        got = r.downlinked_by_booking_gbit.get(b.id, 0.0)
+        windows = downlink_windows(sc, b, passes)
+        if "downlink" not in b.purposes:
+            assert got == 0.0 and windows == []
+        assert got <= top * sum(e - s for s, e in windows) + BIT
+    assert r.t_tt[0] == sc.start_tt and r.t_tt[-1] == sc.end_tt
+    assert np.all(r.fill_gbit <= rec.capacity_gbit + BIT)
