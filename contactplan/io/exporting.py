@@ -143,12 +143,18 @@ def pass_table(passes) -> tuple[list[str], list[list]]:
     passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
     try:
         from contactplan.io.passtable import PASS_COLUMNS, pass_rows
-    except ImportError:
+    except ImportError:  # pragma: no cover - only while the pass table module is missing
         cols = list(FALLBACK_PASS_COLUMNS)
         return cols, [[typed_cell(v, c) for v, c in zip(r, cols)] for r in _fallback_rows(passes)]
-    columns = list(PASS_COLUMNS)
+    raw = pass_rows(passes)
+    try:  # the same columns as ``contactplan passes`` (link columns only once computed)
+        from contactplan.io.passtable import columns_for
+
+        columns = list(columns_for(raw))
+    except ImportError:  # pragma: no cover
+        columns = list(PASS_COLUMNS)
     rows = []
-    for r in pass_rows(passes):
+    for r in raw:
         if isinstance(r, dict):
             r = [r.get(c) for c in columns]
         rows.append([typed_cell(v, c) for v, c in zip(r, columns)])

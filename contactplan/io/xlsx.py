@@ -23,8 +23,21 @@ _BAD_SHEET = re.compile(r"[\[\]:*?/\\]")
 DATETIME_FORMAT = "yyyy-mm-dd hh:mm:ss.000"
 
 
+_LABELS = {
+    "sun_earth_probe_deg": "Sun-Earth-probe angle (deg)",
+    "sun_separation_min_deg": "Min Sun separation (deg)",
+    "moon_separation_min_deg": "Min Moon separation (deg)",
+    "sun_flag": "Sun near beam",
+    "moon_flag": "Moon near beam",
+    "light_time_s": "One-way light time (s)",
+    "downlinked_gbit": "Downlinked (Gbit)",
+}
+
+
 def header_label(column: str) -> str:
     """A readable header with its unit: ``max_elevation_deg`` -> ``Max elevation (deg)``."""
+    if column in _LABELS:
+        return _LABELS[column]
     unit = None
     base = column
     for suffix in sorted(_UNITS, key=len, reverse=True):
@@ -46,7 +59,11 @@ def _expand(columns, rows):
     from contactplan.timescale import format_doy, parse_utc, to_datetime
 
     keys, labels, dt_idx, plan = [], [], [], []
+    columns = list(columns)
+    moved = {columns.index(c[:-4] + "_doy") for c in columns if c.endswith("_utc") and c[:-4] + "_doy" in columns}
     for i, c in enumerate(columns):
+        if i in moved:
+            continue  # shown next to its UTC column
         keys.append(c)
         labels.append(header_label(c))
         plan.append(("value", i))
@@ -54,7 +71,10 @@ def _expand(columns, rows):
             stem = c[: -len("_utc")]
             keys.append(stem + "_doy")
             labels.append(header_label(stem + "_doy"))
-            plan.append(("doy", i))
+            if stem + "_doy" in columns:  # the table has its own DOY column: keep its text
+                plan.append(("value", columns.index(stem + "_doy")))
+            else:
+                plan.append(("doy", i))
             keys.append(stem + "_datetime")
             labels.append(f"{header_label(stem)} (date-time, UTC)")
             plan.append(("dt", i))
@@ -70,7 +90,7 @@ def _expand(columns, rows):
                 row.append(None)
             else:
                 tt = parse_utc(str(v))
-                row.append(format_doy(tt, 3) if kind == "doy" else to_datetime(tt).replace(tzinfo=None))
+                row.append(format_doy(tt) if kind == "doy" else to_datetime(tt).replace(tzinfo=None))
         out.append(row)
     return keys, labels, out, dt_idx
 
