@@ -135,7 +135,8 @@ def lagrange(t_nodes, pos, vel, t, degree: int, step=None):
     if vel is None:
         return _combine(L, k, pos), None
     both = _combine(L, k, np.hstack([pos, vel]))
-    return np.ascontiguousarray(both[:, :3]), np.ascontiguousarray(both[:, 3:])
+    c = pos.shape[1]
+    return np.ascontiguousarray(both[:, :c]), np.ascontiguousarray(both[:, c:])
 
 
 def lagrange_derivative(t_nodes, pos, t, degree: int, step=None):

@@ -24,6 +24,14 @@ _ID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{0,31}$")
 _MISSING = object()
 
 
+def _as_float(x) -> float:
+    """float(x), with integers too large for a float turned into infinity (refused as not finite)."""
+    try:
+        return float(x)
+    except OverflowError:
+        return math.inf
+
+
 class Table:
     """A TOML table with typed, validated getters that name the field on error."""
 
@@ -77,9 +85,13 @@ class Table:
             return None
         if isinstance(v, bool) or not isinstance(v, (int, float)):
             self.fail(key, f"expected a number, got {v!r}")
-        if integer and not (isinstance(v, int) or float(v).is_integer()):
+        try:
+            fv = float(v)
+        except OverflowError:
+            self.fail(key, f"{str(v)[:20]}... is too large a number")
+        if integer and not (isinstance(v, int) or fv.is_integer()):
             self.fail(key, f"expected a whole number, got {v!r}")
-        if not math.isfinite(v):
+        if not math.isfinite(fv):
             self.fail(key, f"{v} is not a finite number")
         if lo is not None and (v < lo or (lo_open and v == lo)):
             self.fail(key, f"{v} is out of range (must be {'>' if lo_open else '>='} {lo})")
@@ -153,7 +165,7 @@ def _station(t: Table) -> m.Station:
         f = f"horizon_mask[{i + 1}]"
         if not (isinstance(p, list) and len(p) == 2 and all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in p)):
             t.fail(f, f"expected [azimuth_deg, elevation_deg], got {p!r}")
-        az, el = float(p[0]), float(p[1])
+        az, el = _as_float(p[0]), _as_float(p[1])
         if not (math.isfinite(az) and 0.0 <= az < 360.0):
             t.fail(f, f"azimuth {p[0]} is out of range (0 <= azimuth < 360)")
         if not (math.isfinite(el) and -5.0 <= el <= 90.0):
@@ -200,7 +212,7 @@ def _link(t: Table) -> m.Link:
     if not rates:
         t.fail("rates_kbps", "give at least one rate")
     for i, r in enumerate(rates):
-        if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(r) or r <= 0:
+        if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(_as_float(r)) or r <= 0:
             t.fail(f"rates_kbps[{i + 1}]", f"expected a positive rate in kbit/s, got {r!r}")
     t.loaded["rates_kbps"] = sorted(float(r) for r in rates)
     return t.keep(m.Link(
@@ -348,6 +360,8 @@ def parse_text(text: str, path: Path | None = None) -> m.Scenario:
         line = int(mm.group(1)) if mm else None
         msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
         raise InputError(f"not valid TOML: {msg}", path, line) from None
+    except RecursionError:
+        raise InputError("not valid TOML: nested too deeply", path) from None
     return parse_document(doc, path)
 
 
