@@ -47,3 +47,34 @@ def test_booking_across_two_passes():
 ])
 def test_subtract_spans(cuts, expected):
     assert subtract_spans([(0, 10)], cuts) == expected
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+from test_link_helpers import make_pass as _mp  # noqa: E402
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(st.floats(0, 1e5), st.floats(1, 2e4)), max_size=5),
+       st.lists(st.tuples(st.floats(0, 1e5), st.floats(0, 120), st.floats(0, 60)), max_size=4),
+       st.floats(-1e4, 1e5), st.floats(1, 5e4), st.sampled_from([0, 15, 45]), st.sampled_from([0, 10]))
+def test_windows_respect_every_limit(pass_specs, act_specs, b0, blen, setup, teardown):
+    # Property (definition of booked downlink time in the scenario contract, no outside source)
+    spans = []
+    for a, d in sorted(pass_specs):
+        if spans and a < spans[-1][1]:
+            continue  # passes of one station do not overlap
+        spans.append((a, a + d))
+    passes = [_mp("AAA", a, z) for a, z in spans]
+    acts = [activity(f"A{i}", s, dur, ko) for i, (s, dur, ko) in enumerate(act_specs)]
+    sc = make_scenario(stations=[station("AAA", setup_min=setup, teardown_min=teardown)], activities=acts)
+    b = booking("B1", "AAA", b0, b0 + blen)
+    wins = downlink_windows(sc, b, passes)
+    for s, e in wins:
+        assert e > s
+        assert s >= b.start_tt + setup * 60 - 1e-6 and e <= b.end_tt - teardown * 60 + 1e-6
+        assert any(p.aos_tt <= s and e <= p.los_tt for p in passes)
+        for a in acts:
+            k0, k1 = a.keepout_span_tt
+            assert k1 <= k0 or e <= k0 or s >= k1  # an empty keep-out cuts nothing
+    assert all(w1[0] >= w0[1] for w0, w1 in zip(wins, wins[1:]))
