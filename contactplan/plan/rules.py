@@ -23,6 +23,7 @@ Terms used by several rules (all times TT seconds since J2000):
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -88,9 +89,14 @@ def total_s(spans) -> float:
 
 
 # ---------------------------------------------------------------- text helpers
+@lru_cache(maxsize=1 << 16)
+def _t_text(tt: float) -> str:
+    return format_utc(tt, 0)
+
+
 def t_text(tt: float) -> str:
-    """Time for messages: ``2027-01-12T19:00:00Z``."""
-    return format_utc(float(tt), 0)
+    """Time for messages: ``2027-01-12T19:00:00Z`` (cached: the same edges recur in many messages)."""
+    return _t_text(float(tt))
 
 
 def span_text(a: float, b: float) -> str:
