@@ -74,13 +74,15 @@ def test_report_first_page_renders(data_dir, tmp_path):
     plan = make_plan(data_dir)
     out = tmp_path / "week.pdf"
     write_report(plan, out, paper="letter", now_tt=NOW_TT)
-    subprocess.run([exe, "-png", "-r", "72", "-f", "1", "-l", "1", "-singlefile", str(out), str(tmp_path / "p1")],
-                   check=True, timeout=120)
-    png = (tmp_path / "p1.png").read_bytes()
-    # PNG IHDR: width and height are big-endian 32-bit at bytes 16-24 (PNG spec, ISO/IEC 15948 11.2.2)
-    assert png[:8] == b"\x89PNG\r\n\x1a\n"
-    w, h = int.from_bytes(png[16:20], "big"), int.from_bytes(png[20:24], "big")
-    assert (w, h) == (612, 792)  # Letter at 72 dpi
+    for page, size in ((1, (612, 792)), (2, (792, 612))):  # Letter at 72 dpi; page 2 is the landscape timeline
+        stem = tmp_path / f"p{page}"
+        subprocess.run([exe, "-png", "-r", "72", "-f", str(page), "-l", str(page), "-singlefile", str(out),
+                        str(stem)], check=True, timeout=120)
+        png = stem.with_suffix(".png").read_bytes()
+        # PNG IHDR: width and height are big-endian 32-bit at bytes 16-24 (PNG spec, ISO/IEC 15948 11.2.2)
+        assert png[:8] == b"\x89PNG\r\n\x1a\n"
+        w, h = int.from_bytes(png[16:20], "big"), int.from_bytes(png[20:24], "big")
+        assert (w, h) == size
 
 
 def test_report_with_empty_plan(data_dir, tmp_path):
