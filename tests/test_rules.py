@@ -368,3 +368,15 @@ def test_context_tracked_time():
 @pytest.mark.parametrize("rule", RULES, ids=lambda r: r.__name__)
 def test_each_rule_quiet_on_empty_plan(rule):
     assert rule(RuleContext.build(make_scenario(), PASSES)) == []
+
+
+def test_downlink_split_avoids_every_keepout_it_touches():
+    dump = m.Activity(id="DUMP-1", kind="other", start_tt=t("2027-01-13T01:00:00Z"), duration_min=10)
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T17:00:00Z", "2027-01-13T04:00:00Z")],
+                       activities=[SLEW, dump])
+    f = rules_of(check_plan(sc, PASSES), "downlink-in-keepout")
+    assert [x.subjects for x in f] == [["B001", "SLEW-A"], ["B001", "DUMP-1"]]
+    expected = ("split it into 2027-01-12T17:00:00Z to 2027-01-12T21:50:00Z, 2027-01-12T22:30:00Z to "
+                "2027-01-13T01:00:00Z and 2027-01-13T01:10:00Z to 2027-01-13T04:00:00Z")
+    assert all(expected in x.message for x in f)
+    assert "keep-out of activity DUMP-1" in f[1].message

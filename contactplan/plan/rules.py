@@ -272,30 +272,34 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
 
 
 def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
-    """``downlink-in-keepout`` (error): a downlink booking overlapping an activity's keep-out (burn, slew...)."""
+    """``downlink-in-keepout`` (error): a downlink booking overlapping an activity's keep-out (burn, slew...).
+
+    The proposed split is the booking minus every keep-out it touches, keeping the
+    pieces longer than the station's setup plus teardown.
+    """
     out = []
     keepouts = downlink_keepouts(ctx.scenario)
     for b in ctx.scenario.bookings:
         if "downlink" not in b.purposes:
             continue
-        for k0, k1, act in keepouts:
-            if not (k0 < b.end_tt and b.start_tt < k1):
-                continue
-            parts = []
-            need = ctx.setup_s(b) + ctx.teardown_s(b)
-            if k0 - b.start_tt > need:
-                parts.append(span_text(b.start_tt, k0))
-            if b.end_tt - k1 > need:
-                parts.append(span_text(k1, b.end_tt))
-            if len(parts) == 2:
-                fix = f"split it into {parts[0]} and {parts[1]}"
-            elif parts:
-                fix = f"cut it to {parts[0]}"
-            else:
-                fix = "move it"
-            others = [p for p in b.purposes if p != "downlink"]
-            alt = f", or keep it for {' and '.join(others)} only" if others else ""
-            msg = (f"downlink booking {b.id} ({b.station}) overlaps the keep-out of {act.kind} {act.id} "
+        hits = [(k0, k1, act) for k0, k1, act in keepouts if k0 < b.end_tt and b.start_tt < k1]
+        if not hits:
+            continue
+        need = ctx.setup_s(b) + ctx.teardown_s(b)
+        pieces = [(a, c) for a, c in subtract([(b.start_tt, b.end_tt)], [(k0, k1) for k0, k1, _ in hits])
+                  if c - a > need]
+        parts = [span_text(a, c) for a, c in pieces]
+        if len(parts) >= 2:
+            fix = f"split it into {', '.join(parts[:-1])} and {parts[-1]}"
+        elif parts:
+            fix = f"cut it to {parts[0]}"
+        else:
+            fix = "move it (no piece outside the keep-outs is longer than setup and teardown)"
+        others = [p for p in b.purposes if p != "downlink"]
+        alt = f", or keep it for {' and '.join(others)} only" if others else ""
+        for k0, k1, act in hits:
+            what = act.kind if act.kind in ("burn", "slew") else "activity"
+            msg = (f"downlink booking {b.id} ({b.station}) overlaps the keep-out of {what} {act.id} "
                    f"({span_text(k0, k1)}): {fix}{alt}")
             out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, b.start_tt),
                                 min(k1, b.end_tt), msg))
