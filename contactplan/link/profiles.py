@@ -83,7 +83,7 @@ class RecorderResult:
     initial_gbit: float = 0.0  # on board at the window's start
     start_tt: float = 0.0
     end_tt: float = 0.0
-    downlink_spans: list = field(default_factory=list)  # [(start_tt, end_tt, rate_kbps, booking id)] data flowing
+    downlink_spans: list = field(default_factory=list)  # [(start_tt, end_tt, rate_kbps, booking id)] booked rate in use (see empty_spans)
     empty_spans: list = field(default_factory=list)  # [(start_tt, end_tt)] recorder empty while downlink booked
 
     def fill_at(self, t_tt):
