@@ -304,3 +304,18 @@ def test_demo_scenario_round_trips(tmp_path):
     out = save_scenario(sc, tmp_path / "week.toml")
     assert as_data(load_scenario(out)) == as_data(sc)
     assert doc_of(out) | {"format_version": 1} == tomllib.loads(demo.read_text(encoding="utf-8")) | {"format_version": 1}
+
+
+def test_a_scenario_that_would_not_load_again_is_not_saved(copy_minimal):
+    before = copy_minimal.read_bytes()
+    sc = load_scenario(copy_minimal)
+    b = sc.booking("B001")
+    b.end_tt = b.start_tt - 60.0
+    with pytest.raises(InputError) as e:
+        save_scenario(sc)
+    msg = str(e.value)
+    assert "not saved: booking ends before it starts" in msg and "bookings[B001].end" in msg
+    assert copy_minimal.read_bytes() == before
+    b.end_tt = b.start_tt + 3600.0
+    save_scenario(sc)
+    assert load_scenario(copy_minimal).booking("B001").duration_s == 3600.0

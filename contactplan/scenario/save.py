@@ -190,8 +190,15 @@ def dumps(sc: m.Scenario) -> str:
     return tomli_w.dumps(dump_document(sc))
 
 
-def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True) -> Path:
-    """Atomically write the scenario to ``path`` (default: where it was read from)."""
+def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
+                  validate: bool = True) -> Path:
+    """Atomically write the scenario to ``path`` (default: where it was read from).
+
+    With ``validate`` (the default) the text is read back through the loader before
+    anything is written: a scenario that could not be opened again (a booking ending
+    before it starts, an unknown station...) is refused with an :class:`InputError`
+    naming the field, and the file on disk is left as it was.
+    """
     target = Path(path) if path is not None else sc.path
     if target is None:
         raise ValueError("no path to save to")
@@ -201,6 +208,14 @@ def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool =
         text = dumps(sc)
     finally:
         sc.path = old_path
+    if validate:
+        from contactplan.errors import InputError
+        from contactplan.scenario.load import parse_text
+
+        try:
+            parse_text(text, target)
+        except InputError as exc:
+            raise InputError(f"not saved: {exc.message}", target, exc.where) from None
     atomic_write(target, text, backup=backup)
     sc.path = target
     sc.format_version = m.FORMAT_VERSION  # an older file is upgraded by its first save
