@@ -313,6 +313,7 @@ def test_a_scenario_that_would_not_load_again_is_not_saved(copy_minimal):
     b.end_tt = b.start_tt - 60.0
     with pytest.raises(InputError) as e:
         save_scenario(sc)
+    assert isinstance(e.value, ValueError)  # the planner window reports ValueError/OSError from a save
     msg = str(e.value)
     assert "not saved: booking ends before it starts" in msg and "bookings[B001].end" in msg
     assert copy_minimal.read_bytes() == before

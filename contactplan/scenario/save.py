@@ -16,6 +16,7 @@ from pathlib import Path
 
 import tomli_w
 
+from contactplan.errors import InputError
 from contactplan.fileio import atomic_write
 from contactplan.scenario import model as m
 from contactplan.timescale import format_utc
@@ -190,6 +191,10 @@ def dumps(sc: m.Scenario) -> str:
     return tomli_w.dumps(dump_document(sc))
 
 
+class NotSavedError(InputError, ValueError):
+    """The scenario was refused before writing (it would not load again); the file is untouched."""
+
+
 def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
                   validate: bool = True) -> Path:
     """Atomically write the scenario to ``path`` (default: where it was read from).
@@ -209,13 +214,12 @@ def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool =
     finally:
         sc.path = old_path
     if validate:
-        from contactplan.errors import InputError
         from contactplan.scenario.load import parse_text
 
         try:
             parse_text(text, target)
         except InputError as exc:
-            raise InputError(f"not saved: {exc.message}", target, exc.where) from None
+            raise NotSavedError(f"not saved: {exc.message}", target, exc.where) from None
     atomic_write(target, text, backup=backup)
     sc.path = target
     sc.format_version = m.FORMAT_VERSION  # an older file is upgraded by its first save
