@@ -19,12 +19,20 @@ from __future__ import annotations
 import numpy as np
 
 
-def window_starts(t_nodes: np.ndarray, t: np.ndarray, n: int) -> np.ndarray:
-    """Index of the first node of the ``n``-node window used for each query time."""
+def window_starts(t_nodes: np.ndarray, t: np.ndarray, n: int, step: float | None = None) -> np.ndarray:
+    """Index of the first node of the ``n``-node window used for each query time.
+
+    With equally spaced nodes (``step``) the interval is found by division
+    instead of a search (a query on a node may then take the window one
+    interval earlier, which holds it all the same).
+    """
     size = len(t_nodes)
     if n > size:
         raise ValueError(f"window of {n} nodes but only {size} nodes")
-    m = np.searchsorted(t_nodes, t, side="right") - 1  # interval [t_m, t_m+1)
+    if step is not None:
+        m = np.floor((t - t_nodes[0]) * (1.0 / step)).astype(np.int64)
+    else:
+        m = np.searchsorted(t_nodes, t, side="right") - 1  # interval [t_m, t_m+1)
     k = m - (n // 2 - 1) if n % 2 == 0 else m - n // 2
     return np.clip(k, 0, size - n)
 
@@ -118,7 +126,7 @@ def _combine(weights, k, table):
             np.take(cols[c], ki, out=buf)
             buf *= w
             out[c] += buf
-    return np.ascontiguousarray(out.T)
+    return out.T  # (M, columns) view; rows are not contiguous, which numpy handles alike
 
 
 def lagrange(t_nodes, pos, vel, t, degree: int, step=None):
@@ -130,20 +138,20 @@ def lagrange(t_nodes, pos, vel, t, degree: int, step=None):
     """
     t = np.asarray(t, dtype=float)
     n = degree + 1
-    k = window_starts(t_nodes, t, n)
+    k = window_starts(t_nodes, t, n, step)
     L, _, _ = _basis(t_nodes, t, k, n, step=step)
     if vel is None:
         return _combine(L, k, pos), None
     both = _combine(L, k, np.hstack([pos, vel]))
     c = pos.shape[1]
-    return np.ascontiguousarray(both[:, :c]), np.ascontiguousarray(both[:, c:])
+    return both[:, :c], both[:, c:]
 
 
 def lagrange_derivative(t_nodes, pos, t, degree: int, step=None):
     """Derivative of the Lagrange interpolant of ``pos`` (for tables without velocity)."""
     t = np.asarray(t, dtype=float)
     n = degree + 1
-    k = window_starts(t_nodes, t, n)
+    k = window_starts(t_nodes, t, n, step)
     _, dL, _ = _basis(t_nodes, t, k, n, derivative=True, step=step)
     return _combine(dL, k, pos)
 
@@ -157,7 +165,7 @@ def hermite(t_nodes, pos, vel, t, degree: int, step=None):
     """
     t = np.asarray(t, dtype=float)
     n = degree + 1
-    k = window_starts(t_nodes, t, n)
+    k = window_starts(t_nodes, t, n, step)
     L, dL, d = _basis(t_nodes, t, k, n, derivative=True, step=step)
     if step is None:
         nodes = np.stack([t_nodes[k + j] for j in range(n)])

@@ -132,7 +132,8 @@ class OemEphemeris(Ephemeris):
         pos = np.empty((t.size, 3))
         vel = np.empty((t.size, 3))
         if len(self._pieces) == 1:
-            seg_of = np.zeros(t.size, dtype=np.int64)
+            tab = self._tables[int(self._piece_seg[0])]
+            return interpolate(tab.method, tab.t, tab.p, tab.v, t, tab.degree, tab.step)
         else:
             piece = np.clip(np.searchsorted(self._piece_start, t, side="right") - 1, 0, len(self._pieces) - 1)
             seg_of = self._piece_seg[piece]
