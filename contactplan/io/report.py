@@ -40,7 +40,7 @@ COLOURS = {
     "capacity": "#000000",
 }
 STATION_CYCLE = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F0E442", "#000000")
-STATION_HATCH = ("", "////", "....", "xxxx", "\\\\\\\\", "++", "oo", "--")
+STATION_MARKER = ("o", "s", "^", "D", "v", "P", "X", "*")
 DPI = 200
 
 
@@ -200,30 +200,32 @@ def recorder_figure(plan, width_in: float):
 
 
 def rate_volume_figure(plan, width_in: float):
-    """Top: achievable rate along each profiled pass; bottom: volume each pass could return (bars span AOS-LOS)."""
+    """Top: achievable rate along each profiled pass; bottom: volume each pass could return (stem at culmination)."""
     import numpy as np
     from matplotlib.figure import Figure
-    from matplotlib.patches import Patch
+    from matplotlib.lines import Line2D
 
     sc = plan.scenario
     t0, t1 = sc.start_tt, sc.end_tt
     sids = [s.id for s in sc.stations]
-    style = {sid: (STATION_CYCLE[i % len(STATION_CYCLE)], STATION_HATCH[i % len(STATION_HATCH)])
+    style = {sid: (STATION_CYCLE[i % len(STATION_CYCLE)], STATION_MARKER[i % len(STATION_MARKER)])
              for i, sid in enumerate(sids)}
     fig = Figure(figsize=(width_in, 3.6), layout="constrained")
     ax1, ax2 = fig.subplots(2, 1, sharex=True)
     for p in plan.passes:
         prof = (plan.profiles or {}).get(id(p))
-        colour = style.get(p.station, ("#000000", ""))[0]
+        colour, marker = style.get(p.station, ("#000000", "o"))
         if prof is not None and len(prof.t_tt):
             ax1.step(_days(prof.t_tt, t0), np.asarray(prof.rate_kbps, dtype=float) / 1000.0, where="post",
                      color=colour, lw=0.9)
-        if p.volume_gbit:
-            a, b = max(p.aos_tt, t0), min(p.los_tt, t1)
-            if b > a:
-                colour, hatch = style.get(p.station, ("#000000", ""))
-                ax2.bar((a - t0) / 86400.0, p.volume_gbit, width=(b - a) / 86400.0, align="edge",
-                        color=colour, alpha=0.75, hatch=hatch, edgecolor="black", lw=0.4)
+        if p.volume_gbit and t0 <= p.max_elevation_tt <= t1:
+            # a stem at culmination: passes of different stations overlap in time, stems do not hide each other
+            x = (p.max_elevation_tt - t0) / 86400.0
+            ax2.vlines(x, 0, p.volume_gbit, color=colour, lw=1.2)
+            ax2.plot([x], [p.volume_gbit], marker=marker, color=colour, markeredgecolor="black", markersize=5,
+                     markeredgewidth=0.5, ls="none")
+    ax1.set_ylim(bottom=0)
+    ax2.set_ylim(bottom=0)
     ax1.set_ylabel("rate (Mbit/s)", fontsize=7)
     ax2.set_ylabel("volume per pass (Gbit)", fontsize=7)
     for ax in (ax1, ax2):
@@ -231,8 +233,8 @@ def rate_volume_figure(plan, width_in: float):
     _day_axis(ax1, t0, t1)
     ax1.tick_params(axis="x", labelbottom=False)
     _day_axis(ax2, t0, t1)
-    handles = [Patch(facecolor=style[s][0], hatch=style[s][1], edgecolor="black", alpha=0.75, label=s) for s in sids
-               if any(p.station == s for p in plan.passes)]
+    handles = [Line2D([], [], color=style[s][0], marker=style[s][1], markeredgecolor="black", markeredgewidth=0.5,
+                      label=s) for s in sids if any(p.station == s for p in plan.passes)]
     if handles:
         fig.legend(handles=handles, loc="outside lower center", ncol=min(8, len(handles)), fontsize=6, frameon=False)
     return fig
@@ -243,6 +245,12 @@ def _fmt(t_tt) -> str:
     from contactplan.timescale import format_utc
 
     return format_utc(t_tt, 0)
+
+
+def _span(a_tt: float, b_tt: float) -> str:
+    """``2027-01-12T18:35:00Z to 19:03:00Z`` (the end's date only when it differs)."""
+    a, b = _fmt(a_tt), _fmt(b_tt)
+    return f"{a} to {b[11:] if a[:10] == b[:10] else b}"
 
 
 def _count(n: int, word: str) -> str:
@@ -401,16 +409,16 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     findings = sorted(plan.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
     story.append(P(f"Findings ({findings_text})", h2))
     if findings:
-        rows = [["Severity", "Rule", "Concerns", "From (UTC)", "To (UTC)", "What to change"]]
+        rows = [["Severity", "Rule", "Concerns", "When (UTC)", "What to change"]]
         extra = []
         for i, f in enumerate(findings, start=1):
             rows.append([f.severity, P(f.rule, small), P(", ".join(map(str, f.subjects)) or "-", small),
-                         P(_fmt(f.start_tt), small), P(_fmt(f.end_tt), small), P(f.message, small)])
+                         P(_span(f.start_tt, f.end_tt), small), P(f.message, small)])
             colour = COLOURS["error"] if f.severity == "error" else COLOURS["warning"]
             extra.append(("TEXTCOLOR", (0, i), (0, i), colors.HexColor(colour)))
             extra.append(("FONT", (0, i), (0, i), "Helvetica-Bold", 7))
         w = frame_w
-        story.append(table(rows, [0.08 * w, 0.13 * w, 0.1 * w, 0.18 * w, 0.18 * w, 0.33 * w], extra=extra))
+        story.append(table(rows, [0.08 * w, 0.165 * w, 0.11 * w, 0.2 * w, 0.445 * w], extra=extra))
     else:
         story.append(P("No findings: the plan passes every rule checked."))
     story.append(PageBreak())
@@ -436,7 +444,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     has_link = any(p.volume_gbit is not None for p in plan.passes)
     if plan.passes and has_link:
         block += [P("Volume: what each pass could return from AOS to LOS at the best rate allowed moment by moment "
-                    "(not what is booked).", small), Spacer(1, 2 * mm), figure(rate_volume_figure(plan, fig_w_in))]
+                    "(not what is booked), drawn at the pass's culmination.", small), Spacer(1, 2 * mm), figure(rate_volume_figure(plan, fig_w_in))]
     story.append(KeepTogether(block))
     if plan.passes:
         rows = [["Station", "AOS (UTC)", "LOS (UTC)", "Hours", "Max el. (deg)", "Max rate (kbit/s)", "Volume (Gbit)"]]
