@@ -380,3 +380,15 @@ def test_downlink_split_avoids_every_keepout_it_touches():
                 "2027-01-13T01:00:00Z and 2027-01-13T01:10:00Z to 2027-01-13T04:00:00Z")
     assert all(expected in x.message for x in f)
     assert "keep-out of activity DUMP-1" in f[1].message
+
+
+def test_fix_spans_for_the_app():
+    o = m.Outage(start_tt=t("2027-01-12T20:00:00Z"), end_tt=t("2027-01-12T22:00:00Z"))
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T15:00:00Z", "2027-01-12T18:00:00Z"),
+                        booking("B002", "NRV", "2027-01-12T19:00:00Z", "2027-01-12T23:00:00Z")], outages=[o])
+    found = check_plan(sc, PASSES)
+    by_rule = {f.rule: f for f in found}
+    assert by_rule["outside-pass"].fix == [(t("2027-01-12T16:00:00Z"), t("2027-01-12T18:00:00Z"))]
+    assert by_rule["station-outage"].fix == [(t("2027-01-12T19:00:00Z"), o.start_tt),
+                                             (o.end_tt, t("2027-01-12T23:00:00Z"))]
+    assert "fix" not in by_rule["station-outage"].to_json()

@@ -16,6 +16,10 @@ class Finding:
     start_tt: float = 0.0
     end_tt: float = 0.0
     message: str = ""  # says what to change
+    # Optional, machine-readable form of the change the message proposes: the spans (start_tt, end_tt)
+    # the first subject (a booking) should be replaced by; empty when there is no simple proposal.
+    # Not part of to_json().
+    fix: list = field(default_factory=list)
 
     def to_json(self) -> dict:
         from contactplan.timescale import format_utc

@@ -204,9 +204,9 @@ class RuleContext:
         return best
 
 
-def _finding(rule, severity, subjects, a, b, message) -> Finding:
+def _finding(rule, severity, subjects, a, b, message, fix=()) -> Finding:
     return Finding(rule=rule, severity=severity, subjects=list(subjects), start_tt=float(a), end_tt=float(b),
-                   message=message)
+                   message=message, fix=[(float(x), float(y)) for x, y in fix])
 
 
 # ---------------------------------------------------------------- rules
@@ -229,11 +229,12 @@ def rule_outside_pass(ctx: RuleContext) -> list[Finding]:
             lo, hi = max(b.start_tt, p.aos_tt), min(b.end_tt, p.los_tt)
             msg = (f"{b.id} at {b.station} runs outside the pass {p.key} ({span_text(p.aos_tt, p.los_tt)}); "
                    f"setup included it must lie inside the pass: change it to {span_text(lo, hi)}")
-        else:
-            mid = 0.5 * (b.start_tt + b.end_tt)
-            p = min(plist, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
-            msg = (f"{b.id} at {b.station} lies in no pass of {b.station}; the nearest pass is {p.key} "
-                   f"({span_text(p.aos_tt, p.los_tt)}): move the booking into it")
+            out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg, [(lo, hi)]))
+            continue
+        mid = 0.5 * (b.start_tt + b.end_tt)
+        p = min(plist, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
+        msg = (f"{b.id} at {b.station} lies in no pass of {b.station}; the nearest pass is {p.key} "
+               f"({span_text(p.aos_tt, p.los_tt)}): move the booking into it")
         out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg))
     return out
 
@@ -247,8 +248,9 @@ def rule_station_outage(ctx: RuleContext) -> list[Finding]:
                 why = f" ({o.reason})" if getattr(o, "reason", "") else ""
                 msg = (f"{b.id} overlaps the outage of {b.station} {span_text(o0, o1)}{why}: "
                        f"end it by {t_text(o0)} or start it after {t_text(o1)}")
+                fix = subtract([(b.start_tt, b.end_tt)], [(o0, o1)])
                 out.append(_finding("station-outage", ERROR, [b.id, b.station], max(o0, b.start_tt),
-                                    min(o1, b.end_tt), msg))
+                                    min(o1, b.end_tt), msg, fix))
     return out
 
 
@@ -267,7 +269,8 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
                 lo, hi = b2.start_tt, min(b1.end_tt, b2.end_tt)
                 msg = (f"{b1.id} and {b2.id} both book {sid} from {span_text(lo, hi)}: "
                        f"end {b1.id} by {t_text(b2.start_tt)}, move {b2.id}, or merge them")
-                out.append(_finding("double-booking", ERROR, [b1.id, b2.id, sid], lo, hi, msg))
+                fix = [(b1.start_tt, b2.start_tt)] if b2.start_tt > b1.start_tt else []
+                out.append(_finding("double-booking", ERROR, [b1.id, b2.id, sid], lo, hi, msg, fix))
     return out
 
 
@@ -302,7 +305,7 @@ def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
             msg = (f"downlink booking {b.id} ({b.station}) overlaps the keep-out of {what} {act.id} "
                    f"({span_text(k0, k1)}): {fix}{alt}")
             out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, b.start_tt),
-                                min(k1, b.end_tt), msg))
+                                min(k1, b.end_tt), msg, pieces))
     return out
 
 
@@ -473,7 +476,7 @@ def rule_booking_length(ctx: RuleContext) -> list[Finding]:
             cut = b.start_tt + rq.booking_max_h * 3600.0
             out.append(_finding("booking-too-long", WARNING, [b.id], b.start_tt, b.end_tt,
                                 f"{b.id} lasts {h:.2f} h, more than the {rq.booking_max_h:g} h maximum: "
-                                f"end it by {t_text(cut)} or split it"))
+                                f"end it by {t_text(cut)} or split it", [(b.start_tt, cut)]))
     return out
 
 
