@@ -1,0 +1,131 @@
+"""``contactplan passes`` end to end on the invented sample scenario, and the pass table writers."""
+
+import csv
+import io
+import json
+import re
+
+import pytest
+
+from contactplan import CAUTION
+from contactplan.cli import main
+from contactplan.geometry.passes import Pass
+from contactplan.io.passtable import (
+    FIXED_COLUMNS,
+    PASS_COLUMNS,
+    columns_for,
+    pass_rows,
+    passes_csv_text,
+    passes_text,
+)
+from contactplan.scenario.model import Outage
+from contactplan.timescale import parse_utc
+
+TIME_RE = re.compile(r"^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{3}Z$")
+FIRST = ("station,aos_utc,los_utc,duration_s,max_elevation_deg,max_elevation_utc,"
+         "aos_azimuth_deg,los_azimuth_deg,min_range_km,max_range_km")
+
+
+def test_fixed_columns_are_the_contract():
+    assert ",".join(FIXED_COLUMNS) == FIRST
+    assert PASS_COLUMNS[:10] == FIXED_COLUMNS
+    assert PASS_COLUMNS[10] == "aos_doy"
+
+
+def test_csv_output(minimal_path, tmp_path, capsys):
+    out = tmp_path / "p.csv"
+    assert main(["passes", str(minimal_path), "--out", str(out)]) == 0
+    assert "wrote" in capsys.readouterr().out
+    raw = out.read_bytes()
+    assert raw.startswith(FIRST.encode() + b",") and b"\r\n" in raw
+    rows = list(csv.DictReader(io.StringIO(raw.decode())))
+    assert len(rows) >= 10
+    assert {r["station"] for r in rows} == {"NRV", "KAL"}
+    aos = [parse_utc(r["aos_utc"]) for r in rows]
+    assert aos == sorted(aos)
+    for r in rows:
+        for c in ("aos_utc", "los_utc", "max_elevation_utc"):
+            assert TIME_RE.match(r[c]), r[c]
+        d = parse_utc(r["los_utc"]) - parse_utc(r["aos_utc"])
+        assert float(r["duration_s"]) == pytest.approx(d, abs=2e-3)
+        assert parse_utc(r["aos_utc"]) <= parse_utc(r["max_elevation_utc"]) <= parse_utc(r["los_utc"])
+        assert 0 <= float(r["aos_azimuth_deg"]) < 360
+        assert float(r["min_range_km"]) <= float(r["max_range_km"])
+        assert r["clipped_start"] in ("true", "false")
+        assert r["aos_doy"].startswith("2027-0")
+    # the window starts during an NRV pass (the spacecraft is up at midnight in Europe in January)
+    assert rows[0]["clipped_start"] == "true" and rows[0]["aos_utc"] == "2027-01-12T00:00:00.000Z"
+    # the link columns are there because the sample scenario has a link
+    assert "volume_gbit" in rows[0]
+
+
+def test_station_filter_window_and_json(minimal_path, tmp_path, capsys):
+    out = tmp_path / "p.json"
+    code = main(["passes", str(minimal_path), "--station", "KAL", "--start", "2027-01-13T00:00:00Z",
+                 "--end", "2027-016T00:00:00Z", "--out", str(out)])
+    assert code == 0
+    doc = json.loads(out.read_text())
+    assert doc["caution"] == CAUTION
+    assert doc["columns"][:10] == list(FIXED_COLUMNS)
+    assert doc["stations"] == ["KAL"]
+    assert doc["window"] == {"start": "2027-01-13T00:00:00.000Z", "end": "2027-01-16T00:00:00.000Z"}
+    ps = doc["passes"]
+    assert len(ps) == 3 and all(p["station"] == "KAL" for p in ps)
+    for p in ps:
+        assert parse_utc(p["aos_utc"]) >= parse_utc("2027-01-13T00:00:00Z")
+        assert parse_utc(p["los_utc"]) <= parse_utc("2027-01-16T00:00:00Z")
+        assert isinstance(p["duration_s"], float) and isinstance(p["clipped_end"], bool)
+
+
+def test_text_table_on_stdout(minimal_path, capsys):
+    assert main(["passes", str(minimal_path), "--station", "NRV"]) == 0
+    out = capsys.readouterr().out
+    lines = out.splitlines()
+    assert lines[0].startswith("STATION") and "AOS (UTC)" in lines[0]
+    assert "under way at window start" in lines[1]
+    assert all(line.startswith("NRV ") for line in lines[1:-1])
+    assert lines[-1].endswith(CAUTION)
+
+
+@pytest.mark.parametrize("argv, text", [
+    (["--out", "x.docx"], "extension '.docx'"),
+    (["--station", "ZZZ"], "unknown station 'ZZZ'"),
+    (["--start", "2027-13-01T00:00:00Z"], "--start"),
+    (["--start", "2027-01-15T00:00:00Z", "--end", "2027-01-14T00:00:00Z"], "must end after it starts"),
+])
+def test_bad_input_is_one_line_exit_2(minimal_path, tmp_path, capsys, argv, text):
+    argv = [a if a != "x.docx" else str(tmp_path / "x.docx") for a in argv]
+    assert main(["passes", str(minimal_path), *argv]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("contactplan: error: ") and text in err
+    assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
+
+
+def _pass(**kw):
+    base = dict(station="AAA", aos_tt=parse_utc("2027-02-01T10:00:00Z"), los_tt=parse_utc("2027-02-01T18:30:00.25Z"),
+                max_elevation_deg=45.12345, max_elevation_tt=parse_utc("2027-02-01T14:15:00Z"),
+                aos_azimuth_deg=80.0004, los_azimuth_deg=280.0, min_range_km=1500000.1234, max_range_km=1504000.0)
+    base.update(kw)
+    return Pass(**base)
+
+
+def test_pass_rows_values_and_link_columns():
+    o = Outage(start_tt=parse_utc("2027-02-01T12:00:00Z"), end_tt=parse_utc("2027-02-01T13:00:00Z"), reason="rain")
+    a = _pass(outages=[o], moon_flag=True, moon_separation_min_deg=2.5)
+    b = _pass(station="BBB", aos_tt=parse_utc("2027-02-01T09:00:00Z"), clipped_start=True)
+    rows = pass_rows([a, b])
+    assert [r["station"] for r in rows] == ["BBB", "AAA"]
+    r = rows[1]
+    assert r["aos_utc"] == "2027-02-01T10:00:00.000Z" and r["los_utc"] == "2027-02-01T18:30:00.250Z"
+    assert r["duration_s"] == 30600.25 and r["max_elevation_deg"] == 45.123
+    assert r["aos_doy"] == "2027-032T10:00:00Z"
+    assert r["outages"] == "2027-02-01T12:00:00Z/2027-02-01T13:00:00Z rain"
+    assert r["moon_flag"] is True and r["max_rate_kbps"] is None
+    assert "volume_gbit" not in columns_for(rows)
+    a.volume_gbit, a.max_rate_kbps = 12.5, 4000.0
+    assert "volume_gbit" in columns_for(pass_rows([a, b]))
+    text = passes_csv_text([a, b])
+    assert text.splitlines()[0].startswith(FIRST)
+    table = passes_text([a, b])
+    assert "Moon 2.5 deg from beam" in table and "outage 02-01T12:00-13:00 rain" in table
+    assert "under way at window start" in table and "8:30:00" in table
