@@ -63,7 +63,7 @@ def format_revalidation(rv, ephemeris_name: str) -> list[str]:
             status = "NOW BREAKS " + ", ".join(sorted({f.rule for f in b.new_findings if f.severity == 'error'}))
         elif b.new_findings:
             status = "new warning " + ", ".join(sorted({f.rule for f in b.new_findings}))
-        elif b.new_aos_tt is None:
+        elif b.new_aos_tt is None and b.new_los_tt is None:
             status = "no pass"
         else:
             status = "ok"

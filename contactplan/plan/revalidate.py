@@ -31,7 +31,7 @@ class BookingShift:
 
     booking: str
     station: str
-    old_aos_tt: float | None = None  # pass holding the booking, old ephemeris (None: no pass)
+    old_aos_tt: float | None = None  # pass holding the booking, old ephemeris (None: no pass, or cut by the window)
     old_los_tt: float | None = None
     new_aos_tt: float | None = None  # pass holding the booking, new ephemeris
     new_los_tt: float | None = None
@@ -109,10 +109,13 @@ def compare(old: PlanResult, new: PlanResult, start_tt: float | None = None,
     for b in sc.bookings:
         s = BookingShift(booking=b.id, station=b.station, checked=start <= b.start_tt and b.end_tt <= end)
         po, pn = old_ctx.pass_holding(b), new_ctx.pass_holding(b)
+        # an edge cut by the window is the window edge, not a rise or set: it has no shift
         if po is not None:
-            s.old_aos_tt, s.old_los_tt = po.aos_tt, po.los_tt
+            s.old_aos_tt = None if po.clipped_start else po.aos_tt
+            s.old_los_tt = None if po.clipped_end else po.los_tt
         if pn is not None:
-            s.new_aos_tt, s.new_los_tt = pn.aos_tt, pn.los_tt
+            s.new_aos_tt = None if pn.clipped_start else pn.aos_tt
+            s.new_los_tt = None if pn.clipped_end else pn.los_tt
         s.new_findings = [f for f in appeared if b.id in f.subjects]
         shifts.append(s)
     return Revalidation(old=old, new=new, start_tt=start, end_tt=end, bookings=shifts, appeared=appeared,
