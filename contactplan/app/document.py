@@ -1,0 +1,293 @@
+"""The open plan: scenario, computed result, undo stack, selection. Widgets only view it.
+
+Every edit is a :class:`QUndoCommand` pushed on :attr:`PlanDocument.undo_stack`;
+after each redo or undo the document re-runs the cheap plan check
+(:func:`contactplan.plan.pipeline.check`) so findings follow the edit.
+Times are TT seconds since J2000 (``_tt``), as everywhere in the engine.
+"""
+
+from __future__ import annotations
+
+import copy
+import logging
+import time
+from dataclasses import dataclass
+
+from PySide6.QtCore import QObject, Signal
+from PySide6.QtGui import QUndoCommand, QUndoStack
+
+log = logging.getLogger("contactplan.app")
+
+#: station fields whose change moves the passes (needs a new pass computation)
+GEOMETRY_FIELDS = {"latitude_deg", "longitude_deg", "height_m", "min_elevation_deg", "horizon_mask",
+                   "g_over_t_dbk", "zenith_attenuation_db"}
+
+
+@dataclass(frozen=True)
+class Selection:
+    """What the user picked: kind is booking, pass, station, activity or finding; ``key`` names it."""
+
+    kind: str
+    key: object = None  # booking/station/activity id, the Pass object, the Finding object
+
+    @property
+    def empty(self) -> bool:
+        return not self.kind
+
+
+NOTHING = Selection("")
+
+
+def _default_check(result):
+    from contactplan.plan.pipeline import check
+
+    return check(result)
+
+
+class PlanDocument(QObject):
+    """One scenario being planned, with its computed passes and findings."""
+
+    scenarioReplaced = Signal()  # a different scenario (or none) is open: views rebuild everything
+    resultChanged = Signal()  # passes / profiles were (re)computed
+    bookingsChanged = Signal()  # bookings added, removed or edited
+    recordsChanged = Signal()  # stations or activities edited
+    findingsChanged = Signal()  # findings and recorder after a check
+    selectionChanged = Signal(object)  # Selection
+    passesStale = Signal(bool)  # True: an edit moved the geometry, passes need recomputing
+    message = Signal(str)  # a short status line
+
+    def __init__(self, parent=None, check_fn=None):
+        super().__init__(parent)
+        self.scenario = None
+        self.result = None  # PlanResult
+        self.undo_stack = QUndoStack(self)
+        self.selection = NOTHING
+        self.check_fn = check_fn or _default_check
+        self.check_error: str | None = None
+        self.last_check_s = 0.0
+        self.stale = False
+
+    # ------------------------------------------------------------ state
+    @property
+    def path(self):
+        return None if self.scenario is None else self.scenario.path
+
+    @property
+    def dirty(self) -> bool:
+        return not self.undo_stack.isClean()
+
+    def set_scenario(self, scenario, result=None) -> None:
+        """Open a scenario (result: an already computed PlanResult, else passes are empty until computed)."""
+        self.scenario = scenario
+        self.undo_stack.clear()
+        self.undo_stack.setClean()
+        self.selection = NOTHING
+        self.stale = False
+        if result is None and scenario is not None:
+            from contactplan.plan.pipeline import PlanResult
+
+            result = PlanResult(scenario=scenario, ephemeris=None)
+        self.result = result
+        self.scenarioReplaced.emit()
+        self.recheck()
+
+    def set_result(self, result) -> None:
+        """A freshly computed PlanResult for the current scenario (bookings stay as edited)."""
+        result.scenario = self.scenario
+        self.result = result
+        self.stale = False
+        self.passesStale.emit(False)
+        self.resultChanged.emit()
+        self.recheck()
+
+    def mark_stale(self) -> None:
+        self.stale = True
+        self.passesStale.emit(True)
+
+    def recheck(self) -> None:
+        """Re-run the recorder and rules for the current bookings; emit findingsChanged."""
+        if self.result is None:
+            self.findingsChanged.emit()
+            return
+        t0 = time.perf_counter()
+        try:
+            out = self.check_fn(self.result)
+            if out is not None and out is not self.result:
+                out.scenario = self.scenario
+                self.result = out
+            self.check_error = None
+        except NotImplementedError:
+            self.check_error = "plan rules are not available in this build"
+        except Exception as exc:  # a rule failing must not take the window down
+            log.exception("plan check failed")
+            self.check_error = f"plan check failed: {exc}"
+            self.message.emit(self.check_error)
+        self.last_check_s = time.perf_counter() - t0
+        self.findingsChanged.emit()
+
+    @property
+    def findings(self) -> list:
+        return [] if self.result is None else list(self.result.findings or [])
+
+    def findings_for(self, subject: str) -> list:
+        return [f for f in self.findings if subject in (f.subjects or [])]
+
+    def select(self, selection: Selection) -> None:
+        if selection != self.selection:
+            self.selection = selection
+            self.selectionChanged.emit(selection)
+
+    def selected_booking(self):
+        if self.selection.kind == "booking" and self.scenario is not None:
+            try:
+                return self.scenario.booking(self.selection.key)
+            except KeyError:
+                return None
+        return None
+
+    def passes_for(self, station_id: str) -> list:
+        if self.result is None:
+            return []
+        return [p for p in self.result.passes if p.station == station_id]
+
+    def pass_at(self, station_id: str, t_tt: float):
+        for p in self.passes_for(station_id):
+            if p.aos_tt <= t_tt <= p.los_tt:
+                return p
+        return None
+
+    # ------------------------------------------------------------ edits (all undoable)
+    def _after_bookings(self) -> None:
+        self.bookingsChanged.emit()
+        self.recheck()
+
+    def add_booking(self, station: str, start_tt: float, end_tt: float, purposes=None) -> str:
+        """Create a booking (undoable); returns its id."""
+        from contactplan.scenario.model import Booking
+
+        if end_tt <= start_tt:
+            raise ValueError("a booking must end after it starts")
+        b = Booking(id=self.scenario.new_booking_id(), station=station, start_tt=float(start_tt),
+                    end_tt=float(end_tt), purposes=list(purposes or ["downlink"]))
+        self.undo_stack.push(AddBooking(self, b))
+        self.select(Selection("booking", b.id))
+        return b.id
+
+    def edit_booking(self, booking_id: str, text: str | None = None, **changes) -> None:
+        """Change fields of a booking (station, start_tt, end_tt, purposes, locked), undoable."""
+        b = self.scenario.booking(booking_id)
+        changes = {k: v for k, v in changes.items() if getattr(b, k) != v}
+        if not changes:
+            return
+        start = changes.get("start_tt", b.start_tt)
+        end = changes.get("end_tt", b.end_tt)
+        if end <= start:
+            raise ValueError("a booking must end after it starts")
+        if "station" in changes:
+            self.scenario.station(changes["station"])  # KeyError for an unknown id
+        if "purposes" in changes:
+            from contactplan.scenario.model import PURPOSES
+
+            bad = [p for p in changes["purposes"] if p not in PURPOSES]
+            if bad or not changes["purposes"]:
+                raise ValueError(f"purposes must be some of {', '.join(PURPOSES)}")
+        self.undo_stack.push(EditRecord(self, "booking", booking_id, changes, text or _edit_text(booking_id, changes)))
+
+    def delete_bookings(self, ids) -> None:
+        ids = [i for i in ids if any(b.id == i for b in self.scenario.bookings)]
+        if ids:
+            self.undo_stack.push(RemoveBookings(self, ids))
+            if self.selection.kind == "booking" and self.selection.key in ids:
+                self.select(NOTHING)
+
+    def edit_record(self, kind: str, rec_id: str, text: str | None = None, **changes) -> None:
+        """Change fields of a station or activity (undoable)."""
+        rec = self._record(kind, rec_id)
+        changes = {k: v for k, v in changes.items() if getattr(rec, k) != v}
+        if changes:
+            self.undo_stack.push(EditRecord(self, kind, rec_id, changes, text or _edit_text(rec_id, changes)))
+
+    def _record(self, kind: str, rec_id: str):
+        if kind == "booking":
+            return self.scenario.booking(rec_id)
+        if kind == "station":
+            return self.scenario.station(rec_id)
+        if kind == "activity":
+            return self.scenario.activity(rec_id)
+        raise KeyError(kind)
+
+
+def _edit_text(rec_id: str, changes: dict) -> str:
+    names = {"start_tt": "start", "end_tt": "end"}
+    if set(changes) == {"start_tt", "end_tt"}:
+        return f"Move {rec_id}"
+    return f"Change {rec_id}: " + ", ".join(names.get(k, k) for k in changes)
+
+
+class AddBooking(QUndoCommand):
+    def __init__(self, doc: PlanDocument, booking):
+        super().__init__(f"Book {booking.station} ({booking.id})")
+        self.doc = doc
+        self.booking = booking
+
+    def redo(self):
+        self.doc.scenario.bookings.append(self.booking)
+        self.doc._after_bookings()
+
+    def undo(self):
+        self.doc.scenario.bookings.remove(self.booking)
+        if self.doc.selection == Selection("booking", self.booking.id):
+            self.doc.select(NOTHING)
+        self.doc._after_bookings()
+
+
+class RemoveBookings(QUndoCommand):
+    def __init__(self, doc: PlanDocument, ids):
+        super().__init__("Delete " + ", ".join(ids))
+        self.doc = doc
+        self.ids = list(ids)
+        self.removed: list = []  # (index, booking)
+
+    def redo(self):
+        bookings = self.doc.scenario.bookings
+        self.removed = [(i, b) for i, b in enumerate(bookings) if b.id in self.ids]
+        for _i, b in reversed(self.removed):
+            bookings.remove(b)
+        self.doc._after_bookings()
+
+    def undo(self):
+        bookings = self.doc.scenario.bookings
+        for i, b in self.removed:
+            bookings.insert(i, b)
+        self.doc._after_bookings()
+
+
+class EditRecord(QUndoCommand):
+    """Set fields of one booking, station or activity; undo restores the old values."""
+
+    def __init__(self, doc: PlanDocument, kind: str, rec_id: str, changes: dict, text: str):
+        super().__init__(text)
+        self.doc = doc
+        self.kind = kind
+        self.rec_id = rec_id
+        rec = doc._record(kind, rec_id)
+        self.new = {k: copy.deepcopy(v) for k, v in changes.items()}
+        self.old = {k: copy.deepcopy(getattr(rec, k)) for k in changes}
+
+    def _apply(self, values: dict) -> None:
+        rec = self.doc._record(self.kind, self.rec_id)
+        for k, v in values.items():
+            setattr(rec, k, copy.deepcopy(v))
+        if self.kind == "booking":
+            self.doc._after_bookings()
+            return
+        if self.kind == "station" and GEOMETRY_FIELDS & set(values):
+            self.doc.mark_stale()
+        self.doc.recordsChanged.emit()
+        self.doc.recheck()
+
+    def redo(self):
+        self._apply(self.new)
+
+    def undo(self):
+        self._apply(self.old)

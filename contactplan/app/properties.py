@@ -1,0 +1,180 @@
+"""Property editor for the selected booking, station or activity. Apply pushes one undoable edit."""
+
+from __future__ import annotations
+
+from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout, QHBoxLayout, QLabel, QLineEdit,
+                               QPushButton, QVBoxLayout, QWidget)
+
+from contactplan.errors import InputError
+from contactplan.scenario.model import PURPOSES
+from contactplan.timescale import format_utc, parse_utc
+
+
+def _spin(value: float, lo: float, hi: float, decimals: int = 2, suffix: str = "") -> QDoubleSpinBox:
+    s = QDoubleSpinBox()
+    s.setRange(lo, hi)
+    s.setDecimals(decimals)
+    s.setValue(float(value))
+    if suffix:
+        s.setSuffix(" " + suffix)
+    return s
+
+
+class PropertyEditor(QWidget):
+    """Shows the fields of what is selected; edits go through the document's undo stack."""
+
+    def __init__(self, doc, parent=None):
+        super().__init__(parent)
+        self.doc = doc
+        self.kind = None
+        self.key = None
+        self.fields: dict = {}
+        outer = QVBoxLayout(self)
+        self.title = QLabel("Nothing selected")
+        self.title.setWordWrap(True)
+        outer.addWidget(self.title)
+        self.form_host = QWidget()
+        self.form = QFormLayout(self.form_host)
+        outer.addWidget(self.form_host)
+        self.error = QLabel("")
+        self.error.setWordWrap(True)
+        self.error.setStyleSheet("color: #D55E00")
+        outer.addWidget(self.error)
+        row = QHBoxLayout()
+        self.apply_btn = QPushButton("Apply")
+        self.apply_btn.clicked.connect(self.apply)
+        self.revert_btn = QPushButton("Revert")
+        self.revert_btn.clicked.connect(self.reload)
+        row.addStretch(1)
+        row.addWidget(self.revert_btn)
+        row.addWidget(self.apply_btn)
+        outer.addLayout(row)
+        outer.addStretch(1)
+        doc.selectionChanged.connect(self.reload)
+        doc.bookingsChanged.connect(self._maybe_reload)
+        doc.recordsChanged.connect(self._maybe_reload)
+        doc.scenarioReplaced.connect(self.reload)
+        self.reload()
+
+    def _maybe_reload(self) -> None:
+        self.reload()
+
+    def _clear(self) -> None:
+        while self.form.rowCount():
+            self.form.removeRow(0)
+        self.fields = {}
+        self.error.setText("")
+
+    def reload(self, *_args) -> None:
+        self._clear()
+        sel = self.doc.selection
+        sc = self.doc.scenario
+        self.kind, self.key = None, None
+        rec = None
+        if sc is not None:
+            try:
+                if sel.kind == "booking":
+                    rec = sc.booking(sel.key)
+                elif sel.kind == "station":
+                    rec = sc.station(sel.key)
+                elif sel.kind == "activity":
+                    rec = sc.activity(sel.key)
+                elif sel.kind == "pass":
+                    rec = sc.station(sel.key.station)
+                    sel = type(sel)("station", rec.id)
+            except KeyError:
+                rec = None
+        if rec is None:
+            self.title.setText("Select a booking, station or activity to edit it here.")
+            self.apply_btn.setEnabled(False)
+            self.revert_btn.setEnabled(False)
+            return
+        self.kind, self.key = sel.kind, rec.id
+        self.apply_btn.setEnabled(True)
+        self.revert_btn.setEnabled(True)
+        getattr(self, f"_build_{sel.kind}")(rec)
+
+    # ------------------------------------------------------------ forms
+    def _build_booking(self, b) -> None:
+        self.title.setText(f"Booking {b.id}")
+        st = QComboBox()
+        st.addItems([s.id for s in self.doc.scenario.stations])
+        st.setCurrentText(b.station)
+        self.fields["station"] = st
+        self.fields["start_tt"] = QLineEdit(format_utc(b.start_tt, 0))
+        self.fields["end_tt"] = QLineEdit(format_utc(b.end_tt, 0))
+        self.form.addRow("Station", st)
+        self.form.addRow("Start (UTC)", self.fields["start_tt"])
+        self.form.addRow("End (UTC)", self.fields["end_tt"])
+        for p in PURPOSES:
+            cb = QCheckBox(p)
+            cb.setChecked(p in b.purposes)
+            self.fields[f"purpose:{p}"] = cb
+            self.form.addRow("Purpose" if p == PURPOSES[0] else "", cb)
+        lk = QCheckBox("keep as is when drafting")
+        lk.setChecked(b.locked)
+        self.fields["locked"] = lk
+        self.form.addRow("Locked", lk)
+
+    def _build_station(self, s) -> None:
+        self.title.setText(f"Station {s.id}: {s.name} ({s.latitude_deg:.3f}, {s.longitude_deg:.3f}, {s.height_m:.0f} m)")
+        self.fields["name"] = QLineEdit(s.name)
+        self.fields["min_elevation_deg"] = _spin(s.min_elevation_deg, -5, 89, 1, "deg")
+        self.fields["setup_min"] = _spin(s.setup_min, 0, 600, 0, "min")
+        self.fields["teardown_min"] = _spin(s.teardown_min, 0, 600, 0, "min")
+        self.fields["cost_per_hour"] = _spin(s.cost_per_hour, 0, 1e6, 2)
+        self.form.addRow("Name", self.fields["name"])
+        self.form.addRow("Lowest elevation", self.fields["min_elevation_deg"])
+        self.form.addRow("Set-up", self.fields["setup_min"])
+        self.form.addRow("Tear-down", self.fields["teardown_min"])
+        self.form.addRow("Cost per hour", self.fields["cost_per_hour"])
+        self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes."))
+
+    def _build_activity(self, a) -> None:
+        self.title.setText(f"Activity {a.id} ({a.kind})")
+        self.fields["start_tt"] = QLineEdit(format_utc(a.start_tt, 0))
+        self.fields["duration_min"] = _spin(a.duration_min, 0, 7 * 1440, 1, "min")
+        self.fields["downlink_keepout_min"] = _spin(a.downlink_keepout_min, 0, 1440, 1, "min")
+        self.fields["monitor_before_min"] = _spin(a.monitor_before_min, 0, 1440, 1, "min")
+        self.fields["monitor_after_min"] = _spin(a.monitor_after_min, 0, 1440, 1, "min")
+        self.form.addRow("Start (UTC)", self.fields["start_tt"])
+        self.form.addRow("Length", self.fields["duration_min"])
+        self.form.addRow("No downlink margin", self.fields["downlink_keepout_min"])
+        self.form.addRow("Watch before", self.fields["monitor_before_min"])
+        self.form.addRow("Watch after", self.fields["monitor_after_min"])
+        if a.series is not None:
+            for w in self.fields.values():
+                w.setEnabled(False)
+            self.form.addRow("", QLabel(f"Part of the repeating series {a.series!r}: edit the series in the file."))
+            self.apply_btn.setEnabled(False)
+
+    # ------------------------------------------------------------ apply
+    def values(self) -> dict:
+        out = {}
+        for k, w in self.fields.items():
+            if k.startswith("purpose:"):
+                continue
+            if isinstance(w, QComboBox):
+                out[k] = w.currentText()
+            elif isinstance(w, QCheckBox):
+                out[k] = w.isChecked()
+            elif isinstance(w, QDoubleSpinBox):
+                out[k] = float(w.value())
+            elif k.endswith("_tt"):
+                out[k] = parse_utc(w.text())
+            else:
+                out[k] = w.text().strip()
+        if self.kind == "booking":
+            out["purposes"] = [p for p in PURPOSES if self.fields[f"purpose:{p}"].isChecked()]
+        return out
+
+    def apply(self) -> None:
+        self.error.setText("")
+        try:
+            vals = self.values()
+            if self.kind == "booking":
+                self.doc.edit_booking(self.key, **vals)
+            elif self.kind in ("station", "activity"):
+                self.doc.edit_record(self.kind, self.key, **vals)
+        except (InputError, ValueError, KeyError) as exc:
+            self.error.setText(str(exc))

@@ -1,0 +1,179 @@
+"""Sky view of the selected pass: azimuth and elevation on a polar chart with the station's horizon mask.
+
+North up, east to the right (as seen on a sky chart from the ground looking
+up, east is to the left; this view is the plan view of the dish, east to the
+right, common practice for antenna-pointing charts, no source). Zenith at the
+centre, horizon on the outer circle, elevation linear in radius.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from PySide6.QtCore import QPointF, QRectF, Qt
+from PySide6.QtGui import QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
+from PySide6.QtWidgets import QSizePolicy, QWidget
+
+from contactplan.app import theme
+from contactplan.timescale import format_utc
+
+
+def pass_track(pass_, station, ephemeris, samples: int = 181):
+    """(t_tt, azimuth_deg, elevation_deg) of the spacecraft seen from a station over a pass (geometric).
+
+    Uses the engine's GCRS->ITRS rotation and WGS84 station position; arrays of
+    ``samples`` points from AOS to LOS.
+    """
+    from contactplan.geometry.earth import EarthRotation, enu_basis, station_itrs_km
+
+    t = np.linspace(pass_.aos_tt, pass_.los_tt, samples)
+    pos, _vel = ephemeris.state(t)
+    rot = EarthRotation(t)
+    r = rot.to_itrs(pos) - station_itrs_km(station.latitude_deg, station.longitude_deg, station.height_m)
+    enu = r @ enu_basis(station.latitude_deg, station.longitude_deg).T
+    az = np.degrees(np.arctan2(enu[:, 0], enu[:, 1])) % 360.0
+    el = np.degrees(np.arctan2(enu[:, 2], np.hypot(enu[:, 0], enu[:, 1])))
+    return t, az, el
+
+
+class SkyView(QWidget):
+    """Polar chart of one pass; empty with a hint when no pass is selected."""
+
+    def __init__(self, doc, parent=None):
+        super().__init__(parent)
+        self.doc = doc
+        self.setMinimumSize(200, 200)
+        self.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
+        self.pass_ = None
+        self.station = None
+        self.track = None  # (t, az, el)
+        self.note = ""
+        doc.selectionChanged.connect(self._selection)
+        doc.scenarioReplaced.connect(self.clear)
+        doc.resultChanged.connect(self.clear)
+
+    def _selection(self, sel) -> None:
+        if sel.kind == "pass":
+            self.show_pass(sel.key)
+        elif sel.kind == "booking":
+            b = self.doc.selected_booking()
+            p = None if b is None else self.doc.pass_at(b.station, 0.5 * (b.start_tt + b.end_tt))
+            if p is None and b is not None:
+                p = next((q for q in self.doc.passes_for(b.station) if q.los_tt > b.start_tt and q.aos_tt < b.end_tt),
+                         None)
+            self.show_pass(p)
+
+    def clear(self) -> None:
+        self.show_pass(None)
+
+    def show_pass(self, p) -> None:
+        self.pass_ = p
+        self.track = None
+        self.note = ""
+        self.station = None
+        if p is not None and self.doc.scenario is not None:
+            try:
+                self.station = self.doc.scenario.station(p.station)
+            except KeyError:
+                self.station = None
+            eph = None if self.doc.result is None else self.doc.result.ephemeris
+            if eph is not None and self.station is not None:
+                try:
+                    self.track = pass_track(p, self.station, eph)
+                except Exception as exc:  # geometry not available: show the end points only
+                    self.note = f"track not available: {exc}"
+        self.update()
+
+    def paintEvent(self, _ev):
+        th = theme.current()
+        p = QPainter(self)
+        p.setRenderHint(QPainter.RenderHint.Antialiasing)
+        p.fillRect(self.rect(), th.background)
+        side = min(self.width(), self.height() - 36) - 40
+        if side < 60:
+            return
+        cx, cy = self.width() / 2.0, 22 + (self.height() - 36) / 2.0
+        radius = side / 2.0
+
+        def xy(az, el):
+            rr = radius * (90.0 - np.clip(el, -5, 90)) / 90.0
+            a = np.radians(az)
+            return cx + rr * np.sin(a), cy - rr * np.cos(a)
+
+        # horizon mask (and min elevation) as a filled region between the horizon and the limit
+        st = self.station
+        if st is None and self.doc.selection.kind == "station" and self.doc.scenario is not None:
+            try:
+                st = self.doc.scenario.station(self.doc.selection.key)
+            except KeyError:
+                st = None
+        if st is not None:
+            az = np.arange(0.0, 360.5, 1.0)
+            lim = np.full_like(az, float(st.min_elevation_deg))
+            if st.horizon_mask:
+                try:
+                    from contactplan.geometry.mask import effective_limit_deg
+
+                    lim = np.asarray(effective_limit_deg(st, az), dtype=float)
+                except Exception:
+                    m = np.array(st.horizon_mask, dtype=float)
+                    lim = np.maximum(lim, np.interp(az, m[:, 0], m[:, 1], period=360.0))
+            outer = QPolygonF([QPointF(*xy(a, 0.0)) for a in az])
+            inner = QPolygonF([QPointF(*xy(a, e)) for a, e in zip(az[::-1], lim[::-1])])
+            path = QPainterPath()
+            path.addPolygon(outer)
+            path.addPolygon(inner)
+            path.setFillRule(Qt.FillRule.OddEvenFill)
+            p.fillPath(path, th.mask)
+        # grid
+        p.setPen(QPen(th.grid, 1))
+        p.setBrush(Qt.BrushStyle.NoBrush)
+        for el in (0, 30, 60):
+            r = radius * (90 - el) / 90.0
+            p.drawEllipse(QPointF(cx, cy), r, r)
+        for a in range(0, 360, 30):
+            x, y = xy(a, 0)
+            p.drawLine(QPointF(cx, cy), QPointF(x, y))
+        p.setPen(QPen(th.foreground))
+        f = QFont()
+        f.setPointSizeF(8)
+        p.setFont(f)
+        for a, lab in ((0, "N"), (90, "E"), (180, "S"), (270, "W")):
+            x, y = xy(a, -4.5)
+            p.drawText(QRectF(x - 10, y - 8, 20, 16), int(Qt.AlignmentFlag.AlignCenter), lab)
+        for el in (30, 60):
+            x, y = xy(45, el)
+            p.drawText(QPointF(x + 2, y - 2), f"{el}")
+        # title
+        if self.pass_ is None:
+            p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter),
+                       "Select a pass or booking to see its track")
+            return
+        q = self.pass_
+        title = (f"{q.station}  {format_utc(q.aos_tt, 0)[5:16]} - {format_utc(q.los_tt, 0)[5:16]}  "
+                 f"max {q.max_elevation_deg:.1f} deg")
+        p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter), title)
+        # track
+        if self.track is not None:
+            _t, az, el = self.track
+            xs, ys = xy(az, el)
+            p.setPen(QPen(th.track, 2.5))
+            p.drawPolyline(QPolygonF([QPointF(x, y) for x, y in zip(xs, ys)]))
+            p.setPen(QPen(th.foreground, 1))
+            p.setBrush(th.booking)
+            p.drawEllipse(QPointF(xs[0], ys[0]), 4, 4)  # AOS: filled
+            p.setBrush(Qt.BrushStyle.NoBrush)
+            p.drawRect(QRectF(xs[-1] - 4, ys[-1] - 4, 8, 8))  # LOS: open square
+        else:
+            # without an ephemeris only the known points are drawn (no invented track)
+            pts = [(q.aos_azimuth_deg, 0.0, "AOS"), (q.los_azimuth_deg, 0.0, "LOS")]
+            p.setPen(QPen(th.track, 2))
+            for a, e, lab in pts:
+                x, y = xy(a, e)
+                p.drawEllipse(QPointF(x, y), 4, 4)
+                p.drawText(QPointF(x + 5, y - 5), lab)
+        p.setPen(QPen(th.foreground))
+        p.drawText(QRectF(0, self.height() - 16, self.width(), 16), int(Qt.AlignmentFlag.AlignCenter),
+                   "filled dot: AOS, square: LOS, grey: below mask" if not self.note else self.note)
+        p.end()

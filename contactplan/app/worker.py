@@ -1,0 +1,109 @@
+"""Heavy work off the event loop: one job at a time in a QThread, with progress and cancel.
+
+A job is a callable ``fn(progress, cancel) -> result``: ``progress(fraction)``
+reports 0..1, ``cancel()`` returns True once the user pressed Cancel (the
+engine then raises :class:`contactplan.errors.Cancelled`).
+"""
+
+from __future__ import annotations
+
+import logging
+import threading
+import time
+import traceback
+
+from PySide6.QtCore import QObject, QThread, Signal
+
+from contactplan.errors import Cancelled, InputError
+
+log = logging.getLogger("contactplan.app")
+
+
+class _Runner(QObject):
+    progress = Signal(float)
+    done = Signal(object)
+    failed = Signal(str)
+    cancelled = Signal()
+
+    def __init__(self, fn, stop: threading.Event):
+        super().__init__()
+        self.fn = fn
+        self.stop = stop
+        self._last = 0.0
+
+    def _progress(self, fraction) -> None:
+        now = time.monotonic()
+        if now - self._last >= 0.05 or fraction >= 1.0:  # at most 20 updates a second
+            self._last = now
+            self.progress.emit(float(fraction))
+
+    def run(self) -> None:
+        try:
+            result = self.fn(self._progress, self.stop.is_set)
+        except Cancelled:
+            self.cancelled.emit()
+        except InputError as exc:
+            self.failed.emit(str(exc))
+        except NotImplementedError as exc:
+            self.failed.emit(f"not available in this build: {exc}")
+        except Exception as exc:  # reported in a dialog, logged in full
+            log.error("background job failed:\n%s", traceback.format_exc())
+            self.failed.emit(f"{type(exc).__name__}: {exc}")
+        else:
+            if self.stop.is_set():
+                self.cancelled.emit()
+            else:
+                self.done.emit(result)
+
+
+class Job(QObject):
+    """One background job. Signals arrive in the thread that created the Job (the GUI thread)."""
+
+    progress = Signal(float)
+    done = Signal(object)
+    failed = Signal(str)
+    cancelled = Signal()
+    finished = Signal()  # after any of done / failed / cancelled
+
+    def __init__(self, title: str, fn, parent=None):
+        super().__init__(parent)
+        self.title = title
+        self.stop = threading.Event()
+        self.thread = QThread()
+        self.thread.setObjectName(f"job: {title}")
+        self.runner = _Runner(fn, self.stop)
+        self.runner.moveToThread(self.thread)
+        self.thread.started.connect(self.runner.run)
+        self.runner.progress.connect(self.progress)
+        self.runner.done.connect(self._done)
+        self.runner.failed.connect(self._failed)
+        self.runner.cancelled.connect(self._cancelled)
+        self.running = False
+
+    def start(self) -> None:
+        self.running = True
+        self.thread.start()
+
+    def cancel(self) -> None:
+        self.stop.set()
+
+    def _end(self) -> None:
+        self.running = False
+        self.thread.quit()
+        self.thread.wait()
+        self.finished.emit()
+
+    def _done(self, result) -> None:
+        self._end()
+        self.done.emit(result)
+
+    def _failed(self, text: str) -> None:
+        self._end()
+        self.failed.emit(text)
+
+    def _cancelled(self) -> None:
+        self._end()
+        self.cancelled.emit()
+
+    def wait(self, ms: int = 30000) -> bool:
+        return self.thread.wait(ms)

@@ -1,0 +1,472 @@
+"""The desktop planner, headless (pytest-qt, offscreen): open, book by dragging, findings, undo, save, errors.
+
+The scenario is the bundled demo (an invented mission with invented stations).
+Passes are computed once per module and handed to each window so that every
+test starts from the same plan without recomputing the geometry.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import os
+import shutil
+
+import numpy as np
+import pytest
+
+pytest.importorskip("PySide6")
+pytest.importorskip("pyqtgraph")
+
+from PySide6.QtCore import QEvent, QPointF, QSettings, QStandardPaths, Qt  # noqa: E402
+from PySide6.QtGui import QMouseEvent  # noqa: E402
+from PySide6.QtWidgets import QApplication, QMessageBox  # noqa: E402
+
+from contactplan import CAUTION  # noqa: E402
+from contactplan.paths import demo_scenario  # noqa: E402
+from contactplan.scenario import load_scenario  # noqa: E402
+from contactplan.timescale import parse_utc, utc_day_start  # noqa: E402
+
+B = QMessageBox.StandardButton
+
+
+@pytest.fixture(scope="module")
+def demo_plan():
+    """(scenario path, PlanResult) of the demo, computed once for the module."""
+    from contactplan.plan.pipeline import compute_plan
+
+    sc = load_scenario(demo_scenario())
+    return compute_plan(sc)
+
+
+@pytest.fixture
+def demo_copy(tmp_path):
+    p = tmp_path / "week.toml"
+    shutil.copy(demo_scenario(), p)
+    return p
+
+
+@pytest.fixture
+def win(qtbot, tmp_path, monkeypatch):
+    QStandardPaths.setTestModeEnabled(True)
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+
+    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
+    w = MainWindow(settings=settings, autosaver=Autosaver(tmp_path / "autosave"))
+    w.answers = []  # answers the test gives to questions, in order; Discard when empty
+    w.asked = []
+
+    def ask(title, text, buttons, default):
+        w.asked.append((title, text))
+        return w.answers.pop(0) if w.answers else B.Discard
+
+    w.ask = ask
+    qtbot.addWidget(w)
+    w.resize(1400, 900)
+    w.show()
+    qtbot.waitExposed(w)
+    yield w
+    w.cancel_job(wait=True)
+
+
+def _open_with(win, path, plan):
+    """Open ``path`` in the window with the module's computed passes (no recomputation)."""
+    sc = load_scenario(path)
+    res = copy.copy(plan)
+    res.scenario = sc
+    res.findings = []
+    win.set_scenario(sc, result=res)
+    win._add_recent(path)
+    QApplication.processEvents()
+    return sc
+
+
+def _pos(win, t_tt, y):
+    """Viewport pixel of (time, lane y) in the lanes plot."""
+    tl = win.timeline
+    scene = tl.lanes_vb.mapViewToScene(QPointF(tl.x_of(t_tt), y))
+    return tl.mapFromScene(scene)
+
+
+def _send(widget, kind, pos, buttons):
+    button = Qt.MouseButton.LeftButton
+    ev = QMouseEvent(kind, QPointF(pos), QPointF(widget.mapToGlobal(pos)), button, buttons,
+                     Qt.KeyboardModifier.NoModifier)
+    QApplication.sendEvent(widget, ev)
+
+
+def drag(qtbot, win, t0, t1, y0, y1=None):
+    """Press at (t0, y0), move in steps, release at (t1, y1) on the timeline."""
+    vp = win.timeline.viewport()
+    y1 = y0 if y1 is None else y1
+    a = _pos(win, t0, y0)
+    _send(vp, QEvent.Type.MouseButtonPress, a, Qt.MouseButton.LeftButton)
+    for f in np.linspace(0.1, 1.0, 8):
+        qtbot.wait(25)  # the scene ignores move events closer than its rate limit
+        p = _pos(win, t0 + (t1 - t0) * f, y0 + (y1 - y0) * f)
+        _send(vp, QEvent.Type.MouseMove, p, Qt.MouseButton.LeftButton)
+    qtbot.wait(25)
+    _send(vp, QEvent.Type.MouseButtonRelease, _pos(win, t1, y1), Qt.MouseButton.NoButton)
+    QApplication.processEvents()
+
+
+def _grid(t):
+    d = float(utc_day_start(t))
+    return d + round((t - d) / 300.0) * 300.0
+
+
+def _free_pass(win, min_h=5.0, around=None):
+    """A pass of a downlink station, at least ``min_h`` hours long, with no booking on it.
+
+    With ``around`` (a span), the pass must hold it with 1.5 h to spare on one side;
+    bookings already on that pass are deleted (and the undo stack cleared).
+    """
+    sc = win.doc.scenario
+    for p in win.doc.result.passes:
+        st = sc.station(p.station)
+        if not st.takes_downlink or p.duration_s < min_h * 3600 or p.clipped_start or p.clipped_end:
+            continue
+        on_it = [b.id for b in sc.bookings if b.station == p.station and b.end_tt > p.aos_tt and b.start_tt < p.los_tt]
+        if around is not None:
+            if not (p.aos_tt < around[0] and around[1] < p.los_tt):
+                continue
+            if max(around[0] - p.aos_tt, p.los_tt - around[1]) < 1.5 * 3600:
+                continue
+            win.doc.delete_bookings(on_it)
+            win.doc.undo_stack.clear()
+            return p
+        if on_it:
+            continue
+        return p
+    pytest.fail("no pass of that kind in the demo")
+
+
+# ---------------------------------------------------------------- opening
+def test_open_demo_computes_passes_in_worker(win, demo_copy, qtbot):
+    assert win.open_path(demo_copy)
+    assert win.job is not None
+    qtbot.waitUntil(lambda: not win.job.running, timeout=180_000)
+    sc = win.doc.scenario
+    assert sc.name.startswith("Corvid")
+    assert len(win.doc.result.passes) > 10
+    assert win.passes_model.rowCount() == len(win.doc.result.passes)
+    assert win.bookings_model.rowCount() == len(sc.bookings) == len(load_scenario(demo_copy).bookings) > 0
+    # the demo is half drafted with deliberate conflicts: the findings list is not empty
+    assert win.findings_model.rowCount() == len(win.doc.findings) > 0
+    assert win.doc.result.recorder is not None
+    # lanes: spacecraft on top, then one per station
+    assert win.timeline.canvas.lanes() == 1 + len(sc.stations)
+    assert "[*]" in win.windowTitle() and not win.isWindowModified()
+    assert win.recent_files()[0] == str(demo_copy.resolve())
+
+
+def test_caution_always_in_status_bar(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    assert win.caution.text() == CAUTION
+    win.statusBar().showMessage("a temporary message")
+    QApplication.processEvents()
+    assert win.caution.isVisible()
+
+
+# ---------------------------------------------------------------- editing on the timeline
+def test_drag_across_a_pass_creates_a_snapped_booking(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    win.timeline.zoom_to(p.aos_tt, p.los_tt)
+    QApplication.processEvents()
+    lane = win.timeline.canvas.lane_of_station(p.station)
+    t0 = _grid(p.aos_tt + 3600.0)
+    t1 = t0 + 2 * 3600.0
+    n = len(sc.bookings)
+    drag(qtbot, win, t0, t1, lane + 0.5)
+    assert len(sc.bookings) == n + 1
+    b = sc.bookings[-1]
+    assert b.station == p.station
+    # both edges on the 5-minute UTC grid, where the drag started and ended
+    assert b.start_tt == pytest.approx(t0, abs=1e-6)
+    assert b.end_tt == pytest.approx(t1, abs=1e-6)
+    assert b.purposes == ["downlink"]
+    assert win.doc.selection.kind == "booking" and win.doc.selection.key == b.id
+    assert win.isWindowModified()
+    assert win.doc.undo_stack.count() == 1
+    # undo removes it, redo brings it back
+    win.act_undo.trigger()
+    assert len(sc.bookings) == n
+    win.act_redo.trigger()
+    assert sc.bookings[-1] is b
+
+
+def test_drag_edge_snaps_to_pass_edge(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    s = _grid(p.aos_tt + 3600.0)
+    bid = win.doc.add_booking(p.station, s, s + 3600.0)
+    win.timeline.zoom_to(p.aos_tt, p.los_tt)
+    QApplication.processEvents()
+    lane = win.timeline.canvas.lane_of_station(p.station)
+    # drag the end edge to a couple of pixels short of LOS: it lands exactly on LOS
+    px = win.timeline.canvas.px_s()
+    drag(qtbot, win, s + 3600.0, p.los_tt - 2 * px, lane + 0.5)
+    b = sc.booking(bid)
+    assert b.start_tt == pytest.approx(s, abs=1e-6)
+    assert b.end_tt == pytest.approx(p.los_tt, abs=1e-6)
+
+
+def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    burns = [a for a in sc.activities if a.kind == "burn" and sc.start_tt < a.start_tt < sc.end_tt]
+    assert burns, "the demo has a burn in its week"
+    burn = burns[0]
+    k0, k1 = burn.keepout_span_tt
+    p = _free_pass(win, min_h=4.0, around=(k0, k1))
+    # a 1-hour downlink booking clear of the keep-out, inside the same pass
+    if k0 - p.aos_tt >= 1.5 * 3600:
+        s = _grid(k0 - 1.5 * 3600.0)
+        shift = _grid(k0 - 600.0) - s  # moved later, it then spans the keep-out's start
+    else:
+        s = _grid(k1 + 1800.0)
+        shift = _grid(k0 - 600.0) - s  # moved earlier, the same
+    bid = win.doc.add_booking(p.station, s, s + 3600.0)
+    b = sc.booking(bid)
+
+    def keepout_findings():
+        return [f for f in win.doc.findings
+                if f.rule == "downlink-in-keepout" and bid in f.subjects and burn.id in f.subjects]
+
+    assert keepout_findings() == []
+    win.timeline.zoom_to(p.aos_tt, p.los_tt)
+    QApplication.processEvents()
+    lane = win.timeline.canvas.lane_of_station(p.station)
+    grab = s + 1800.0  # the middle of the block
+    drag(qtbot, win, grab, grab + shift, lane + 0.5)
+    assert b.start_tt == pytest.approx(s + shift, abs=1e-6)
+    assert b.end_tt - b.start_tt == pytest.approx(3600.0)
+    found = keepout_findings()
+    assert len(found) == 1 and found[0].severity == "error"
+    # the findings table and the booking row know it
+    rows = [win.findings_model.rows[i] for i in range(win.findings_model.rowCount())]
+    assert found[0] in rows
+    # undo puts the booking back and the finding goes
+    win.act_undo.trigger()
+    assert b.start_tt == pytest.approx(s)
+    assert keepout_findings() == []
+    assert win.doc.last_check_s < 0.5  # findings follow an edit within a fraction of a second
+
+
+def test_delete_key_and_purposes(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    bid = win.doc.add_booking(p.station, _grid(p.aos_tt + 3600), _grid(p.aos_tt + 7200))
+    win.doc.edit_booking(bid, purposes=["ranging", "commanding"])
+    assert sc.booking(bid).purposes == ["ranging", "commanding"]
+    with pytest.raises(ValueError):
+        win.doc.edit_booking(bid, purposes=["telepathy"])
+    win.timeline.setFocus()
+    qtbot.keyClick(win.timeline, Qt.Key.Key_Delete)
+    assert all(b.id != bid for b in sc.bookings)
+    win.act_undo.trigger()
+    assert sc.booking(bid).purposes == ["ranging", "commanding"]
+
+
+def test_bookings_table_edits_are_undoable_and_bad_text_refused(win, demo_copy, demo_plan):
+    sc = _open_with(win, demo_copy, demo_plan)
+    m = win.bookings_model
+    row = next(i for i, b in enumerate(m.rows) if b.id == "B002")
+    b = m.rows[row]
+    old_end = b.end_tt
+    assert not m.setData(m.index(row, 3), "2027-13-45T99:00Z")
+    assert m.error and "month" in m.error
+    assert m.setData(m.index(row, 3), "2027-013T16:00:00Z")
+    assert b.end_tt == parse_utc("2027-01-13T16:00:00Z")
+    assert not m.setData(m.index(row, 3), "2027-01-13T10:00:00Z")  # before its start
+    win.act_undo.trigger()
+    assert b.end_tt == old_end
+    assert sc.booking("B002") is b
+
+
+# ---------------------------------------------------------------- tables
+def test_passes_table_filters_and_sorts(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    from contactplan.app.models import OBJECT_ROLE
+
+    proxy = win.passes_proxy
+    total = proxy.rowCount()
+    sid = win.doc.scenario.stations[0].id
+    proxy.set_station(sid)
+    n = proxy.rowCount()
+    assert 0 < n < total
+    assert all(proxy.index(r, 0).data(OBJECT_ROLE).station == sid for r in range(n))
+    proxy.set_station(None)
+    proxy.sort(4, Qt.SortOrder.DescendingOrder)  # max elevation
+    els = [proxy.index(r, 0).data(OBJECT_ROLE).max_elevation_deg for r in range(proxy.rowCount())]
+    assert els == sorted(els, reverse=True)
+
+
+def test_clicking_a_finding_selects_and_zooms(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    f = win.findings_model.rows[0]
+    idx = win.findings_proxy.mapFromSource(win.findings_model.index(0, 0))
+    win._finding_clicked(idx)
+    assert win.doc.selection.kind == "finding" and win.doc.selection.key is f
+    v0, v1 = win.timeline.visible_tt()
+    assert v0 <= f.start_tt and f.end_tt <= v1
+    assert v1 - v0 < 3 * max(f.end_tt - f.start_tt, 7200.0) + 1
+
+
+# ---------------------------------------------------------------- files
+def _bookings(sc):
+    return sorted((b.id, b.station, round(b.start_tt, 3), round(b.end_tt, 3), tuple(b.purposes), b.locked)
+                  for b in sc.bookings)
+
+
+def test_save_reopen_compare(win, demo_copy, demo_plan, tmp_path):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    win.doc.add_booking(p.station, _grid(p.aos_tt + 3600), _grid(p.aos_tt + 4 * 3600))
+    win.doc.edit_booking("B002", locked=True)
+    out = tmp_path / "saved.toml"
+    assert win.save_to(out)
+    assert not win.isWindowModified()
+    again = load_scenario(out)
+    assert _bookings(again) == _bookings(sc)
+    assert again.name == sc.name and [s.id for s in again.stations] == [s.id for s in sc.stations]
+    # the save also left a snapshot in the autosave folder
+    assert (win.autosaver.folder / f"{win.autosaver.stem}.toml").exists()
+    # reopening in the window shows the same bookings
+    _open_with(win, out, demo_plan)
+    assert _bookings(win.doc.scenario) == _bookings(sc)
+    assert win.bookings_model.rowCount() == len(sc.bookings)
+
+
+def test_broken_file_opens_a_dialog_with_the_one_line_error(win, tmp_path):
+    from contactplan.errors import InputError
+
+    bad = tmp_path / "broken.toml"
+    text = demo_scenario().read_text(encoding="utf-8").replace("latitude_deg = 61.85", "latitude_deg = 161.85")
+    bad.write_text(text, encoding="utf-8")
+    with pytest.raises(InputError) as exc:
+        load_scenario(bad)
+    assert win.open_path(bad) is False
+    assert win.last_error == str(exc.value)
+    assert "\n" not in win.last_error and "broken.toml" in win.last_error and "latitude_deg" in win.last_error
+    assert win.error_box is not None and win.error_box.text() == str(exc.value)
+    assert win.doc.scenario is None  # nothing half-open
+    # a file that is not TOML at all
+    junk = tmp_path / "junk.toml"
+    junk.write_bytes(b"\x00\x01 not toml")
+    assert win.open_path(junk) is False
+    assert "junk.toml" in win.last_error
+
+
+def test_closing_with_unsaved_edits_asks(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    win.doc.edit_booking("B002", locked=True)
+    win.answers = [B.Cancel]
+    assert win.close() is False
+    assert win.asked and win.asked[-1][0] == "Unsaved edits"
+    assert win.isVisible()
+    win.answers = [B.Discard]
+    assert win.close() is True
+
+
+def test_autosave_and_recovery_after_a_crash(win, demo_copy, demo_plan, tmp_path):
+    from contactplan.app.autosave import orphans
+    from contactplan.app.main import offer_recovery
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    win.doc.edit_booking("B003", purposes=["ranging"])
+    win.autosave()
+    folder = win.autosaver.folder
+    meta = folder / f"{win.autosaver.stem}.json"
+    assert meta.exists()
+    # pretend the process that wrote it died: a pid that cannot be running
+    data = json.loads(meta.read_text())
+    data["pid"] = 2 ** 22 + 12345
+    meta.write_text(json.dumps(data))
+    snaps = orphans(folder)
+    assert len(snaps) == 1 and snaps[0].original == str(demo_copy)
+    win.doc.undo_stack.setClean()
+    win.set_scenario(load_scenario(demo_copy), compute=False)
+    win.answers = [B.Yes]
+    assert offer_recovery(win)
+    rec = win.doc.scenario
+    assert rec.booking("B003").purposes == ["ranging"]
+    assert rec.path == demo_copy
+    assert win.doc.dirty  # recovered edits are not saved
+    assert orphans(folder) == []
+    assert _bookings(rec) == _bookings(sc)
+
+
+def test_new_week_follows_the_open_one(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    win.new_scenario()
+    new = win.doc.scenario
+    assert new is not sc and new.path is None
+    assert new.start_tt == sc.end_tt and new.end_tt - new.start_tt == sc.end_tt - sc.start_tt
+    assert new.bookings == [] and [s.id for s in new.stations] == [s.id for s in sc.stations]
+    win.cancel_job(wait=True)
+
+
+# ---------------------------------------------------------------- worker, look
+def test_job_cancel_and_failure(qtbot):
+    import time
+
+    from contactplan.app.worker import Job
+    from contactplan.errors import Cancelled, InputError
+
+    def slow(progress, cancel):
+        for i in range(1000):
+            if cancel():
+                raise Cancelled()
+            progress(i / 1000)
+            time.sleep(0.005)
+        return "finished"
+
+    job = Job("slow", slow)
+    seen = []
+    job.cancelled.connect(lambda: seen.append("cancelled"))
+    job.done.connect(lambda r: seen.append(r))
+    job.start()
+    qtbot.wait(50)
+    job.cancel()
+    qtbot.waitUntil(lambda: not job.running, timeout=5000)
+    assert seen == ["cancelled"]
+
+    def bad(progress, cancel):
+        raise InputError("no such station", "x.toml", 3)
+
+    job2 = Job("bad", bad)
+    errs = []
+    job2.failed.connect(errs.append)
+    job2.start()
+    qtbot.waitUntil(lambda: not job2.running, timeout=5000)
+    assert errs == [str(InputError("no such station", "x.toml", 3))]
+
+
+def test_palette_and_icons_both_themes(qapp):
+    from contactplan.app import icons, theme
+
+    for th in (theme.light_theme(), theme.dark_theme()):
+        theme.set_theme(th)
+        icons.icon.cache_clear()
+        # the pass shade runs from the low to the high colour, monotonic in lightness in the light theme
+        lo, hi = th.pass_colour(0.0), th.pass_colour(1.0)
+        assert lo.name() == th.pass_low.name() and hi.name() == th.pass_high.name()
+        # foreground against background: WCAG contrast ratio above 4.5 (WCAG 2.1, 1.4.3)
+        assert _contrast(th.foreground, th.background) > 4.5
+        for name in icons.NAMES:
+            img = icons.pixmap(name, 32).toImage()
+            painted = sum(img.pixelColor(x, y).alpha() > 0 for x in range(0, 32, 2) for y in range(0, 32, 2))
+            assert painted > 10, name
+    theme.current(refresh=True)
+
+
+def _contrast(a, b):
+    """WCAG 2.1 contrast ratio (relative luminance from the sRGB formula of WCAG 2.1)."""
+    def lum(c):
+        def ch(v):
+            return v / 12.92 if v <= 0.03928 else ((v + 0.055) / 1.055) ** 2.4
+        return 0.2126 * ch(c.redF()) + 0.7152 * ch(c.greenF()) + 0.0722 * ch(c.blueF())
+    la, lb = sorted((lum(a), lum(b)), reverse=True)
+    return (la + 0.05) / (lb + 0.05)
