@@ -377,7 +377,8 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     story += [NextPageTemplate("wide"), PageBreak()]
 
     # ---- timeline, on a landscape page
-    story += [P("The week at a glance", h2),
+    span_name = "week" if sc.end_tt - sc.start_tt <= 8 * 86400.0 else "window"
+    story += [P(f"The {span_name} at a glance", h2),
               P("One lane per station: light bands are passes, dark blocks bookings (lighter ends: setup and "
                 "teardown), cross-hatched boxes outages; bookings outlined in vermillion have an error. The top "
                 "lane holds the spacecraft's burns, slews and burn monitor spans; grey columns across all lanes "
