@@ -181,3 +181,16 @@ def test_booking_workbook_read_back(plan, tmp_path):
     assert recs[0]["Purposes"] == "downlink;ranging;commanding"
     assert recs[0]["Start (date-time, UTC)"] == dt.datetime(2027, 1, 12, 19, 0)
     assert recs[0]["Downlinked (Gbit)"] == 101.25 and recs[2]["Locked"] is True
+
+
+def test_workbook_drops_control_characters(plan, tmp_path):
+    import openpyxl  # independent reader
+
+    from contactplan.io.xlsx import write_bookings_xlsx
+
+    plan.scenario.station("KAL").name = "Kalvik\x01 Bay\x1f"
+    write_bookings_xlsx(plan.scenario, tmp_path / "b.xlsx", plan=plan)
+    ws = openpyxl.load_workbook(tmp_path / "b.xlsx")["Bookings"]
+    head = [c.value for c in ws[1]]
+    names = [r[head.index("Station name")].value for r in ws.iter_rows(min_row=2)]
+    assert names == ["North Ridge", "Kalvik Bay", "North Ridge"]

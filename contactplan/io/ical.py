@@ -25,6 +25,11 @@ def booking_uid(scenario_name: str, booking_id: str) -> str:
     return f"{uuid.uuid5(UID_NAMESPACE, key)}@{UID_DOMAIN}"
 
 
+def _line(text: str) -> str:
+    """One-line text for SUMMARY, LOCATION and the calendar name (line breaks become spaces)."""
+    return " ".join(str(text).split())
+
+
 def _describe(rec: dict, station) -> str:
     lines = [
         f"Booking {rec['id']} on {rec['station']}" + (f" ({rec['station_name']})" if rec["station_name"] else ""),
@@ -58,7 +63,7 @@ def calendar(scenario, plan=None, now_tt: float | None = None):
     cal.add("version", "2.0")
     cal.add("calscale", "GREGORIAN")
     cal.add("method", "PUBLISH")
-    cal.add("x-wr-calname", f"{scenario.name}: {scenario.spacecraft.name} contacts")
+    cal.add("x-wr-calname", _line(f"{scenario.name}: {scenario.spacecraft.name} contacts"))
     cal.add("x-wr-timezone", "UTC")
     by_id = {b.id: b for b in scenario.bookings}
     for rec in booking_records(scenario, plan):
@@ -73,10 +78,10 @@ def calendar(scenario, plan=None, now_tt: float | None = None):
         ev.add("sequence", int(scenario.revision))
         ev.add("dtstart", to_datetime(b.start_tt))
         ev.add("dtend", to_datetime(b.end_tt))
-        ev.add("summary", f"{b.id} {b.station}: {', '.join(b.purposes) or 'contact'}")
+        ev.add("summary", _line(f"{b.id} {b.station}: {', '.join(b.purposes) or 'contact'}"))
         ev.add("description", _describe(rec, st))
         if st is not None:
-            ev.add("location", f"{st.name} ({st.id})")
+            ev.add("location", _line(f"{st.name} ({st.id})"))
             ev.add("geo", (float(st.latitude_deg), float(st.longitude_deg)))
         if b.purposes:
             ev.add("categories", list(b.purposes))

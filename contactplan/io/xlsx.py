@@ -119,8 +119,10 @@ def _fill_sheet(ws, labels, rows, dt_idx, widths=None):
         cell.font = bold
         cell.fill = fill
         cell.alignment = Alignment(wrap_text=True, vertical="top")
-    for r in rows:
-        ws.append(r)
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    for r in rows:  # control characters cannot be stored in a workbook: drop them
+        ws.append([ILLEGAL_CHARACTERS_RE.sub("", v) if isinstance(v, str) else v for v in r])
     for j in dt_idx:
         letter = get_column_letter(j + 1)
         for cell in ws[letter][1:]:
