@@ -189,7 +189,7 @@ def _only_input_error(fn, *args):
         assert "\n" not in str(exc)
 
 
-FUZZ = settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+FUZZ = settings(max_examples=int(os.environ.get("FUZZ_EXAMPLES", "150")), deadline=None, suppress_health_check=[HealthCheck.too_slow])
 _VALID_OEM = (DATA / "annex_two_segments.oem").read_bytes()
 _VALID_XML = (DATA / "annex_single.xml").read_bytes()
 _VALID_TOML = (DATA / "minimal.toml").read_text()

@@ -268,3 +268,71 @@ def test_format_epochs_choose_fewest_decimals():
     t = parse_utc("2027-01-12T00:00:00Z") + np.array([0.0, 60.0])
     assert format_epochs(t) == ["2027-01-12T00:00:00.000", "2027-01-12T00:01:00.000"]
     assert format_epochs(t + 1e-7)[0] == "2027-01-12T00:00:00.000000119"
+
+
+def test_tdb_round_trip_within_a_nanosecond(tmp_path):
+    t, p, v = _orbit(20)
+    path = write_oem(tmp_path / "tdb.oem", t, p, v, "INVENTED PROBE", "2026-901A", time_system="TDB", creation_tt=t[0])
+    back = read_oem(path).segments[0].t_tt
+    np.testing.assert_allclose(back, t, rtol=0, atol=1e-9)
+
+
+def test_crlf_and_byte_order_mark_read_alike(tmp_path, data_dir):
+    raw = (data_dir / "annex_two_segments.oem").read_bytes()
+    crlf = tmp_path / "crlf.oem"
+    crlf.write_bytes(b"\xef\xbb\xbf" + raw.replace(b"\n", b"\r\n"))
+    a, b = read_oem(data_dir / "annex_two_segments.oem"), read_oem(crlf)
+    for sa, sb in zip(a.segments, b.segments):
+        np.testing.assert_array_equal(sa.t_tt, sb.t_tt)
+        np.testing.assert_array_equal(sa.pos_km, sb.pos_km)
+        np.testing.assert_array_equal(sa.data_lines, sb.data_lines)
+
+
+def _two_segment_text(first, second):
+    """KVN with two segments given as (start, stop, epochs) in whole hours of 2027-01-12 (invented)."""
+    out = ["CCSDS_OEM_VERS = 2.0", "CREATION_DATE = 2027-01-11T00:00:00", "ORIGINATOR = INVENTED OPS"]
+    for n, (hours, offset_km) in enumerate((first, second)):
+        out += ["META_START", "OBJECT_NAME = INVENTED PROBE", "OBJECT_ID = 2026-901A", "CENTER_NAME = EARTH",
+                "REF_FRAME = ICRF", "TIME_SYSTEM = UTC", f"START_TIME = 2027-01-12T{hours[0]:02d}:00:00",
+                f"STOP_TIME = 2027-01-12T{hours[-1]:02d}:00:00", "INTERPOLATION_DEGREE = 3", "META_STOP"]
+        out += [f"2027-01-12T{h:02d}:00:00 {offset_km + h} 0 0 {1 / 3600} 0 0" for h in hours]
+    return ("\n".join(out) + "\n").encode()
+
+
+def test_overlapping_segments_later_takes_over():
+    from contactplan.io.oem import parse_oem_bytes
+
+    # segment 2 (positions offset by 1000 km) lies inside segment 1: used from its start to its stop
+    f = parse_oem_bytes(_two_segment_text((range(0, 12), 0.0), (range(4, 8), 1000.0)), "overlap.oem")
+    eph = OemEphemeris(f)
+    assert eph.gaps == [] and f.gaps == []
+    t = parse_utc("2027-01-12T00:00:00Z") + np.array([3.5, 4.0, 6.5, 7.0, 7.5]) * 3600.0
+    x = eph.state(t)[0][:, 0]
+    # at a boundary instant the piece that starts there is used (04:00 segment 2, 07:00 segment 1 again)
+    np.testing.assert_allclose(x, [3.5, 1004.0, 1006.5, 7.0, 7.5], atol=1e-9)
+
+
+def test_segment_gap_is_refused_inside_and_accepted_at_edges():
+    from contactplan.io.oem import parse_oem_bytes
+
+    f = parse_oem_bytes(_two_segment_text((range(0, 6), 0.0), (range(8, 14), 0.0)), "gap.oem")
+    eph = OemEphemeris(f)
+    t5, t8 = parse_utc("2027-01-12T05:00:00Z"), parse_utc("2027-01-12T08:00:00Z")
+    assert eph.gaps == [(t5, t8)]
+    np.testing.assert_allclose(eph.state([t5, t8])[0][:, 0], [5.0, 8.0], atol=1e-9)
+    assert not eph.covers(t5 + 1.0)
+    with pytest.raises(OutOfSpanError, match="2027-01-12T06:00:00Z"):
+        eph.state([t5 - 1.0, t5 + 3600.0])
+
+
+def test_hermite_segment_interpolates_between_nodes(data_dir):
+    f = read_oem(data_dir / "annex_two_segments.oem")
+    s = f.segments[1]
+    assert s.interpolation == "HERMITE"
+    eph = OemEphemeris(f)
+    # the file holds an invented smooth orbit; midpoints agree with a degree-7 Lagrange fit of the same nodes
+    from contactplan.ephemeris.interp import lagrange
+
+    mid = (s.t_tt[3:6] + s.t_tt[4:7]) / 2
+    ref, _ = lagrange(s.t_tt, s.pos_km, s.vel_km_s, mid, 7)
+    np.testing.assert_allclose(eph.state(mid)[0], ref, rtol=0, atol=1e-4)  # numbers in the file carry 1 mm

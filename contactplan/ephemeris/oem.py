@@ -7,8 +7,9 @@ Earth with the packaged DE421 (:mod:`contactplan.ephemeris.bodies`). Queries
 then interpolate as each segment's header says (Lagrange, Hermite or linear,
 ``degree + 1`` nodes in a sliding window; see :mod:`contactplan.ephemeris.interp`).
 
-Where segments overlap, the later segment in the file is used from its useable
-start; spans no segment covers are listed in ``gaps`` and refused.
+Where segments overlap, the later segment in the file is used over its useable
+span (at a boundary instant, the piece that starts there); spans no segment
+covers are listed in ``gaps`` and refused.
 """
 
 from __future__ import annotations

@@ -402,6 +402,8 @@ def parse_oem_bytes(data: bytes, path=None) -> OemFile:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise InputError("not UTF-8/ASCII text, not a CCSDS OEM file", path, data[: exc.start].count(b"\n") + 1) from None
+    if not text.strip():
+        raise InputError("file is empty", path)
     if text.lstrip().startswith("<"):
         return _KvnOrXml(path).xml(text)
     return _KvnOrXml(path).kvn(text)
