@@ -6,7 +6,9 @@ Method
     1. A coarse grid of receive times sized to what can change between samples:
        the topocentric direction turns at most by (|v| + omega_E |r|) / (|r| - R_E)
        rad/s; the grid keeps that under :data:`MAX_STEP_ANGLE_DEG` per step
-       (200 s for a spacecraft a million km out, down to 1 s near the Earth).
+       (600 s for a spacecraft a million km out, down to 1 s near the Earth).
+       Where a station's azimuth crosses a horizon-mask vertex (a kink of the
+       limit) a sample is added, so notches narrower than a step are not missed.
     2. Elevation minus the effective limit (mask and minimum elevation; refraction
        when the scenario asks for it) at every grid point, all at once.
     3. Every sign change, and every sampled extremum that could hide one, is
@@ -20,7 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-MAX_STEP_ANGLE_DEG = 1.0  # largest turn of the line of sight between coarse samples
+MAX_STEP_ANGLE_DEG = 3.0  # largest turn of the line of sight between coarse samples
 PRE_STEP_S = 600.0  # spacing of the samples used to size the coarse grid
 EVENT_TOL_S = 0.01  # AOS/LOS refined to this (bracket width, seconds)
 CULMINATION_TOL_S = 0.1
@@ -114,28 +116,39 @@ def coarse_grid(ephemeris, start_tt: float, end_tt: float, max_angle_deg: float 
     return t, tau
 
 
-# ---------------------------------------------------------------- per-station evaluation
-class _StationEval:
-    """Elevation and effective limit of one station, on the grid or at arbitrary times."""
+# ---------------------------------------------------------------- station evaluation
+class _Stations:
+    """Elevation and effective limit of several stations, on the grid or at arbitrary (time, station) pairs."""
 
-    def __init__(self, site, ephemeris, grid_t, grid_tau, clamp, refraction):
+    def __init__(self, sites, ephemeris, grid_t, grid_tau, clamp, refraction):
         from contactplan.geometry.mask import flat_limit_deg, mask_is_flat
 
-        self.site = site
+        self.sites = sites
         self.eph = ephemeris
         self.grid_t = grid_t
         self.grid_tau = grid_tau
         self.clamp = clamp
         self.refraction = refraction
-        self.flat = mask_is_flat(site.station)
-        self.flat_limit = flat_limit_deg(site.station) if self.flat else None
+        self.r = np.array([s.itrs_km for s in sites]).reshape(-1, 3)
+        self.enu = np.array([s.enu for s in sites]).reshape(-1, 3, 3)
+        self.height_m = np.array([s.height_m for s in sites], dtype=float)
+        self.flat = [mask_is_flat(s.station) for s in sites]
+        self.flat_limit = np.array([flat_limit_deg(s.station) if f else np.nan for s, f in zip(sites, self.flat)])
 
-    def limit(self, az):
+    def limit(self, az, sidx):
         from contactplan.geometry.mask import effective_limit_deg
 
-        if self.flat:
-            return np.full(np.shape(az), self.flat_limit)
-        return effective_limit_deg(self.site.station, az)
+        sidx = np.asarray(sidx)
+        if sidx.ndim == 0:
+            k = int(sidx)
+            return (np.full(np.shape(az), self.flat_limit[k]) if self.flat[k]
+                    else effective_limit_deg(self.sites[k].station, az))
+        out = self.flat_limit[sidx]
+        for k in np.unique(sidx):
+            if not self.flat[k]:
+                sel = sidx == k
+                out[sel] = effective_limit_deg(self.sites[k].station, az[sel])
+        return out
 
     def track(self, t):
         from contactplan.geometry.topo import Track
@@ -143,17 +156,66 @@ class _StationEval:
         tau = np.interp(t, self.grid_t, self.grid_tau)
         return Track(self.eph, t, tau_hint_s=tau, clamp=self.clamp)
 
-    def angles(self, t):
-        from contactplan.geometry.topo import view
+    def local(self, track, sidx, rows=None):
+        """Station-to-spacecraft vector (ITRS, km), range, light time and ENU components."""
+        from contactplan.geometry.topo import C_KM_S
 
-        return view(self.site, self.track(np.atleast_1d(t)), refraction=self.refraction)
+        sl = slice(None) if rows is None else rows
+        r = track.r_itrs[sl]
+        sidx = np.asarray(sidx)
+        rs = self.r[sidx] if sidx.ndim else self.r[int(sidx)]
+        rho = r - rs
+        rng = np.sqrt(np.einsum("ni,ni->n", rho, rho))
+        # light time from this station, first order in the spacecraft velocity
+        rho -= track.v_itrs[sl] * (rng / C_KM_S - track.tau_s[sl])[:, None]
+        rng = np.sqrt(np.einsum("ni,ni->n", rho, rho))
+        if sidx.ndim:
+            enu = np.einsum("nij,nj->ni", self.enu[sidx], rho)
+        else:
+            enu = rho @ self.enu[int(sidx)].T
+        return rho, rng, enu
 
-    def margin(self, t):
-        la = self.angles(t)
-        return la.elevation_deg - self.limit(la.azimuth_deg)
+    def angles(self, enu, rng, sidx, need_az=True):
+        el = np.degrees(np.arcsin(np.clip(enu[:, 2] / rng, -1.0, 1.0)))
+        if self.refraction:
+            from contactplan.geometry.refraction import apparent_elevation_deg
 
-    def elevation(self, t):
-        return self.angles(t).elevation_deg
+            h = self.height_m[sidx] if np.ndim(sidx) else self.height_m[int(sidx)]
+            el = apparent_elevation_deg(el, h)
+        az = np.mod(np.degrees(np.arctan2(enu[:, 0], enu[:, 1])), 360.0) if need_az else None
+        return el, az
+
+    def needs_az(self, sidx) -> bool:
+        if np.ndim(sidx) == 0:
+            return not self.flat[int(sidx)]
+        return not all(self.flat[k] for k in np.unique(sidx))
+
+    def margin(self, t, sidx):
+        tr = self.track(np.atleast_1d(t))
+        _, rng, enu = self.local(tr, sidx)
+        el, az = self.angles(enu, rng, sidx, self.needs_az(sidx))
+        return el - (self.limit(az, sidx) if az is not None else self.flat_limit[sidx])
+
+    def elevation(self, t, sidx):
+        tr = self.track(np.atleast_1d(t))
+        _, rng, enu = self.local(tr, sidx)
+        return self.angles(enu, rng, sidx, need_az=False)[0]
+
+
+def _vertex_crossings(t, az, mask_az):
+    """Approximate instants where the azimuth track crosses a mask vertex (kinks of the limit)."""
+    if t.size < 2 or len(mask_az) == 0:
+        return np.zeros(0)
+    daz = np.mod(np.diff(az) + 180.0, 360.0) - 180.0
+    out = []
+    for v in mask_az:
+        off = np.mod(v - az[:-1] + 180.0, 360.0) - 180.0  # signed offset of the vertex from the sample
+        with np.errstate(divide="ignore", invalid="ignore"):
+            f = off / daz
+        hit = (f > 0) & (f < 1) & (daz != 0)
+        k = np.nonzero(hit)[0]
+        out.append(t[k] + f[k] * (t[k + 1] - t[k]))
+    return np.concatenate(out) if out else np.zeros(0)
 
 
 def _segment_of(starts, ends, t):
@@ -180,9 +242,7 @@ def find_passes(scenario, ephemeris, start_tt=None, end_tt=None, stations=None, 
     ``scenario.geometry.refraction``.
     """
     from contactplan.errors import Cancelled, InputError, OutOfSpanError
-    from contactplan.geometry.earth import EarthRotation
-    from contactplan.geometry.shadow import BodyTrack
-    from contactplan.geometry.topo import Site, Track, rho_itrs
+    from contactplan.geometry.topo import Site
     from contactplan.timescale import format_utc
 
     start = float(scenario.start_tt if start_tt is None else start_tt)
@@ -207,130 +267,224 @@ def find_passes(scenario, ephemeris, start_tt=None, end_tt=None, stations=None, 
             f"{getattr(ephemeris, 'name', 'ephemeris')} covers {format_utc(ephemeris.start_tt, 0)} to "
             f"{format_utc(ephemeris.end_tt, 0)}, nothing of the window {format_utc(start, 0)} to {format_utc(end, 0)}")
     geo = scenario.geometry
-    refraction = bool(getattr(geo, "refraction", False))
-    moon_min = float(getattr(geo, "moon_separation_min_deg", 0.0) or 0.0)
-    sun_min = float(getattr(geo, "sun_separation_min_deg", 0.0) or 0.0)
+    opts = dict(
+        refraction=bool(getattr(geo, "refraction", False)),
+        moon_min=float(getattr(geo, "moon_separation_min_deg", 0.0) or 0.0),
+        sun_min=float(getattr(geo, "sun_separation_min_deg", 0.0) or 0.0),
+    )
     sites = [Site(s) for s in chosen]
 
-    def check_cancel():
+    def step(fraction):
         if cancel is not None and cancel():
             raise Cancelled("pass search cancelled")
+        if progress is not None:
+            progress(fraction)
 
-    total_steps = len(spans) * (len(sites) + 1)
-    done = 0
+    total = sum(b - a for a, b in spans)
+    done = 0.0
     out: list[Pass] = []
     for s0, s1 in spans:
-        check_cancel()
-        grid, tau = coarse_grid(ephemeris, s0, s1)
-        clamp = (s0, s1)
-        track = Track(ephemeris, grid, tau_hint_s=tau, clamp=clamp)
-        bt = BodyTrack(s0, s1)
-        sun_g = bt.sun(grid)
-        moon_g = bt.moon(grid)
-        sun_itrs = track.rotation.to_itrs(sun_g)
-        moon_itrs = track.rotation.to_itrs(moon_g)
-        done += 1
-        if progress is not None:
-            progress(done / total_steps)
-        for site in sites:
-            check_cancel()
-            ev = _StationEval(site, ephemeris, grid, track.tau_s, clamp, refraction)
-            from contactplan.geometry.topo import view
-
-            la = view(site, track, refraction=refraction)
-            g = la.elevation_deg - ev.limit(la.azimuth_deg)
-            starts, ends, c_start, c_end = _find(ev, grid, g)
-            if starts.size:
-                out.extend(_build(ev, site, grid, la, track, starts, ends, c_start, c_end,
-                                  sun_itrs, moon_itrs, bt, moon_min, sun_min, EarthRotation, rho_itrs))
-            done += 1
-            if progress is not None:
-                progress(done / total_steps)
-    # Passes cut by a coverage gap are reported as two clipped pieces; merge nothing (the gap is real).
+        w = (s1 - s0) / total
+        out.extend(_passes_in_span(sites, ephemeris, s0, s1, opts,
+                                   lambda f, done=done, w=w: step(done + w * f)))
+        done += w
+    step(1.0)
     out.sort(key=lambda p: (p.aos_tt, p.station))
     return out
 
 
-def _find(ev, grid, g):
-    from contactplan.geometry.search import find_intervals
+def _passes_in_span(sites, ephemeris, s0, s1, opts, step):
+    from contactplan.geometry.search import (
+        extremum_candidates,
+        hidden_brackets,
+        pair_events,
+        refine_extrema,
+        refine_roots,
+        sign_change_brackets,
+    )
+    from contactplan.geometry.shadow import BodyTrack
+    from contactplan.geometry.topo import Track
 
-    return find_intervals(ev.margin, grid, g, tol_s=EVENT_TOL_S)
+    step(0.0)
+    grid, tau = coarse_grid(ephemeris, s0, s1)
+    clamp = (s0, s1)
+    track = Track(ephemeris, grid, tau_hint_s=tau, clamp=clamp)
+    ev = _Stations(sites, ephemeris, grid, track.tau_s, clamp, opts["refraction"])
+    n_st = len(sites)
+    step(0.15)
+
+    # 1. Margin on the grid, station by station; mask-vertex crossings added as extra samples.
+    per = []
+    extra_t, extra_s = [], []
+    for k, site in enumerate(sites):
+        _, rng, enu = ev.local(track, k)
+        need_az = True  # azimuth needed for the vertex crossings and the AOS/LOS statistics
+        el, az = ev.angles(enu, rng, k, need_az)
+        g = el - ev.limit(az, k)
+        per.append({"el": el, "rng": rng, "g": g})
+        if not ev.flat[k]:
+            tc = _vertex_crossings(grid, az, [p[0] for p in site.station.horizon_mask])
+            extra_t.append(tc)
+            extra_s.append(np.full(tc.size, k))
+    step(0.35)
+    if extra_t:
+        et = np.concatenate(extra_t)
+        es = np.concatenate(extra_s)
+        eg = ev.margin(et, es) if et.size else np.zeros(0)
+    t_s, g_s = [], []
+    for k in range(n_st):
+        if extra_t and np.any(es == k):
+            sel = es == k
+            tt = np.concatenate([grid, et[sel]])
+            gg = np.concatenate([per[k]["g"], eg[sel]])
+            order = np.argsort(tt, kind="stable")
+            t_s.append(tt[order])
+            g_s.append(gg[order])
+        else:
+            t_s.append(grid)
+            g_s.append(per[k]["g"])
+
+    # 2. Brackets: sign changes, and extrema that may hide a pair of them (all stations at once).
+    br = [sign_change_brackets(t_s[k], g_s[k]) for k in range(n_st)]
+    cands = [extremum_candidates(t_s[k], g_s[k]) for k in range(n_st)]
+    ca = np.concatenate([c[0] for c in cands])
+    lo = np.concatenate([b[0] for b in br])
+    hi = np.concatenate([b[1] for b in br])
+    glo = np.concatenate([b[2] for b in br])
+    ghi = np.concatenate([b[3] for b in br])
+    sidx = np.concatenate([np.full(b[0].size, k) for k, b in enumerate(br)])
+    if ca.size:
+        cb = np.concatenate([c[1] for c in cands])
+        csg = np.concatenate([c[2] for c in cands])
+        cga = np.concatenate([c[3] for c in cands])
+        cgb = np.concatenate([c[4] for c in cands])
+        cs = np.concatenate([np.full(c[0].size, k) for k, c in enumerate(cands)])
+        tm, fm = refine_extrema(ev.margin, ca, cb, tol_s=EVENT_TOL_S, sign=csg, index=cs)
+        hl, hh, hgl, hgh, which = hidden_brackets(ca, cb, csg, cga, cgb, tm, fm)
+        lo, hi = np.concatenate([lo, hl]), np.concatenate([hi, hh])
+        glo, ghi = np.concatenate([glo, hgl]), np.concatenate([ghi, hgh])
+        sidx = np.concatenate([sidx, cs[which]])
+    step(0.5)
+
+    # 3. Refine every AOS and LOS together.
+    roots = refine_roots(ev.margin, lo, hi, glo, ghi, tol_s=EVENT_TOL_S, index=sidx)
+    rising = ghi > 0
+    starts, ends, c_start, c_end, p_st = [], [], [], [], []
+    for k in range(n_st):
+        sel = sidx == k
+        a, b, ca_, cb_ = pair_events(roots[sel], rising[sel], s0, s1, g_s[k][0] > 0)
+        starts.append(a)
+        ends.append(b)
+        c_start.append(ca_)
+        c_end.append(cb_)
+        p_st.append(np.full(a.size, k))
+    starts, ends = np.concatenate(starts), np.concatenate(ends)
+    c_start, c_end, p_st = np.concatenate(c_start), np.concatenate(c_end), np.concatenate(p_st)
+    step(0.7)
+    if starts.size == 0:
+        return []
+    return _build(ev, sites, grid, track, per, starts, ends, c_start, c_end, p_st, opts, BodyTrack(s0, s1), step)
 
 
-def _build(ev, site, grid, la, track, starts, ends, c_start, c_end, sun_itrs, moon_itrs, bt,
-           moon_min, sun_min, EarthRotation, rho_itrs):
+def _build(ev, sites, grid, track, per, starts, ends, c_start, c_end, p_st, opts, bt, step):
     from contactplan.geometry.search import refine_extrema
+    from contactplan.geometry.topo import C_KM_S
 
     n = starts.size
-    seg = _segment_of(starts, ends, grid)
-    inside = np.nonzero(seg >= 0)[0]
-    sseg = seg[inside]
-    # Culmination bracket: the best in-pass sample and its neighbours, clipped to the pass.
+    # In-pass grid samples of each station, with the global pass number.
+    samp_rows, samp_pass, samp_st = [], [], []
     a = starts.copy()
     b = ends.copy()
-    if inside.size:
-        order = np.lexsort((la.elevation_deg[inside], sseg))
+    for k in range(len(sites)):
+        pk = np.nonzero(p_st == k)[0]
+        if pk.size == 0:
+            continue
+        seg = _segment_of(starts[pk], ends[pk], grid)
+        inside = np.nonzero(seg >= 0)[0]
+        if inside.size == 0:
+            continue
+        sseg = seg[inside]
+        samp_rows.append(inside)
+        samp_pass.append(pk[sseg])
+        samp_st.append(np.full(inside.size, k))
+        # Culmination bracket: the best in-pass sample and its neighbours, clipped to the pass.
+        el = per[k]["el"][inside]
+        order = np.lexsort((el, sseg))
         last = np.ones(order.size, bool)
         last[:-1] = sseg[order][1:] != sseg[order][:-1]
         best = inside[order[last]]
-        bseg = seg[best]
-        a[bseg] = np.maximum(starts[bseg], grid[np.maximum(best - 1, 0)])
-        b[bseg] = np.minimum(ends[bseg], grid[np.minimum(best + 1, grid.size - 1)])
-    t_culm, _ = refine_extrema(ev.elevation, a, b, tol_s=CULMINATION_TOL_S)
-    # Exact look angles at AOS, LOS and culmination, in one evaluation.
-    t_edges = np.concatenate([starts, ends, t_culm])
-    tr_e = ev.track(t_edges)
-    rho_e, rng_e, tau_e = rho_itrs(site, tr_e)
-    from contactplan.geometry.topo import _angles
-
-    la_e = _angles(site, t_edges, rho_e, rng_e, tr_e.v_rot, tau_e, ev.refraction)
-    az = la_e.azimuth_deg
-    el = la_e.elevation_deg
-    # Range extremes and Sun/Moon separations over in-pass samples plus the edges.
-    rho_g, rng_g, _ = rho_itrs(site, track, inside)
-    sun_e = tr_e.rotation.to_itrs(bt.sun(t_edges))
-    moon_e = tr_e.rotation.to_itrs(bt.moon(t_edges))
-    seg_all = np.concatenate([sseg, np.tile(np.arange(n), 3)])
-    rng_all = np.concatenate([rng_g, rng_e])
+        gp = pk[seg[best]]
+        a[gp] = np.maximum(starts[gp], grid[np.maximum(best - 1, 0)])
+        b[gp] = np.minimum(ends[gp], grid[np.minimum(best + 1, grid.size - 1)])
+    t_culm, _ = refine_extrema(ev.elevation, a, b, tol_s=CULMINATION_TOL_S, index=p_st)
+    step(0.85)
+    # Exact geometry at AOS, LOS and culmination, in one evaluation.
+    t_e = np.concatenate([starts, ends, t_culm])
+    s_e = np.concatenate([p_st, p_st, p_st])
+    tr_e = ev.track(t_e)
+    rho_e, rng_e, enu_e = ev.local(tr_e, s_e)
+    el_e, az_e = ev.angles(enu_e, rng_e, s_e)
+    sun_e = tr_e.rotation.to_itrs(bt.sun(t_e))
+    moon_e = tr_e.rotation.to_itrs(bt.moon(t_e))
+    # Range extremes and Sun/Moon separations: in-pass samples plus the three exact points.
+    if samp_rows:
+        rows = np.concatenate(samp_rows)
+        sp = np.concatenate(samp_pass)
+        ss = np.concatenate(samp_st)
+        urows, inv = np.unique(rows, return_inverse=True)
+        rot = track.rotation.subset(urows)
+        sun_g = rot.to_itrs(bt.sun(grid[urows]))[inv]
+        moon_g = rot.to_itrs(bt.moon(grid[urows]))[inv]
+        rho_g, rng_g, _ = ev.local(track, ss, rows)
+    else:
+        sp = np.zeros(0, int)
+        ss = np.zeros(0, int)
+        rho_g = np.zeros((0, 3))
+        rng_g = np.zeros(0)
+        sun_g = moon_g = np.zeros((0, 3))
+    pid = np.concatenate([sp, np.arange(n), np.arange(n), np.arange(n)])
     rho_all = np.concatenate([rho_g, rho_e])
-    sun_sep = _angle_deg(rho_all, np.concatenate([sun_itrs[inside], sun_e]) - site.itrs_km)
-    moon_sep = _angle_deg(rho_all, np.concatenate([moon_itrs[inside], moon_e]) - site.itrs_km)
+    rng_all = np.concatenate([rng_g, rng_e])
+    rsta = ev.r[np.concatenate([ss, s_e])]
+    sun_sep = _angle_deg(rho_all, np.concatenate([sun_g, sun_e]) - rsta)
+    moon_sep = _angle_deg(rho_all, np.concatenate([moon_g, moon_e]) - rsta)
     rmin = np.full(n, np.inf)
     rmax = np.full(n, -np.inf)
     smin = np.full(n, 180.0)
     mmin = np.full(n, 180.0)
-    np.minimum.at(rmin, seg_all, rng_all)
-    np.maximum.at(rmax, seg_all, rng_all)
-    np.minimum.at(smin, seg_all, sun_sep)
-    np.minimum.at(mmin, seg_all, moon_sep)
+    np.minimum.at(rmin, pid, rng_all)
+    np.maximum.at(rmax, pid, rng_all)
+    np.minimum.at(smin, pid, sun_sep)
+    np.minimum.at(mmin, pid, moon_sep)
     # Sun-Earth-probe angle at culmination (geocentric).
-    sl = slice(2 * n, 3 * n)
-    sep = _angle_deg(bt.sun(t_culm), tr_e.r_gcrs_km[sl])
-    st = site.station
+    cs = slice(2 * n, 3 * n)
+    sep = _angle_deg(bt.sun(t_culm), tr_e.r_gcrs_km[cs])
+    light = rng_e[cs] / C_KM_S
     res = []
     for i in range(n):
+        st = sites[int(p_st[i])].station
         aos, los = float(starts[i]), float(ends[i])
-        outs = [o for o in st.outages if o.start_tt < los and o.end_tt > aos]
         res.append(Pass(
             station=st.id,
             aos_tt=aos,
             los_tt=los,
-            max_elevation_deg=float(el[2 * n + i]),
+            max_elevation_deg=float(el_e[2 * n + i]),
             max_elevation_tt=float(t_culm[i]),
-            aos_azimuth_deg=float(az[i]),
-            los_azimuth_deg=float(az[n + i]),
+            aos_azimuth_deg=float(az_e[i]),
+            los_azimuth_deg=float(az_e[n + i]),
             min_range_km=float(rmin[i]),
             max_range_km=float(rmax[i]),
             clipped_start=bool(c_start[i]),
             clipped_end=bool(c_end[i]),
-            light_time_s=float(la_e.light_time_s[2 * n + i]),
+            light_time_s=float(light[i]),
             sun_separation_min_deg=float(smin[i]),
             moon_separation_min_deg=float(mmin[i]),
             sun_earth_probe_deg=float(sep[i]),
-            outages=outs,
-            moon_flag=bool(mmin[i] < moon_min),
-            sun_flag=bool(smin[i] < sun_min),
+            outages=[o for o in st.outages if o.start_tt < los and o.end_tt > aos],
+            moon_flag=bool(mmin[i] < opts["moon_min"]),
+            sun_flag=bool(smin[i] < opts["sun_min"]),
         ))
+    step(1.0)
     return res
 
 

@@ -30,9 +30,10 @@ def _tau(theta, h):
 
 
 def refraction_deg(elevation_deg, height_m=0.0) -> np.ndarray:
-    """Bending (deg) to add to a geometric elevation (deg) at a station ``height_m`` above sea level."""
+    """Bending (deg) to add to a geometric elevation (deg) at a station ``height_m`` above sea level
+    (scalar or an array broadcasting with the elevations)."""
     el = np.asarray(elevation_deg, dtype=float)
-    h = min(max(float(height_m) / 1000.0, 0.0), 3.0)
+    h = np.clip(np.asarray(height_m, dtype=float) / 1000.0, 0.0, 3.0)
     low = _tau(np.clip(el, -1.0, 10.0), h)
     t10 = _tau(10.0, h)
     high = t10 * math.tan(math.radians(10.0)) / np.tan(np.radians(np.clip(el, 10.0, 90.0)))

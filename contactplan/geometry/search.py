@@ -4,6 +4,10 @@
 the same length; an interval is where it is **strictly positive**. Functions may
 have kinks (horizon masks are piecewise linear) but must be continuous.
 
+Several functions can be refined in one batch: pass ``index`` (one integer per
+bracket, e.g. a station number) and a ``func(t, index)`` that evaluates function
+``index[i]`` at ``t[i]``.
+
 Between samples a positive bump (or a negative dip) can hide; every sampled
 local extremum that could reach zero by linear extrapolation from its
 neighbours is refined too, so short grazing intervals are not lost.
@@ -18,8 +22,14 @@ import numpy as np
 _GOLD = (math.sqrt(5.0) - 1.0) / 2.0  # 0.618...
 
 
-def refine_roots(func, lo, hi, glo, ghi, tol_s: float = 0.01, max_iter: int = 80) -> np.ndarray:
-    """Zeros of ``func`` inside brackets [lo, hi] whose end values have opposite signs (``g > 0`` vs not).
+def _call(func, t, index, rows):
+    if index is None:
+        return np.asarray(func(t), dtype=float)
+    return np.asarray(func(t, index[rows]), dtype=float)
+
+
+def refine_roots(func, lo, hi, glo, ghi, tol_s: float = 0.01, max_iter: int = 80, index=None) -> np.ndarray:
+    """Zeros of ``func`` inside brackets [lo, hi] whose end values differ in sign (``g > 0`` vs not).
 
     Illinois variant of the false-position method, vectorised over all brackets;
     every fourth step is a bisection so kinks cannot stall it. Returns the root
@@ -31,6 +41,7 @@ def refine_roots(func, lo, hi, glo, ghi, tol_s: float = 0.01, max_iter: int = 80
     ghi = np.array(ghi, dtype=float)
     if lo.size == 0:
         return lo
+    index = None if index is None else np.asarray(index)
     plo = glo > 0
     retained = np.zeros(lo.shape, dtype=np.int8)  # +1: hi kept last step, -1: lo kept
     for it in range(max_iter):
@@ -38,33 +49,34 @@ def refine_roots(func, lo, hi, glo, ghi, tol_s: float = 0.01, max_iter: int = 80
         if act.size == 0:
             break
         a, b, fa, fb = lo[act], hi[act], glo[act], ghi[act]
-        denom = fb - fa
-        with np.errstate(divide="ignore", invalid="ignore"):
-            c = np.where(denom != 0, (a * fb - b * fa) / denom, 0.5 * (a + b))
+        w = b - a
         if it % 4 == 3:
             c = 0.5 * (a + b)
-        w = b - a
-        c = np.clip(c, a + 0.01 * w, b - 0.01 * w)
-        c = np.where(np.isfinite(c), c, 0.5 * (a + b))
-        fc = np.asarray(func(c), dtype=float)
+        else:
+            denom = fb - fa
+            with np.errstate(divide="ignore", invalid="ignore"):
+                c = (a * fb - b * fa) / denom
+            c = np.where(np.isfinite(c), c, 0.5 * (a + b))
+            # keep a step of at least tol/2 away from the ends so the far end moves too
+            m = np.minimum(0.45 * w, 0.5 * tol_s)
+            c = np.clip(c, a + m, b - m)
+        fc = _call(func, c, index, act)
         same_lo = (fc > 0) == plo[act]
         r = retained[act]
-        # Move lo to c where fc has lo's sign, else hi; halve the kept end's value when kept twice.
-        new_lo = np.where(same_lo, c, a)
-        new_hi = np.where(same_lo, b, c)
         new_glo = np.where(same_lo, fc, np.where(r == -1, fa * 0.5, fa))
         new_ghi = np.where(same_lo, np.where(r == 1, fb * 0.5, fb), fc)
-        lo[act], hi[act], glo[act], ghi[act] = new_lo, new_hi, new_glo, new_ghi
+        lo[act] = np.where(same_lo, c, a)
+        hi[act] = np.where(same_lo, b, c)
+        glo[act], ghi[act] = new_glo, new_ghi
         retained[act] = np.where(same_lo, 1, -1)
-    # Best estimate inside the final bracket: linear interpolation.
     denom = ghi - glo
     with np.errstate(divide="ignore", invalid="ignore"):
-        root = np.where(denom != 0, (lo * ghi - hi * glo) / denom, 0.5 * (lo + hi))
+        root = (lo * ghi - hi * glo) / denom
     return np.clip(np.where(np.isfinite(root), root, 0.5 * (lo + hi)), lo, hi)
 
 
-def refine_extrema(func, a, b, tol_s: float = 0.05, sign: float = 1.0):
-    """Maximum (``sign`` +1) or minimum (-1) of ``func`` on each [a, b], by golden-section search.
+def refine_extrema(func, a, b, tol_s: float = 0.05, sign=1.0, index=None):
+    """Maximum (``sign`` +1) or minimum (-1; may be an array) of ``func`` on each [a, b], golden section.
 
     Vectorised over intervals. Returns (t, value); the end points are compared
     too, so a function monotone on the interval gives its end.
@@ -73,24 +85,32 @@ def refine_extrema(func, a, b, tol_s: float = 0.05, sign: float = 1.0):
     b = np.array(b, dtype=float)
     if a.size == 0:
         return a, a.copy()
+    n = a.size
+    sign = np.broadcast_to(np.asarray(sign, dtype=float), a.shape)
+    idx2 = None if index is None else np.concatenate([np.asarray(index), np.asarray(index)])
+    def f(x, twice=False):
+        if index is None:
+            return np.asarray(func(x), dtype=float)
+        return np.asarray(func(x, idx2 if twice else np.asarray(index)), dtype=float)
+
     a0, b0 = a.copy(), b.copy()
     n_iter = int(np.ceil(np.log(max(float(np.max(b - a)), tol_s) / tol_s) / -np.log(_GOLD))) + 1
     c = b - _GOLD * (b - a)
     d = a + _GOLD * (b - a)
-    both = np.asarray(func(np.concatenate([c, d])), dtype=float) * sign
-    fc, fd = both[: a.size], both[a.size:]
+    both = f(np.concatenate([c, d]), True) * np.concatenate([sign, sign])
+    fc, fd = both[:n], both[n:]
     for _ in range(n_iter):
         left = fc >= fd  # keep [a, d]
         b = np.where(left, d, b)
         a = np.where(left, a, c)
         new_x = np.where(left, b - _GOLD * (b - a), a + _GOLD * (b - a))
-        fx = np.asarray(func(new_x), dtype=float) * sign
+        fx = f(new_x) * sign
         c, d, fc, fd = (np.where(left, new_x, d), np.where(left, c, new_x),
                         np.where(left, fx, fd), np.where(left, fc, fx))
     tm = np.where(fc >= fd, c, d)
     fm = np.maximum(fc, fd)
-    ends = np.asarray(func(np.concatenate([a0, b0])), dtype=float) * sign
-    fa0, fb0 = ends[: a0.size], ends[a0.size:]
+    ends = f(np.concatenate([a0, b0]), True) * np.concatenate([sign, sign])
+    fa0, fb0 = ends[:n], ends[n:]
     tm = np.where(fa0 > fm, a0, tm)
     fm = np.maximum(fm, fa0)
     tm = np.where(fb0 > fm, b0, tm)
@@ -98,11 +118,24 @@ def refine_extrema(func, a, b, tol_s: float = 0.05, sign: float = 1.0):
     return tm, fm * sign
 
 
-def _hidden_brackets(func, t, g, tol_s):
-    """Brackets around sign changes that fall between samples of equal sign (grazing events)."""
+def sign_change_brackets(t, g):
+    """(a, b, ga, gb) around every change of ``g > 0`` between consecutive samples."""
+    pos = g > 0
+    ch = np.nonzero(pos[1:] != pos[:-1])[0]
+    return t[ch], t[ch + 1], g[ch], g[ch + 1]
+
+
+def extremum_candidates(t, g):
+    """Sampled extrema that could hide a pair of sign changes.
+
+    Returns (a, b, sign, ga, gb): the neighbours' interval, +1 for a negative
+    local maximum (a bump may poke above zero), -1 for a positive local minimum
+    (a dip may reach below zero), and g at the neighbours.
+    """
     n = len(t)
     if n < 2:
-        return np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0)
+        z = np.zeros(0)
+        return z, z, z, z, z
     pos = g > 0
     gl = np.concatenate([[np.nan], g[:-1]])
     gr = np.concatenate([g[1:], [np.nan]])
@@ -118,57 +151,33 @@ def _hidden_brackets(func, t, g, tol_s):
         dn_r = np.isnan(gr) | (g <= gr)
     cand_max = ~pos & ~pl & ~pr & up_l & up_r & (g + slack > 0)
     cand_min = pos & pl & pr & dn_l & dn_r & (g - slack <= 0)
-    out = ([], [], [], [])
-    idx_all = np.arange(n)
-    for cand, sgn in ((cand_max, 1.0), (cand_min, -1.0)):
-        idx = idx_all[cand]
-        if idx.size == 0:
-            continue
-        a = t[np.maximum(idx - 1, 0)]
-        b = t[np.minimum(idx + 1, n - 1)]
-        tm, fm = refine_extrema(func, a, b, tol_s=max(tol_s, 0.01), sign=sgn)
-        hit = (fm > 0) if sgn > 0 else ~(fm > 0)
-        if not np.any(hit):
-            continue
-        a, b, tm, fm = a[hit], b[hit], tm[hit], fm[hit]
-        ga = g[np.maximum(idx[hit] - 1, 0)]
-        gb = g[np.minimum(idx[hit] + 1, n - 1)]
-        out[0].extend([a, tm])
-        out[1].extend([tm, b])
-        out[2].extend([ga, fm])
-        out[3].extend([fm, gb])
-    if not out[0]:
-        return np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0)
-    return tuple(np.concatenate(x) for x in out)
+    idx = np.nonzero(cand_max | cand_min)[0]
+    i0 = np.maximum(idx - 1, 0)
+    i1 = np.minimum(idx + 1, n - 1)
+    return t[i0], t[i1], np.where(cand_max[idx], 1.0, -1.0), g[i0], g[i1]
 
 
-def find_intervals(func, t, g, tol_s: float = 0.01):
-    """Intervals where ``func > 0`` given its samples ``g`` at sorted instants ``t``.
+def hidden_brackets(a, b, sign, ga, gb, tm, fm):
+    """Turn refined extrema that crossed zero into two brackets each: (a, tm) and (tm, b).
 
-    Returns (starts, ends, clipped_start, clipped_end) arrays: an interval under
-    way at ``t[0]`` starts there with ``clipped_start``; one still under way at
-    ``t[-1]`` ends there with ``clipped_end``. Events are refined to ``tol_s``.
+    Returns (lo, hi, glo, ghi, which) with ``which`` the candidate row of each bracket.
     """
-    t = np.asarray(t, dtype=float)
-    g = np.asarray(g, dtype=float)
-    empty = (np.zeros(0), np.zeros(0), np.zeros(0, bool), np.zeros(0, bool))
-    if t.size == 0:
-        return empty
-    pos = g > 0
-    ch = np.nonzero(pos[1:] != pos[:-1])[0]
-    a, b, ga, gb = t[ch], t[ch + 1], g[ch], g[ch + 1]
-    ha, hb, hga, hgb = _hidden_brackets(func, t, g, tol_s)
-    a = np.concatenate([a, ha])
-    b = np.concatenate([b, hb])
-    ga = np.concatenate([ga, hga])
-    gb = np.concatenate([gb, hgb])
-    roots = refine_roots(func, a, b, ga, gb, tol_s=tol_s)
-    rising = gb > 0
+    hit = np.where(sign > 0, fm > 0, ~(fm > 0))
+    k = np.nonzero(hit)[0]
+    lo = np.concatenate([a[k], tm[k]])
+    hi = np.concatenate([tm[k], b[k]])
+    glo = np.concatenate([ga[k], fm[k]])
+    ghi = np.concatenate([fm[k], gb[k]])
+    return lo, hi, glo, ghi, np.concatenate([k, k])
+
+
+def pair_events(roots, rising, t_first, t_last, positive_at_start):
+    """Intervals from sorted-or-not events. Returns (starts, ends, clipped_start, clipped_end)."""
     order = np.argsort(roots, kind="stable")
-    roots, rising = roots[order], rising[order]
+    roots, rising = np.asarray(roots)[order], np.asarray(rising)[order]
     starts, ends, cs, ce = [], [], [], []
-    open_at = float(t[0]) if pos[0] else None
-    open_clipped = bool(pos[0])
+    open_at = float(t_first) if positive_at_start else None
+    open_clipped = bool(positive_at_start)
     # Events alternate by construction; a short loop keeps it robust to ties.
     for r, up in zip(roots.tolist(), rising.tolist()):
         if up and open_at is None:
@@ -181,10 +190,31 @@ def find_intervals(func, t, g, tol_s: float = 0.01):
             open_at = None
     if open_at is not None:
         starts.append(open_at)
-        ends.append(float(t[-1]))
+        ends.append(float(t_last))
         cs.append(open_clipped)
         ce.append(True)
     starts = np.array(starts, dtype=float)
     ends = np.array(ends, dtype=float)
     keep = ends > starts
     return starts[keep], ends[keep], np.array(cs, bool)[keep], np.array(ce, bool)[keep]
+
+
+def find_intervals(func, t, g, tol_s: float = 0.01):
+    """Intervals where ``func > 0`` given its samples ``g`` at sorted instants ``t``.
+
+    Returns (starts, ends, clipped_start, clipped_end) arrays: an interval under
+    way at ``t[0]`` starts there with ``clipped_start``; one still under way at
+    ``t[-1]`` ends there with ``clipped_end``. Events are refined to ``tol_s``.
+    """
+    t = np.asarray(t, dtype=float)
+    g = np.asarray(g, dtype=float)
+    if t.size == 0:
+        return np.zeros(0), np.zeros(0), np.zeros(0, bool), np.zeros(0, bool)
+    a, b, ga, gb = sign_change_brackets(t, g)
+    ca, cb, csign, cga, cgb = extremum_candidates(t, g)
+    if ca.size:
+        tm, fm = refine_extrema(func, ca, cb, tol_s=max(tol_s, 0.01), sign=csign)
+        ha, hb, hga, hgb, _ = hidden_brackets(ca, cb, csign, cga, cgb, tm, fm)
+        a, b, ga, gb = (np.concatenate([x, y]) for x, y in ((a, ha), (b, hb), (ga, hga), (gb, hgb)))
+    roots = refine_roots(func, a, b, ga, gb, tol_s=tol_s)
+    return pair_events(roots, gb > 0, t[0], t[-1], g[0] > 0)
