@@ -218,6 +218,27 @@ def test_mask_notch_gives_a_short_pass_through_it():
         assert vis[-1] == pytest.approx(p.los_tt, abs=0.06)
 
 
+@pytest.mark.parametrize("centre", [63.0, 100.0, 287.0])
+def test_narrow_notch_off_the_meridian_is_found(centre):
+    # A wall at 70 deg with a 1-deg notch to 0 deg centred where the target is low and moving fast in
+    # elevation: the sampled margin sees only the wall, the notch lasts a few minutes.
+    wall = [[0.0, 70.0], [centre - 1.0, 70.0], [centre - 0.5, 0.0], [centre + 0.5, 0.0], [centre + 1.0, 70.0]]
+    st = Station(id="WAL", name="Wall", latitude_deg=40.0, longitude_deg=-4.0, min_elevation_deg=0.0,
+                 horizon_mask=wall)
+    eph = star(20.0)
+    passes = find_passes(scenario_with([st], days=2.0), eph)
+    assert len(passes) == 2
+    from contactplan.geometry.mask import effective_limit_deg
+
+    for p in passes:
+        assert p.duration_s < 900
+        t = np.arange(p.aos_tt - 120, p.los_tt + 120, 0.05)
+        la = look_angles(st, eph, t)
+        vis = t[la.elevation_deg > effective_limit_deg(st, la.azimuth_deg)]
+        assert vis[0] == pytest.approx(p.aos_tt, abs=0.06)
+        assert vis[-1] == pytest.approx(p.los_tt, abs=0.06)
+
+
 # ---------------------------------------------------------------- window edges, outages, flags
 def test_passes_under_way_at_the_window_edges_are_clipped_and_marked():
     eph = star(20.0)
