@@ -336,3 +336,29 @@ def test_hermite_segment_interpolates_between_nodes(data_dir):
     mid = (s.t_tt[3:6] + s.t_tt[4:7]) / 2
     ref, _ = lagrange(s.t_tt, s.pos_km, s.vel_km_s, mid, 7)
     np.testing.assert_allclose(eph.state(mid)[0], ref, rtol=0, atol=1e-4)  # numbers in the file carry 1 mm
+
+
+# ------------------------------------------------------------------ epoch parser properties
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.datetimes(min_value=__import__("datetime").datetime(1972, 1, 1),
+                    max_value=__import__("datetime").datetime(2049, 12, 31)),
+       st.sampled_from(["UTC", "TAI", "TT", "GPS", "TDB"]), st.booleans())
+def test_bulk_epoch_parser_agrees_with_parse_utc(when, scale, doy):
+    # two independent code paths in this project: the per-text parser and the vectorised one
+    text = when.strftime("%Y-%jT%H:%M:%S.%f" if doy else "%Y-%m-%dT%H:%M:%S.%f")
+    assert parse_epochs([text], scale)[0] == pytest.approx(parse_utc(text, scale=scale), abs=2e-7)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(max_size=40))
+def test_bulk_epoch_parser_refuses_cleanly(text):
+    from contactplan.io.oem import _EpochError
+
+    try:
+        parse_epochs([text], "UTC")
+    except _EpochError as exc:
+        assert exc.index == 0
