@@ -362,3 +362,11 @@ def test_bulk_epoch_parser_refuses_cleanly(text):
         parse_epochs([text], "UTC")
     except _EpochError as exc:
         assert exc.index == 0
+
+
+def test_writer_refuses_epochs_it_cannot_write(tmp_path):
+    p = np.zeros((2, 3))
+    with pytest.raises(InputError, match="1972"):
+        write_oem(tmp_path / "old.oem", np.array([-1.0e9, -0.9e9]), p, p, "A", "B")  # 1968, UTC undefined
+    with pytest.raises(InputError, match="two centuries"):
+        write_oem(tmp_path / "far.oem", np.array([0.0, 1e12]), p, p, "A", "B")

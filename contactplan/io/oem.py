@@ -14,6 +14,11 @@ and XML (parsed with defusedxml). Writes KVN version 2.0.
 * Every problem raises :class:`~contactplan.errors.InputError` with the file
   and line number.
 
+Interpolation: INTERPOLATION_DEGREE d means a sliding window of d + 1 states;
+LAGRANGE fits a polynomial of degree d to the positions (and, with the same
+weights, to the velocities); HERMITE matches positions and velocities on the
+window (a polynomial of degree 2d + 1). Without the keywords: Lagrange, d = 7.
+
 Epoch semantics: an epoch read in TIME_SYSTEM ``X`` is converted to TT seconds
 since J2000 exactly as :func:`contactplan.timescale.parse_utc` does; the writer
 picks the fewest decimals (3, 6 or 9) for which reading back gives the same
@@ -325,12 +330,19 @@ def format_epochs(t_tt, scale: str = "UTC", decimals: int | None = None) -> list
     scale = scale.upper()
     if scale not in TIME_SYSTEMS:
         raise InputError(f"unknown time system {scale!r} (use {', '.join(TIME_SYSTEMS)})")
-    if decimals is None:
-        for dec in (3, 6, 9):
-            out = _format(t, scale, dec)
-            if dec == 9 or np.array_equal(parse_epochs(out, scale), t):
-                return out
-    return _format(t, scale, decimals)
+    if not np.all(np.isfinite(t)) or np.any(np.abs(t) > 200.0 * 365.25 * DAY_S):
+        raise InputError("epochs must be finite and within two centuries of 2000")
+    for dec in ((3, 6, 9) if decimals is None else (decimals,)):
+        out = _format(t, scale, dec)
+        try:
+            back = parse_epochs(out, scale)
+        except _EpochError as exc:
+            raise InputError(f"cannot write epoch {out[exc.index]}: {exc.message}") from None
+        if np.array_equal(back, t):
+            return out
+    if np.any(np.abs(back - t) > 0.6 * 10.0 ** -dec + 1e-9):  # pragma: no cover - defensive
+        raise InputError("epochs do not survive formatting")
+    return out
 
 
 def _format(t, scale, dec):
