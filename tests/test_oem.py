@@ -370,3 +370,21 @@ def test_writer_refuses_epochs_it_cannot_write(tmp_path):
         write_oem(tmp_path / "old.oem", np.array([-1.0e9, -0.9e9]), p, p, "A", "B")  # 1968, UTC undefined
     with pytest.raises(InputError, match="two centuries"):
         write_oem(tmp_path / "far.oem", np.array([0.0, 1e12]), p, p, "A", "B")
+
+
+def test_built_in_orbit_through_an_oem_file_agrees(tmp_path, minimal_path):
+    """Sample the built-in halo orbit every 10 min, write, read, interpolate: within a metre."""
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.io.oem import write_ephemeris_oem
+    from contactplan.scenario import load_scenario
+
+    sc = load_scenario(minimal_path)
+    eph = ephemeris_for(sc)
+    path = write_ephemeris_oem(tmp_path / "wk.oem", eph, sc.start_tt, sc.end_tt, 600.0,
+                               object_name="INVENTED PROBE", object_id="2026-901A")
+    back = OemEphemeris(read_oem(path))
+    t = np.random.default_rng(7).uniform(sc.start_tt, sc.end_tt, 2000)
+    p0, v0 = eph.state(t)
+    p1, v1 = back.state(t)
+    assert np.abs(p1 - p0).max() < 1e-3  # km
+    assert np.abs(v1 - v0).max() < 1e-8  # km/s
