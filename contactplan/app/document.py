@@ -66,6 +66,7 @@ class PlanDocument(QObject):
         self.check_error: str | None = None
         self.last_check_s = 0.0
         self.stale = False
+        self.revision = 0  # counts edits; a result computed at an older revision is checked again
 
     # ------------------------------------------------------------ state
     @property
@@ -91,14 +92,22 @@ class PlanDocument(QObject):
         self.scenarioReplaced.emit()
         self.recheck()
 
-    def set_result(self, result) -> None:
-        """A freshly computed PlanResult for the current scenario (bookings stay as edited)."""
+    def set_result(self, result, revision: int | None = None) -> None:
+        """A freshly computed PlanResult for the current scenario (bookings stay as edited).
+
+        ``revision``: the document revision the result was computed at; when no edit
+        came since, its findings are current and the check is not run again.
+        """
         result.scenario = self.scenario
         self.result = result
         self.stale = False
         self.passesStale.emit(False)
         self.resultChanged.emit()
-        self.recheck()
+        if revision is not None and revision == self.revision and result.findings is not None:
+            self.check_error = None
+            self.findingsChanged.emit()
+        else:
+            self.recheck()
 
     def mark_stale(self) -> None:
         self.stale = True
@@ -158,6 +167,7 @@ class PlanDocument(QObject):
 
     # ------------------------------------------------------------ edits (all undoable)
     def _after_bookings(self) -> None:
+        self.revision += 1
         self.bookingsChanged.emit()
         self.recheck()
 
@@ -278,6 +288,7 @@ class EditRecord(QUndoCommand):
         rec = self.doc._record(self.kind, self.rec_id)
         for k, v in values.items():
             setattr(rec, k, copy.deepcopy(v))
+        self.doc.revision += 1
         if self.kind == "booking":
             self.doc._after_bookings()
             return

@@ -32,6 +32,10 @@ class _Base(QAbstractTableModel):
         super().__init__(parent)
         self.doc = doc
         self.rows: list = []
+        self.display: list | None = None  # per-row display tuples, when a model caches them
+        self.keys: list | None = None  # per-row sort-key tuples, when a model caches them
+        self.sort_column = -1
+        self.sort_order = Qt.SortOrder.AscendingOrder
 
     def rowCount(self, parent=QModelIndex()):
         return 0 if parent.isValid() else len(self.rows)
@@ -49,7 +53,37 @@ class _Base(QAbstractTableModel):
     def refresh(self) -> None:
         self.beginResetModel()
         self.rows = self._rows()
+        self._apply_sort()
         self.endResetModel()
+
+    def _key(self, r: int, c: int):
+        if self.keys is not None:
+            return self.keys[r][c]
+        return self.data(self.index(r, c), SORT_ROLE)
+
+    def _apply_sort(self) -> None:
+        c = self.sort_column
+        if c < 0 or not self.rows:
+            return
+        keys = [self._key(r, c) for r in range(len(self.rows))]
+        try:
+            perm = sorted(range(len(keys)), key=keys.__getitem__,
+                          reverse=self.sort_order == Qt.SortOrder.DescendingOrder)
+        except TypeError:
+            perm = sorted(range(len(keys)), key=lambda i: str(keys[i]),
+                          reverse=self.sort_order == Qt.SortOrder.DescendingOrder)
+        self.rows = [self.rows[i] for i in perm]
+        if self.display is not None:
+            self.display = [self.display[i] for i in perm]
+        if self.keys is not None:
+            self.keys = [self.keys[i] for i in perm]
+
+    def sort(self, column, order=Qt.SortOrder.AscendingOrder):
+        """Sort in Python on the per-column keys (stable; far cheaper than a proxy calling back per pair)."""
+        self.sort_column, self.sort_order = column, order
+        self.layoutAboutToBeChanged.emit()
+        self._apply_sort()
+        self.layoutChanged.emit()
 
     def row_of(self, obj) -> int:
         for i, r in enumerate(self.rows):
@@ -79,7 +113,23 @@ class PassesModel(_Base):
         doc.resultChanged.connect(self.refresh)
 
     def _rows(self):
-        return [] if self.doc.result is None else list(self.doc.result.passes)
+        rows = [] if self.doc.result is None else list(self.doc.result.passes)
+        self._build(rows)
+        return rows
+
+    def _build(self, rows) -> None:
+        """Display text and sort keys of every row at once (time columns formatted in one vector call)."""
+        aos = format_utc([p.aos_tt for p in rows], 0) if rows else []
+        los = format_utc([p.los_tt for p in rows], 0) if rows else []
+        self.display, self.keys = [], []
+        for p, a, b in zip(rows, aos, los):
+            notes = self.notes(p)
+            self.display.append((p.station, a, b, hours_text(p.duration_s), f"{p.max_elevation_deg:.1f}",
+                                 _num(p.max_rate_kbps, ",.0f"), _num(p.volume_gbit, ".1f"),
+                                 f"{p.min_range_km:,.0f}", notes))
+            self.keys.append((p.station, p.aos_tt, p.los_tt, p.duration_s, p.max_elevation_deg,
+                              p.max_rate_kbps if p.max_rate_kbps is not None else -1.0,
+                              p.volume_gbit if p.volume_gbit is not None else -1.0, p.min_range_km, notes))
 
     @staticmethod
     def notes(p) -> str:
@@ -92,25 +142,20 @@ class PassesModel(_Base):
             out.append("outage")
         if getattr(p, "moon_flag", False):
             out.append("Moon near")
-        if p.sun_separation_min_deg < 180.0 and p.sun_separation_min_deg < 10.0:
+        if p.sun_separation_min_deg < 10.0:
             out.append(f"Sun {p.sun_separation_min_deg:.1f} deg")
         return ", ".join(out)
 
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
         if not index.isValid():
             return None
-        p = self.rows[index.row()]
-        c = index.column()
-        if role == OBJECT_ROLE:
-            return p
-        if role == SORT_ROLE:
-            return (p.station, p.aos_tt, p.los_tt, p.duration_s, p.max_elevation_deg,
-                    p.max_rate_kbps if p.max_rate_kbps is not None else -1.0,
-                    p.volume_gbit if p.volume_gbit is not None else -1.0, p.min_range_km, self.notes(p))[c]
+        r, c = index.row(), index.column()
         if role == Qt.ItemDataRole.DisplayRole:
-            return (p.station, format_utc(p.aos_tt, 0), format_utc(p.los_tt, 0), hours_text(p.duration_s),
-                    f"{p.max_elevation_deg:.1f}", _num(p.max_rate_kbps, ",.0f"), _num(p.volume_gbit, ".1f"),
-                    f"{p.min_range_km:,.0f}", self.notes(p))[c]
+            return self.display[r][c]
+        if role == SORT_ROLE:
+            return self.keys[r][c]
+        if role == OBJECT_ROLE:
+            return self.rows[r]
         if role == Qt.ItemDataRole.TextAlignmentRole and c in (3, 4, 5, 6, 7):
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
         return None
@@ -168,10 +213,13 @@ class BookingsModel(_Base):
         if role == Qt.ItemDataRole.CheckStateRole and c == 6:
             return Qt.CheckState.Checked if b.locked else Qt.CheckState.Unchecked
         if role == SORT_ROLE:
-            e, w = self._counts(b)
-            d = self._down(b)
-            return (b.id, b.station, b.start_tt, b.end_tt, b.duration_s, ",".join(b.purposes), int(b.locked),
-                    -1.0 if d is None else d, e * 1000 + w)[c]
+            if c == 7:
+                d = self._down(b)
+                return -1.0 if d is None else d
+            if c == 8:
+                e, w = self._counts(b)
+                return e * 1000 + w
+            return (b.id, b.station, b.start_tt, b.end_tt, b.duration_s, ",".join(b.purposes), int(b.locked))[c]
         if role in (Qt.ItemDataRole.DisplayRole, Qt.ItemDataRole.EditRole):
             if c == 8:
                 e, w = self._counts(b)
@@ -244,7 +292,10 @@ class FindingsModel(_Base):
         doc.findingsChanged.connect(self.refresh)
 
     def _rows(self):
-        return sorted(self.doc.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+        rows = sorted(self.doc.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+        starts = format_utc([f.start_tt for f in rows], 0) if rows else []
+        self.display = [(f.severity, f.rule, ", ".join(f.subjects), t, f.message) for f, t in zip(rows, starts)]
+        return rows
 
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
         if not index.isValid():
@@ -256,7 +307,7 @@ class FindingsModel(_Base):
         if role == SORT_ROLE:
             return (0 if f.severity == "error" else 1, f.rule, ",".join(f.subjects), f.start_tt, f.message)[c]
         if role == Qt.ItemDataRole.DisplayRole:
-            return (f.severity, f.rule, ", ".join(f.subjects), format_utc(f.start_tt, 0), f.message)[c]
+            return self.display[index.row()][c]
         if role == Qt.ItemDataRole.ToolTipRole:
             return f.message
         if role == Qt.ItemDataRole.ForegroundRole and c == 0:
@@ -268,7 +319,8 @@ class FindingsModel(_Base):
 
 
 class FilterProxy(QSortFilterProxyModel):
-    """Sorts on the numeric key; filters on a station id and free text over every column."""
+    """Sorts on the per-column key (SORT_ROLE: numbers or text, compared in C++);
+    filters on a station id and free text over every column."""
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -292,7 +344,15 @@ class FilterProxy(QSortFilterProxyModel):
             change()
             self.invalidateRowsFilter()
 
+    def sort(self, column, order=Qt.SortOrder.AscendingOrder):
+        """Sorting happens in the source model; the proxy keeps its order and only filters."""
+        src = self.sourceModel()
+        if src is not None:
+            src.sort(column, order)
+
     def filterAcceptsRow(self, row, parent):
+        if not self.station and not self.text:
+            return True
         m = self.sourceModel()
         obj = m.index(row, 0, parent).data(OBJECT_ROLE)
         if self.station and getattr(obj, "station", self.station) != self.station:
@@ -301,10 +361,3 @@ class FilterProxy(QSortFilterProxyModel):
             cells = " ".join(str(m.index(row, c, parent).data() or "") for c in range(m.columnCount()))
             return self.text in cells.lower()
         return True
-
-    def lessThan(self, left, right):
-        a, b = left.data(SORT_ROLE), right.data(SORT_ROLE)
-        try:
-            return a < b
-        except TypeError:
-            return str(a) < str(b)

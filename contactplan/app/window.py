@@ -137,6 +137,7 @@ class MainWindow(QMainWindow):
         self.error_box: QMessageBox | None = None
         self.last_error: str | None = None
         self.last_export: str | None = None
+        self.last_revalidation = None
         self.setWindowIcon(icons.icon("app"))
         self.setDockNestingEnabled(True)
 
@@ -811,12 +812,14 @@ class MainWindow(QMainWindow):
                 return None
         from contactplan.plan.pipeline import compute_plan
 
+        revision = self.doc.revision
+
         def fn(progress, cancel):
             return compute_plan(sc, progress=progress, cancel=cancel)
 
         def done(result):
             if self.doc.scenario is sc:
-                self.doc.set_result(result)
+                self.doc.set_result(result, revision=revision)
                 self._update_summary()
                 self.statusBar().showMessage(f"{len(result.passes)} passes predicted", 5000)
 
@@ -835,31 +838,18 @@ class MainWindow(QMainWindow):
             return None
         snapshot = copy.copy(sc)
         snapshot.bookings = list(sc.bookings)
+        old = self.doc.result if (self.doc.result is not None and self.doc.result.passes
+                                  and not self.doc.stale) else None
 
         def fn(progress, cancel):
             from contactplan.ephemeris import open_oem
+            from contactplan.plan.revalidate import revalidate
 
-            eph = open_oem(path)
-            try:
-                from contactplan.plan import revalidate as rv
+            return revalidate(snapshot, open_oem(path), old_result=old, progress=progress, cancel=cancel)
 
-                fn_ = getattr(rv, "revalidate", None)
-            except ImportError:
-                fn_ = None
-            if fn_ is not None:
-                return "report", fn_(snapshot, eph, old=self.doc.result, progress=progress, cancel=cancel)
-            from contactplan.plan.pipeline import compute_plan
-
-            return "plan", compute_plan(snapshot, ephemeris=eph, progress=progress, cancel=cancel)
-
-        def done(out):
-            kind, value = out
-            if kind == "plan":
-                e, w = value.errors, value.warnings
-                lines = [f"With {Path(path).name}: {len(value.passes)} passes, {e} errors, {w} warnings."]
-                lines += [f"{f.severity}: {f.message}" for f in value.findings[:12]]
-            else:
-                lines = [str(x) for x in (getattr(value, "lines", None) or [value])]
+        def done(rv):
+            self.last_revalidation = rv
+            lines = revalidation_lines(rv, Path(path).name)
             B = QMessageBox.StandardButton
             if self.ask("Re-validation", "\n".join(lines) + "\n\nFly this ephemeris from now on?",
                         B.Yes | B.No, B.No) == B.Yes:
@@ -945,6 +935,25 @@ class MainWindow(QMainWindow):
         self.settings.setValue("window/state", self.saveState())
         self.autosaver.clear()
         ev.accept()
+
+
+def revalidation_lines(rv, name: str, limit: int = 14) -> list:
+    """Plain lines saying what a new ephemeris changes for the bookings."""
+    def shift(v):
+        return "-" if v is None else f"{v:+.0f} s"
+
+    lines = [f"{name}: compared {format_utc(rv.start_tt, 0)} to {format_utc(rv.end_tt, 0)}.",
+             f"{len(rv.broken)} booking(s) now break a rule; {len(rv.appeared)} new finding(s), "
+             f"{len(rv.resolved)} resolved."]
+    for b in rv.bookings[:limit]:
+        state = "not checked (outside the new ephemeris)" if not b.checked else (
+            "BROKEN" if b.broken else "ok")
+        lines.append(f"  {b.booking} {b.station}: AOS {shift(b.aos_shift_s)}, LOS {shift(b.los_shift_s)}, {state}")
+    if len(rv.bookings) > limit:
+        lines.append(f"  ... and {len(rv.bookings) - limit} more")
+    for f in rv.appeared[:6]:
+        lines.append(f"  new {f.severity}: {f.message}")
+    return lines
 
 
 def _looks_oem(path: Path) -> bool:
