@@ -129,3 +129,34 @@ def test_pass_rows_values_and_link_columns():
     table = passes_text([a, b])
     assert "Moon 2.5 deg from beam" in table and "outage 02-01T12:00-13:00 rain" in table
     assert "under way at window start" in table and "8:30:00" in table
+
+
+def test_oem_ephemeris_gives_the_same_passes_and_partial_cover_is_said(minimal_path, tmp_path, capsys):
+    # The sample's built-in orbit written out as a CCSDS OEM (by the export command), then read back.
+    oem = tmp_path / "probe.oem"
+    assert main(["export", str(minimal_path), "--out", str(oem), "--start", "2027-01-11T00:00:00Z",
+                 "--end", "2027-01-20T00:00:00Z", "--step", "300"]) == 0
+    src = minimal_path.read_text()
+    line = next(x for x in src.splitlines() if x.startswith("ephemeris = { libration"))
+    (tmp_path / "oem.toml").write_text(src.replace(line, 'ephemeris = { oem = "probe.oem" }'))
+    assert main(["passes", str(minimal_path), "--out", str(tmp_path / "a.csv")]) == 0
+    assert main(["passes", str(tmp_path / "oem.toml"), "--out", str(tmp_path / "b.csv")]) == 0
+    a = list(csv.DictReader(open(tmp_path / "a.csv")))
+    b = list(csv.DictReader(open(tmp_path / "b.csv")))
+    assert len(a) == len(b) > 10
+    for x, y in zip(a, b):
+        assert x["station"] == y["station"]
+        assert abs(parse_utc(x["aos_utc"]) - parse_utc(y["aos_utc"])) < 0.05
+        assert abs(parse_utc(x["los_utc"]) - parse_utc(y["los_utc"])) < 0.05
+    # An OEM covering only part of the window: a warning, and passes clipped at the coverage edges.
+    short = tmp_path / "short.oem"
+    assert main(["export", str(minimal_path), "--out", str(short), "--start", "2027-01-13T06:00:00Z",
+                 "--end", "2027-01-16T06:00:00Z", "--step", "300"]) == 0
+    (tmp_path / "short.toml").write_text(src.replace(line, 'ephemeris = { oem = "short.oem" }'))
+    capsys.readouterr()
+    assert main(["passes", str(tmp_path / "short.toml"), "--out", str(tmp_path / "c.csv")]) == 0
+    err = capsys.readouterr().err
+    assert "contactplan: warning: the ephemeris covers only part of the window" in err
+    c = list(csv.DictReader(open(tmp_path / "c.csv")))
+    assert c[0]["aos_utc"] == "2027-01-13T06:00:00.000Z" and c[0]["clipped_start"] == "true"
+    assert c[-1]["los_utc"] == "2027-01-16T06:00:00.000Z" and c[-1]["clipped_end"] == "true"
