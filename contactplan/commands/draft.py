@@ -1,0 +1,87 @@
+"""``contactplan draft SCENARIO --out FILE.toml``: draft bookings that meet the requirements.
+
+Locked bookings stay; unlocked ones inside the drafting span are replaced by the
+drafter's proposal (see :mod:`contactplan.plan.drafter`). The scenario is
+written to ``--out`` with the new bookings, atomically. Exit status 0 when a
+plan was written, 1 when the requirements cannot all be met (nothing written,
+the reasons printed), 2 for bad input.
+"""
+
+from __future__ import annotations
+
+import sys
+
+HELP = "draft bookings for the window that meet the requirements"
+
+EXAMPLES = """\
+  contactplan draft week.toml --out week-drafted.toml
+  contactplan draft week.toml --start 2027-01-14T00:00:00Z --end 2027-01-16T00:00:00Z --out week-b.toml
+  contactplan draft week.toml --time-limit 30 --grid 5 --out week-fine.toml
+"""
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("scenario", metavar="SCENARIO", help="scenario file (TOML)")
+    parser.add_argument("--out", metavar="FILE.toml", required=True,
+                        help="where to write the scenario with the drafted bookings")
+    parser.add_argument("--start", metavar="T", default=None,
+                        help="draft from this UTC time (default: the scenario's start)")
+    parser.add_argument("--end", metavar="T", default=None,
+                        help="draft up to this UTC time (default: the scenario's end)")
+    parser.add_argument("--time-limit", metavar="S", type=float, default=10.0,
+                        help="seconds the solver may take; the best plan found by then is kept (default 10)")
+    parser.add_argument("--grid", metavar="MIN", type=float, default=10.0,
+                        help="booking edges on this grid of minutes, 5 to 15 (default 10)")
+
+
+def run(args) -> int:
+    from pathlib import Path
+
+    from contactplan import CAUTION
+    from contactplan.data import configure_astropy
+    from contactplan.errors import InputError
+    from contactplan.plan.drafter import INFEASIBLE, draft, summary_lines
+    from contactplan.scenario import load_scenario, save_scenario
+    from contactplan.timescale import parse_utc
+
+    if not (args.time_limit > 0):
+        raise InputError(f"--time-limit {args.time_limit:g}: give a positive number of seconds")
+    if not (5.0 <= args.grid <= 15.0):
+        raise InputError(f"--grid {args.grid:g}: give 5 to 15 minutes")
+    out = Path(args.out)
+    if out.suffix.lower() != ".toml":
+        raise InputError("the drafted scenario is written as TOML: give --out a name ending in .toml", out)
+    if out.resolve() == Path(args.scenario).resolve():
+        raise InputError("--out names the scenario itself; write the draft to a new file and compare", out)
+    configure_astropy()
+    scenario = load_scenario(args.scenario)
+    start = end = None
+    try:
+        if args.start is not None:
+            start = parse_utc(args.start)
+        if args.end is not None:
+            end = parse_utc(args.end)
+    except InputError as exc:
+        raise exc.at(None, "--start/--end") from None
+    if start is not None and end is not None and end <= start:
+        raise InputError("--end is not after --start")
+
+    from contactplan.plan.pipeline import compute_plan
+
+    result = compute_plan(scenario)
+    dr = draft(scenario, result=result, start_tt=start, end_tt=end, time_limit_s=args.time_limit,
+               grid_min=args.grid)
+    lines = [f"{scenario.name}:"] + summary_lines(scenario, dr)
+    if dr.status == INFEASIBLE or not dr.bookings and dr.explanations:
+        lines.append(f"nothing written to {out}")
+        lines.append(CAUTION)
+        sys.stdout.write("\n".join(lines) + "\n")
+        return 1
+    new_sc = dr.apply(scenario)
+    save_scenario(new_sc, out, backup=out.exists())
+    lines.append(f"wrote the scenario with {len(new_sc.bookings)} bookings to {out}")
+    if dr.check_errors:
+        lines.append("the drafted plan still breaks rules (see contactplan check); review before use")
+    lines.append(CAUTION)
+    sys.stdout.write("\n".join(lines) + "\n")
+    return 1 if dr.check_errors else 0
