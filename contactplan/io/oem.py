@@ -63,6 +63,8 @@ _META_KEYS = {
 }
 _META_REQUIRED = ("OBJECT_NAME", "OBJECT_ID", "CENTER_NAME", "REF_FRAME", "TIME_SYSTEM", "START_TIME", "STOP_TIME")
 _COV_KEYS = {"EPOCH", "COV_REF_FRAME"}
+_SV_PLAIN = {("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT"),
+             ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT", "X_DDOT", "Y_DDOT", "Z_DDOT")}
 #: tolerance for comparing header times with data epochs (s)
 _TIME_TOL_S = 1e-6
 
@@ -641,19 +643,18 @@ class _KvnOrXml:
         from defusedxml import DefusedXmlException
         from defusedxml.ElementTree import DefusedXMLParser
 
-        lines_of: dict = {}
+        start_lines: list = []  # line of each element, in document order
 
         class Builder(ET.TreeBuilder):
-            parser = None
+            expat = None
 
-            def start(self, tag, attrs):
-                el = super().start(tag, attrs)
-                lines_of[el] = self.parser.parser.CurrentLineNumber if self.parser is not None else None
-                return el
+            def start(self, tag, attrs, _append=start_lines.append):
+                _append(self.expat.CurrentLineNumber)
+                return super().start(tag, attrs)
 
         builder = Builder()
         parser = DefusedXMLParser(target=builder, forbid_dtd=True)
-        builder.parser = parser
+        builder.expat = parser.parser
         try:
             parser.feed(text)
             root = parser.close()
@@ -665,6 +666,8 @@ class _KvnOrXml:
             self.fail("XML with a DTD or entities is refused (not allowed in a CCSDS OEM)", 1)
         except (ValueError, RecursionError) as exc:  # pragma: no cover - expat oddities
             self.fail(f"not well-formed XML: {exc}", None)
+
+        lines_of = dict(zip(root.iter(), start_lines))
 
         def tag(el):
             return el.tag.rsplit("}", 1)[-1] if isinstance(el.tag, str) else ""
@@ -714,8 +717,11 @@ class _KvnOrXml:
                     seg_comments.append(txt(el))
                 else:
                     meta.append((tag(el), txt(el), line(el)))
-            epochs, rows, data_lines, ncov = [], [], [], 0
+            svs, ncov = [], 0
             for el in datas[0]:
+                if el.tag == "stateVector":
+                    svs.append(el)
+                    continue
                 if not isinstance(el.tag, str):
                     continue
                 k = tag(el)
@@ -723,17 +729,30 @@ class _KvnOrXml:
                     seg_comments.append(txt(el))
                 elif k == "covarianceMatrix":
                     ncov += 1
-                elif k == "stateVector":
+                elif k == "stateVector":  # namespaced
+                    svs.append(el)
+                else:
+                    self.fail(f"unexpected <{k}> in <data>", line(el))
+            if not svs:
+                self.fail("segment has no <stateVector>", line(datas[0]))
+            data_lines = [lines_of.get(el) or 0 for el in svs]
+            values = None
+            if all(tuple(c.tag for c in el) in _SV_PLAIN and not any(c.attrib for c in el) for el in svs):
+                try:  # the plain layout, read in bulk
+                    values = np.column_stack([np.fromiter((float(sv[j].text) for sv in svs), dtype=float,
+                                                          count=len(svs)) for j in range(1, 7)])
+                    epochs = [(sv[0].text or "").strip() for sv in svs]
+                except (ValueError, TypeError):
+                    values = None
+            if values is None:  # element by element, naming the element at fault
+                epochs, rows = [], []
+                for el in svs:
                     e, vals = self._state_vector(el, tag, txt, line)
                     epochs.append(e)
                     rows.append(vals)
-                    data_lines.append(line(el) or 0)
-                else:
-                    self.fail(f"unexpected <{k}> in <data>", line(el))
-            if not rows:
-                self.fail("segment has no <stateVector>", line(datas[0]))
+                values = np.array(rows, dtype=float).reshape(-1, 6)
             segments.append(self._segment(meta, line(metas[0]), seg_comments, np.array(epochs, dtype=str),
-                                          np.array(rows, dtype=float), np.array(data_lines, dtype=np.int64), ncov))
+                                          values, np.array(data_lines, dtype=np.int64), ncov))
         if not segments:
             self.fail("no <segment> in <body>", line(bodies[0]))
         return self._finish(version, "XML", header, comments, segments)
