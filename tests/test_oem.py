@@ -388,3 +388,22 @@ def test_built_in_orbit_through_an_oem_file_agrees(tmp_path, minimal_path):
     p1, v1 = back.state(t)
     assert np.abs(p1 - p0).max() < 1e-3  # km
     assert np.abs(v1 - v0).max() < 1e-8  # km/s
+
+
+def test_xml_variants_read_alike(data_dir):
+    """Version 3.0, a default namespace, unit attributes and a covariance block change nothing."""
+    from contactplan.io.oem import parse_oem_bytes
+
+    text = (data_dir / "annex_single.xml").read_text()
+    base = read_oem(data_dir / "annex_single.xml").segments[0]
+    v3 = (text.replace('version="2.0">', 'version="3.0" xmlns="urn:invented:ndm">')
+          .replace("<X>", '<X units="km">').replace("<Z_DOT>", '<Z_DOT units="km/s">')
+          .replace("      </data>", "        <covarianceMatrix><EPOCH>2027-01-12T00:00:00</EPOCH>"
+                   "<CX_X>1.0e-4</CX_X></covarianceMatrix>\n      </data>"))
+    f = parse_oem_bytes(v3.encode(), "v3.xml")
+    s = f.segments[0]
+    assert f.version == "3.0" and s.covariance_count == 1
+    np.testing.assert_array_equal(s.t_tt, base.t_tt)
+    np.testing.assert_array_equal(s.pos_km, base.pos_km)
+    np.testing.assert_array_equal(s.vel_km_s, base.vel_km_s)
+    np.testing.assert_array_equal(s.data_lines, base.data_lines)
