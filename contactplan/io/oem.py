@@ -384,13 +384,10 @@ def _format(t, scale, dec):
     from contactplan.timescale import _civil_from_days
 
     y, mo, d = _civil_from_days(mjd - _MJD_UNIX)
-    out = []
-    for i in range(len(t)):
-        s = f"{y[i]:04d}-{mo[i]:02d}-{d[i]:02d}T{hh[i]:02d}:{mi[i]:02d}:{ss[i]:02d}"
-        if dec:
-            s += f".{frac[i]:0{dec}d}"
-        out.append(s)
-    return out
+    cols = [np.asarray(c).tolist() for c in (y, mo, d, hh, mi, ss, frac)]
+    if dec:
+        return [f"{a:04d}-{b:02d}-{c:02d}T{e:02d}:{f:02d}:{g:02d}.{h:0{dec}d}" for a, b, c, e, f, g, h in zip(*cols)]
+    return [f"{a:04d}-{b:02d}-{c:02d}T{e:02d}:{f:02d}:{g:02d}" for a, b, c, e, f, g, _ in zip(*cols)]
 
 
 # ------------------------------------------------------------------ reading
