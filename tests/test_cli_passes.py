@@ -83,7 +83,8 @@ def test_text_table_on_stdout(minimal_path, capsys):
     lines = out.splitlines()
     assert lines[0].startswith("STATION") and "AOS (UTC)" in lines[0]
     assert "under way at window start" in lines[1]
-    assert all(line.startswith("NRV ") for line in lines[1:-1])
+    assert all(line.startswith("NRV ") for line in lines[1:-2])
+    assert lines[-2].startswith("Shadow: the spacecraft is in full sunlight")
     assert lines[-1].endswith(CAUTION)
 
 
@@ -160,3 +161,36 @@ def test_oem_ephemeris_gives_the_same_passes_and_partial_cover_is_said(minimal_p
     c = list(csv.DictReader(open(tmp_path / "c.csv")))
     assert c[0]["aos_utc"] == "2027-01-13T06:00:00.000Z" and c[0]["clipped_start"] == "true"
     assert c[-1]["los_utc"] == "2027-01-16T06:00:00.000Z" and c[-1]["clipped_end"] == "true"
+
+
+def test_shadow_passage_reported_under_the_table(minimal_path, tmp_path, capsys):
+    # An invented spacecraft 1.2 million km out on the anti-Sun line (inside the Earth's umbra, which
+    # reaches ~1.38 million km) for the first day, then drifting off sideways at up to 30 km/s.
+    import numpy as np
+
+    from contactplan.ephemeris import bodies
+    from contactplan.io.oem import write_oem
+
+    t = parse_utc("2027-01-11T12:00:00Z") + np.arange(0, 8 * 86400 + 1, 600.0)
+    sun = bodies.sun_km(t)[0]
+    u = -sun / np.linalg.norm(sun, axis=1)[:, None]
+    side = np.cross(u, [0.0, 0.0, 1.0])
+    side /= np.linalg.norm(side, axis=1)[:, None]
+    x = t - parse_utc("2027-01-13T12:00:00Z")
+    off = 15.0 * (x + np.sqrt(x**2 + 1800.0**2))  # smooth turn onto a 30 km/s sideways drift
+    pos = u * 1.2e6 + side * off[:, None]
+    vel = np.gradient(pos, t, axis=0)
+    write_oem(tmp_path / "dark.oem", t, pos, vel, "INVENTED PROBE", "2027-999A")
+    src = minimal_path.read_text()
+    line = next(x for x in src.splitlines() if x.startswith("ephemeris = { libration"))
+    (tmp_path / "dark.toml").write_text(src.replace(line, 'ephemeris = { oem = "dark.oem" }'))
+    assert main(["passes", str(tmp_path / "dark.toml"), "--station", "KAL"]) == 0
+    out = capsys.readouterr().out
+    shadow = [x for x in out.splitlines() if x.startswith("Shadow:")]
+    # Under way at the window start (clipped there), umbra then penumbra as it drifts out sideways.
+    assert len(shadow) == 2
+    assert shadow[0].startswith("Shadow: earth penumbra 2027-01-12T00:00:00Z to 2027-01-13T")
+    assert shadow[1].startswith("Shadow: earth umbra 2027-01-12T00:00:00Z to 2027-01-13T")
+    assert main(["passes", str(tmp_path / "dark.toml"), "--out", str(tmp_path / "d.json")]) == 0
+    doc = json.loads((tmp_path / "d.json").read_text())
+    assert {(s["body"], s["kind"]) for s in doc["shadows"]} == {("earth", "penumbra"), ("earth", "umbra")}

@@ -41,8 +41,10 @@ def _time(text, opt):
         raise exc.at(None, f"--{opt}") from None
 
 
-def compute(scenario, start_tt, end_tt, stations=None, warn=None):
-    """Passes of the scenario over the window, with link columns when the scenario has a link."""
+def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris=False):
+    """Passes of the scenario over the window, with link columns when the scenario has a link.
+
+    With ``with_ephemeris`` returns (passes, ephemeris)."""
     from contactplan.ephemeris import ephemeris_for
     from contactplan.geometry.passes import coverage_spans, find_passes
     from contactplan.timescale import format_utc
@@ -66,7 +68,17 @@ def compute(scenario, start_tt, end_tt, stations=None, warn=None):
                 annotate_passes(scenario, passes, eph)
             except NotImplementedError:
                 pass
-    return passes
+    return (passes, eph) if with_ephemeris else passes
+
+
+def shadow_lines(spans) -> list[str]:
+    """One line per Earth/Moon shadow passage (or one line saying there is none)."""
+    from contactplan.timescale import format_utc
+
+    if not spans:
+        return ["Shadow: the spacecraft is in full sunlight over the whole window (Earth and Moon, conical model)."]
+    return [f"Shadow: {s.body} {s.kind} {format_utc(s.start_tt, 0)} to {format_utc(s.end_tt, 0)} "
+            f"({(s.end_tt - s.start_tt) / 60.0:.1f} min)" for s in spans]
 
 
 def run(args) -> int:
@@ -97,7 +109,13 @@ def run(args) -> int:
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        passes = compute(scenario, start, end, args.station, warn)
+        passes, eph = compute(scenario, start, end, args.station, warn, with_ephemeris=True)
+        spans = None
+        if fmt in (None, "text", "json"):
+            from contactplan.geometry.passes import shadows
+
+            spans = shadows(scenario, eph, start, end)
+        shadow = shadow_lines(spans) if fmt in (None, "text") else []
     seen = set()
     for w in caught:
         if str(w.message) not in seen:
@@ -108,6 +126,8 @@ def run(args) -> int:
 
     if fmt is None:
         sys.stdout.write(passtable.passes_text(passes))
+        for line in shadow:
+            print(line)
         print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")
         return 0
     try:
@@ -116,7 +136,8 @@ def run(args) -> int:
 
             write_passes_xlsx(scenario, passes, args.out)
         else:
-            passtable.write_passes(args.out, passes, fmt, scenario, start, end, args.station)
+            passtable.write_passes(args.out, passes, fmt, scenario, start, end, args.station,
+                                   footer=shadow + [CAUTION] if fmt == "text" else None, shadows=spans)
     except OSError as exc:
         raise InputError(f"cannot write: {exc.strerror or exc}", args.out) from None
     print(f"wrote {len(passes)} pass{'es' if len(passes) != 1 else ''} to {args.out}")

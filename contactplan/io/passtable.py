@@ -104,8 +104,9 @@ def passes_csv_text(passes, columns=None) -> str:
     return buf.getvalue()
 
 
-def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None) -> str:
-    """JSON document: what was computed (scenario, window, stations, caution) and the rows."""
+def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None, shadows=None) -> str:
+    """JSON document: what was computed (scenario, window, stations, caution), the rows and, when
+    given, the shadow passages ``[(start_tt, end_tt, body, kind)]``."""
     from contactplan import CAUTION, __version__
     from contactplan.timescale import format_utc, now_tt
 
@@ -122,6 +123,9 @@ def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations
         doc["stations"] = list(stations)
     doc["columns"] = columns_for(rows)
     doc["passes"] = [{c: r[c] for c in doc["columns"]} for r in rows]
+    if shadows is not None:
+        doc["shadows"] = [{"body": b, "kind": k, "start_utc": format_utc(s0), "end_utc": format_utc(s1)}
+                          for s0, s1, b, k in shadows]
     return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
 
 
@@ -167,16 +171,19 @@ def passes_text(passes) -> str:
     return "\n".join(out) + "\n"
 
 
-def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=None, stations=None) -> int:
-    """Write the pass table as ``fmt`` ("csv", "json" or "text") atomically; returns the row count."""
+def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=None, stations=None,
+                 footer=None, shadows=None) -> int:
+    """Write the pass table as ``fmt`` ("csv", "json" or "text") atomically; returns the row count.
+
+    ``footer``: lines added under the aligned text table (text only)."""
     from contactplan.fileio import atomic_write
 
     if fmt == "csv":
         text = passes_csv_text(passes)
     elif fmt == "json":
-        text = passes_json_text(passes, scenario, start_tt, end_tt, stations)
+        text = passes_json_text(passes, scenario, start_tt, end_tt, stations, shadows)
     elif fmt == "text":
-        text = passes_text(passes)
+        text = passes_text(passes) + "".join(f"{line}\n" for line in (footer or []))
     else:
         raise ValueError(f"unknown pass-table format {fmt!r}")
     atomic_write(path, text)
