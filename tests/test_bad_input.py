@@ -39,6 +39,7 @@ SCENARIO_EXPECT = {
     "both_ephemerides.toml": ("spacecraft.ephemeris", "exactly one of"),
     "duplicate_station_ids.toml": ("stations", "'NRV' is used twice"),
     "empty.toml": (None, "file is empty"),
+    "empty_oem_path.toml": ("spacecraft.ephemeris.oem", "give the OEM file name"),
     "end_before_start.toml": ("scenario.end", "ends before it starts"),
     "huge_integer.toml": ("stations[NRV].height_m", "too large"),
     "latitude_95.toml": ("stations[NRV].latitude_deg", "95.0 is out of range"),

@@ -191,6 +191,8 @@ def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
         t.fail(None, "give exactly one of oem = \"file.oem\" or libration = { ... }")
     if keys[0] == "oem":
         rel = t.str("oem")
+        if not rel.strip():
+            t.fail("oem", "give the OEM file name (relative to the scenario file)")
         p = Path(rel)
         if not p.is_absolute() and base is not None:
             p = base / p
