@@ -77,11 +77,15 @@ def run(args) -> int:
         lines.append(CAUTION)
         sys.stdout.write("\n".join(lines) + "\n")
         return 1
+    if dr.check_errors:
+        lines += ["the drafted plan still breaks these rules, so nothing was written:"]
+        lines += [f"  {f.rule}: {f.message}" for f in dr.findings if f.severity == "error"]
+        lines.append(CAUTION)
+        sys.stdout.write("\n".join(lines) + "\n")
+        return 1
     new_sc = dr.apply(scenario)
     save_scenario(new_sc, out, backup=out.exists())
     lines.append(f"wrote the scenario with {len(new_sc.bookings)} bookings to {out}")
-    if dr.check_errors:
-        lines.append("the drafted plan still breaks rules (see contactplan check); review before use")
     lines.append(CAUTION)
     sys.stdout.write("\n".join(lines) + "\n")
-    return 1 if dr.check_errors else 0
+    return 0
