@@ -434,35 +434,31 @@ def _build(ev, sites, grid, track, per, starts, ends, c_start, c_end, p_st, opts
     sun_e = tr_e.rotation.to_itrs(bt.sun(t_e))
     moon_e = tr_e.rotation.to_itrs(bt.moon(t_e))
     # Range extremes and Sun/Moon separations: in-pass samples plus the three exact points.
-    if samp_rows:
-        rows = np.concatenate(samp_rows)
-        sp = np.concatenate(samp_pass)
-        ss = np.concatenate(samp_st)
-        urows, inv = np.unique(rows, return_inverse=True)
-        rot = track.rotation.subset(urows)
-        sun_g = rot.to_itrs(bt.sun(grid[urows]))[inv]
-        moon_g = rot.to_itrs(bt.moon(grid[urows]))[inv]
-        rho_g, rng_g, _ = ev.local(track, ss, rows)
-    else:
-        sp = np.zeros(0, int)
-        ss = np.zeros(0, int)
-        rho_g = np.zeros((0, 3))
-        rng_g = np.zeros(0)
-        sun_g = moon_g = np.zeros((0, 3))
-    pid = np.concatenate([sp, np.arange(n), np.arange(n), np.arange(n)])
-    rho_all = np.concatenate([rho_g, rho_e])
-    rng_all = np.concatenate([rng_g, rng_e])
-    rsta = ev.r[np.concatenate([ss, s_e])]
-    sun_sep = _angle_deg(rho_all, np.concatenate([sun_g, sun_e]) - rsta)
-    moon_sep = _angle_deg(rho_all, np.concatenate([moon_g, moon_e]) - rsta)
+    pid_e = np.concatenate([np.arange(n)] * 3)
     rmin = np.full(n, np.inf)
     rmax = np.full(n, -np.inf)
     smin = np.full(n, 180.0)
     mmin = np.full(n, 180.0)
-    np.minimum.at(rmin, pid, rng_all)
-    np.maximum.at(rmax, pid, rng_all)
-    np.minimum.at(smin, pid, sun_sep)
-    np.minimum.at(mmin, pid, moon_sep)
+
+    def fold(pid, rho, rng, sun, moon, rsta):
+        np.minimum.at(rmin, pid, rng)
+        np.maximum.at(rmax, pid, rng)
+        np.minimum.at(smin, pid, _angle_deg(rho, sun - rsta))
+        np.minimum.at(mmin, pid, _angle_deg(rho, moon - rsta))
+
+    fold(pid_e, rho_e, rng_e, sun_e, moon_e, ev.r[s_e])
+    if samp_rows:
+        # Sun and Moon in ITRS once for every grid row inside some pass; then station by station.
+        urows = np.unique(np.concatenate(samp_rows))
+        rot = track.rotation.subset(urows)
+        sun_u = rot.to_itrs(bt.sun(grid[urows]))
+        moon_u = rot.to_itrs(bt.moon(grid[urows]))
+        del rot
+        for rows, pid, ss in zip(samp_rows, samp_pass, samp_st):
+            k = int(ss[0])
+            j = np.searchsorted(urows, rows)
+            rho_g, rng_g, _ = ev.local(track, k, rows)
+            fold(pid, rho_g, rng_g, sun_u[j], moon_u[j], ev.r[k])
     # Sun-Earth-probe angle at culmination (geocentric).
     cs = slice(2 * n, 3 * n)
     sep = _angle_deg(bt.sun(t_culm), tr_e.r_gcrs_km[cs])
