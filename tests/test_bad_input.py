@@ -71,7 +71,7 @@ OEM_EXPECT = {
     "missing_object_id.oem": (5, "OBJECT_ID missing"),
     "misspelt_keyword.oem": (13, "unknown metadata keyword USEABLE_STRAT_TIME"),
     "nan_value.oem": (22, "not a finite number"),
-    "no_states.oem": (16, "no state lines"),
+    "no_states.oem": (13, "no state lines"),
     "no_version_line.oem": (1, "CCSDS_OEM_VERS"),
     "not_a_number.oem": (23, "not a number: '0.55x6'"),
     "not_utf8.oem": (6, "not UTF-8"),

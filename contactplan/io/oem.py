@@ -492,6 +492,7 @@ class _KvnOrXml:
                     self.fail(f"META_STOP missing: the metadata opened on line {meta_line} never closes", nlines)
                 s = lines[i].strip()
                 if s == "META_STOP":
+                    stop_line = i + 1
                     i += 1
                     break
                 c = _COMMENT_RE.match(lines[i])
@@ -519,7 +520,7 @@ class _KvnOrXml:
             m = _KEYWORD_LINE_RE.search(text, int(starts[i]) - 1) if i < nlines else None
             end_line = nlines if m is None else int(np.searchsorted(starts, m.start() + 1, side="right") - 1)
             block_lines = lines[i:end_line]
-            epochs, values, data_lines = self._data_block(block_lines, i + 1)
+            epochs, values, data_lines = self._data_block(block_lines, i + 1, stop_line)
             i = end_line
             ncov = 0
             while i < nlines:
@@ -596,14 +597,14 @@ class _KvnOrXml:
             i += 1
         self.fail(f"COVARIANCE_STOP missing: the block opened on line {start} never closes", start)
 
-    def _data_block(self, block_lines, first_line):
+    def _data_block(self, block_lines, first_line, stop_line):
         """Tokens of a data block -> (epoch texts, values (N, 6|9), line numbers)."""
         text = "\n".join(block_lines)
         tokens = text.split()
         nonblank = [j for j, s in enumerate(block_lines) if s.strip()] if len(tokens) else []
         n = len(nonblank)
         if n == 0:
-            self.fail("segment has no state lines after META_STOP", first_line)
+            self.fail("segment has no state lines after this META_STOP", stop_line)
         data_lines = np.asarray(nonblank, dtype=np.int64) + first_line
         for width in (7, 10):
             if len(tokens) == width * n:
