@@ -606,6 +606,9 @@ class _KvnOrXml:
         if n == 0:
             self.fail("segment has no state lines after this META_STOP", stop_line)
         data_lines = np.asarray(nonblank, dtype=np.int64) + first_line
+        if "_" in text:  # Python's float() takes 1_000.5; a CCSDS number does not
+            j = next(j for j, s in enumerate(block_lines) if "_" in s)
+            self.fail("a state value holds '_': not a number in CCSDS notation", first_line + j)
         for width in (7, 10):
             if len(tokens) == width * n:
                 try:  # column by column; float() per token is the fastest text -> number here
