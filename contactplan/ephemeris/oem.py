@@ -42,9 +42,11 @@ def frame_bias_matrix() -> np.ndarray:
     """IAU 2006 frame bias B: v_mean_J2000 = B @ v_ICRS (so v_ICRS = B.T @ v_EME2000).
 
     Built from the Fukushima-Williams angles of the IAU 2006 precession at
-    J2000.0 (IERS Conventions 2010, eq. 5.40 polynomials, constant terms; values
-    from memory): gamma_bar = -0.052928", phi_bar = 84381.412819",
-    psi_bar = -0.041775", epsilon_A = 84381.406". B = R1(-eps) R3(-psi) R1(phi) R3(gamma).
+    J2000.0 (IERS Conventions 2010, chapter 5: constant terms of the angle
+    polynomials; values from memory): gamma_bar = -0.052928",
+    phi_bar = 84381.412819", psi_bar = -0.041775", epsilon_A = 84381.406".
+    B = R1(-eps) R3(-psi) R1(phi) R3(gamma). Checked against ERFA ``bp06`` in
+    tests/test_oem.py.
     """
     gamb = -0.052928 * _ARCSEC
     phib = 84381.412819 * _ARCSEC
