@@ -400,3 +400,43 @@ def test_l2_spacecraft_culminates_near_local_midnight_with_long_passes(day):
         assert min(local_h, 24 - local_h) < 1.5
         assert 8 * 3600 <= p.duration_s <= 14 * 3600
         assert p.sun_earth_probe_deg > 150
+
+
+class CircularOrbit(Ephemeris):
+    """Invented near-Earth circular orbit (two-body), to exercise the grid sizing close to the Earth."""
+
+    def __init__(self, a_km, inc_deg):
+        self.a, self.n = a_km, math.sqrt(398600.4418 / a_km**3)  # GM Earth (IERS Conventions 2010, from memory)
+        self.i = math.radians(inc_deg)
+        self.name, self.start_tt, self.end_tt, self.gaps = "circular", -np.inf, np.inf, []
+
+    def _state(self, t):
+        u = self.n * (t - T0)
+        c, s = np.cos(u), np.sin(u)
+        ci, si = math.cos(self.i), math.sin(self.i)
+        pos = np.stack([self.a * c, self.a * s * ci, self.a * s * si], 1)
+        vel = np.stack([-s, c * ci, c * si], 1) * self.a * self.n
+        return pos, vel
+
+
+@pytest.mark.parametrize("a_km, inc_deg", [(7078.0, 98.0), (6778.0, 51.6), (26560.0, 55.0)])
+def test_near_earth_orbits_are_sampled_finely_enough(a_km, inc_deg):
+    # Passes a few minutes long: the grid shrinks with the line-of-sight rate. Checked against a 1-s
+    # sampling of the same margin (events to within that sampling).
+    from contactplan.geometry.mask import effective_limit_deg
+    from contactplan.geometry.passes import coarse_grid
+
+    eph = CircularOrbit(a_km, inc_deg)
+    st = Station(id="LOW", name="Low", latitude_deg=45.0, longitude_deg=10.0, min_elevation_deg=5.0,
+                 horizon_mask=[[0.0, 3.0], [90.0, 12.0], [200.0, 6.0]])
+    grid, _ = coarse_grid(eph, T0, T0 + 86400.0)
+    assert np.max(np.diff(grid)) < (60.0 if a_km < 8000 else 600.0)
+    passes = find_passes(scenario_with([st], days=1.0), eph)
+    t = np.arange(T0, T0 + 86400.0, 1.0)
+    la = look_angles(st, eph, t)
+    vis = la.elevation_deg > effective_limit_deg(st, la.azimuth_deg)
+    ch = np.nonzero(vis[1:] != vis[:-1])[0]
+    events = np.sort([x for p in passes for x, c in ((p.aos_tt, p.clipped_start), (p.los_tt, p.clipped_end))
+                      if not c])
+    assert len(passes) >= 1 and len(events) == len(ch)
+    assert np.max(np.abs(events - (t[ch] + 0.5))) <= 0.51
