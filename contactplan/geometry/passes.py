@@ -316,7 +316,7 @@ def _passes_in_span(sites, ephemeris, s0, s1, opts, step):
     grid, tau = coarse_grid(ephemeris, s0, s1)
     clamp = (s0, s1)
     track = Track(ephemeris, grid, tau_hint_s=tau, clamp=clamp)
-    ev = _Stations(sites, ephemeris, grid, track.tau_s, clamp, opts["refraction"])
+    ev = _Stations(sites, ephemeris, grid, tau, clamp, opts["refraction"])
     n_st = len(sites)
     step(0.15)
 

@@ -54,8 +54,9 @@ class Site:
 class Track:
     """The spacecraft at emission times, in ITRS axes of the receive times ``t_tt``.
 
-    ``tau_s`` is the geocentric light time; each station corrects it to its own
-    to first order in the velocity (the station terms differ by < 22 ms).
+    ``tau_s`` is the emission offset used (the geocentric light time); each station
+    corrects it to its own to first order in the velocity (the station terms differ
+    by < 22 ms).
     ``tau_hint_s`` skips the first ephemeris call when a good light time is known.
     ``clamp`` (start, end) keeps emission times inside the ephemeris span.
     """
@@ -71,7 +72,7 @@ class Track:
             tau = np.broadcast_to(np.asarray(tau_hint_s, dtype=float), t.shape)
         te = np.clip(t - tau, lo, hi)
         r, v = ephemeris.state(te)
-        self.tau_s = np.linalg.norm(r, axis=1) / C_KM_S
+        self.tau_s = t - te  # the offset actually used: stations correct from it
         self.r_gcrs_km = r
         self.v_gcrs_km_s = v
         self.rotation = rotation if rotation is not None else EarthRotation(t)
