@@ -407,3 +407,7 @@ def test_xml_variants_read_alike(data_dir):
     np.testing.assert_array_equal(s.pos_km, base.pos_km)
     np.testing.assert_array_equal(s.vel_km_s, base.vel_km_s)
     np.testing.assert_array_equal(s.data_lines, base.data_lines)
+    assert s.acc_km_s2 is None
+    acc = v3.replace("</Z_DOT>", "</Z_DOT><X_DDOT>1e-9</X_DDOT><Y_DDOT>2e-9</Y_DDOT><Z_DDOT>3e-9</Z_DDOT>")
+    s = parse_oem_bytes(acc.encode(), "acc.xml").segments[0]
+    np.testing.assert_array_equal(s.acc_km_s2, np.tile([1e-9, 2e-9, 3e-9], (len(s), 1)))

@@ -739,9 +739,10 @@ class _KvnOrXml:
             data_lines = [lines_of.get(el) or 0 for el in svs]
             values = None
             if all(tuple(c.tag for c in el) in _SV_PLAIN and not any(c.attrib for c in el) for el in svs):
+                width = 10 if all(len(sv) == 10 for sv in svs) else 7  # with accelerations on every state
                 try:  # the plain layout, read in bulk
                     values = np.column_stack([np.fromiter((float(sv[j].text) for sv in svs), dtype=float,
-                                                          count=len(svs)) for j in range(1, 7)])
+                                                          count=len(svs)) for j in range(1, width)])
                     epochs = [(sv[0].text or "").strip() for sv in svs]
                 except (ValueError, TypeError):
                     values = None
@@ -751,7 +752,10 @@ class _KvnOrXml:
                     e, vals = self._state_vector(el, tag, txt, line)
                     epochs.append(e)
                     rows.append(vals)
-                values = np.array(rows, dtype=float).reshape(-1, 6)
+                if all(len(r) == 9 for r in rows):
+                    values = np.array(rows, dtype=float)
+                else:
+                    values = np.array([r[:6] for r in rows], dtype=float)
             segments.append(self._segment(meta, line(metas[0]), seg_comments, np.array(epochs, dtype=str),
                                           values, np.array(data_lines, dtype=np.int64), ncov))
         if not segments:
@@ -760,7 +764,9 @@ class _KvnOrXml:
 
     def _state_vector(self, el, tag, txt, line):
         names = ("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT")
-        units = {"X": "km", "Y": "km", "Z": "km", "X_DOT": "km/s", "Y_DOT": "km/s", "Z_DOT": "km/s"}
+        units = {"X": "km", "Y": "km", "Z": "km", "X_DOT": "km/s", "Y_DOT": "km/s", "Z_DOT": "km/s",
+                 "X_DDOT": "km/s**2", "Y_DDOT": "km/s**2", "Z_DDOT": "km/s**2"}
+        acc = ("X_DDOT", "Y_DDOT", "Z_DDOT")
         got = {}
         for c in el:
             if not isinstance(c.tag, str):
@@ -771,14 +777,14 @@ class _KvnOrXml:
             if k not in names and k not in ("X_DDOT", "Y_DDOT", "Z_DDOT"):
                 self.fail(f"unexpected <{k}> in <stateVector>", line(c))
             u = c.attrib.get("units")
-            if u is not None and k in units and u.strip().lower() != units[k]:
+            if u is not None and k in units and u.strip().lower().replace("^", "**") != units[k]:
                 self.fail(f"<{k}> in {u!r}; only {units[k]} is read", line(c))
             got[k] = (txt(c), line(c))
         for k in names:
             if k not in got:
                 self.fail(f"<stateVector> lacks <{k}>", line(el))
         vals = []
-        for k in names[1:]:
+        for k in names[1:] + (acc if all(a in got for a in acc) else ()):
             s, ln = got[k]
             try:
                 vals.append(float(s))
