@@ -470,3 +470,145 @@ def _contrast(a, b):
         return 0.2126 * ch(c.redF()) + 0.7152 * ch(c.greenF()) + 0.0722 * ch(c.blueF())
     la, lb = sorted((lum(a), lum(b)), reverse=True)
     return (la + 0.05) / (lb + 0.05)
+
+
+# ---------------------------------------------------------------- background work from the window
+def _wait_job(win, qtbot, timeout=180_000):
+    qtbot.waitUntil(lambda: win.job is not None and not win.job.running, timeout=timeout)
+    QApplication.processEvents()
+
+
+def test_export_runs_in_the_worker_and_says_what_it_wrote(win, demo_copy, demo_plan, qtbot, tmp_path):
+    import csv
+
+    _open_with(win, demo_copy, demo_plan)
+    out = tmp_path / "passes.csv"
+    assert win.export_to(out, "passes") is not None
+    _wait_job(win, qtbot)
+    assert win.last_export is not None and "passes.csv" in win.last_export
+    with open(out, newline="", encoding="utf-8") as fh:
+        rows = [r for r in csv.reader(fh) if r and not r[0].startswith("#")]
+    # header plus one row per pass the window shows
+    assert len(rows) - 1 == len(win.doc.result.passes)
+
+
+def test_revalidate_against_the_same_orbit_as_oem_moves_nothing(win, demo_copy, demo_plan, qtbot, tmp_path):
+    """Sampled every 10 min and re-read as CCSDS OEM, the same orbit must give the same passes
+    to within a few seconds (interpolation only): no booking breaks, edges move by seconds."""
+    _open_with(win, demo_copy, demo_plan)
+    oem = tmp_path / "same.oem"
+    sc = win.doc.scenario
+    win.export_to(oem, "ephemeris")
+    _wait_job(win, qtbot)
+    assert oem.exists()
+    win.answers = [B.No]  # do not fly it afterwards
+    assert win.revalidate(oem) is not None
+    _wait_job(win, qtbot)
+    rv = win.last_revalidation
+    assert rv is not None and win.asked[-1][0] == "Re-validation"
+    assert rv.broken == []
+    shifts = [abs(v) for b in rv.bookings for v in (b.aos_shift_s, b.los_shift_s) if v is not None]
+    assert shifts and max(shifts) < 30.0
+    assert sc.spacecraft.ephemeris.kind == "libration"  # not flown: the user said no
+
+
+def test_opening_an_oem_offers_a_new_scenario_around_it(win, demo_copy, demo_plan, qtbot, tmp_path):
+    _open_with(win, demo_copy, demo_plan)
+    oem = tmp_path / "delivered.oem"
+    win.export_to(oem, "ephemeris")
+    _wait_job(win, qtbot)
+    win.doc.undo_stack.setClean()
+    win.answers = [B.Yes]
+    assert win.open_path(oem)
+    sc = win.doc.scenario
+    assert sc.spacecraft.ephemeris.kind == "oem" and sc.path is None
+    assert sc.bookings == [] and len(sc.stations) == len(load_scenario(demo_copy).stations)
+    _wait_job(win, qtbot)
+    assert len(win.doc.result.passes) > 0
+
+
+def test_sky_track_agrees_with_the_pass(win, demo_copy, demo_plan):
+    """The sky view computes its own azimuth/elevation track; its peak must match the pass
+    finder's maximum elevation and its ends the station's limit (same engine frames)."""
+    from contactplan.app.document import Selection
+    from contactplan.geometry.mask import effective_limit_deg
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = next(q for q in win.doc.result.passes if not (q.clipped_start or q.clipped_end))
+    win.doc.select(Selection("pass", p))
+    t, az, el = win.sky.track
+    assert len(t) == 181 and t[0] == p.aos_tt and t[-1] == p.los_tt
+    assert np.max(el) == pytest.approx(p.max_elevation_deg, abs=0.3)
+    st = sc.station(p.station)
+    lim = effective_limit_deg(st, np.array([az[0], az[-1]]))
+    assert el[0] == pytest.approx(lim[0], abs=0.3) and el[-1] == pytest.approx(lim[1], abs=0.3)
+    assert az[0] == pytest.approx(p.aos_azimuth_deg, abs=0.5)
+    win.sky.repaint()
+
+
+def test_hover_text_and_property_editor(win, demo_copy, demo_plan):
+    from contactplan.app.document import Selection
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    b = sc.booking("B002")
+    canvas = win.timeline.canvas
+    win.timeline.zoom_to(b.start_tt, b.end_tt)
+    QApplication.processEvents()
+    x = win.timeline.x_of(0.5 * (b.start_tt + b.end_tt))
+    text = canvas.describe(x, canvas.lane_of_station("ORF") + 0.5)
+    assert "booking B002 at ORF" in text and "error" in text
+    win.doc.select(Selection("booking", "B002"))
+    ed = win.props
+    assert ed.kind == "booking" and ed.fields["station"].currentText() == "ORF"
+    ed.fields["purpose:ranging"].setChecked(False)
+    ed.apply()
+    assert b.purposes == ["downlink"]
+    ed.fields["end_tt"].setText("not a time")
+    ed.apply()
+    assert ed.error.text() and b.purposes == ["downlink"]
+    win.act_undo.trigger()
+    assert b.purposes == ["downlink", "ranging"]
+
+
+@pytest.mark.slow
+def test_draft_the_week_is_one_undo_step(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    before = _bookings(sc)
+    locked = [b.id for b in sc.bookings if b.locked]
+    win.answers = [B.Yes]
+    assert win.draft_week() is not None
+    _wait_job(win, qtbot, timeout=300_000)
+    assert win.asked and win.asked[-1][0] in ("Draft the week",)
+    after = _bookings(sc)
+    assert after != before
+    assert all(any(b.id == i for b in sc.bookings) for i in locked)  # locked ones stay
+    win.act_undo.trigger()
+    assert _bookings(sc) == before
+
+
+def test_keys_move_through_weeks_and_zoom(win, demo_copy, demo_plan, qtbot):
+    from contactplan.timescale import DAY_S
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    sc.end_tt = sc.start_tt + 21 * DAY_S  # three weeks to move through
+    tl = win.timeline
+    tl.rebuild()
+    tl.show_week(sc.start_tt)
+    v0, v1 = tl.visible_tt()
+    assert v0 == pytest.approx(sc.start_tt, abs=1.0) and v1 - v0 == pytest.approx(7 * DAY_S, abs=1.0)
+    tl.setFocus()
+    qtbot.keyClick(tl, Qt.Key.Key_PageDown)
+    assert tl.visible_tt()[0] == pytest.approx(v0 + 7 * DAY_S, abs=1.0)
+    qtbot.keyClick(tl, Qt.Key.Key_PageDown)
+    qtbot.keyClick(tl, Qt.Key.Key_PageDown)  # past the window: the view stops at its end (plus a margin)
+    assert tl.visible_tt()[1] <= sc.end_tt + 2.1 * DAY_S + 1.0
+    tl.show_week(sc.start_tt)
+    qtbot.keyClick(tl, Qt.Key.Key_Plus)
+    w0, w1 = tl.visible_tt()
+    assert w1 - w0 == pytest.approx(3.5 * DAY_S, abs=1.0)
+    qtbot.keyClick(tl, Qt.Key.Key_Right)
+    assert tl.visible_tt()[0] == pytest.approx(w0 + 0.35 * DAY_S, abs=1.0)
+    # the day-of-year axis labels the UTC midnights
+    axis = tl.top_axis
+    labels = axis.tickStrings([tl.x_of(sc.start_tt)], 1.0, 24.0)
+    assert labels == ["012 Tue 01-12"]  # 2027-01-12 is a Tuesday, day 12 (calendar fact)

@@ -93,7 +93,12 @@ def run_app(path: str | None = None) -> int:
     from contactplan.paths import demo_scenario
 
     theme.current(refresh=True)
-    app.setWindowIcon(icons.icon("app"))
+    from PySide6.QtGui import QIcon
+
+    from contactplan.paths import icon_path
+
+    packaged = icon_path()
+    app.setWindowIcon(QIcon(str(packaged)) if packaged.exists() else icons.icon("app"))
     win = MainWindow()
     win.show()
     recovered = offer_recovery(win)

@@ -458,6 +458,47 @@ class LanesCanvas(pg.GraphicsObject):
                 return a
         return None
 
+    def describe(self, x: float, y: float) -> str:
+        """Plain text about what lies under a point (for the hover tip)."""
+        sc = self.doc.scenario
+        if sc is None:
+            return ""
+        t = self.t_of(x)
+        lines = [format_utc(t, 0)]
+        b, part = self.booking_at(x, y)
+        if b is not None:
+            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)} "
+                         f"({', '.join(b.purposes)}{', locked' if b.locked else ''})")
+            for f in self.doc.findings_for(b.id)[:4]:
+                lines.append(f"{f.severity}: {f.message}")
+            if part in ("start", "end"):
+                lines.append(f"drag to move its {part}")
+            return "\n".join(lines)
+        a = self.activity_at(x, y)
+        if a is not None:
+            k0, k1 = a.keepout_span_tt
+            lines.append(f"{a.kind} {a.id}: {format_utc(a.start_tt, 0)}, {a.duration_min:g} min; "
+                         f"no downlink {format_utc(k0, 0)[11:16]} to {format_utc(k1, 0)[11:16]}")
+            return "\n".join(lines)
+        st = self.station_of_lane(self.lane_of(y))
+        if st is not None:
+            for o in st.outages:
+                if o.start_tt <= t <= o.end_tt:
+                    lines.append(f"{st.id} out of service {format_utc(o.start_tt, 0)} to {format_utc(o.end_tt, 0)}"
+                                 + (f": {o.reason}" if o.reason else ""))
+            p = self.pass_at(x, y)
+            if p is not None:
+                rate = "" if p.max_rate_kbps is None else f", best {p.max_rate_kbps:,.0f} kbit/s"
+                vol = "" if p.volume_gbit is None else f", {p.volume_gbit:.1f} Gbit"
+                lines.append(f"pass {p.station} {format_utc(p.aos_tt, 0)} to {format_utc(p.los_tt, 0)}, "
+                             f"max {p.max_elevation_deg:.1f} deg{rate}{vol}")
+                lines.append("drag across it to book")
+        for a in sc.activities:
+            k0, k1 = a.keepout_span_tt
+            if k0 <= t <= k1 and a.downlink_keepout_min > 0:
+                lines.append(f"no downlink: keep-out of {a.kind} {a.id}")
+        return "\n".join(lines) if len(lines) > 1 else ""
+
     # ------------------------------------------------------------ snapping
     def snap(self, t: float, station: str | None) -> float:
         """Snap to a pass edge of the station within SNAP_PX pixels, else to the 5-minute UTC grid."""
@@ -622,7 +663,8 @@ class Timeline(pg.GraphicsLayoutWidget):
                                           brush=QColor(th.fill.red(), th.fill.green(), th.fill.blue(), 60))
         self.rec_plot.addItem(self.fill_curve)
         self.capacity_line = pg.InfiniteLine(angle=0, pen=pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine),
-                                             label="capacity", labelOpts={"position": 0.02, "color": th.foreground})
+                                             label="capacity", labelOpts={"position": 0.08, "color": th.foreground,
+                                                                       "anchors": [(0, 1), (0, 1)]})
         self.rec_plot.addItem(self.capacity_line)
         self.overflow_items: list = []
 
@@ -662,6 +704,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             ln.setZValue(50)
             plot.addItem(ln, ignoreBounds=True)
             self.now_lines.append(ln)
+        self.lanes_plot.scene().sigMouseMoved.connect(self._hover)
         self._now_timer = QTimer(self)
         self._now_timer.timeout.connect(self.update_now)
         self._now_timer.start(30_000)
@@ -819,6 +862,13 @@ class Timeline(pg.GraphicsLayoutWidget):
         x = self.x_of(now_tt())
         for ln in self.now_lines:
             ln.setValue(x)
+
+    def _hover(self, scene_pos) -> None:
+        if not self.lanes_vb.sceneBoundingRect().contains(scene_pos):
+            self.setToolTip("")
+            return
+        p = self.lanes_vb.mapSceneToView(scene_pos)
+        self.setToolTip(self.canvas.describe(p.x(), p.y()))
 
     # ------------------------------------------------------------ navigation
     def zoom(self, factor: float) -> None:

@@ -13,7 +13,7 @@ import logging
 from pathlib import Path
 
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QActionGroup, QKeySequence, QUndoCommand
+from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence, QUndoCommand
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog, QDialogButtonBox, QDockWidget,
                                QFileDialog, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit, QMainWindow,
                                QMessageBox, QProgressBar, QPushButton, QTableView, QVBoxLayout, QWidget)
@@ -138,7 +138,10 @@ class MainWindow(QMainWindow):
         self.last_error: str | None = None
         self.last_export: str | None = None
         self.last_revalidation = None
-        self.setWindowIcon(icons.icon("app"))
+        from contactplan.paths import icon_path
+
+        packaged = icon_path(64)
+        self.setWindowIcon(QIcon(str(packaged)) if packaged.exists() else icons.icon("app"))
         self.setDockNestingEnabled(True)
 
         self.timeline = Timeline(self.doc)
@@ -284,6 +287,7 @@ class MainWindow(QMainWindow):
             self.act_draft.setEnabled(False)
             self.act_draft.setToolTip("The drafter is not part of this build")
         self.act_about = self._act("&About contactplan", self.about)
+        self.act_legend = self._act("&Legend of the timeline", self.legend, K.HelpContents)
         self.shade_group = QActionGroup(self)
         self.act_shade_rate = QAction("Shade passes by &rate", self, checkable=True, checked=True)
         self.act_shade_el = QAction("Shade passes by &elevation", self, checkable=True)
@@ -335,6 +339,7 @@ class MainWindow(QMainWindow):
         m.addAction(self.act_compute)
         m.addAction(self.act_draft)
         m = mb.addMenu("&Help")
+        m.addAction(self.act_legend)
         m.addAction(self.act_about)
 
         tb = self.addToolBar("Main")
@@ -925,6 +930,35 @@ class MainWindow(QMainWindow):
         QMessageBox.about(self, "About contactplan",
                           f"<b>contactplan {__version__}</b><br>Ground contact and downlink planner for "
                           f"spacecraft on libration-point orbits.<br><br><b>Caution.</b> {CAUTION}")
+
+    def legend(self) -> None:
+        """What each mark on the timeline means (every colour also has a second cue)."""
+        th = theme.current()
+
+        def sw(c, style=""):
+            return (f'<span style="background:{c.name()};{style}">&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;</span>')
+
+        rows = [
+            (sw(th.pass_low) + sw(th.pass_colour(0.5)) + sw(th.pass_high),
+             "pass; darker = higher rate (or elevation, View menu); black ticks = AOS and LOS"),
+            (sw(th.booking), "booking (letters: D downlink, R ranging, C commanding)"),
+            (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
+            (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
+            (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
+            (sw(th.burn), "burn; green bar below: span that must be watched"),
+            (sw(th.slew), "slew"), (sw(th.other), "other activity"),
+            (sw(th.keepout), "keep-out: no downlink (shaded across every lane)"),
+            (sw(th.outage), "hatched: station out of service"),
+            (sw(th.now), "now"), (sw(th.fill), "recorder fill; dashed line = capacity; red span = overflow"),
+        ]
+        html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
+        html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
+                 "(snaps to pass edges and a 5-minute grid). Delete removes, double-click edits purposes. "
+                 "Arrows pan, +/- zoom, Page Up/Down change week, Home shows the whole window.</p>")
+        box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)
+        box.setTextFormat(Qt.TextFormat.RichText)
+        box.open()
+        self.legend_box = box
 
     def closeEvent(self, ev) -> None:
         if not self._dirty_ok():
