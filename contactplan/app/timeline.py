@@ -664,7 +664,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.rec_plot.addItem(self.fill_curve)
         self.capacity_line = pg.InfiniteLine(angle=0, pen=pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine),
                                              label="capacity", labelOpts={"position": 0.08, "color": th.foreground,
-                                                                       "anchors": [(0, 1), (0, 1)]})
+                                                                       "anchors": [(0, 0), (0, 0)]})
         self.rec_plot.addItem(self.capacity_line)
         self.overflow_items: list = []
 
