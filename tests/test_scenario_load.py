@@ -88,3 +88,29 @@ def test_missing_section_and_window_order():
 def test_toml_native_datetimes_accepted():
     sc = parse_text(BASE.replace('"2027-01-12T00:00:00Z"', "2027-01-12T00:00:00Z"))
     assert sc.start_tt == parse_utc("2027-01-12T00:00:00Z")
+
+
+def test_older_format_goes_through_the_upgrade_chain(monkeypatch):
+    """A plan from an older format_version loads: each upgrade step runs in order."""
+    from contactplan.scenario import load as load_mod
+    from contactplan.scenario import model
+
+    seen = []
+
+    def v1_to_v2(doc):
+        seen.append(1)
+        doc = dict(doc)
+        doc["scenario"] = dict(doc["scenario"], name=doc["scenario"]["name"] + " (upgraded)")
+        return doc
+
+    monkeypatch.setattr(model, "FORMAT_VERSION", 2)
+    monkeypatch.setitem(load_mod.UPGRADES, 1, v1_to_v2)
+    sc = parse_text(BASE)  # no format_version key: version 1
+    assert seen == [1]
+    assert sc.name == "x (upgraded)"
+    assert sc.format_version == 1  # the version the file had; saving writes the current one
+
+
+def test_newer_format_is_refused():
+    with pytest.raises(InputError, match="newer than this program reads"):
+        parse_text("format_version = 99\n" + BASE)

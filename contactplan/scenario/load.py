@@ -292,13 +292,31 @@ def _unique(items, kind: str, path, where: str):
         seen.add(it.id)
 
 
-def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
-    """Build a :class:`Scenario` from an already parsed TOML document."""
-    base = path.parent if path is not None else None
+#: Upgrades from an older ``format_version`` to the next one: version -> function(doc) -> doc.
+#: A file written before ``format_version`` existed counts as version 1. When the format
+#: changes, bump ``model.FORMAT_VERSION`` and add the step from the old version here, so
+#: every older plan still loads (the saved file then carries the new version).
+UPGRADES: dict = {}
+
+
+def upgrade_document(doc: dict, path: Path | None = None) -> tuple[dict, int]:
+    """Bring a parsed document up to :data:`model.FORMAT_VERSION`; return it and the version it had."""
     root = Table(doc, path, "")
-    fv = root.num("format_version", m.FORMAT_VERSION, lo=1, integer=True)
+    fv = root.num("format_version", 1, lo=1, integer=True)
     if fv > m.FORMAT_VERSION:
         root.fail("format_version", f"version {fv} is newer than this program reads ({m.FORMAT_VERSION}); update contactplan")
+    version = fv
+    while version < m.FORMAT_VERSION:
+        doc = UPGRADES[version](doc)
+        version += 1
+    return doc, fv
+
+
+def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
+    """Build a :class:`Scenario` from an already parsed TOML document (older formats upgraded first)."""
+    base = path.parent if path is not None else None
+    doc, fv = upgrade_document(doc, path)
+    root = Table(doc, path, "")
     sc = root.sub("scenario")
     name = sc.str("name")
     start = sc.time("start")
