@@ -612,3 +612,65 @@ def test_keys_move_through_weeks_and_zoom(win, demo_copy, demo_plan, qtbot):
     axis = tl.top_axis
     labels = axis.tickStrings([tl.x_of(sc.start_tt)], 1.0, 24.0)
     assert labels == ["012 Tue 01-12"]  # 2027-01-12 is a Tuesday, day 12 (calendar fact)
+
+
+def test_station_edit_marks_passes_stale_and_recomputes(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    st = sc.stations[0]
+    old = st.min_elevation_deg
+    n_before = len(win.doc.passes_for(st.id))
+    dur_before = sum(p.duration_s for p in win.doc.passes_for(st.id))
+    win.doc.edit_record("station", st.id, min_elevation_deg=old + 15.0)
+    assert win.doc.stale and "out of date" in win.summary.text()
+    assert win.job is not None
+    _wait_job(win, qtbot)
+    assert not win.doc.stale
+    # a higher limit shortens that station's passes (fewer or equal passes, less time)
+    assert len(win.doc.passes_for(st.id)) <= n_before
+    assert sum(p.duration_s for p in win.doc.passes_for(st.id)) < dur_before
+    win.act_undo.trigger()
+    assert st.min_elevation_deg == old
+    _wait_job(win, qtbot)
+
+
+def test_run_app_on_a_broken_file_shows_the_error_and_keeps_running(qapp, tmp_path, monkeypatch):
+    from PySide6.QtCore import QTimer
+
+    from contactplan.app.main import run_app
+    from contactplan.app.window import MainWindow
+    from contactplan.errors import InputError
+
+    for var in ("HOME", "XDG_CONFIG_HOME", "XDG_DATA_HOME", "XDG_STATE_HOME"):
+        monkeypatch.setenv(var, str(tmp_path / var.lower()))
+    QStandardPaths.setTestModeEnabled(True)
+    bad = tmp_path / "bad.toml"
+    bad.write_text("[scenario]\nname = 'x'\nstart = 'yesterday'\n", encoding="utf-8")
+    with pytest.raises(InputError) as exc:
+        load_scenario(bad)
+    seen = {}
+
+    def look():
+        wins = [w for w in QApplication.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible()]
+        seen["errors"] = [w.last_error for w in wins]
+        for w in wins:
+            w.close()
+        qapp.quit()
+
+    import logging
+    import sys
+
+    monkeypatch.setattr(sys, "excepthook", sys.excepthook)  # run_app installs its own; put it back after
+    logger = logging.getLogger("contactplan")
+    handlers = list(logger.handlers)
+    QTimer.singleShot(300, look)
+    try:
+        assert run_app(str(bad)) == 0
+    finally:
+        for h in logger.handlers[:]:
+            if h not in handlers:
+                logger.removeHandler(h)
+                h.close()
+    assert seen["errors"] == [str(exc.value)]
+    # the log went to the user log folder
+    logs = list((tmp_path / "xdg_state_home").rglob("contactplan.log"))
+    assert logs and "bad.toml" in logs[0].read_text(encoding="utf-8")

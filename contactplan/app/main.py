@@ -81,6 +81,24 @@ def offer_recovery(window) -> bool:
     return recovered
 
 
+def install_excepthook(window) -> None:
+    """An unexpected error in the window: log it in full, snapshot the plan, say it in one line."""
+    previous = sys.excepthook
+
+    def hook(kind, value, tb):
+        if issubclass(kind, KeyboardInterrupt):
+            return previous(kind, value, tb)
+        log.error("unexpected error", exc_info=(kind, value, tb))
+        try:
+            window.autosave(force=True)
+            window.show_error(f"unexpected error: {kind.__name__}: {value}. Your edits are kept in the "
+                              "autosave; details are in the log.", "contactplan")
+        except Exception:  # never raise from the hook itself
+            previous(kind, value, tb)
+
+    sys.excepthook = hook
+
+
 def run_app(path: str | None = None) -> int:
     """Open the planner on ``path`` (a scenario, or an OEM to build one around; none: the demo)."""
     from contactplan.data import configure_astropy
@@ -100,6 +118,7 @@ def run_app(path: str | None = None) -> int:
     packaged = icon_path()
     app.setWindowIcon(QIcon(str(packaged)) if packaged.exists() else icons.icon("app"))
     win = MainWindow()
+    install_excepthook(win)
     win.show()
     recovered = offer_recovery(win)
     if not recovered:

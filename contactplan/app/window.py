@@ -204,6 +204,7 @@ class MainWindow(QMainWindow):
         self.passes_view = _table(self.passes_proxy)
         self.passes_view.sortByColumn(1, Qt.SortOrder.AscendingOrder)
         self.passes_view.clicked.connect(self._pass_clicked)
+        self.passes_view.selectionModel().currentRowChanged.connect(self._pass_current)
         self.passes_view.doubleClicked.connect(self._pass_double_clicked)
         lay.addWidget(self.passes_view)
         self.passes_dock = self._dock("Passes", "dock-passes", host, Qt.DockWidgetArea.BottomDockWidgetArea)
@@ -215,6 +216,7 @@ class MainWindow(QMainWindow):
         self.bookings_view = _table(self.bookings_proxy)
         self.bookings_view.sortByColumn(2, Qt.SortOrder.AscendingOrder)
         self.bookings_view.clicked.connect(self._booking_clicked)
+        self.bookings_view.selectionModel().currentRowChanged.connect(self._booking_current)
         self.bookings_dock = self._dock("Bookings", "dock-bookings", self.bookings_view,
                                         Qt.DockWidgetArea.BottomDockWidgetArea)
 
@@ -293,7 +295,10 @@ class MainWindow(QMainWindow):
         self.act_shade_el = QAction("Shade passes by &elevation", self, checkable=True)
         for a, mode in ((self.act_shade_rate, "rate"), (self.act_shade_el, "elevation")):
             self.shade_group.addAction(a)
-            a.triggered.connect(lambda _c=False, m=mode: self.timeline.set_shade(m))
+            a.triggered.connect(lambda _c=False, m=mode: self.set_shade(m))
+        if str(self.settings.value("view/shade", "rate")) == "elevation":
+            self.act_shade_el.setChecked(True)
+            self.timeline.set_shade("elevation")
         self.export_actions = []
         for what, fmt, label, filt in EXPORTS:
             a = self._act(label + "...", lambda w=what, f=fmt, flt=filt: self.export_dialog(w, f, flt))
@@ -392,6 +397,10 @@ class MainWindow(QMainWindow):
         self.info_box = box
 
     # ------------------------------------------------------------ title, summary, actions
+    def set_shade(self, mode: str) -> None:
+        self.timeline.set_shade(mode)
+        self.settings.setValue("view/shade", mode)
+
     def _message(self, text: str) -> None:
         self.statusBar().showMessage(text, 8000)
 
@@ -451,6 +460,14 @@ class MainWindow(QMainWindow):
         if p is not None:
             self.doc.select(Selection("pass", p))
             self._reveal(p.aos_tt, p.los_tt)
+
+    def _pass_current(self, current, _previous) -> None:
+        if current.isValid() and self.passes_view.hasFocus():
+            self._pass_clicked(current)
+
+    def _booking_current(self, current, _previous) -> None:
+        if current.isValid() and self.bookings_view.hasFocus():
+            self._booking_clicked(current)
 
     def _pass_double_clicked(self, index) -> None:
         p = index.data(OBJECT_ROLE)
