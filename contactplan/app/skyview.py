@@ -1,18 +1,16 @@
 """Sky view of the selected pass: azimuth and elevation on a polar chart with the station's horizon mask.
 
-North up, east to the right (as seen on a sky chart from the ground looking
-up, east is to the left; this view is the plan view of the dish, east to the
-right, common practice for antenna-pointing charts, no source). Zenith at the
-centre, horizon on the outer circle, elevation linear in radius.
+North up and east to the right, zenith at the centre, the horizon on the outer
+circle and elevation linear in radius: the usual layout of a satellite sky plot
+(common practice, no source). The track is geometric (no light time, no
+refraction), computed with the engine's Earth rotation and WGS84 station.
 """
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QColor, QFont, QPainter, QPainterPath, QPen, QPolygonF
+from PySide6.QtGui import QFont, QPainter, QPainterPath, QPen, QPolygonF
 from PySide6.QtWidgets import QSizePolicy, QWidget
 
 from contactplan.app import theme

@@ -286,13 +286,8 @@ class LanesCanvas(pg.GraphicsObject):
         for d in utc_days(t_lo, t_hi):
             x = tr.map(QPointF(self.x_of(d), 0)).x()
             painter.drawLine(QPointF(x, tr.map(QPointF(0, 0)).y()), QPointF(x, tr.map(QPointF(0, n)).y()))
-        # keep-outs across every lane (faint), and in full in the spacecraft lane
         acts = [a for a in sc.activities if a.keepout_span_tt[1] > t_lo and a.keepout_span_tt[0] < t_hi
                 or a.monitor_span_tt[1] > t_lo and a.monitor_span_tt[0] < t_hi]
-        for a in acts:
-            k0, k1 = a.keepout_span_tt
-            if a.downlink_keepout_min > 0 or a.kind == "burn":
-                painter.fillRect(rect(k0, k1, 0, n), th.keepout)
         # outages, hatched
         hatch = QBrush(th.outage, Qt.BrushStyle.BDiagPattern)
         for i, st in enumerate(self.stations, start=1):
@@ -327,6 +322,17 @@ class LanesCanvas(pg.GraphicsObject):
                 if sel.kind == "pass" and sel.key is p:
                     painter.setPen(QPen(th.selection, 2, Qt.PenStyle.DotLine))
                     painter.drawRect(r.adjusted(-2, -2, 2, 2))
+        # keep-outs: faint over every lane (passes included), edges dashed
+        ko_pen = QPen(th.burn, 1, Qt.PenStyle.DashLine)
+        for a in acts:
+            k0, k1 = a.keepout_span_tt
+            if a.downlink_keepout_min > 0 or a.kind == "burn":
+                r = rect(k0, k1, 0, n)
+                painter.fillRect(r, th.keepout)
+                if r.width() > 6:
+                    painter.setPen(ko_pen)
+                    painter.drawLine(r.topLeft(), r.bottomLeft())
+                    painter.drawLine(r.topRight(), r.bottomRight())
         # spacecraft lane
         label_until = -1e9
         for a in sorted(acts, key=lambda a: a.start_tt):
@@ -681,8 +687,6 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.el_plot.addItem(self.el_curve)
         self.el_min_line = pg.InfiniteLine(angle=0, pen=pg.mkPen(th.day_line, style=Qt.PenStyle.DotLine))
         self.el_plot.addItem(self.el_min_line)
-        self.el_title = pg.TextItem("", color=th.foreground, anchor=(0, 0))
-        self.el_plot.addItem(self.el_title, ignoreBounds=True)
 
         for plot in (self.lanes_plot, self.rec_plot, self.el_plot):
             plot.getAxis("left").setWidth(92)
@@ -827,9 +831,9 @@ class Timeline(pg.GraphicsLayoutWidget):
         res = self.doc.result
         if station is None or res is None:
             self.el_curve.setData([], [])
-            self.el_title.setText("Elevation: select a station, pass or booking")
+            self.el_plot.setLabel("left", "Elevation", units="deg")
+            self.el_plot.setToolTip("Select a station, pass or booking to see its elevation")
             self.el_min_line.setVisible(False)
-            self._place_title()
             return
         xs, ys = [], []
         for p in self.doc.passes_for(station):
@@ -851,12 +855,9 @@ class Timeline(pg.GraphicsLayoutWidget):
             name = st.name
         except KeyError:
             name = station
-        self.el_title.setText(f"Elevation at {name} ({station})" + ("" if xs else ": no pass profiles"))
-        self._place_title()
-
-    def _place_title(self) -> None:
-        (x0, _x1), _ = self.el_plot.getViewBox().viewRange()
-        self.el_title.setPos(x0, 90)
+        self.el_plot.setLabel("left", f"El. {station}", units="deg")
+        self.el_plot.setToolTip(f"Elevation at {name} ({station})" + ("" if xs else ": no pass profiles")
+                                + "; dotted: lowest elevation")
 
     def update_now(self) -> None:
         x = self.x_of(now_tt())

@@ -21,7 +21,7 @@ from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog,
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
-from contactplan.app.document import NOTHING, PlanDocument, Selection
+from contactplan.app.document import PlanDocument, Selection
 from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
