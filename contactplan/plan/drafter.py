@@ -553,6 +553,15 @@ def _candidates(P: _Plan, lengths_on=True, step: int = 1) -> _Cands:
     station = np.concatenate(cols["station"]) if cols["station"] else np.zeros(0, int)
     p = np.concatenate(cols["p"]) if cols["p"] else np.zeros(0, int)
     q = np.concatenate(cols["q"]) if cols["q"] else np.zeros(0, int)
+    del K
+    return _cands_from(P, station, p, q)
+
+
+def _cands_from(P: _Plan, station, p, q) -> _Cands:
+    """Candidate attributes for bookings of ``station`` from edge ``p`` to edge ``q`` (index arrays)."""
+    t = P.t
+    ko_cum = np.concatenate(([0], np.cumsum(P.keepout)))
+    station, p, q = (np.asarray(v, dtype=int) for v in (station, p, q))
     start, end = t[p], t[q]
     track0 = start + P.setup_s[station]
     track1 = end - P.teardown_s[station]
@@ -563,7 +572,6 @@ def _candidates(P: _Plan, lengths_on=True, step: int = 1) -> _Cands:
         if np.any(sel):
             vol[sel] = P.rates.volume(P.stations[i].id, track0[sel], track1[sel])
     cost = P.cost[station] * (end - start) / 3600.0
-    del K
     return _Cands(station=station, p=p, q=q, start=start, end=end, track0=track0, track1=track1,
                   downlink=downlink, vol=vol, cost=cost)
 
@@ -718,6 +726,27 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
         M.coef(rows[node], x[dl], first)
         late = during > 0
         M.coef(rows[node_end[late]], x[dl[late]], during[late])
+        # Implied cover rows (same integer solutions, a much closer LP bound): after a downlink the
+        # fill grows by the production rate, so every edge k needs some downlink leaving within the
+        # last cap / production seconds before it (or the start's content to fit), likewise the end.
+        if P.gen_gbit_s > 0 and len(dl):
+            cn = np.where(first > 0, node, node_end)
+            lock_nodes = np.flatnonzero(P.lock_data_gbit > 0)
+            every = max(1, int(round(2 * 3600.0 / max(float(np.median(length)), 1.0))))
+            ks = list(range(every, P.fill_end_index + 1, every)) + [P.fill_end_index]
+            covers = [(kk, cap) for kk in ks]
+            if P.end_max is not None:
+                covers.append((P.fill_end_index, P.end_max))
+            for kk, limit in covers:
+                win = limit / P.gen_gbit_s
+                k_lo = int(np.searchsorted(t, t[kk] - win - _TOL, side="left"))
+                if k_lo == 0 and P.fill0 + P.gen_gbit_s * (t[kk] - t[0]) <= limit + 1e-9:
+                    continue
+                if np.any((lock_nodes >= k_lo) & (lock_nodes < kk)):
+                    continue
+                sel = np.flatnonzero((cn >= k_lo) & (cn < kk))
+                r = M.rows(1, 1, np.inf)
+                M.coef(np.full(len(sel), r[0]), x[dl[sel]], 1.0)
         # the fill just before the booking's downlink starts is checked at that edge (F[node] <= cap)
         # Implied cuts (same integer solutions, closer LP bound): by edge k at least
         # R_k = fill0 + generated - limit must have left, each booking giving at most min(vol, cap, R_k).
@@ -851,7 +880,8 @@ def _explain_combination(P: _Plan, C, time_limit_s: float) -> list:
     culprits = []
     per = max(0.5, time_limit_s / (2 * len(groups)))
     for g in groups:
-        M, *_ = _build_model(P, drop={g}, cands=C if g != "length" else None)
+        M, *_ = _build_model(P, drop={g}, cands=C if (C is not None and g != "length") else
+                             (_choose_candidates(P, MAX_CANDIDATES)[0] if g != "length" else None))
         res = _solve(M, per)
         if res.status == 0 or (res.status == 1 and res.x is not None):
             culprits.append(g)
@@ -916,6 +946,137 @@ def _verify(scenario, passes, profiles, draft: DraftResult):
 
 
 # ---------------------------------------------------------------- entry point
+def _neighbourhood(P: _Plan, C: _Cands, chosen, step: int, also=()) -> _Cands:
+    """Bookings on the full grid whose edges lie within ``step`` edges of a chosen booking's edges
+    (the chosen ones included): a local search that polishes a plan drafted on a thinned lattice.
+    ``also`` adds more (cands, indices) pairs to centre neighbourhoods on."""
+    t = P.t
+    K = len(t) - 1
+    runs = [_runs(P.avail[i]) for i in range(len(P.stations))]
+    centres = [(int(C.station[c]), int(C.p[c]), int(C.q[c])) for c in chosen]
+    for cc, idx in also:
+        centres += [(int(cc.station[c]), int(cc.p[c]), int(cc.q[c])) for c in idx]
+    centres = sorted(set(centres))
+    sts, ps, qs = [], [], []
+    off = np.arange(-step, step + 1)
+    for i, p0, q0 in centres:
+        run_s, run_e = runs[i]
+        lo, hi = run_s[min(p0, K - 1)], run_e[min(p0, K - 1)] + 1
+        pp, qq = np.meshgrid(np.clip(p0 + off, lo, hi), np.clip(q0 + off, lo, hi), indexing="ij")
+        dur = t[qq] - t[pp]
+        ok = (qq > pp) & (dur >= P.min_s[i] - _TOL)
+        if P.max_s is not None:
+            ok &= dur <= P.max_s + _TOL
+        sts.append(np.full(int(ok.sum()), i))
+        ps.append(pp[ok])
+        qs.append(qq[ok])
+    if not sts:
+        return C
+    key = np.unique(np.stack([np.concatenate(sts), np.concatenate(ps), np.concatenate(qs)]), axis=1)
+    return _cands_from(P, key[0], key[1], key[2])
+
+
+def _lp_bound(M: _Model):
+    """The LP relaxation: (objective, x) or (None, None)."""
+    from scipy.optimize import Bounds, LinearConstraint, milp
+    from scipy.sparse import csr_array
+
+    c, lb, ub, integ, r, col, v, rlb, rub = M.arrays()
+    A = csr_array((v, (r, col)), shape=(len(rlb), len(c)))
+    res = milp(c, integrality=np.zeros_like(integ), bounds=Bounds(lb, ub), constraints=[LinearConstraint(A, rlb, rub)])
+    return (res.fun, res.x) if res.x is not None else (None, None)
+
+
+@dataclass
+class _Solved:
+    chosen: np.ndarray  # candidate indices into cands
+    cands: _Cands
+    fun: float
+    status: str
+    gap: float | None
+    infeasible: bool = False
+
+
+def _optimise(P: _Plan, time_s: float, mip_gap: float, max_candidates: int, grid_min: float, notes: list,
+              exclusive=False, day_extra=None, first=True) -> _Solved | None:
+    """Solve the drafting MILP within ``time_s``: exactly when the candidate set is small, else
+    LP-guided restricted solves, a solve on a thinned lattice and a polish on the full grid."""
+    t0 = time.perf_counter()
+
+    def left():
+        return time_s - (time.perf_counter() - t0)
+
+    kw = dict(exclusive=exclusive, day_extra=day_extra)
+    C, step = _choose_candidates(P, max_candidates)
+    if step == 1:
+        M, x, C, _ = _build_model(P, cands=C, **kw)
+        res = _solve(M, max(0.3, left()), mip_gap)
+        if res.x is None:
+            return _Solved(np.zeros(0, int), C, math.inf, INFEASIBLE if res.status == 2 else TIME_LIMIT, None,
+                           infeasible=res.status == 2)
+        gap = getattr(res, "mip_gap", None)
+        gap = (0.0 if res.status == 0 else None) if gap is None else max(0.0, float(gap))
+        return _Solved(np.flatnonzero(res.x[x] > 0.5), C, float(res.fun), OPTIMAL if res.status == 0 else TIME_LIMIT,
+                       gap)
+
+    if first:
+        notes.append(f"{len(_candidates(P, step=1))} candidate bookings on the {grid_min:g}-min grid: drafted with "
+                     f"LP-guided neighbourhoods and on a {step * grid_min:g}-min lattice (with pass edges, "
+                     f"keep-outs, midnights and monitor spans), then polished on the full grid")
+    best = None
+    bound = None
+    # 1. the LP relaxation gives a bound and a guide: over every candidate of the full grid when
+    #    that is quick, else over the thinned lattice (then the gap is measured against that set)
+    full = _candidates(P, step=1)
+    guide = full if len(full) <= 3 * max_candidates else C
+    Mg, xg, guide, _ = _build_model(P, cands=guide, **kw)
+    lp_fun, lp_x = _lp_bound(Mg)
+    if lp_fun is None:
+        return _Solved(np.zeros(0, int), C, math.inf, INFEASIBLE, None, infeasible=True)
+    bound = lp_fun
+    if guide is not full and first:
+        notes.append(f"the gap is measured against the LP bound of the {step * grid_min:g}-min lattice")
+
+    def consider(res, x, cands):
+        nonlocal best
+        if res.x is not None and (best is None or res.fun < best.fun - 1e-9):
+            best = _Solved(np.flatnonzero(res.x[x] > 0.5), cands, float(res.fun), TIME_LIMIT, None)
+
+    # 2. a restricted solve around the LP's support
+    support = np.flatnonzero(lp_x[xg] > 1e-6)
+    near = _neighbourhood(P, guide, support, 3)
+    M1, x1, near, _ = _build_model(P, cands=near, **kw)
+    consider(_solve(M1, max(0.3, 0.45 * left()), mip_gap), x1, near)
+    # 3. the whole thinned lattice (most of what is left when the guided solve found nothing)
+    if left() > 0.5:
+        M2, x2, C, _ = _build_model(P, cands=C, **kw)
+        res2 = _solve(M2, max(0.3, (0.4 if best is not None else 0.8) * left()), mip_gap)
+        consider(res2, x2, C)
+        if res2.status == 0 and guide is not full:
+            bound = max(bound, float(res2.fun))
+    if best is None:
+        return _Solved(np.zeros(0, int), C, math.inf, TIME_LIMIT, None)
+    # 4. polish on the full grid around the best plan (and the LP's guide) while it improves
+    before = best.fun
+    for _ in range(4):
+        if left() < 0.5:
+            break
+        keep = best.fun
+        near2 = _neighbourhood(P, best.cands, best.chosen, 3, also=[(guide, support)])
+        M3, x3, near2, _ = _build_model(P, cands=near2, **kw)
+        res3 = _solve(M3, max(0.3, left() - 0.1), mip_gap)
+        consider(res3, x3, near2)
+        if best.fun >= keep - 1e-9:
+            break
+    if best.fun < before - 1e-9:
+        notes.append(f"polishing on the {grid_min:g}-min grid saved {before - best.fun:.2f} cost-hours")
+    if bound is not None:
+        best.gap = max(0.0, (best.fun - bound) / max(abs(best.fun), 1e-9))
+        if best.gap <= mip_gap and guide is full:
+            best.status = OPTIMAL
+    return best
+
+
 def _choose_candidates(P: _Plan, max_candidates: int):
     """The candidate set on the finest lattice that keeps at most ``max_candidates``."""
     for step in (1, 2, 3, 4, 6, 8, 12, 18, 24):
@@ -974,27 +1135,27 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
                 base.explanations = why
                 base.solve_time_s = time.perf_counter() - t_start
                 return base
-        C, step = _choose_candidates(P, max_candidates)
-        if step > 1 and attempt == 0:
-            notes.append(f"booking edges thinned to every {step * grid_min:g} min (plus pass edges, keep-outs, "
-                         f"midnights and monitor spans) to keep {len(C)} candidates; the gap is within that set")
-        M, x, C, F = _build_model(P, cands=C, exclusive=exclusive, day_extra=day_extra)
+        remaining = time_limit_s - (time.perf_counter() - t_start)
+        share = 0.8 if attempt == 0 else 0.9
+        sol = _optimise(P, max(0.5, share * remaining - 0.2), mip_gap, max_candidates, grid_min, notes,
+                        exclusive=exclusive, day_extra=day_extra, first=attempt == 0)
+        C = sol.cands
         base.n_candidates = len(C)
-        left = max(0.5, time_limit_s - (time.perf_counter() - t_start))
-        res = _solve(M, left, mip_gap)
-        if res.x is None:
+        if not len(sol.chosen) and not math.isfinite(sol.fun):
             if out is not None:  # a tightened re-solve failed: keep the plan found before
-                notes.append("tightening the plan after the check found no better plan")
+                notes.append("tightening the plan after the check found no better plan in time")
                 break
-            if res.status == 2:
-                base.explanations = _explain_combination(P, C, max(2.0, time_limit_s / 2))
+            if sol.infeasible:
+                base.explanations = _explain_combination(P, None, max(2.0, time_limit_s / 2))
             else:
                 base.status = TIME_LIMIT
                 base.explanations = [f"no plan found within the time limit of {time_limit_s:g} s; "
                                      "give the solver more time (--time-limit) or a coarser grid"]
             base.solve_time_s = time.perf_counter() - t_start
             return base
-        xval = res.x[x]
+        status, gap = sol.status, sol.gap
+        xval = np.zeros(len(C))
+        xval[sol.chosen] = 1.0
         books, reused = _bookings_from(P, xval, C, scenario, removed)
         base.bookings = books
         base.reused = reused
@@ -1007,9 +1168,9 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
             cost_h += h * scenario.station(bk.station).cost_per_hour
         base.station_hours = hours
         base.objective_cost_h = cost_h
-        base.status = OPTIMAL if res.status == 0 else TIME_LIMIT
-        gap = getattr(res, "mip_gap", None)
-        base.gap = (0.0 if res.status == 0 else None) if gap is None else max(0.0, float(gap))
+        base.status = status
+        base.gap = gap
+        base.notes = notes
         out = base
         findings = _verify(scenario, passes, profiles, out)
         if findings is None:
@@ -1033,7 +1194,7 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         if short_days:
             notes.append("bookings overlapped on " + ", ".join(f.subjects[0] for f in short_days)
                          + ": solved again asking more contact those days")
-        if not again or time.perf_counter() - t_start > time_limit_s * 1.5:
+        if not again or time_limit_s - (time.perf_counter() - t_start) < 1.0:
             break
     out.solve_time_s = time.perf_counter() - t_start
     return out
