@@ -674,3 +674,22 @@ def test_run_app_on_a_broken_file_shows_the_error_and_keeps_running(qapp, tmp_pa
     # the log went to the user log folder
     logs = list((tmp_path / "xdg_state_home").rglob("contactplan.log"))
     assert logs and "bad.toml" in logs[0].read_text(encoding="utf-8")
+
+
+def test_recovery_skips_a_snapshot_equal_to_the_file(win, demo_copy, demo_plan):
+    from contactplan.app.autosave import orphans
+    from contactplan.app.main import offer_recovery
+    from contactplan.scenario import dumps
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    win.save_to(demo_copy)  # the file now holds exactly what a snapshot would
+    meta = win.autosaver.folder / f"{win.autosaver.stem}.json"
+    data = json.loads(meta.read_text())
+    data["pid"] = 2 ** 22 + 54321
+    meta.write_text(json.dumps(data))
+    assert (win.autosaver.folder / f"{win.autosaver.stem}.toml").read_text() == dumps(sc)
+    assert len(orphans(win.autosaver.folder)) == 1
+    win.asked.clear()
+    assert offer_recovery(win) is False
+    assert win.asked == []  # nothing to ask about
+    assert orphans(win.autosaver.folder) == []

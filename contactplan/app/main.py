@@ -52,7 +52,16 @@ def offer_recovery(window) -> bool:
     from contactplan.scenario import parse_text
     from contactplan.timescale import format_utc, from_datetime
 
-    snaps = orphans(window.autosaver.folder)
+    snaps = []
+    for snap in orphans(window.autosaver.folder):
+        try:  # a snapshot equal to the file on disk holds nothing that was lost
+            same = snap.original and Path(snap.original).read_text(encoding="utf-8") == snap.text()
+        except OSError:
+            same = False
+        if same:
+            snap.discard()
+        else:
+            snaps.append(snap)
     if not snaps:
         return False
     snap = snaps[0]

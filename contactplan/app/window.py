@@ -16,7 +16,8 @@ from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence, QUndoCommand
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog, QDialogButtonBox, QDockWidget,
                                QFileDialog, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit, QMainWindow,
-                               QMessageBox, QProgressBar, QPushButton, QTableView, QVBoxLayout, QWidget)
+                               QMessageBox, QProgressBar, QPushButton, QStyledItemDelegate, QTableView, QUndoView,
+                               QVBoxLayout, QWidget)
 
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
@@ -111,6 +112,25 @@ class PurposesDialog(QDialog):
 
     def purposes(self) -> list:
         return [p for p, cb in self.boxes.items() if cb.isChecked()]
+
+
+class StationDelegate(QStyledItemDelegate):
+    """Pick a booking's station from the scenario's stations."""
+
+    def __init__(self, doc, parent=None):
+        super().__init__(parent)
+        self.doc = doc
+
+    def createEditor(self, parent, option, index):
+        box = QComboBox(parent)
+        box.addItems([s.id for s in (self.doc.scenario.stations if self.doc.scenario else [])])
+        return box
+
+    def setEditorData(self, editor, index):
+        editor.setCurrentText(str(index.data(Qt.ItemDataRole.EditRole) or ""))
+
+    def setModelData(self, editor, model, index):
+        model.setData(index, editor.currentText(), Qt.ItemDataRole.EditRole)
 
 
 def _table(model, sortable=True) -> QTableView:
@@ -216,6 +236,7 @@ class MainWindow(QMainWindow):
         self.bookings_view = _table(self.bookings_proxy)
         self.bookings_view.sortByColumn(2, Qt.SortOrder.AscendingOrder)
         self.bookings_view.clicked.connect(self._booking_clicked)
+        self.bookings_view.setItemDelegateForColumn(1, StationDelegate(doc, self.bookings_view))
         self.bookings_view.selectionModel().currentRowChanged.connect(self._booking_current)
         self.bookings_dock = self._dock("Bookings", "dock-bookings", self.bookings_view,
                                         Qt.DockWidgetArea.BottomDockWidgetArea)
@@ -237,6 +258,12 @@ class MainWindow(QMainWindow):
         self.props = PropertyEditor(doc)
         self.props_dock = self._dock("Properties", "dock-properties", self.props,
                                      Qt.DockWidgetArea.RightDockWidgetArea)
+        self.history = QUndoView(doc.undo_stack)
+        self.history.setEmptyLabel("(as opened)")
+        self.history_dock = self._dock("Edit history", "dock-history", self.history,
+                                       Qt.DockWidgetArea.RightDockWidgetArea)
+        self.tabifyDockWidget(self.props_dock, self.history_dock)
+        self.props_dock.raise_()
 
     def _act(self, text, slot, shortcut=None, icon=None, tip=None) -> QAction:
         a = QAction(text, self)
@@ -338,7 +365,8 @@ class MainWindow(QMainWindow):
         m.addAction(self.act_shade_rate)
         m.addAction(self.act_shade_el)
         m.addSeparator()
-        for d in (self.passes_dock, self.bookings_dock, self.findings_dock, self.sky_dock, self.props_dock):
+        for d in (self.passes_dock, self.bookings_dock, self.findings_dock, self.sky_dock, self.props_dock,
+                  self.history_dock):
             m.addAction(d.toggleViewAction())
         m = mb.addMenu("&Plan")
         m.addAction(self.act_compute)
