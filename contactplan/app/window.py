@@ -223,6 +223,8 @@ class MainWindow(QMainWindow):
         lay.addLayout(row)
         self.passes_view = _table(self.passes_proxy)
         self.passes_view.sortByColumn(1, Qt.SortOrder.AscendingOrder)
+        for col, width in enumerate((60, 150, 150, 55, 85, 110, 95, 95)):
+            self.passes_view.setColumnWidth(col, width)
         self.passes_view.clicked.connect(self._pass_clicked)
         self.passes_view.selectionModel().currentRowChanged.connect(self._pass_current)
         self.passes_view.doubleClicked.connect(self._pass_double_clicked)
@@ -235,6 +237,8 @@ class MainWindow(QMainWindow):
         self.bookings_proxy.setSourceModel(self.bookings_model)
         self.bookings_view = _table(self.bookings_proxy)
         self.bookings_view.sortByColumn(2, Qt.SortOrder.AscendingOrder)
+        for col, width in enumerate((60, 70, 150, 150, 55, 200, 60, 85)):
+            self.bookings_view.setColumnWidth(col, width)
         self.bookings_view.clicked.connect(self._booking_clicked)
         self.bookings_view.setItemDelegateForColumn(1, StationDelegate(doc, self.bookings_view))
         self.bookings_view.selectionModel().currentRowChanged.connect(self._booking_current)
@@ -246,6 +250,8 @@ class MainWindow(QMainWindow):
         self.findings_proxy.setSourceModel(self.findings_model)
         self.findings_view = _table(self.findings_proxy)
         self.findings_view.sortByColumn(0, Qt.SortOrder.AscendingOrder)
+        for col, width in enumerate((70, 170, 150, 150)):
+            self.findings_view.setColumnWidth(col, width)
         self.findings_view.clicked.connect(self._finding_clicked)
         self.findings_dock = self._dock("Findings", "dock-findings", self.findings_view,
                                         Qt.DockWidgetArea.BottomDockWidgetArea)
