@@ -53,6 +53,8 @@ def run(args) -> int:
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
                       step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")
+    except InputError:
+        raise
     except OSError as exc:
         raise InputError(f"cannot write: {exc.strerror or exc}", args.out) from None
     print(line)

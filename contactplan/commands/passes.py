@@ -12,7 +12,7 @@ HELP = "predict passes of each station over a window"
 
 EXAMPLES = """\
   contactplan passes week.toml
-  contactplan passes week.toml --station NRV KAL --out passes.csv
+  contactplan passes week.toml --station KSD VYH --out passes.csv
   contactplan passes week.toml --start 2027-01-12T00:00:00Z --end 2027-040T00:00:00Z --out passes.json
 
 Times are UTC (calendar or day of year, with Z). The window defaults to the
@@ -81,6 +81,15 @@ def shadow_lines(spans) -> list[str]:
             f"({(s.end_tt - s.start_tt) / 60.0:.1f} min)" for s in spans]
 
 
+def _as_asked(scenario, start_tt, end_tt, stations):
+    """The scenario as the table was asked for: its window and, with ``--station``, only those stations
+    (so the workbook's notes and per-station sheets say what was computed)."""
+    import dataclasses
+
+    keep = scenario.stations if not stations else [s for s in scenario.stations if s.id in set(stations)]
+    return dataclasses.replace(scenario, start_tt=start_tt, end_tt=end_tt, stations=list(keep))
+
+
 def run(args) -> int:
     import warnings
     from pathlib import Path
@@ -99,6 +108,12 @@ def run(args) -> int:
     start = _time(args.start, "start") if args.start else None
     end = _time(args.end, "end") if args.end else None
     scenario = load_scenario(args.scenario)
+    if args.station:
+        known = [s.id for s in scenario.stations]
+        for sid in args.station:
+            if sid not in known:
+                raise InputError(f"unknown station {sid!r} (the scenario has: {', '.join(known) or 'none'})",
+                                 None, "--station")
     start = scenario.start_tt if start is None else start
     end = scenario.end_tt if end is None else end
     if not end > start:
@@ -134,10 +149,12 @@ def run(args) -> int:
         if fmt == "xlsx":
             from contactplan.io.xlsx import write_passes_xlsx
 
-            write_passes_xlsx(scenario, passes, args.out)
+            write_passes_xlsx(_as_asked(scenario, start, end, args.station), passes, args.out)
         else:
             passtable.write_passes(args.out, passes, fmt, scenario, start, end, args.station,
                                    footer=shadow + [CAUTION] if fmt == "text" else None, shadows=spans)
+    except InputError:
+        raise
     except OSError as exc:
         raise InputError(f"cannot write: {exc.strerror or exc}", args.out) from None
     print(f"wrote {len(passes)} pass{'es' if len(passes) != 1 else ''} to {args.out}")

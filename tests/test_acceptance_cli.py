@@ -1,0 +1,66 @@
+"""Acceptance review of the headless commands, as the operations engineer uses them.
+
+Each test here was written against a defect found while running the commands on
+the invented sample scenario (tests/data/minimal.toml) and odd input.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from contactplan.cli import main
+
+
+def _err_lines(capsys) -> list[str]:
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    return [line for line in err.splitlines() if line.strip()]
+
+
+def test_unknown_station_names_the_option(minimal_path, capsys):
+    assert main(["passes", str(minimal_path), "--station", "NRV", "ZZZ"]) == 2
+    lines = _err_lines(capsys)
+    assert lines == ["contactplan: error: --station: unknown station 'ZZZ' (the scenario has: NRV, KAL)"]
+
+
+@pytest.mark.parametrize("command", ["passes", "export"])
+def test_missing_output_folder_is_said_once(minimal_path, tmp_path, capsys, command):
+    out = tmp_path / "no-such-folder" / "p.csv"
+    assert main([command, str(minimal_path), "--out", str(out)]) == 2
+    lines = _err_lines(capsys)
+    assert len(lines) == 1 and str(out) in lines[0]
+    # one cause, said once (it was "cannot write: FILE: cannot write: ...")
+    assert lines[0].count(str(out)) == 1
+    assert lines[0].count("cannot write") <= 1 and "does not exist" in lines[0]
+    assert not out.parent.exists()
+
+
+def test_passes_workbook_says_the_window_and_stations_asked(minimal_path, tmp_path, capsys):
+    openpyxl = pytest.importorskip("openpyxl")
+    out = tmp_path / "p.xlsx"
+    assert main(["passes", str(minimal_path), "--start", "2027-013T00:00:00Z", "--end", "2027-01-15T00:00:00Z",
+                 "--station", "NRV", "--out", str(out)]) == 0
+    assert "wrote" in capsys.readouterr().out
+    wb = openpyxl.load_workbook(out)
+    # only the station asked for gets a sheet (an empty KAL sheet would read as "KAL has no pass")
+    assert wb.sheetnames == ["All stations", "NRV", "Notes"]
+    notes = {row[0]: row[1] for row in wb["Notes"].iter_rows(values_only=True)}
+    assert notes["Window start (UTC)"] == "2027-01-13T00:00:00.000Z"
+    assert notes["Window end (UTC)"] == "2027-01-15T00:00:00.000Z"
+    stations = {r[0] for r in wb["All stations"].iter_rows(min_row=2, values_only=True)}
+    assert stations == {"NRV"}
+
+
+def test_help_examples_use_the_demo_station_ids(capsys):
+    """Examples are copied as they are: they must name stations of the bundled demo."""
+    import tomllib
+
+    from contactplan.paths import demo_scenario
+
+    ids = {s["id"] for s in tomllib.loads(demo_scenario().read_text("utf-8"))["stations"]}
+    from contactplan.commands import passes
+
+    for line in passes.EXAMPLES.splitlines():
+        if "--station" in line:
+            named = line.split("--station", 1)[1].split("--")[0].split()
+            assert set(named) <= ids, line
