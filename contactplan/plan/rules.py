@@ -385,8 +385,13 @@ def rule_recorder_end(ctx: RuleContext) -> list[Finding]:
     rec = ctx.recorder
     if limit is None or rec is None or rec.end_gbit <= limit + 1e-9:
         return []
+    # data lost to an overflow is not on board but must come down too once the overflow is fixed:
+    # the extra downlink needed is what was generated and not brought down, minus the allowance
+    lost = float(getattr(rec, "lost_gbit", 0.0) or 0.0)
+    need = rec.end_gbit + lost - limit
+    why = f" ({lost:.1f} Gbit of it now lost to the overflow)" if lost > 0.05 else ""
     msg = (f"{rec.end_gbit:.1f} Gbit left on board at the end of the window, more than the {limit:g} Gbit "
-           f"allowed: book {rec.end_gbit - limit:.1f} Gbit more downlink")
+           f"allowed: book {need:.1f} Gbit more downlink{why}")
     return [_finding("recorder-end", WARNING, ["recorder"], ctx.end_tt, ctx.end_tt, msg)]
 
 
