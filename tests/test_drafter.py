@@ -276,3 +276,62 @@ def test_math_sanity_of_case_numbers():
     # 1000 kbit/s for a day is 86.4 Gbit (1 Gbit = 1e9 bit, common practice, no source)
     assert 1000e3 * 86400 / 1e9 == pytest.approx(86.4)
     assert math.isclose(16000e3 * 3600 / 1e9, 57.6)
+
+
+def test_requirements_that_clash_only_together_are_named():
+    # each day alone has 10 h of pass, but 3 days x (4 h tracked + setup) exceed the station's 12 h a week
+    sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-15T00:00:00Z",
+                       [station("AAA", setup=30, teardown=30, max_week=12.0)],
+                       requirements={"contact_per_day_min_h": 4.0, "booking_min_h": 1.0})
+    passes, profiles = passes_and_profiles(
+        [("AAA", f"2027-01-{d}T02:00:00Z", f"2027-01-{d}T12:00:00Z", 0.0) for d in (12, 13, 14)])
+    dr = draft(sc, passes=passes, profiles=profiles, time_limit_s=10)
+    assert dr.status == INFEASIBLE and not dr.bookings
+    text = " ".join(dr.explanations)
+    assert "not all together" in text
+    assert "max_hours_per_week" in text and "contact_per_day_min_h" in text
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_random_small_weeks_check_without_errors(seed):
+    """Drafted plans pass the plan rules with zero errors by construction (several invented scenarios)."""
+    import random
+
+    rnd = random.Random(seed)
+    stations = [station("AAA", setup=rnd.choice((15, 30, 45)), teardown=15, cost=1.0),
+                station("BBB", setup=30, teardown=rnd.choice((0, 15)), cost=rnd.choice((0.6, 1.2))),
+                station("CCC", downlink=False, setup=20, teardown=10, cost=0.5,
+                        outages='{ start = "2027-01-13T03:00:00Z", end = "2027-01-13T05:00:00Z" }')]
+    burn_h = rnd.choice((4, 9, 15))
+    acts = BURN.replace("07:00:00", f"{burn_h:02d}:10:00").replace("2027-01-12T", "2027-01-13T")
+    acts += "".join(f"""
+[[activities]]
+id = "SLW-{i}"
+kind = "slew"
+start = "2027-01-1{2 + i // 3}T{(3 + 7 * i) % 24:02d}:20:00Z"
+duration_min = 18
+downlink_keepout_min = 5
+""" for i in range(5))
+    sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-14T00:00:00Z", stations,
+                       recorder={"capacity_gbit": 200.0, "initial_gbit": rnd.uniform(20, 150),
+                                 "generation_kbps": rnd.choice((500.0, 1500.0))},
+                       requirements={"contact_per_day_min_h": rnd.choice((3.0, 5.0)), "ranging_per_day_min": 1,
+                                     "booking_min_h": 1.0, "booking_max_h": 8.0,
+                                     "recorder_end_max_gbit": 120.0},
+                       activities=acts)
+    specs = []
+    for d in (12, 13):
+        specs += [("AAA", f"2027-01-{d}T00:00:00Z", f"2027-01-{d}T09:30:00Z", 16000.0),
+                  ("BBB", f"2027-01-{d}T07:10:00Z", f"2027-01-{d}T17:45:00Z", 4000.0),
+                  ("CCC", f"2027-01-{d}T02:00:00Z", f"2027-01-{d}T23:00:00Z", 0.0)]
+    passes, profiles = passes_and_profiles(specs)
+    dr = draft(sc, passes=passes, profiles=profiles, time_limit_s=8)
+    if dr.status == INFEASIBLE:
+        assert dr.explanations and not dr.bookings
+        return
+    assert dr.check_errors == 0, [f.message for f in dr.findings if f.severity == "error"]
+    assert dr.recorder_lost_gbit == 0.0
+    keepouts = [a.keepout_span_tt for a in sc.activities]
+    for b in dr.bookings:
+        if "downlink" in b.purposes:
+            assert not any(k0 < b.end_tt and b.start_tt < k1 for k0, k1 in keepouts)

@@ -1,30 +1,46 @@
 """The week drafter: bookings that meet every requirement with the fewest station cost-hours.
 
-The planning window is cut into slots whose edges lie on a regular UTC grid
-(``grid_min`` minutes from each UTC midnight) plus the whole-minute edges of
-passes, outages, keep-outs, monitor spans and kept bookings. A booking is a run
-of consecutive booked slots of one station, so every booking starts and ends on
-a slot edge, lies inside one pass and outside every outage. The mixed-integer
-programme (solved with HiGHS through :func:`scipy.optimize.milp`) has per
-station and slot:
+Candidates
+    The window is cut into slots whose edges lie on a regular UTC grid
+    (``grid_min`` minutes from each UTC midnight) plus the whole-minute edges of
+    passes, outages, keep-outs, monitor spans and kept bookings. A *candidate* is a
+    booking of one station from one edge to a later edge of the same free run
+    (inside a pass, outside outages and kept bookings), between ``booking_min_h``
+    (and longer than setup plus teardown) and ``booking_max_h``. Its tracked time is
+    the booking less setup and teardown (as the plan rules count it); it carries
+    downlink when its station takes downlink and it touches no keep-out, so a
+    downlink is split around keep-outs by choosing two candidates.
 
-``y``  booked (binary); ``z`` a booking starts here (binary);
-``w``  the booking holding the slot carries downlink (binary, forced to 0 in
-       keep-outs, constant along a booking so a downlink booking never touches a
-       keep-out);
-``d``  share of the slot credited with downlink (continuous, only after the
-       station's setup and before its teardown, at the lowest rate the pass
-       profile offers during the slot).
+The mixed-integer programme (HiGHS through :func:`scipy.optimize.milp`)
+    One binary per candidate. Per station and free run the chosen bookings and
+    idle slots form one path from the run's first edge to its last (a network:
+    no double booking, and a tight LP). Rows: every piece of a burn's monitor
+    span tracked by one booking; tracked hours per whole UTC day (coefficients
+    clipped to the need, plus the least number of bookings that can give it);
+    ranging bookings per day; station hours per 7-day block; and the recorder,
+    an upper bound of the real fill at every slot edge: production adds, a
+    booking's volume (from the pass's rate profile) leaves at the first edge after
+    its downlink time begins (the part produced during the booking at the first
+    edge after it ends), never more than is on board, and the fill stays under
+    capacity and under ``recorder_end_max_gbit`` at the end. Implied cover rows
+    (a downlink within every capacity/production span) tighten the LP bound.
+    Objective: station cost-hours (``cost_per_hour`` times booked hours), plus a
+    small charge per booking (fewer bookings and handovers).
 
-and per slot the recorder fill ``f`` at its edges (a linear inventory kept
-between 0 and capacity) and the covered share ``u`` for the daily contact
-hours. The model is conservative for the recorder: it credits at most one
-station's downlink at a time and never more than is on board, so the real
-recorder (which downlinks as fast as it can) holds at most the model's fill.
-The plan is then verified with the real recorder and rules where they exist.
+Solving
+    Small windows are solved exactly. Large ones (more than ``max_candidates``
+    candidates) are drafted with the LP relaxation as a guide: an exact solve over
+    the grid bookings near the LP's support, a solve on a thinned lattice, then
+    polishing on the full grid around the best plan while time lasts. The gap is
+    measured against the LP bound (of the thinned lattice when the full LP is too
+    large; the notes say which).
 
-Objective: station cost-hours (``cost_per_hour`` times booked hours), then a
-small charge per booking (fewer bookings and handovers).
+Verification
+    The plan is then checked with the real recorder and plan rules
+    (:func:`contactplan.plan.pipeline.check`); if the recorder still loses data
+    (two stations downlinking at once, or a rate below production inside a
+    booking), or bookings overlap so a day's contact falls short, the model is
+    tightened and solved again within the time limit.
 
 Times are TT seconds since J2000 (``_tt``); volumes in gigabits (1e9 bit).
 """
@@ -52,8 +68,8 @@ MAX_CANDIDATES = 6500
 #: the model keeps the recorder this far below capacity (gigabits) as a rounding guard
 FILL_GUARD_GBIT = 1e-3
 _TOL = 1e-3  # seconds
+#: HiGHS presolve spends seconds on these network models for little gain; it stays off
 _PRESOLVE = False
-_CUTS = False
 
 
 @dataclass(eq=False)
@@ -91,7 +107,8 @@ class DraftResult:
 
     @property
     def feasible(self) -> bool:
-        return self.status != INFEASIBLE and (self.status == OPTIMAL or bool(self.bookings) or not self.explanations)
+        """A plan was found (it may still carry a gap)."""
+        return self.status != INFEASIBLE and not (not self.bookings and self.explanations)
 
     def apply(self, scenario):
         """A copy of ``scenario`` whose bookings are the kept ones plus the new ones (unchanged input)."""
@@ -723,9 +740,10 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
         rows = M.rows(K, lo, np.where(credit, np.inf, gen))
         M.coef(rows, F[1:], 1.0)
         M.coef(rows, F[:-1], -1.0)
-        M.coef(rows[node], x[dl], first)
+        # no credit beyond the capacity counts (F <= cap): clipping keeps the integer plans, tightens the LP
+        M.coef(rows[node], x[dl], np.minimum(first, cap))
         late = during > 0
-        M.coef(rows[node_end[late]], x[dl[late]], during[late])
+        M.coef(rows[node_end[late]], x[dl[late]], np.minimum(during[late], cap))
         # Implied cover rows (same integer solutions, a much closer LP bound): after a downlink the
         # fill grows by the production rate, so every edge k needs some downlink leaving within the
         # last cap / production seconds before it (or the start's content to fit), likewise the end.
@@ -748,21 +766,6 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
                 r = M.rows(1, 1, np.inf)
                 M.coef(np.full(len(sel), r[0]), x[dl[sel]], 1.0)
         # the fill just before the booking's downlink starts is checked at that edge (F[node] <= cap)
-        # Implied cuts (same integer solutions, closer LP bound): by edge k at least
-        # R_k = fill0 + generated - limit must have left, each booking giving at most min(vol, cap, R_k).
-        lock_cum = np.concatenate(([0.0], np.cumsum(P.lock_data_gbit)))
-        checks = [(kk, cap) for kk in range(1, P.fill_end_index + 1, max(1, int(round(6 * 3600 / np.median(length)))))]
-        if P.end_max is not None:
-            checks.append((P.fill_end_index, min(cap, P.end_max)))
-        for kk, limit in (checks if _CUTS else []):
-            need = P.fill0 + P.gen_gbit_s * (t[kk] - t[0]) - limit - lock_cum[kk]
-            sel = node < kk
-            if need <= 1e-6 or not np.any(sel):
-                continue
-            give = first[sel] + np.where(node_end[sel] < kk, during[sel], 0.0)
-            give = np.minimum(give, cap + P.gen_gbit_s * (C.track1[dl[sel]] - C.track0[dl[sel]]))
-            r = M.rows(1, need, np.inf)
-            M.coef(np.full(int(sel.sum()), r[0]), x[dl[sel]], np.minimum(give, need))
         if P.end_max is not None:
             r = M.rows(1, -np.inf, P.end_max)
             M.coef(r, F[P.fill_end_index:P.fill_end_index + 1], 1.0)
