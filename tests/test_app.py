@@ -693,3 +693,30 @@ def test_recovery_skips_a_snapshot_equal_to_the_file(win, demo_copy, demo_plan):
     assert offer_recovery(win) is False
     assert win.asked == []  # nothing to ask about
     assert orphans(win.autosaver.folder) == []
+
+
+def test_double_click_on_a_booking_edits_its_purposes(win, demo_copy, demo_plan, qtbot, monkeypatch):
+    from PySide6.QtWidgets import QDialog
+
+    from contactplan.app import window as window_mod
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    b = sc.booking("B002")
+    win.timeline.zoom_to(b.start_tt, b.end_tt)
+    QApplication.processEvents()
+
+    def fake_exec(dialog):  # the user ticks commanding and presses OK
+        dialog.boxes["commanding"].setChecked(True)
+        return QDialog.DialogCode.Accepted
+
+    monkeypatch.setattr(window_mod.PurposesDialog, "exec", fake_exec)
+    pos = _pos(win, 0.5 * (b.start_tt + b.end_tt), win.timeline.canvas.lane_of_station("ORF") + 0.5)
+    vp = win.timeline.viewport()
+    with qtbot.waitSignal(win.timeline.editPurposesRequested, timeout=3000) as blocker:
+        _send(vp, QEvent.Type.MouseButtonPress, pos, Qt.MouseButton.LeftButton)
+        _send(vp, QEvent.Type.MouseButtonRelease, pos, Qt.MouseButton.NoButton)
+        _send(vp, QEvent.Type.MouseButtonDblClick, pos, Qt.MouseButton.LeftButton)
+        _send(vp, QEvent.Type.MouseButtonRelease, pos, Qt.MouseButton.NoButton)
+    assert blocker.args == ["B002"]
+    assert b.purposes == ["downlink", "ranging", "commanding"]
+    assert win.doc.undo_stack.undoText().startswith("Change B002")

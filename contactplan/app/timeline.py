@@ -333,6 +333,17 @@ class LanesCanvas(pg.GraphicsObject):
                     painter.setPen(ko_pen)
                     painter.drawLine(r.topLeft(), r.bottomLeft())
                     painter.drawLine(r.topRight(), r.bottomRight())
+        # Earth or Moon shadow on the spacecraft: a dark strip along the top of its lane
+        for sh in (getattr(self.doc.result, "shadows", None) or []):
+            try:
+                s0, s1, body, kind = sh[0], sh[1], sh[2], sh[3]
+            except (TypeError, IndexError):
+                continue
+            if s1 < t_lo or s0 > t_hi:
+                continue
+            shade = QColor(th.foreground)
+            shade.setAlpha(200 if str(kind) == "umbra" else 110)
+            painter.fillRect(rect(s0, s1, 0.02, 0.12), shade)
         # spacecraft lane
         label_until = -1e9
         for a in sorted(acts, key=lambda a: a.start_tt):
@@ -481,6 +492,10 @@ class LanesCanvas(pg.GraphicsObject):
                 lines.append(f"drag to move its {part}")
             return "\n".join(lines)
         a = self.activity_at(x, y)
+        if self.lane_of(y) == 0:
+            for sh in (getattr(self.doc.result, "shadows", None) or []):
+                if len(sh) >= 4 and sh[0] <= t <= sh[1]:
+                    lines.append(f"in the {sh[2]}'s {sh[3]} {format_utc(sh[0], 0)} to {format_utc(sh[1], 0)}")
         if a is not None:
             k0, k1 = a.keepout_span_tt
             lines.append(f"{a.kind} {a.id}: {format_utc(a.start_tt, 0)}, {a.duration_min:g} min; "

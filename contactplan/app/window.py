@@ -1000,6 +1000,7 @@ class MainWindow(QMainWindow):
             (sw(th.slew), "slew"), (sw(th.other), "other activity"),
             (sw(th.keepout), "keep-out: no downlink (shaded across every lane)"),
             (sw(th.outage), "hatched: station out of service"),
+            (sw(th.foreground), "dark strip on top of the spacecraft lane: in the Earth's or Moon's shadow"),
             (sw(th.now), "now"), (sw(th.fill), "recorder fill; dashed line = capacity; red span = overflow"),
         ]
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
