@@ -335,3 +335,33 @@ downlink_keepout_min = 5
     for b in dr.bookings:
         if "downlink" in b.purposes:
             assert not any(k0 < b.end_tt and b.start_tt < k1 for k0, k1 in keepouts)
+
+
+def test_drafting_part_of_the_window_keeps_bookings_outside_it():
+    bookings = """
+[[bookings]]
+id = "B001"
+station = "AAA"
+start = "2027-01-12T03:00:00Z"
+end = "2027-01-12T09:00:00Z"
+purposes = ["downlink", "ranging", "commanding"]
+
+[[bookings]]
+id = "B002"
+station = "AAA"
+start = "2027-01-13T03:00:00Z"
+end = "2027-01-13T04:00:00Z"
+purposes = ["ranging"]
+"""
+    sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-14T00:00:00Z", [station("AAA", setup=30, teardown=15)],
+                       requirements={"contact_per_day_min_h": 5.0, "booking_min_h": 1.0}, bookings=bookings)
+    passes, profiles = passes_and_profiles([("AAA", f"2027-01-{d}T02:00:00Z", f"2027-01-{d}T12:00:00Z", 8000.0)
+                                            for d in (12, 13)])
+    dr = draft(sc, passes=passes, profiles=profiles, start_tt=parse_utc("2027-01-13T00:00:00Z"), mip_gap=1e-9,
+               grid_min=15)
+    assert dr.kept == ["B001"] and dr.removed == ["B002"]
+    assert all(b.start_tt >= parse_utc("2027-01-13T00:00:00Z") for b in dr.bookings)
+    # day two needs 5 h tracked: one booking of 5 h 45 min (30 min setup, 15 min teardown)
+    assert dr.station_hours == {"AAA": pytest.approx(5.75)}
+    # day one is not drafted: its 5.25 h tracked by B001 stay as they were
+    assert dr.check_errors == 0

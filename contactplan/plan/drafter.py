@@ -824,22 +824,22 @@ def _explain(scenario, P: _Plan) -> list:
             out.append(f"UTC day {format_utc(P.days[j], 0)[:10]} has only {_hm(have)} of pass time over all free "
                        f"stations (setup and teardown taken off), {_hm(P.day_need_s[j])} of contact is asked")
     for j in np.flatnonzero(P.day_ranging_need > 0):
+        d0, d1 = P.days[j], P.days[j] + 86400.0
         ok = False
         for i in range(S):
-            run_s, run_e = runs[i]
-            for k in np.flatnonzero(P.avail[i]):
-                when = a[k] + P.setup_s[i]
-                if not (P.days[j] <= when < P.days[j] + 86400.0):
+            d = np.diff(np.concatenate(([0], P.avail[i].astype(np.int8), [0])))
+            for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
+                if t[k1] - t[k0] < P.min_s[i] - _TOL:
                     continue
-                jm = int(np.searchsorted(t, a[k] + P.min_s[i] - _TOL, side="right")) - 1
-                if jm <= run_e[k] and jm < K:
+                # the most a booking in this run can track
+                if t[k0] + P.setup_s[i] < d1 and t[k1] - P.teardown_s[i] > d0:
                     ok = True
                     break
             if ok:
                 break
         if not ok:
-            out.append(f"UTC day {format_utc(P.days[j], 0)[:10]} has no free pass long enough for a ranging "
-                       f"booking of {_hm(float(P.min_s.min()))}")
+            out.append(f"UTC day {format_utc(d0, 0)[:10]} has no free pass long enough for a ranging "
+                       f"booking of {_hm(float(P.min_s.min()))} that tracks on that day")
     if P.max_s is not None and np.all(P.min_s > P.max_s):
         out.append(f"bookings must last at least {_hm(float(P.min_s.min()))} (booking_min_h, or setup plus "
                    f"teardown) but at most {_hm(P.max_s)} (booking_max_h)")
