@@ -23,3 +23,78 @@ def test_recorder_end_counts_the_data_lost_to_an_overflow():
     assert len(f) == 1
     assert "book 90.0 Gbit more downlink" in f[0].message
     assert "30.0 Gbit of it now lost to the overflow" in f[0].message
+
+
+# ---------------------------------------------------------------- an ephemeris covering part of the window
+from contactplan.plan.rules import RuleContext, run_rules  # noqa: E402
+from contactplan.timescale import parse_utc  # noqa: E402
+from dataclasses import replace  # noqa: E402
+
+from tests.test_rules import booking  # noqa: E402
+
+
+def test_rules_skip_what_the_ephemeris_does_not_cover():
+    """Ephemeris from 2027-01-14 on: a pass cut at 14T00:00 is not open before it, the bookings before
+    it are named once by no-ephemeris instead of raising false outside-pass, day and recorder alarms."""
+    cov0 = parse_utc("2027-01-14T00:00:00Z")
+    # what the pass finder returns: passes cut at the coverage edge, flagged clipped (copies: PASSES is shared)
+    passes = [replace(p, aos_tt=cov0, clipped_start=True) if p.aos_tt < cov0 else p
+              for p in PASSES if p.los_tt > cov0]
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T18:00:00Z", "2027-01-12T22:00:00Z"),   # before cover
+                        booking("B002", "NRV", "2027-01-13T18:00:00Z", "2027-01-14T02:00:00Z"),   # across its start
+                        booking("B003", "NRV", "2027-01-14T18:00:00Z", "2027-01-14T22:00:00Z"),   # well inside
+                        booking("B004", "NRV", "2027-01-15T12:00:00Z", "2027-01-15T17:00:00Z")],  # outside a pass
+                       requirements=m.Requirements(ranging_per_day_min=1, contact_per_day_min_h=1.0))
+    found = run_rules(RuleContext.build(sc, passes, coverage=[(cov0, sc.end_tt)]))
+    gap = rules_of(found, "no-ephemeris")
+    assert len(gap) == 1 and gap[0].severity == "error"
+    assert gap[0].subjects == ["ephemeris", "B001", "B002"]
+    assert (gap[0].start_tt, gap[0].end_tt) == (sc.start_tt, cov0)
+    assert "2027-01-12T00:00:00Z to 2027-01-14T00:00:00Z" in gap[0].message
+    # B004 (inside the covered part, before a pass rises) is still reported; B001-B003 are not
+    assert [f.subjects[0] for f in rules_of(found, "outside-pass")] == ["B004"]
+    # no day alarms for the two uncovered days
+    for rule in ("no-ranging", "contact-per-day"):
+        assert all(f.start_tt >= cov0 for f in rules_of(found, rule)), rule
+    # with the whole window covered nothing changes: no no-ephemeris finding
+    full = run_rules(RuleContext.build(sc, PASSES, coverage=[(sc.start_tt, sc.end_tt)]))
+    assert rules_of(full, "no-ephemeris") == []
+    assert full == run_rules(RuleContext.build(sc, PASSES))
+
+
+def test_pass_cut_by_the_ephemeris_end_is_not_open():
+    """A booking running past the ephemeris end is not inside a pass that only looks clipped there."""
+    cov1 = parse_utc("2027-01-15T20:00:00Z")
+    passes = [replace(p, los_tt=cov1, clipped_end=True) if p.los_tt > cov1 else p
+              for p in PASSES if p.aos_tt < cov1]
+    sc = make_scenario([booking("B001", "NRV", "2027-01-15T17:00:00Z", "2027-01-15T23:00:00Z")])
+    found = run_rules(RuleContext.build(sc, passes, coverage=[(sc.start_tt, cov1)]))
+    assert [f.subjects for f in rules_of(found, "no-ephemeris")] == [["ephemeris", "B001"]]
+    assert rules_of(found, "outside-pass") == []  # not checkable, said by no-ephemeris
+
+
+def test_check_command_on_a_partial_oem(minimal_path, tmp_path, capsys):
+    """End to end: an OEM written by the export for part of the window, then ``check`` on a copy of the
+    scenario pointing at it. The OEM reader and writer are the project's; the expectation (nothing is
+    claimed where no ephemeris is) is common practice, no source."""
+    import json
+
+    from contactplan.cli import main
+
+    oem = tmp_path / "part.oem"
+    assert main(["export", str(minimal_path), "--out", str(oem), "--start", "2027-01-14T00:00:00Z",
+                 "--end", "2027-01-19T00:00:00Z", "--step", "600"]) == 0
+    text = minimal_path.read_text("utf-8")
+    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
+             for ln in text.splitlines()]
+    sc = tmp_path / "week.toml"
+    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    capsys.readouterr()
+    assert main(["check", str(sc), "--format", "json"]) == 1
+    doc = json.loads(capsys.readouterr().out)
+    gap = [f for f in doc["findings"] if f["rule"] == "no-ephemeris"]
+    assert len(gap) == 1
+    assert gap[0]["start"] == "2027-01-12T00:00:00.000Z" and gap[0]["end"] == "2027-01-14T00:00:00.000Z"
+    assert gap[0]["subjects"] == ["ephemeris", "B001"]
+    # B001 (12 Jan, before the ephemeris starts) gets no outside-pass verdict either way
+    assert not [f for f in doc["findings"] if f["rule"] == "outside-pass"]

@@ -20,6 +20,8 @@ class PlanResult:
     recorder: object | None = None  # RecorderResult for the scenario's bookings
     findings: list = field(default_factory=list)  # [Finding]
     shadows: list = field(default_factory=list)  # [(start_tt, end_tt, body, kind)]
+    # parts of the planning window the ephemeris answers [(start_tt, end_tt)]; None: the whole window
+    coverage: list | None = None
 
     @property
     def errors(self) -> int:
@@ -91,10 +93,11 @@ def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanRe
     :class:`~contactplan.errors.Cancelled`.
     """
     from contactplan.ephemeris import ephemeris_for
-    from contactplan.geometry.passes import find_passes
+    from contactplan.geometry.passes import coverage_spans, find_passes
 
     _check_cancel(cancel)
     eph = ephemeris if ephemeris is not None else ephemeris_for(scenario)
+    coverage = coverage_spans(eph, scenario.start_tt, scenario.end_tt)
     passes = find_passes(scenario, eph, progress=_stage(progress, 0.0, 0.7), cancel=cancel)
     passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
     _check_cancel(cancel)
@@ -102,7 +105,8 @@ def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanRe
     _check_cancel(cancel)
     shadows = _shadows(scenario, eph)
     _check_cancel(cancel)
-    result = PlanResult(scenario=scenario, ephemeris=eph, passes=passes, profiles=profiles, shadows=shadows)
+    result = PlanResult(scenario=scenario, ephemeris=eph, passes=passes, profiles=profiles, shadows=shadows,
+                        coverage=coverage)
     check(result)
     if progress is not None:
         progress(1.0)
@@ -118,5 +122,6 @@ def check(result: PlanResult) -> PlanResult:
 
     sc = result.scenario
     result.recorder = _recorder(sc, result.passes, result.profiles)
-    result.findings = run_rules(RuleContext.build(sc, result.passes, result.profiles, result.recorder))
+    result.findings = run_rules(RuleContext.build(sc, result.passes, result.profiles, result.recorder,
+                                                  coverage=result.coverage))
     return result

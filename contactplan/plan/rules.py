@@ -134,11 +134,17 @@ class RuleContext:
     visibility: dict = field(default_factory=dict)  # id -> [(start, end)]
     outages: dict = field(default_factory=dict)  # id -> [(start, end, Outage)]
     stations: dict = field(default_factory=dict)  # id -> Station
+    uncovered: list = field(default_factory=list)  # [(start, end)] of the window the ephemeris does not answer
 
     @classmethod
-    def build(cls, scenario, passes, profiles=None, recorder=None) -> "RuleContext":
+    def build(cls, scenario, passes, profiles=None, recorder=None, coverage=None) -> "RuleContext":
+        """``coverage``: the parts [(start_tt, end_tt)] of the window the ephemeris answers (None: all of it)."""
         ctx = cls(scenario=scenario, passes=list(passes), profiles=dict(profiles or {}), recorder=recorder,
                   start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt))
+        if coverage is not None:
+            ctx.uncovered = [(a, b) for a, b in subtract([(ctx.start_tt, ctx.end_tt)], coverage)
+                             if b - a > EDGE_TOLERANCE_S]
+        edges = [x for span in ctx.uncovered for x in span]
         ctx.stations = {s.id: s for s in scenario.stations}
         for sid, st in ctx.stations.items():
             ctx.passes_by_station[sid] = []
@@ -147,11 +153,12 @@ class RuleContext:
             ctx.passes_by_station.setdefault(p.station, []).append(p)
         for sid, plist in ctx.passes_by_station.items():
             spans = [[p.aos_tt, p.los_tt] for p in plist]
-            # a pass clipped by the window is open on that side
+            # a pass clipped by the window is open on that side; one cut where the ephemeris stops
+            # is not (nobody knows whether the station still sees the spacecraft there)
             for s, p in zip(spans, plist):
-                if p.clipped_start:
+                if p.clipped_start and not any(abs(p.aos_tt - x) <= EDGE_TOLERANCE_S for x in edges):
                     s[0] = -np.inf
-                if p.clipped_end:
+                if p.clipped_end and not any(abs(p.los_tt - x) <= EDGE_TOLERANCE_S for x in edges):
                     s[1] = np.inf
             merged: list[list[float]] = []
             outs = ctx.outages.get(sid, [])
@@ -543,8 +550,32 @@ def rule_body_in_beam(ctx: RuleContext) -> list[Finding]:
     return out
 
 
+def rule_ephemeris_coverage(ctx: RuleContext) -> list[Finding]:
+    """``no-ephemeris`` (error): a part of the window the ephemeris does not answer (before its start,
+    after its end, or in a gap between segments). Nothing there can be checked against passes."""
+    out = []
+    for g0, g1 in ctx.uncovered:
+        inside = [b.id for b in sorted(ctx.scenario.bookings, key=lambda b: b.start_tt)
+                  if b.start_tt < g1 and g0 < b.end_tt]
+        which = (f"bookings {', '.join(inside)} there are not checked against passes; " if len(inside) > 1 else
+                 f"booking {inside[0]} there is not checked against passes; " if inside else "")
+        msg = (f"the ephemeris does not cover {span_text(g0, g1)}: {which}daily contact, ranging, burn monitoring "
+               f"and recorder checks skip that time and the recorder counts no downlink in it: load an ephemeris "
+               f"that covers the whole window {span_text(ctx.start_tt, ctx.end_tt)} or shorten the window")
+        out.append(_finding(NO_EPHEMERIS, ERROR, ["ephemeris"] + inside, g0, g1, msg))
+    return out
+
+
+#: rule code of :func:`rule_ephemeris_coverage`
+NO_EPHEMERIS = "no-ephemeris"
+#: rules whose findings mean nothing where the ephemeris is missing (no pass is known there)
+NEEDS_EPHEMERIS = frozenset({"outside-pass", "burn-unmonitored", "no-ranging", "contact-per-day",
+                             "recorder-overflow", "recorder-high", "recorder-end"})
+
+
 #: every rule, in the order they run; a new rule is one function added here
 RULES = [
+    rule_ephemeris_coverage,
     rule_outside_pass,
     rule_station_outage,
     rule_double_booking,
@@ -582,6 +613,10 @@ def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
     found: list[Finding] = []
     for rule in RULES if rules is None else rules:
         found.extend(rule(ctx))
+    if ctx.uncovered:  # said once by no-ephemeris instead of as false alarms
+        found = [f for f in found if f.rule not in NEEDS_EPHEMERIS
+                 or not any(f.start_tt < g1 and g0 < max(f.end_tt, f.start_tt + EDGE_TOLERANCE_S)
+                            for g0, g1 in ctx.uncovered)]
     clip(found, ctx.start_tt, ctx.end_tt)
     found.sort(key=sort_key)
     return found
