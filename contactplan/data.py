@@ -8,7 +8,9 @@
   reach for the network; call it before any astropy time/coordinate work.
 
 Past the end of the Earth-orientation predictions the last values are held and
-one plain warning is issued (:class:`EOPWarning`), instead of failing.
+one plain warning is issued (:class:`EOPWarning`), instead of failing. Past the
+expiry date of the leap-second table no new leap second is assumed, and the
+geometry says so once (:class:`LeapSecondWarning`).
 """
 
 from __future__ import annotations
@@ -24,6 +26,10 @@ import numpy as np
 
 class EOPWarning(UserWarning):
     """Earth-orientation values are extrapolated past the packaged table."""
+
+
+class LeapSecondWarning(UserWarning):
+    """Times lie past the expiry date of the packaged leap-second table."""
 
 
 class NetworkAccessWarning(UserWarning):
@@ -56,6 +62,19 @@ def leap_second_table() -> tuple[np.ndarray, np.ndarray, str]:
         dat.append(float(parts[4]))
     m = re.search(r"File expires on\s+(.+)", text)
     return np.array(mjd), np.array(dat), (m.group(1).strip() if m else "unknown")
+
+
+@functools.lru_cache(maxsize=1)
+def leap_second_expiry_mjd() -> float | None:
+    """UTC MJD of the leap-second table's expiry date (None if the file does not say)."""
+    import datetime as _dt
+
+    text = leap_second_table()[2]
+    try:
+        day = _dt.datetime.strptime(" ".join(text.split()[:3]), "%d %B %Y").date()
+    except ValueError:
+        return None
+    return float((day - _dt.date(1858, 11, 17)).days)
 
 
 @functools.lru_cache(maxsize=1)
@@ -102,10 +121,27 @@ def _warn_eop_once(last_mjd: float) -> None:
         )
 
 
+_warned_leap = False
+
+
+def _warn_leap_once() -> None:
+    global _warned_leap
+    if not _warned_leap:
+        _warned_leap = True
+        warnings.warn(
+            f"the packaged leap-second table is valid until {leap_second_table()[2]}; later UTC times "
+            "assume no new leap second (they would be 1 s off if one is announced). "
+            "Update the astropy-iers-data package.",
+            LeapSecondWarning,
+            stacklevel=3,
+        )
+
+
 def earth_orientation(mjd_utc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """UT1-UTC (s), polar motion x and y (arcsec) at UTC MJDs, linearly interpolated.
 
-    Outside the table the end values are held; past its end one warning is issued.
+    Outside the table the end values are held; past its end one warning is issued, and
+    one more past the expiry date of the leap-second table.
     UT1-UTC jumps by one second at leap seconds, so interpolation is done on
     UT1-TAI, which is continuous, then converted back.
     """
@@ -113,6 +149,9 @@ def earth_orientation(mjd_utc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.n
     mjd_utc = np.asarray(mjd_utc, dtype=float)
     if mjd_utc.size and np.nanmax(mjd_utc) > tab["mjd_utc"][-1] + 1.0:
         _warn_eop_once(tab["mjd_utc"][-1])
+    expiry = leap_second_expiry_mjd()
+    if mjd_utc.size and expiry is not None and np.nanmax(mjd_utc) > expiry:
+        _warn_leap_once()
     leap_mjd, leap_dat, _ = leap_second_table()
     dat_tab = leap_dat[np.searchsorted(leap_mjd, tab["mjd_utc"], side="right") - 1]
     ut1_tai_tab = tab["ut1_minus_utc_s"] - dat_tab
