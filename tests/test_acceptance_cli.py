@@ -64,3 +64,23 @@ def test_help_examples_use_the_demo_station_ids(capsys):
         if "--station" in line:
             named = line.split("--station", 1)[1].split("--")[0].split()
             assert set(named) <= ids, line
+
+
+def test_booking_list_export_carries_volumes_and_findings(minimal_path, tmp_path, capsys):
+    """The booking list from the command line has its downlinked_gbit and findings columns filled
+    (they were empty unless the app handed a plan in). Read back with the csv module."""
+    import csv
+
+    from contactplan.plan.pipeline import compute_plan
+    from contactplan.scenario.load import load_scenario
+
+    out = tmp_path / "b.csv"
+    assert main(["export", str(minimal_path), "--out", str(out), "--what", "bookings"]) == 0
+    assert "wrote 1 booking to" in capsys.readouterr().out
+    rows = list(csv.DictReader(out.open(newline="", encoding="utf-8")))
+    plan = compute_plan(load_scenario(minimal_path))
+    want = plan.recorder.downlinked_by_booking_gbit["B001"]
+    assert want > 0
+    assert float(rows[0]["downlinked_gbit"]) == pytest.approx(want, abs=1e-6)
+    rules = sorted({f.rule for f in plan.findings if "B001" in f.subjects})
+    assert sorted(filter(None, rows[0]["findings"].split(";"))) == rules

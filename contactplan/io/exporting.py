@@ -234,6 +234,12 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
             write_passes_xlsx(scenario, passes, out, now_tt=now_tt)
         return f"wrote {_plural(len(passes), 'pass', 'passes')} to {out}"
     if what == "bookings":
+        note = ""
+        if plan is None:  # the list carries each booking's downlinked volume and open findings
+            try:
+                plan = _plan_for(scenario, None, progress, cancel)
+            except InputError as exc:  # e.g. the ephemeris cannot be read: the list is still useful
+                note = f" (no downlink volumes or findings: {exc})"
         if fmt == "ics":
             from contactplan.io.ical import write_ical
 
@@ -246,7 +252,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
             from contactplan.io.bookings import write_bookings
 
             n = write_bookings(scenario, out, fmt, plan=plan, now_tt=now_tt)
-        return f"wrote {_plural(n, 'booking')} to {out}"
+        return f"wrote {_plural(n, 'booking')} to {out}{note}"
     if what == "ephemeris":
         n, t0, t1 = write_ephemeris(scenario, out, start_tt, end_tt, step_s,
                                    ephemeris=getattr(plan, "ephemeris", None), creation_tt=now_tt)
