@@ -720,3 +720,9 @@ def test_double_click_on_a_booking_edits_its_purposes(win, demo_copy, demo_plan,
     assert blocker.args == ["B002"]
     assert b.purposes == ["downlink", "ranging", "commanding"]
     assert win.doc.undo_stack.undoText().startswith("Change B002")
+
+
+def test_about_box_carries_the_caution(win):
+    box = win.about()
+    assert CAUTION in box.text()
+    box.close()

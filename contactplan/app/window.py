@@ -826,6 +826,8 @@ class MainWindow(QMainWindow):
         if self.job is not None and self.job.running:
             self.statusBar().showMessage(f"Busy: {self.job.title}. Cancel it first.", 5000)
             return None
+        if self.job is not None:
+            self.job.deleteLater()  # the previous job is over: free its thread object
         job = Job(title, fn, self)
         self.job = job
         self.progress.setValue(0)
@@ -977,10 +979,16 @@ class MainWindow(QMainWindow):
         return self.run_job("Export", fn, done)
 
     # ------------------------------------------------------------ about, close
-    def about(self) -> None:
-        QMessageBox.about(self, "About contactplan",
+    def about(self) -> QMessageBox:
+        box = QMessageBox(QMessageBox.Icon.NoIcon, "About contactplan",
                           f"<b>contactplan {__version__}</b><br>Ground contact and downlink planner for "
-                          f"spacecraft on libration-point orbits.<br><br><b>Caution.</b> {CAUTION}")
+                          f"spacecraft on libration-point orbits.<br><br><b>Caution.</b> {CAUTION}",
+                          QMessageBox.StandardButton.Ok, self)
+        box.setTextFormat(Qt.TextFormat.RichText)
+        box.setIconPixmap(self.windowIcon().pixmap(64, 64))
+        box.open()
+        self.about_box = box
+        return box
 
     def legend(self) -> None:
         """What each mark on the timeline means (every colour also has a second cue)."""
