@@ -98,3 +98,21 @@ def test_check_command_on_a_partial_oem(minimal_path, tmp_path, capsys):
     assert gap[0]["subjects"] == ["ephemeris", "B001"]
     # B001 (12 Jan, before the ephemeris starts) gets no outside-pass verdict either way
     assert not [f for f in doc["findings"] if f["rule"] == "outside-pass"]
+
+
+def test_revalidation_says_nothing_about_bookings_outside_the_new_ephemeris(minimal_path, tmp_path):
+    """A delivery covering 14-19 Jan: B001 (12-13 Jan) is listed as not checked, and no finding of the
+    new plan names it (it used to get a false outside-pass: no pass is known there)."""
+    from contactplan.ephemeris import open_oem
+    from contactplan.io.exporting import write_ephemeris
+    from contactplan.plan.revalidate import revalidate
+    from contactplan.scenario.load import load_scenario
+
+    sc = load_scenario(minimal_path)
+    oem = tmp_path / "delivery.oem"
+    write_ephemeris(sc, oem, parse_utc("2027-01-14T00:00:00Z"), parse_utc("2027-01-19T00:00:00Z"), 600.0)
+    rv = revalidate(sc, open_oem(oem))
+    [b001] = [b for b in rv.bookings if b.booking == "B001"]
+    assert not b001.checked
+    assert not [f for f in rv.new.findings if "B001" in f.subjects]
+    assert not [f for f in rv.appeared if "B001" in f.subjects]

@@ -152,7 +152,10 @@ def revalidate(scenario, new_ephemeris, old_ephemeris=None, old_result: PlanResu
     else:
         old = compute_plan(part, old_ephemeris, progress=stage(0.0, 0.5), cancel=cancel)
     new = compute_plan(part, new_ephemeris, progress=stage(0.5, 1.0), cancel=cancel)
-    if part is not scenario:  # findings about the shortened window itself are not news
+    if part is not scenario:  # findings about the shortened window itself are not news,
+        # nor findings about bookings wholly outside it (listed as not checked instead)
+        away = {b.id for b in scenario.bookings if b.end_tt <= start or b.start_tt >= end}
         for res in (old, new):
-            res.findings = [f for f in res.findings if f.rule != "outside-window"]
+            res.findings = [f for f in res.findings
+                            if f.rule != "outside-window" and not away.intersection(map(str, f.subjects))]
     return compare(old, new, start, end)
