@@ -84,3 +84,26 @@ def test_booking_list_export_carries_volumes_and_findings(minimal_path, tmp_path
     assert float(rows[0]["downlinked_gbit"]) == pytest.approx(want, abs=1e-6)
     rules = sorted({f.rule for f in plan.findings if "B001" in f.subjects})
     assert sorted(filter(None, rows[0]["findings"].split(";"))) == rules
+
+
+def test_aligned_table_tells_a_window_edge_from_an_ephemeris_edge():
+    """A pass cut where an OEM stops must not read "under way at window start" (the station may well
+    see nothing there); one cut by the window still does."""
+    from contactplan.geometry.passes import Pass
+    from contactplan.io.passtable import passes_text
+    from contactplan.timescale import parse_utc
+
+    w0, w1 = parse_utc("2027-01-12T00:00:00Z"), parse_utc("2027-01-19T00:00:00Z")
+    gap_end = parse_utc("2027-01-15T12:00:00Z")
+
+    def mk(station, aos, los, **kw):
+        return Pass(station=station, aos_tt=aos, los_tt=los, max_elevation_deg=40.0, max_elevation_tt=aos,
+                    aos_azimuth_deg=90.0, los_azimuth_deg=270.0, min_range_km=1.5e6, max_range_km=1.5e6, **kw)
+
+    text = passes_text([mk("NRV", w0, w0 + 3600.0, clipped_start=True),
+                        mk("KAL", gap_end, gap_end + 3600.0, clipped_start=True),
+                        mk("NRV", w1 - 3600.0, w1, clipped_end=True)], w0, w1)
+    lines = text.splitlines()
+    assert lines[1].startswith("NRV") and lines[1].endswith("under way at window start")
+    assert lines[2].startswith("KAL") and lines[2].endswith("cut: no ephemeris before")
+    assert lines[3].endswith("under way at window end")

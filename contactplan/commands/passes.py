@@ -140,7 +140,7 @@ def run(args) -> int:
     from contactplan.io import passtable
 
     if fmt is None:
-        sys.stdout.write(passtable.passes_text(passes))
+        sys.stdout.write(passtable.passes_text(passes, start, end))
         for line in shadow:
             print(line)
         print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")

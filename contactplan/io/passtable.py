@@ -134,9 +134,15 @@ def _hms(seconds: float) -> str:
     return f"{s // 3600:d}:{s % 3600 // 60:02d}:{s % 60:02d}"
 
 
-def passes_text(passes) -> str:
-    """An aligned table for a terminal: one line per pass, notes for clipped, flagged and cut passes."""
+def passes_text(passes, start_tt=None, end_tt=None) -> str:
+    """An aligned table for a terminal: one line per pass, notes for clipped, flagged and cut passes.
+
+    With the window (``start_tt``, ``end_tt``, TT s) a pass cut anywhere else is said to be cut
+    where the ephemeris stops, not at the window's edge."""
     from contactplan.timescale import format_utc
+
+    def at_edge(t, edge):
+        return edge is None or abs(t - edge) <= 1.0
 
     head = ("STATION", "AOS (UTC)", "LOS (UTC)", "DURATION", "MAX EL", "MAX EL AT (UTC)",
             "AZ AOS", "AZ LOS", "RANGE km", "NOTES")
@@ -144,9 +150,11 @@ def passes_text(passes) -> str:
     for p in sorted(passes, key=lambda p: (p.aos_tt, p.station)):
         notes = []
         if p.clipped_start:
-            notes.append("under way at window start")
+            notes.append("under way at window start" if at_edge(p.aos_tt, start_tt)
+                         else "cut: no ephemeris before")
         if p.clipped_end:
-            notes.append("under way at window end")
+            notes.append("under way at window end" if at_edge(p.los_tt, end_tt)
+                         else "cut: no ephemeris after")
         if getattr(p, "moon_flag", False):
             notes.append(f"Moon {p.moon_separation_min_deg:.1f} deg from beam")
         if getattr(p, "sun_flag", False):
@@ -183,7 +191,7 @@ def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=No
     elif fmt == "json":
         text = passes_json_text(passes, scenario, start_tt, end_tt, stations, shadows)
     elif fmt == "text":
-        text = passes_text(passes) + "".join(f"{line}\n" for line in (footer or []))
+        text = passes_text(passes, start_tt, end_tt) + "".join(f"{line}\n" for line in (footer or []))
     else:
         raise ValueError(f"unknown pass-table format {fmt!r}")
     atomic_write(path, text)
