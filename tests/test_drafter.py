@@ -325,7 +325,7 @@ downlink_keepout_min = 5
                   ("BBB", f"2027-01-{d}T07:10:00Z", f"2027-01-{d}T17:45:00Z", 4000.0),
                   ("CCC", f"2027-01-{d}T02:00:00Z", f"2027-01-{d}T23:00:00Z", 0.0)]
     passes, profiles = passes_and_profiles(specs)
-    dr = draft(sc, passes=passes, profiles=profiles, time_limit_s=8)
+    dr = draft(sc, passes=passes, profiles=profiles, time_limit_s=4)
     if dr.status == INFEASIBLE:
         assert dr.explanations and not dr.bookings
         return
@@ -365,3 +365,15 @@ purposes = ["ranging"]
     assert dr.station_hours == {"AAA": pytest.approx(5.75)}
     # day one is not drafted: its 5.25 h tracked by B001 stay as they were
     assert dr.check_errors == 0
+
+
+def test_recorder_limit_keeps_a_margin():
+    sc, passes, profiles = _small_case()
+    full = draft(sc, passes=passes, profiles=profiles, grid_min=15, mip_gap=1e-9)
+    tight = draft(sc, passes=passes, profiles=profiles, grid_min=15, mip_gap=1e-9, recorder_limit=0.95)
+    assert tight.check_errors == 0
+    assert tight.objective_cost_h >= full.objective_cost_h - 1e-9
+    # 20 Gbit + 3.6 Gbit/h reach 74 Gbit at 15:00, the first downlink pass: above 90 % of 80 Gbit
+    none = draft(sc, passes=passes, profiles=profiles, grid_min=15, recorder_limit=0.9)
+    assert none.status == INFEASIBLE
+    assert "the recorder overflows by 2027-01-12T" in " ".join(none.explanations)

@@ -87,5 +87,8 @@ def test_cli_draft_bad_input_is_one_line(tmp_path, minimal_path):
     proc = _run("draft", str(minimal_path), "--out", str(tmp_path / "x.toml"), "--grid", "40", cwd=tmp_path)
     assert proc.returncode == 2
     assert proc.stderr.strip().startswith("contactplan: error:") and len(proc.stderr.strip().splitlines()) == 1
+    proc = _run("draft", str(minimal_path), "--out", str(tmp_path / "x.toml"), "--recorder-limit", "120",
+                cwd=tmp_path)
+    assert proc.returncode == 2 and "50 to 100" in proc.stderr
     proc = _run("draft", str(tmp_path / "missing.toml"), "--out", str(tmp_path / "x.toml"), cwd=tmp_path)
     assert proc.returncode == 2 and "Traceback" not in proc.stderr

@@ -17,6 +17,7 @@ EXAMPLES = """\
   contactplan draft week.toml --out week-drafted.toml
   contactplan draft week.toml --start 2027-01-14T00:00:00Z --end 2027-01-16T00:00:00Z --out week-b.toml
   contactplan draft week.toml --time-limit 30 --grid 5 --out week-fine.toml
+  contactplan draft week.toml --recorder-limit 90 --out week-margin.toml   # keep a 10 % margin
 """
 
 
@@ -32,6 +33,9 @@ def add_arguments(parser) -> None:
                         help="seconds the solver may take; the best plan found by then is kept (default 10)")
     parser.add_argument("--grid", metavar="MIN", type=float, default=10.0,
                         help="booking edges on this grid of minutes, 5 to 15 (default 10)")
+    parser.add_argument("--recorder-limit", metavar="PCT", type=float, default=100.0,
+                        help="fill the recorder to at most this percentage of its capacity, 50 to 100 "
+                             "(default 100; 90 keeps clear of the recorder-high warning)")
 
 
 def run(args) -> int:
@@ -48,6 +52,8 @@ def run(args) -> int:
         raise InputError(f"--time-limit {args.time_limit:g}: give a positive number of seconds")
     if not (5.0 <= args.grid <= 15.0):
         raise InputError(f"--grid {args.grid:g}: give 5 to 15 minutes")
+    if not (50.0 <= args.recorder_limit <= 100.0):
+        raise InputError(f"--recorder-limit {args.recorder_limit:g}: give 50 to 100 (percent of capacity)")
     out = Path(args.out)
     if out.suffix.lower() != ".toml":
         raise InputError("the drafted scenario is written as TOML: give --out a name ending in .toml", out)
@@ -70,7 +76,7 @@ def run(args) -> int:
 
     result = compute_plan(scenario)
     dr = draft(scenario, result=result, start_tt=start, end_tt=end, time_limit_s=args.time_limit,
-               grid_min=args.grid)
+               grid_min=args.grid, recorder_limit=args.recorder_limit / 100.0)
     lines = [f"{scenario.name}:"] + summary_lines(scenario, dr)
     if dr.status == INFEASIBLE or not dr.bookings and dr.explanations:
         lines.append(f"nothing written to {out}")

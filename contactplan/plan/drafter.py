@@ -322,7 +322,7 @@ def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keep
     return t
 
 
-def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0):
+def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0):
     req = scenario.requirements
     stations = list(scenario.stations)
     sid = {s.id: i for i, s in enumerate(stations)}
@@ -456,7 +456,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
         fill0, cap, gen = 0.0, math.inf, 0.0
     end_max = req.recorder_end_max_gbit if (rec is not None and d_end >= scenario.end_tt - 1.0) else None
     end_idx = int(np.searchsorted(t, d_end - _TOL, side="right"))
-    cap_eff = cap - FILL_GUARD_GBIT - fill_margin_gbit if math.isfinite(cap) else cap
+    cap_eff = cap * fill_fraction - FILL_GUARD_GBIT - fill_margin_gbit if math.isfinite(cap) else cap
     setup_s = np.array([st.setup_min * 60.0 for st in stations])
     teardown_s = np.array([st.teardown_min * 60.0 for st in stations])
     min_s = np.maximum((req.booking_min_h or 0.0) * 3600.0, setup_s + teardown_s + 60.0)
@@ -845,7 +845,7 @@ def _explain(scenario, P: _Plan) -> list:
                    f"teardown) but at most {_hm(P.max_s)} (booking_max_h)")
     if math.isfinite(P.capacity):
         if P.fill0 > P.capacity + FILL_GUARD_GBIT:
-            out.append(f"the recorder starts at {P.fill0:.1f} Gbit, above its capacity of {P.capacity:.1f} Gbit")
+            out.append(f"the recorder starts at {P.fill0:.1f} Gbit, above the {P.capacity:.1f} Gbit the plan may fill")
         else:
             # best case: every free downlink slot used at the best station, setup and teardown ignored
             best = np.where(P.avail & P.downlink[:, None] & ~P.keepout[None, :], P.vol, 0.0).max(axis=0)
@@ -1090,7 +1090,8 @@ def _choose_candidates(P: _Plan, max_candidates: int):
 
 
 def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, grid_min=10.0,
-          passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES) -> DraftResult:
+          passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
+          recorder_limit=1.0) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
 
     ``result`` is a :class:`~contactplan.plan.pipeline.PlanResult` of the scenario
@@ -1102,6 +1103,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
     window holds more than ``max_candidates`` bookings on that grid, the edges are
     thinned to a coarser lattice (pass edges, keep-outs, midnights and monitor spans
     kept) and a note says so. ``mip_gap`` is the relative gap at which HiGHS stops.
+    ``recorder_limit`` (0.5 to 1) is the share of the recorder capacity the plan may
+    fill (0.9 keeps clear of the rules' ``recorder-high`` warning).
     Nothing in ``scenario`` is modified.
     """
     t_start = time.perf_counter()
@@ -1109,6 +1112,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         raise InputError(f"grid of {grid_min:g} min: give 5 to 15 minutes")
     if time_limit_s is None or not (time_limit_s > 0):
         raise InputError("give a positive time limit in seconds")
+    if not (0.5 <= float(recorder_limit) <= 1.0):
+        raise InputError(f"recorder limit {recorder_limit:g}: give a share of the capacity from 0.5 to 1")
     d_start = scenario.start_tt if start_tt is None else max(float(start_tt), scenario.start_tt)
     d_end = scenario.end_tt if end_tt is None else min(float(end_tt), scenario.end_tt)
     if d_end - d_start < 60.0:
@@ -1129,7 +1134,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
     notes: list = []
     out = None
     for attempt in range(4):
-        P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin)
+        P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin,
+                                        float(recorder_limit))
         base = DraftResult(status=INFEASIBLE, start_tt=d_start, end_tt=d_end,
                            kept=[bk.id for bk in keeps], n_candidates=0, notes=notes)
         if attempt == 0:
