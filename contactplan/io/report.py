@@ -7,7 +7,9 @@ slews and their monitor spans and keep-outs); the booking table; the findings;
 the recorder fill against capacity; achievable rate and volume per pass.
 
 Text uses the PDF base-14 Helvetica family (present in every PDF reader, nothing
-embedded); figures are drawn by matplotlib's Agg canvas (no display, no pyplot
+embedded) while every name in the plan fits its Latin-1 style encoding; a name
+outside it (Greek, Cyrillic, ...) switches the text to DejaVu Sans, embedded from
+the copy matplotlib ships, so no name turns into empty boxes; figures are drawn by matplotlib's Agg canvas (no display, no pyplot
 state) and placed as PNG. matplotlib and reportlab are imported only inside
 :func:`write_report` so the CLI start path stays light.
 
@@ -261,6 +263,61 @@ def _hours(seconds: float) -> str:
     return f"{seconds / 3600.0:.2f}"
 
 
+#: the base-14 family, used while every text fits its encoding
+BASE_FONTS = {"regular": "Helvetica", "bold": "Helvetica-Bold", "italic": "Helvetica-Oblique"}
+
+
+def report_fonts(texts) -> dict:
+    """Font names for the report text: Helvetica when every text fits the base-14 fonts' encoding
+    (WinAnsi, i.e. cp1252), else DejaVu Sans (regular, bold, oblique) embedded from matplotlib's copy."""
+    if all(_fits_base14(t) for t in texts):
+        return dict(BASE_FONTS)
+    from pathlib import Path
+
+    import matplotlib
+    from reportlab.lib.fonts import addMapping
+    from reportlab.pdfbase import pdfmetrics
+    from reportlab.pdfbase.ttfonts import TTFont
+
+    folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
+    names = {"regular": ("CP-DejaVuSans", "DejaVuSans.ttf"), "bold": ("CP-DejaVuSans-Bold", "DejaVuSans-Bold.ttf"),
+             "italic": ("CP-DejaVuSans-Oblique", "DejaVuSans-Oblique.ttf"),
+             "bolditalic": ("CP-DejaVuSans-BoldOblique", "DejaVuSans-BoldOblique.ttf")}
+    try:
+        for name, fname in names.values():
+            if name not in pdfmetrics.getRegisteredFontNames():
+                pdfmetrics.registerFont(TTFont(name, str(folder / fname)))
+    except Exception:  # no usable copy: keep the base fonts (characters outside cp1252 show as boxes)
+        return dict(BASE_FONTS)
+    reg, bold, ital, bi = (names[k][0] for k in ("regular", "bold", "italic", "bolditalic"))
+    addMapping(reg, 0, 0, reg)
+    addMapping(reg, 1, 0, bold)
+    addMapping(reg, 0, 1, ital)
+    addMapping(reg, 1, 1, bi)
+    return {"regular": reg, "bold": bold, "italic": ital}
+
+
+def _fits_base14(text) -> bool:
+    try:
+        str(text).encode("cp1252")
+    except UnicodeEncodeError:
+        return False
+    return True
+
+
+def _plan_texts(plan) -> list:
+    """Every name and message of the plan that the report prints."""
+    sc = plan.scenario
+    texts = [sc.name, sc.spacecraft.name]
+    for st in sc.stations:
+        texts += [st.id, st.name] + [getattr(o, "reason", "") for o in st.outages]
+    texts += [a.id for a in sc.activities]
+    for b in sc.bookings:
+        texts += [b.id, b.station] + list(b.purposes)
+    texts += [f.message for f in plan.findings] + [str(x) for f in plan.findings for x in f.subjects]
+    return texts
+
+
 def _num(v, fmt="{:.2f}", none="-"):
     return none if v is None else fmt.format(v)
 
@@ -293,13 +350,14 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     wide_w = wide[0] - 2 * margin
     wide_h = wide[1] - 2 * margin - 4 * mm
 
+    fonts = report_fonts(_plan_texts(plan))
     ss = getSampleStyleSheet()
-    body = ParagraphStyle("body", parent=ss["BodyText"], fontName="Helvetica", fontSize=9, leading=11.5)
+    body = ParagraphStyle("body", parent=ss["BodyText"], fontName=fonts["regular"], fontSize=9, leading=11.5)
     small = ParagraphStyle("small", parent=body, fontSize=7, leading=8.5, alignment=TA_LEFT)
-    h1 = ParagraphStyle("h1", parent=ss["Heading1"], fontName="Helvetica-Bold", fontSize=20, leading=24)
-    h2 = ParagraphStyle("h2", parent=ss["Heading2"], fontName="Helvetica-Bold", fontSize=13, leading=16,
+    h1 = ParagraphStyle("h1", parent=ss["Heading1"], fontName=fonts["bold"], fontSize=20, leading=24)
+    h2 = ParagraphStyle("h2", parent=ss["Heading2"], fontName=fonts["bold"], fontSize=13, leading=16,
                         spaceBefore=4, spaceAfter=6)
-    caution_style = ParagraphStyle("caution", parent=body, fontName="Helvetica-Bold", fontSize=10, leading=13,
+    caution_style = ParagraphStyle("caution", parent=body, fontName=fonts["bold"], fontSize=10, leading=13,
                                    borderColor=colors.HexColor("#D55E00"), borderWidth=1.2, borderPadding=8,
                                    backColor=colors.HexColor("#FFF4E6"))
 
@@ -318,8 +376,8 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     def table(data, widths, header_bg="#DDE6F0", extra=()):
         t = Table(data, colWidths=widths, repeatRows=1)
         t.setStyle(TableStyle([
-            ("FONT", (0, 0), (-1, 0), "Helvetica-Bold", 7.5),
-            ("FONT", (0, 1), (-1, -1), "Helvetica", 7),
+            ("FONT", (0, 0), (-1, 0), fonts["bold"], 7.5),
+            ("FONT", (0, 1), (-1, -1), fonts["regular"], 7),
             ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor(header_bg)),
             ("GRID", (0, 0), (-1, -1), 0.25, colors.HexColor("#999999")),
             ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -365,7 +423,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     facts.append(["Generator", f"contactplan {__version__}"])
     story.append(table([[P(a, small), P(b, small)] for a, b in facts], [0.3 * frame_w, 0.7 * frame_w],
                        extra=[("BACKGROUND", (0, 0), (-1, 0), colors.white),
-                              ("FONT", (0, 0), (0, -1), "Helvetica-Bold", 8)]))
+                              ("FONT", (0, 0), (0, -1), fonts["bold"], 8)]))
     cautions = [CAUTION]
     if spec is not None and spec.kind == "libration":
         cautions.append("Spacecraft positions come from the built-in libration-point orbit: a planning "
@@ -417,7 +475,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
                          P(_span(f.start_tt, f.end_tt), small), P(f.message, small)])
             colour = COLOURS["error"] if f.severity == "error" else COLOURS["warning"]
             extra.append(("TEXTCOLOR", (0, i), (0, i), colors.HexColor(colour)))
-            extra.append(("FONT", (0, i), (0, i), "Helvetica-Bold", 7))
+            extra.append(("FONT", (0, i), (0, i), fonts["bold"], 7))
         w = frame_w
         story.append(table(rows, [0.08 * w, 0.165 * w, 0.11 * w, 0.2 * w, 0.445 * w], extra=extra))
     else:
@@ -464,14 +522,14 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
 
     def on_page(canvas, doc):
         canvas.saveState()
-        canvas.setFont("Helvetica", 7)
+        canvas.setFont(fonts["regular"], 7)
         canvas.setFillColor(colors.HexColor("#444444"))
         n = canvas.getPageNumber()
         pages[0] = max(pages[0], n)
         canvas.drawString(margin, 9 * mm, f"{sc.spacecraft.name}: {sc.name}, revision {sc.revision}, "
                                           f"generated {_fmt(gen_tt)}")
         canvas.drawRightString(canvas._pagesize[0] - margin, 9 * mm, f"page {n}")
-        canvas.setFont("Helvetica-Oblique", 6.5)
+        canvas.setFont(fonts["italic"], 6.5)
         canvas.drawString(margin, 5.5 * mm, CAUTION)
         canvas.restoreState()
 
