@@ -84,11 +84,15 @@ def test_chosen_rate_is_the_highest_that_closes(cn0, margin):
     assert rate[0] == expected
 
 
-def test_cosecant_law_and_clamp():
-    # Flat-layer cosecant law (common practice, no source): A(el) = A_zenith / sin(el), held below 5 deg
-    el = np.array([90.0, 30.0, 10.0, 5.0, 2.0, -1.0])
+def test_cosecant_law_and_low_elevations():
+    # Flat-layer cosecant law (common practice, no source): A(el) = A_zenith / sin(el) from 5 deg up.
+    # Below 5 deg the loss keeps growing (it used to be held at its 5-deg value, which understated it by
+    # up to 7 dB at 1 deg in Ka band; see tests/test_crosscheck_link.py against ITU-R P.676 ray tracing).
+    el = np.array([90.0, 30.0, 10.0, 5.0, 2.0, 0.0, -1.0])
     a = slant_attenuation_db(0.2, el)
     assert a[0] == pytest.approx(0.2)
     assert a[1] == pytest.approx(0.4)
     assert a[2] == pytest.approx(0.2 / math.sin(math.radians(10)))
-    assert a[4] == a[3] == a[5] == pytest.approx(0.2 / math.sin(math.radians(5)))
+    assert a[3] == pytest.approx(0.2 / math.sin(math.radians(5)))
+    assert a[3] < a[4] < a[5] == a[6]
+    assert np.isfinite(a[5]) and a[5] < 0.2 * 60
