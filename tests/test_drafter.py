@@ -377,3 +377,14 @@ def test_recorder_limit_keeps_a_margin():
     none = draft(sc, passes=passes, profiles=profiles, grid_min=15, recorder_limit=0.9)
     assert none.status == INFEASIBLE
     assert "the recorder overflows by 2027-01-12T" in " ".join(none.explanations)
+
+
+def test_progress_and_cancel():
+    from contactplan.errors import Cancelled
+
+    sc, passes, profiles = _small_case()
+    seen = []
+    dr = draft(sc, passes=passes, profiles=profiles, grid_min=15, progress=seen.append)
+    assert dr.bookings and seen[-1] == 1.0 and all(0.0 <= f <= 1.0 for f in seen)
+    with pytest.raises(Cancelled):
+        draft(sc, passes=passes, profiles=profiles, grid_min=15, cancel=lambda: True)

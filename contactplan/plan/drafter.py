@@ -1001,12 +1001,14 @@ class _Solved:
 
 
 def _optimise(P: _Plan, time_s: float, mip_gap: float, max_candidates: int, grid_min: float, notes: list,
-              exclusive=False, day_extra=None, first=True) -> _Solved | None:
+              exclusive=False, day_extra=None, first=True, tick=None) -> _Solved | None:
     """Solve the drafting MILP within ``time_s``: exactly when the candidate set is small, else
     LP-guided restricted solves, a solve on a thinned lattice and a polish on the full grid."""
     t0 = time.perf_counter()
 
     def left():
+        if tick is not None:
+            tick(min(1.0, (time.perf_counter() - t0) / max(time_s, 1e-9)))
         return time_s - (time.perf_counter() - t0)
 
     kw = dict(exclusive=exclusive, day_extra=day_extra)
@@ -1091,7 +1093,7 @@ def _choose_candidates(P: _Plan, max_candidates: int):
 
 def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, grid_min=10.0,
           passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
-          recorder_limit=1.0) -> DraftResult:
+          recorder_limit=1.0, progress=None, cancel=None) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
 
     ``result`` is a :class:`~contactplan.plan.pipeline.PlanResult` of the scenario
@@ -1105,6 +1107,9 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
     kept) and a note says so. ``mip_gap`` is the relative gap at which HiGHS stops.
     ``recorder_limit`` (0.5 to 1) is the share of the recorder capacity the plan may
     fill (0.9 keeps clear of the rules' ``recorder-high`` warning).
+    ``progress(fraction)`` is called between stages; ``cancel()`` returning True
+    raises :class:`~contactplan.errors.Cancelled` between solves (a running solve
+    ends at its time limit).
     Nothing in ``scenario`` is modified.
     """
     t_start = time.perf_counter()
@@ -1128,12 +1133,23 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         profiles = dict(result.profiles) if profiles is None else profiles
     profiles = profiles or {}
 
+    def tick(fraction: float) -> None:
+        if cancel is not None and cancel():
+            from contactplan.errors import Cancelled
+
+            raise Cancelled()
+        if progress is not None:
+            progress(min(0.95, 0.05 + 0.9 * fraction * (1.0 if attempt_box[0] == 0 else 0.5)))
+
+    attempt_box = [0]
     margin = 0.0
     exclusive = False
     day_extra: dict = {}
     notes: list = []
     out = None
     for attempt in range(4):
+        attempt_box[0] = attempt
+        tick(0.0)
         P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin,
                                         float(recorder_limit))
         base = DraftResult(status=INFEASIBLE, start_tt=d_start, end_tt=d_end,
@@ -1147,7 +1163,7 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         remaining = time_limit_s - (time.perf_counter() - t_start)
         share = 0.8 if attempt == 0 else 0.9
         sol = _optimise(P, max(0.5, share * remaining - 0.2), mip_gap, max_candidates, grid_min, notes,
-                        exclusive=exclusive, day_extra=day_extra, first=attempt == 0)
+                        exclusive=exclusive, day_extra=day_extra, first=attempt == 0, tick=tick)
         C = sol.cands
         base.n_candidates = len(C)
         if not len(sol.chosen) and not math.isfinite(sol.fun):
@@ -1206,6 +1222,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         if not again or time_limit_s - (time.perf_counter() - t_start) < 1.0:
             break
     out.solve_time_s = time.perf_counter() - t_start
+    if progress is not None:
+        progress(1.0)
     return out
 
 
