@@ -388,3 +388,13 @@ def test_progress_and_cancel():
     assert dr.bookings and seen[-1] == 1.0 and all(0.0 <= f <= 1.0 for f in seen)
     with pytest.raises(Cancelled):
         draft(sc, passes=passes, profiles=profiles, grid_min=15, cancel=lambda: True)
+
+
+def test_nothing_asked_means_nothing_booked():
+    sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-13T00:00:00Z", [station("AAA")],
+                       recorder={"capacity_gbit": 100.0, "initial_gbit": 10.0, "generation_kbps": 100.0})
+    for passes in ([], passes_and_profiles([("AAA", "2027-01-12T05:00:00Z", "2027-01-12T12:00:00Z", 8000.0)])[0]):
+        dr = draft(sc, passes=passes, profiles={})
+        assert dr.status == OPTIMAL and dr.bookings == [] and dr.objective_cost_h == 0.0
+        # 10 Gbit + 100 kbit/s for a day (8.64 Gbit) stays on board
+        assert dr.recorder_end_gbit == pytest.approx(18.64)

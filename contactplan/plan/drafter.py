@@ -624,6 +624,8 @@ class _Model:
         self.v.append(np.broadcast_to(np.asarray(vals, float), rows.shape).ravel())
 
     def arrays(self):
+        if self.nvar == 0:  # nothing to choose: one idle variable fixed at zero keeps the solver happy
+            self.vars(1, 0, 0, False)
         cat = (lambda xs: np.concatenate(xs) if xs else np.zeros(0))  # noqa: E731
         return (cat(self.cost), cat(self.lb), cat(self.ub), cat(self.integ), cat(self.r).astype(int),
                 cat(self.c).astype(int), cat(self.v), cat(self.rlb), cat(self.rub))
@@ -985,8 +987,10 @@ def _lp_bound(M: _Model):
     from scipy.sparse import csr_array
 
     c, lb, ub, integ, r, col, v, rlb, rub = M.arrays()
-    A = csr_array((v, (r, col)), shape=(len(rlb), len(c)))
-    res = milp(c, integrality=np.zeros_like(integ), bounds=Bounds(lb, ub), constraints=[LinearConstraint(A, rlb, rub)])
+    cons = []
+    if len(rlb):
+        cons = [LinearConstraint(csr_array((v, (r, col)), shape=(len(rlb), len(c))), rlb, rub)]
+    res = milp(c, integrality=np.zeros_like(integ), bounds=Bounds(lb, ub), constraints=cons)
     return (res.fun, res.x) if res.x is not None else (None, None)
 
 
