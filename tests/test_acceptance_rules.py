@@ -116,3 +116,14 @@ def test_revalidation_says_nothing_about_bookings_outside_the_new_ephemeris(mini
     assert not b001.checked
     assert not [f for f in rv.new.findings if "B001" in f.subjects]
     assert not [f for f in rv.appeared if "B001" in f.subjects]
+
+
+def test_no_link_says_why_downlink_brings_nothing():
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T17:00:00Z", "2027-01-12T22:00:00Z")])
+    sc.spacecraft.recorder = m.Recorder(capacity_gbit=100.0)
+    assert sc.spacecraft.link is None
+    f = rules_of(check_plan(sc, PASSES), "no-link")
+    assert len(f) == 1 and f[0].severity == "warning" and f[0].subjects == ["spacecraft", "B001"]
+    assert "[spacecraft.link]" in f[0].message
+    sc.spacecraft.link = m.Link(frequency_mhz=25900.0, eirp_dbw=40.0, required_ebn0_db=2.5)
+    assert rules_of(check_plan(sc, PASSES), "no-link") == []

@@ -566,6 +566,21 @@ def rule_ephemeris_coverage(ctx: RuleContext) -> list[Finding]:
     return out
 
 
+def rule_no_link(ctx: RuleContext) -> list[Finding]:
+    """``no-link`` (warning): downlink is booked and the recorder modelled, but the scenario has no
+    ``[spacecraft.link]``, so no booking brings any data down and the recorder findings cannot be fixed
+    by booking more."""
+    sc = ctx.scenario
+    if sc.spacecraft.link is not None or sc.spacecraft.recorder is None:
+        return []
+    ids = [b.id for b in sorted(sc.bookings, key=lambda b: b.start_tt) if "downlink" in b.purposes]
+    if not ids:
+        return []
+    msg = ("the scenario has no [spacecraft.link] section, so the downlink bookings bring no data down and "
+           "the recorder only fills: add the link (frequency, EIRP, rates) to get volumes and a true recorder")
+    return [_finding("no-link", WARNING, ["spacecraft"] + ids, ctx.start_tt, ctx.end_tt, msg)]
+
+
 #: rule code of :func:`rule_ephemeris_coverage`
 NO_EPHEMERIS = "no-ephemeris"
 #: rules whose findings mean nothing where the ephemeris is missing (no pass is known there)
@@ -592,6 +607,7 @@ RULES = [
     rule_station_hours,
     rule_no_downlink_station,
     rule_body_in_beam,
+    rule_no_link,
 ]
 
 
