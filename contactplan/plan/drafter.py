@@ -80,9 +80,13 @@ class DraftResult:
     (ids continuing the scenario's numbering); ``removed`` the ids of unlocked
     bookings they replace; ``kept`` the ids of bookings left as they were.
     ``objective_cost_h`` is the station cost-hours of the new bookings;
-    ``gap`` the relative optimality gap HiGHS reports (0 when proven optimal).
-    For ``status == "infeasible"`` ``explanations`` says why in plain words and
-    ``bookings`` is empty.
+    ``gap`` the relative optimality gap: (plan - lower bound) / plan, the bound
+    from HiGHS or from the LP relaxation (the notes say which candidate set it
+    covers); 0 when proven optimal. ``status`` is ``"optimal"``, ``"time-limit"``
+    (best plan found within the time limit, with its gap) or ``"infeasible"``;
+    then ``explanations`` says why in plain words and ``bookings`` is empty.
+    ``check_*``, ``findings`` and ``recorder_*`` come from the plan check of the
+    drafted scenario (the real recorder and rules).
     """
 
     status: str
@@ -96,7 +100,7 @@ class DraftResult:
     solve_time_s: float = 0.0
     start_tt: float = 0.0
     end_tt: float = 0.0
-    n_candidates: int = 0  # station slots the model could book
+    n_candidates: int = 0  # candidate bookings in the last model solved
     check_errors: int | None = None  # errors of the plan check on the drafted scenario (None: not run)
     check_warnings: int | None = None
     findings: list = field(default_factory=list)  # findings of that check
