@@ -259,3 +259,68 @@ def test_range_rate_sign_for_a_receding_target():
     assert la.range_rate_km_s[0] == pytest.approx(2.0, abs=1e-3)
     la = topocentric(st, (u * 1.0e6)[None, :], t, (-u * 2.0)[None, :])
     assert la.range_rate_km_s[0] == pytest.approx(-2.0, abs=1e-3)
+
+
+# ---------------------------------------------------------------- edge cases against the same reference
+EDGE_STATIONS = [
+    # at the north pole: the spacecraft circles at an almost constant elevation; a mask wall to the north
+    dict(id="NPL", latitude_deg=90.0, longitude_deg=0.0, height_m=0.0, min_elevation_deg=5.0,
+         horizon_mask=[[0.0, 30.0], [90.0, 3.0], [270.0, 3.0]]),
+    # the spacecraft passes within a degree of the zenith; a 4-deg notch low in the south-west
+    dict(id="ZEN", latitude_deg=6.78, longitude_deg=10.0, height_m=100.0, min_elevation_deg=5.0,
+         horizon_mask=[[0.0, 4.0], [5.0, 40.0], [200.0, 40.0], [204.0, 2.0], [208.0, 40.0], [355.0, 40.0]]),
+    # culmination to the north through a 4-deg notch across azimuth 0/360 in a 60-deg wall: short passes
+    dict(id="WRP", latitude_deg=-30.0, longitude_deg=-20.0, height_m=0.0, min_elevation_deg=0.0,
+         horizon_mask=[[1.0, 3.0], [2.0, 60.0], [358.0, 60.0], [359.0, 3.0]]),
+]
+
+
+def test_edge_cases_pole_zenith_and_azimuth_wrap_match_skyfield(demo, ts):
+    # Reference: the skyfield brute force above (20-s sampling, bisection to 1 ms). Issue 3 tolerances.
+    import dataclasses
+
+    from contactplan.scenario.model import Station
+
+    s = parse_utc(WEEKS["demo-week"][0])
+    e = s + 3 * DAY_S
+    eph = ephemeris_for(demo, s, e)
+    stations = [Station(name=d["id"], **d) for d in EDGE_STATIONS]
+    sc = dataclasses.replace(demo, stations=stations)
+    ours = find_passes(sc, eph, s, e)
+    for st in stations:
+        ref = _Reference(st, eph, ts)
+        aos, los, _, _ = _reference_passes(ref, s, e, step_s=20.0)
+        mine = [p for p in ours if p.station == st.id]
+        got_aos = np.array([p.aos_tt for p in mine if not p.clipped_start])
+        got_los = np.array([p.los_tt for p in mine if not p.clipped_end])
+        assert len(aos) >= 2 and len(got_aos) == len(aos) and len(got_los) == len(los), st.id
+        assert np.max(np.abs(got_aos - aos)) < 1.0 and np.max(np.abs(got_los - los)) < 1.0, st.id
+        t = np.array([p.max_elevation_tt for p in mine])
+        _, el, _ = ref.look(t)
+        assert np.max(np.abs(el - np.array([p.max_elevation_deg for p in mine]))) < 0.01
+    zen = [p for p in ours if p.station == "ZEN"]
+    assert max(p.max_elevation_deg for p in zen) > 89.0
+    wrp = [p for p in ours if p.station == "WRP"]
+    # through the notch only: minutes, not hours; rising east of north, setting west of it
+    assert all(p.duration_s < 3600.0 for p in wrp)
+    assert all(1.0 < p.aos_azimuth_deg < 2.0 and 358.0 < p.los_azimuth_deg < 359.0 for p in wrp)
+
+
+def test_window_starting_or_ending_exactly_at_an_event(demo):
+    # A window that starts exactly at an AOS (or ends exactly at a LOS) keeps the pass whole:
+    # common practice, no source (off-by-one-sample misses lose a whole contact).
+    s = parse_utc(WEEKS["demo-week"][0])
+    eph = ephemeris_for(demo, s, s + 3 * DAY_S)
+    full = [p for p in find_passes(demo, eph, s, s + 3 * DAY_S) if not p.clipped_start and not p.clipped_end]
+    p = full[1]
+    again = [q for q in find_passes(demo, eph, p.aos_tt, p.los_tt + 3600.0, stations=[p.station])]
+    assert len(again) == 1
+    assert abs(again[0].aos_tt - p.aos_tt) < 0.02 and abs(again[0].los_tt - p.los_tt) < 0.02
+    again = [q for q in find_passes(demo, eph, p.aos_tt - 3600.0, p.los_tt, stations=[p.station])]
+    assert len(again) == 1
+    assert abs(again[0].aos_tt - p.aos_tt) < 0.02 and abs(again[0].los_tt - p.los_tt) < 0.02
+    # a window inside the pass gives one clipped pass covering it exactly
+    mid = 0.5 * (p.aos_tt + p.los_tt)
+    inner = find_passes(demo, eph, mid - 600.0, mid + 600.0, stations=[p.station])
+    assert len(inner) == 1 and inner[0].clipped_start and inner[0].clipped_end
+    assert inner[0].aos_tt == mid - 600.0 and inner[0].los_tt == mid + 600.0
