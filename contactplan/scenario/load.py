@@ -401,6 +401,8 @@ def load_scenario(path: str | Path) -> m.Scenario:
     except UnicodeDecodeError as exc:
         line = data[: exc.start].count(b"\n") + 1
         raise InputError("not UTF-8 text (is this a scenario file?)", path, line) from None
+    if text.startswith("\ufeff"):  # a byte-order mark, as some Windows editors write: not TOML, dropped
+        text = text[1:]
     if "\x00" in text:
         raise InputError("binary content, not a TOML scenario", path, text[: text.index("\x00")].count("\n") + 1)
     return parse_text(text, path)
