@@ -106,3 +106,18 @@ def test_astropy_is_configured_offline():
 
     data.configure_astropy()
     assert iers.conf.auto_download is False and conf.allow_internet is False
+
+
+def test_cli_past_the_leap_second_table_says_so_once_and_stays_offline(monkeypatch, capsys, no_network):
+    # A window past the leap-second table's expiry (fresh dates, so no cached Earth-orientation nodes):
+    # the pass table is still produced, with one plain warning line and no network access.
+    from contactplan.cli import main
+    from contactplan.paths import demo_scenario
+
+    monkeypatch.setattr(data, "_warned_leap", False)
+    code = main(["passes", str(demo_scenario()), "--start", "2027-08-20T00:00:00Z",
+                 "--end", "2027-08-21T00:00:00Z", "--station", "SLM"])
+    out, err = capsys.readouterr()
+    assert code == 0 and "SLM" in out
+    lines = [ln for ln in err.splitlines() if "leap-second table" in ln]
+    assert len(lines) == 1 and lines[0].startswith("contactplan: warning:")
