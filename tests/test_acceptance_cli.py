@@ -107,3 +107,23 @@ def test_aligned_table_tells_a_window_edge_from_an_ephemeris_edge():
     assert lines[1].startswith("NRV") and lines[1].endswith("under way at window start")
     assert lines[2].startswith("KAL") and lines[2].endswith("cut: no ephemeris before")
     assert lines[3].endswith("under way at window end")
+
+
+def test_ephemeris_export_outside_the_oem_says_what_to_do(minimal_path, tmp_path, capsys):
+    part = tmp_path / "part.oem"
+    assert main(["export", str(minimal_path), "--out", str(part), "--start", "2027-01-14T00:00:00Z",
+                 "--end", "2027-01-16T00:00:00Z"]) == 0
+    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
+             for ln in minimal_path.read_text("utf-8").splitlines()]
+    sc = tmp_path / "week.toml"
+    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    capsys.readouterr()
+    out = tmp_path / "again.oem"
+    assert main(["export", str(sc), "--out", str(out)]) == 2  # the scenario window starts 12 Jan
+    [line] = _err_lines(capsys)
+    assert "2027-01-14T00:00:00Z to 2027-01-16T00:00:00Z" in line
+    assert line.endswith("choose --start and --end inside the span the ephemeris covers")
+    assert not out.exists()
+    assert main(["export", str(sc), "--out", str(out), "--start", "2027-01-14T06:00:00Z",
+                 "--end", "2027-01-15T06:00:00Z", "--step", "3600"]) == 0
+    assert "wrote 25 ephemeris points" in capsys.readouterr().out

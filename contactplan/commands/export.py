@@ -31,7 +31,7 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from contactplan.errors import InputError
+    from contactplan.errors import InputError, OutOfSpanError
     from contactplan.io.exporting import export, resolve
     from contactplan.scenario.load import load_scenario
     from contactplan.timescale import parse_utc
@@ -53,6 +53,11 @@ def run(args) -> int:
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
                       step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")
+    except OutOfSpanError as exc:
+        if what != "ephemeris":
+            raise
+        raise OutOfSpanError(f"{exc.message}: choose --start and --end inside the span the ephemeris covers",
+                             exc.path, exc.where) from None
     except InputError:
         raise
     except OSError as exc:
