@@ -726,3 +726,22 @@ def test_about_box_carries_the_caution(win):
     box = win.about()
     assert CAUTION in box.text()
     box.close()
+
+
+def test_recompute_while_computing_restarts_without_freezing(win, demo_copy, qtbot):
+    import time
+
+    assert win.open_path(demo_copy)
+    first = win.job
+    assert first is not None and first.running
+    t0 = time.perf_counter()
+    second = win.compute()  # cancels the running computation and starts again
+    assert time.perf_counter() - t0 < 5.0
+    assert second is not None and second is not first and not first.running
+    _wait_job(win, qtbot)
+    assert len(win.doc.result.passes) > 10
+    # switching scenario while computing cancels the job at once
+    win.compute()
+    t0 = time.perf_counter()
+    win.set_scenario(load_scenario(demo_copy), compute=False)
+    assert time.perf_counter() - t0 < 5.0 and not win.job.running

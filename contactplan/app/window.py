@@ -853,9 +853,6 @@ class MainWindow(QMainWindow):
             self.job.cancel()
             if wait:
                 self.job.wait()
-                from PySide6.QtCore import QCoreApplication
-
-                QCoreApplication.processEvents()
 
     def compute(self) -> Job | None:
         """Predict passes, link and recorder for the open scenario in the background."""

@@ -12,7 +12,7 @@ import threading
 import time
 import traceback
 
-from PySide6.QtCore import QObject, QThread, Signal
+from PySide6.QtCore import QCoreApplication, QObject, QThread, Signal
 
 from contactplan.errors import Cancelled, InputError
 
@@ -38,6 +38,12 @@ class _Runner(QObject):
             self.progress.emit(float(fraction))
 
     def run(self) -> None:
+        try:
+            self._run()
+        finally:
+            QThread.currentThread().quit()  # the thread ends as soon as the job does
+
+    def _run(self) -> None:
         try:
             result = self.fn(self._progress, self.stop.is_set)
         except Cancelled:
@@ -106,4 +112,8 @@ class Job(QObject):
         self.cancelled.emit()
 
     def wait(self, ms: int = 30000) -> bool:
-        return self.thread.wait(ms)
+        """Block until the job's thread has ended, then deliver its last signal (done, failed or cancelled)."""
+        ok = self.thread.wait(ms)
+        if ok:
+            QCoreApplication.sendPostedEvents(self)
+        return ok
