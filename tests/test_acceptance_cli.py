@@ -127,3 +127,18 @@ def test_ephemeris_export_outside_the_oem_says_what_to_do(minimal_path, tmp_path
     assert main(["export", str(sc), "--out", str(out), "--start", "2027-01-14T06:00:00Z",
                  "--end", "2027-01-15T06:00:00Z", "--step", "3600"]) == 0
     assert "wrote 25 ephemeris points" in capsys.readouterr().out
+
+
+def test_calendar_of_no_booking_is_refused_in_one_line(minimal_path, tmp_path, capsys):
+    # RFC 5545 section 3.6: "component = 1*(eventc / ...)": a VCALENDAR needs at least one component
+    text = minimal_path.read_text("utf-8")
+    sc = tmp_path / "empty.toml"
+    sc.write_text(text[: text.index("[[bookings]]")] + "[requirements]\nranging_per_day_min = 1\n", "utf-8")
+    out = tmp_path / "week.ics"
+    assert main(["export", str(sc), "--out", str(out)]) == 2
+    [line] = _err_lines(capsys)
+    assert line.startswith(f"contactplan: error: {out}: no bookings to put in the calendar")
+    assert not out.exists()
+    # the booking list itself may be empty
+    assert main(["export", str(sc), "--out", str(tmp_path / "b.csv"), "--what", "bookings"]) == 0
+    assert "wrote 0 bookings" in capsys.readouterr().out

@@ -93,7 +93,13 @@ def calendar(scenario, plan=None, now_tt: float | None = None):
 
 def write_ical(scenario, path, plan=None, now_tt: float | None = None) -> int:
     """Write the booking calendar atomically; returns the number of events."""
+    from contactplan.errors import InputError
     from contactplan.fileio import atomic_write
 
+    if not scenario.bookings:
+        # RFC 5545 section 3.6: a calendar holds at least one component; an empty file would also
+        # leave events of an earlier export in place in the team's calendars without saying so
+        raise InputError("no bookings to put in the calendar: book contacts first "
+                         "(or export the empty list as .csv or .json)", path)
     atomic_write(path, calendar(scenario, plan, now_tt).to_ical())
     return len(scenario.bookings)
