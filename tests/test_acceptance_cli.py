@@ -142,3 +142,18 @@ def test_calendar_of_no_booking_is_refused_in_one_line(minimal_path, tmp_path, c
     # the booking list itself may be empty
     assert main(["export", str(sc), "--out", str(tmp_path / "b.csv"), "--what", "bookings"]) == 0
     assert "wrote 0 bookings" in capsys.readouterr().out
+
+
+def test_aligned_table_shows_the_day_of_year_of_aos(minimal_path, capsys):
+    from astropy.time import Time  # reference library for the day of year (astropy Time.yday)
+
+    assert main(["passes", str(minimal_path), "--start", "2016-12-31T00:00:00Z", "--end", "2017-01-02T00:00:00Z"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    head = lines[0].split()
+    assert head[:4] == ["STATION", "AOS", "DOY", "AOS"] and "MIN RANGE km" in lines[0]
+    rows = [ln.split() for ln in lines[1:] if ln[:3] in ("NRV", "KAL")]
+    assert len(rows) >= 3
+    for r in rows:
+        want = Time(r[2].rstrip("Z"), format="isot", scale="utc").yday.split(":")[1]
+        assert r[1] == want, r
+    assert {r[1] for r in rows} >= {"366", "001"}  # 2016 is a leap year

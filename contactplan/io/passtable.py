@@ -144,8 +144,10 @@ def passes_text(passes, start_tt=None, end_tt=None) -> str:
     def at_edge(t, edge):
         return edge is None or abs(t - edge) <= 1.0
 
-    head = ("STATION", "AOS (UTC)", "LOS (UTC)", "DURATION", "MAX EL", "MAX EL AT (UTC)",
-            "AZ AOS", "AZ LOS", "RANGE km", "NOTES")
+    from contactplan.timescale import day_of_year
+
+    head = ("STATION", "AOS DOY", "AOS (UTC)", "LOS (UTC)", "DURATION", "MAX EL", "MAX EL AT (UTC)",
+            "AZ AOS", "AZ LOS", "MIN RANGE km", "NOTES")
     lines = []
     for p in sorted(passes, key=lambda p: (p.aos_tt, p.station)):
         notes = []
@@ -164,12 +166,12 @@ def passes_text(passes, start_tt=None, end_tt=None) -> str:
                          + (f" {o.reason}" if getattr(o, "reason", "") else ""))
         if p.volume_gbit is not None:
             notes.append(f"{p.volume_gbit:.1f} Gbit")
-        lines.append((p.station, format_utc(p.aos_tt, 0), format_utc(p.los_tt, 0), _hms(p.duration_s),
+        lines.append((p.station, f"{day_of_year(p.aos_tt):03d}", format_utc(p.aos_tt, 0), format_utc(p.los_tt, 0), _hms(p.duration_s),
                       f"{p.max_elevation_deg:.2f}", format_utc(p.max_elevation_tt, 0),
                       f"{p.aos_azimuth_deg:.1f}", f"{p.los_azimuth_deg:.1f}",
                       f"{p.min_range_km:,.0f}", "; ".join(notes)))
     widths = [max(len(h), *(len(r[i]) for r in lines)) if lines else len(h) for i, h in enumerate(head)]
-    right = {3, 4, 6, 7, 8}
+    right = {4, 5, 7, 8, 9}
 
     def fmt(row):
         cells = [c.rjust(w) if i in right else c.ljust(w) for i, (c, w) in enumerate(zip(row, widths))]
