@@ -142,3 +142,53 @@ def test_demo_recorder_matches_a_one_second_brute_force():
     assert r.end_gbit == pytest.approx(fill, abs=tol)
     # the demo is drafted to overflow (its comments say so): something must be lost
     assert r.lost_gbit > 1.0
+
+
+def test_demo_pass_volumes_match_a_fine_independent_budget():
+    # Reference written here: range and elevation every 20 s from the skyfield look angles of
+    # test_crosscheck_passes (skyfield Earth orientation), the budget by the hand formulas above
+    # (P.525 with 32.45, cosecant law, k from CODATA), the best rate at each sample held for 20 s.
+    # The engine samples every 60 s and holds the lower neighbour (never counts a rate the link could not
+    # hold), so it may fall short by up to ~60 s at each rate change, never exceed by more than ~20 s.
+    from test_crosscheck_passes import _Reference, _skyfield_timescale
+
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.geometry.passes import find_passes
+    from contactplan.link.volume import annotate_passes
+    from contactplan.paths import demo_scenario
+    from contactplan.scenario.load import load_scenario
+
+    sc = load_scenario(demo_scenario())
+    link = sc.spacecraft.link
+    eph = ephemeris_for(sc)
+    passes = find_passes(sc, eph)
+    annotate_passes(sc, passes, eph)
+    ts = _skyfield_timescale()
+    rates = np.sort(np.asarray(link.rates_kbps, dtype=float))
+    checked = 0
+    for st in sc.stations:
+        mine = [p for p in passes if p.station == st.id]
+        if not st.takes_downlink:
+            assert all(p.volume_gbit is None and p.max_rate_kbps is None for p in mine)
+            continue
+        ref = _Reference(st, eph, ts)
+        zen = zenith_attenuation_db(link.frequency_mhz, st.height_m) if st.zenith_attenuation_db is None \
+            else st.zenith_attenuation_db
+        for p in mine:
+            t = np.arange(p.aos_tt, p.los_tt, 20.0)
+            _, el, rng = ref.look(t)
+            fsl = 32.45 + 20 * np.log10(link.frequency_mhz) + 20 * np.log10(rng)
+            atm = zen / np.sin(np.radians(el))  # passes stay above 5 deg here
+            cn0 = link.eirp_dbw - fsl - atm - link.other_losses_db + st.g_over_t_dbk + 228.5992
+            ebn0 = cn0[:, None] - 10 * np.log10(rates[None, :] * 1e3)
+            ok = ebn0 >= link.required_ebn0_db + link.margin_db
+            best = np.where(ok.any(axis=1), np.max(np.where(ok, rates[None, :], 0.0), axis=1), 0.0)
+            dt = np.diff(np.append(t, p.los_tt))
+            fine = float(np.sum(best * dt) * 1e-6)
+            changes = int(np.count_nonzero(np.diff(best))) + 2
+            top = float(best.max())
+            assert p.max_rate_kbps == top, (st.id, p.key)
+            assert fine - changes * 60.0 * top * 1e-6 <= p.volume_gbit <= fine + 2 * 20.0 * top * 1e-6, (st.id, p.key)
+            assert abs(p.volume_gbit - fine) / max(fine, 1e-9) < 0.02
+            checked += 1
+    assert checked >= 20
