@@ -157,3 +157,22 @@ def test_aligned_table_shows_the_day_of_year_of_aos(minimal_path, capsys):
         want = Time(r[2].rstrip("Z"), format="isot", scale="utc").yday.split(":")[1]
         assert r[1] == want, r
     assert {r[1] for r in rows} >= {"366", "001"}  # 2016 is a leap year
+
+
+def test_pass_json_says_what_the_ephemeris_covers(minimal_path, tmp_path, capsys):
+    import json
+
+    part = tmp_path / "part.oem"
+    assert main(["export", str(minimal_path), "--out", str(part), "--start", "2027-01-14T00:00:00Z",
+                 "--end", "2027-01-16T00:00:00Z"]) == 0
+    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
+             for ln in minimal_path.read_text("utf-8").splitlines()]
+    sc = tmp_path / "week.toml"
+    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    out = tmp_path / "p.json"
+    assert main(["passes", str(sc), "--out", str(out)]) == 0
+    err = capsys.readouterr().err
+    assert "covers only part of the window" in err  # said on the terminal...
+    doc = json.loads(out.read_text("utf-8"))  # ...and in the file that travels
+    assert doc["ephemeris_coverage"] == [{"start": "2027-01-14T00:00:00.000Z", "end": "2027-01-16T00:00:00.000Z"}]
+    assert doc["window"] == {"start": "2027-01-12T00:00:00.000Z", "end": "2027-01-19T00:00:00.000Z"}

@@ -137,6 +137,7 @@ def run(args) -> int:
             seen.add(str(w.message))
             warn(w.message)
 
+    from contactplan.geometry.passes import coverage_spans
     from contactplan.io import passtable
 
     if fmt is None:
@@ -152,7 +153,8 @@ def run(args) -> int:
             write_passes_xlsx(_as_asked(scenario, start, end, args.station), passes, args.out)
         else:
             passtable.write_passes(args.out, passes, fmt, scenario, start, end, args.station,
-                                   footer=shadow + [CAUTION] if fmt == "text" else None, shadows=spans)
+                                   footer=shadow + [CAUTION] if fmt == "text" else None, shadows=spans,
+                                   coverage=coverage_spans(eph, start, end))
     except InputError:
         raise
     except OSError as exc:

@@ -104,9 +104,11 @@ def passes_csv_text(passes, columns=None) -> str:
     return buf.getvalue()
 
 
-def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None, shadows=None) -> str:
+def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None, shadows=None,
+                     coverage=None) -> str:
     """JSON document: what was computed (scenario, window, stations, caution), the rows and, when
-    given, the shadow passages ``[(start_tt, end_tt, body, kind)]``."""
+    given, the shadow passages ``[(start_tt, end_tt, body, kind)]`` and the parts of the window the
+    ephemeris covers ``[(start_tt, end_tt)]`` (``ephemeris_coverage``: no pass is known outside them)."""
     from contactplan import CAUTION, __version__
     from contactplan.timescale import format_utc, now_tt
 
@@ -121,6 +123,8 @@ def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations
         doc["refraction"] = bool(getattr(scenario.geometry, "refraction", False))
     if stations:
         doc["stations"] = list(stations)
+    if coverage is not None:
+        doc["ephemeris_coverage"] = [{"start": format_utc(a), "end": format_utc(b)} for a, b in coverage]
     doc["columns"] = columns_for(rows)
     doc["passes"] = [{c: r[c] for c in doc["columns"]} for r in rows]
     if shadows is not None:
@@ -182,7 +186,7 @@ def passes_text(passes, start_tt=None, end_tt=None) -> str:
 
 
 def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=None, stations=None,
-                 footer=None, shadows=None) -> int:
+                 footer=None, shadows=None, coverage=None) -> int:
     """Write the pass table as ``fmt`` ("csv", "json" or "text") atomically; returns the row count.
 
     ``footer``: lines added under the aligned text table (text only)."""
@@ -191,7 +195,7 @@ def write_passes(path, passes, fmt: str, scenario=None, start_tt=None, end_tt=No
     if fmt == "csv":
         text = passes_csv_text(passes)
     elif fmt == "json":
-        text = passes_json_text(passes, scenario, start_tt, end_tt, stations, shadows)
+        text = passes_json_text(passes, scenario, start_tt, end_tt, stations, shadows, coverage)
     elif fmt == "text":
         text = passes_text(passes, start_tt, end_tt) + "".join(f"{line}\n" for line in (footer or []))
     else:
