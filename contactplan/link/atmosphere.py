@@ -1,4 +1,5 @@
-"""Gaseous attenuation of the downlink: ITU-R P.676 zenith value, cosecant scaling with elevation.
+"""Gaseous attenuation of the downlink: ITU-R P.676 zenith value, cosecant scaling with elevation
+(a spherical-shell path below 5 degrees).
 
 The zenith attenuation of a station follows the approximate slant-path method of
 ITU-R P.676-12 Annex 2: the specific attenuations of dry air and water vapour at
@@ -230,7 +231,7 @@ def slant_attenuation_db(zenith_db, elevation_deg, min_elevation_deg: float = CO
     """Gaseous loss (dB) along the slant path at ``elevation_deg`` from the zenith value ``zenith_db``.
 
     At and above ``min_elevation_deg`` (5 deg): the cosecant (flat-layer) law, common practice there.
-    Below it the flat layer overstates nothing but the cosecant blows up and a held value would
+    Below it the cosecant grows without bound toward the horizon, and holding the 5-deg value would
     understate the loss badly (7 dB at 1 deg in Ka band). There the path through a spherical shell of
     equivalent height :data:`LOW_ELEVATION_LAYER_KM` is used, scaled to meet the cosecant value at
     ``min_elevation_deg`` (continuous; common practice, no source). Checked in the tests against
