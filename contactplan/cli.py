@@ -11,6 +11,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import sys
+import textwrap
 
 from contactplan import CAUTION, __version__
 from contactplan.errors import InputError
@@ -24,12 +25,24 @@ COMMANDS = {
 }
 
 
+EXAMPLES = """\
+examples:
+  contactplan                                open the planner on the bundled demo
+  contactplan week.toml                      open the planner on a scenario
+  contactplan passes week.toml               passes of every station, as a table
+  contactplan check week.toml                check the plan (exit status 1 when it has errors)
+  contactplan export week.toml --out week.pdf
+  contactplan COMMAND --help                 options and examples of one command"""
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="contactplan",
+        usage="contactplan [FILE]\n       contactplan [-h] [--version] COMMAND ...",
         description="Ground contact and downlink planner for libration-point missions. "
         "Without a sub-command, opens the desktop planner (on FILE, or on the bundled demo).",
-        epilog=CAUTION,
+        epilog=EXAMPLES + "\n\n" + textwrap.fill(CAUTION, 78),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("--version", action="version", version=f"contactplan {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")

@@ -176,3 +176,27 @@ def test_pass_json_says_what_the_ephemeris_covers(minimal_path, tmp_path, capsys
     doc = json.loads(out.read_text("utf-8"))  # ...and in the file that travels
     assert doc["ephemeris_coverage"] == [{"start": "2027-01-14T00:00:00.000Z", "end": "2027-01-16T00:00:00.000Z"}]
     assert doc["window"] == {"start": "2027-01-12T00:00:00.000Z", "end": "2027-01-19T00:00:00.000Z"}
+
+
+def test_every_help_has_examples_and_the_top_level_keeps_the_caution(capsys):
+    from contactplan import CAUTION
+    from contactplan.cli import COMMANDS
+
+    for argv in [["--help"]] + [[name, "--help"] for name in COMMANDS]:
+        with pytest.raises(SystemExit) as ex:
+            main(argv)
+        assert ex.value.code == 0
+        out = capsys.readouterr().out
+        assert "examples:" in out, argv
+        assert "  contactplan " in out.split("examples:", 1)[1], argv
+        if argv == ["--help"]:
+            assert " ".join(CAUTION.split()) in " ".join(out.split())
+            assert "contactplan [FILE]" in out
+
+
+def test_version(capsys):
+    from contactplan import __version__
+
+    with pytest.raises(SystemExit) as ex:
+        main(["--version"])
+    assert ex.value.code == 0 and capsys.readouterr().out.strip() == f"contactplan {__version__}"
