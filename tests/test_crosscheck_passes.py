@@ -182,6 +182,17 @@ def test_aos_los_and_culmination_match_skyfield(demo, ts, week):
         ref_max = el.reshape(grid.shape).max(axis=1)
         got_max = np.array([p.max_elevation_deg for p in mine])
         worst_el = max(worst_el, float(np.max(np.abs(got_max - ref_max))))
+        # AOS/LOS azimuths, and the range extremes over each pass (reference sampled every 60 s plus ends)
+        az_a, _, _ = ref.look(np.array([p.aos_tt for p in mine]))
+        az_l, _, _ = ref.look(np.array([p.los_tt for p in mine]))
+        for got, want in ((np.array([p.aos_azimuth_deg for p in mine]), az_a),
+                          (np.array([p.los_azimuth_deg for p in mine]), az_l)):
+            assert np.max(np.abs((got - want + 180.0) % 360.0 - 180.0)) < 1e-3
+        for p in mine:
+            _, _, rng = ref.look(np.append(np.arange(p.aos_tt, p.los_tt, 60.0), p.los_tt))
+            # the engine takes the extremes over its coarse samples (up to 600 s apart) and the three exact
+            # points: up to R_E omega^2 (300 s)^2 / 2 = 1.5 km off, a millionth of the range
+            assert abs(p.min_range_km - rng.min()) < 2.0 and abs(p.max_range_km - rng.max()) < 2.0
     assert worst_event < 1.0, f"{name}: AOS/LOS off by up to {worst_event:.3f} s"
     assert worst_el < 0.01, f"{name}: max elevation off by up to {worst_el:.5f} deg"
     # Measured when written: events within a few ms, max elevation within 1e-5 deg.
