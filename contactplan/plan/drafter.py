@@ -955,22 +955,34 @@ def _verify(scenario, passes, profiles, draft: DraftResult):
 
 
 # ---------------------------------------------------------------- entry point
-def _neighbourhood(P: _Plan, C: _Cands, chosen, step: int, also=()) -> _Cands:
+def _neighbourhood(P: _Plan, C: _Cands, chosen, step: int, also=(), swap: int = 0) -> _Cands:
     """Bookings on the full grid whose edges lie within ``step`` edges of a chosen booking's edges
     (the chosen ones included): a local search that polishes a plan drafted on a thinned lattice.
-    ``also`` adds more (cands, indices) pairs to centre neighbourhoods on."""
+    ``also`` adds more (cands, indices) pairs to centre neighbourhoods on; with ``swap`` > 0 the
+    other stations free over a centre's span get bookings within ``swap`` edges of it too."""
     t = P.t
     K = len(t) - 1
     runs = [_runs(P.avail[i]) for i in range(len(P.stations))]
     centres = [(int(C.station[c]), int(C.p[c]), int(C.q[c])) for c in chosen]
     for cc, idx in also:
         centres += [(int(cc.station[c]), int(cc.p[c]), int(cc.q[c])) for c in idx]
+    if swap:
+        moved = []
+        for i, p0, q0 in centres:
+            mid = min((p0 + q0) // 2, K - 1)
+            for j in range(len(P.stations)):
+                if j != i and P.avail[j, mid]:
+                    moved.append((j, p0, q0, swap))
+        centres = [(i, p0, q0, step) for i, p0, q0 in centres] + moved
+    else:
+        centres = [(i, p0, q0, step) for i, p0, q0 in centres]
     centres = sorted(set(centres))
     sts, ps, qs = [], [], []
-    off = np.arange(-step, step + 1)
-    for i, p0, q0 in centres:
+    for i, p0, q0, nb in centres:
+        off = np.arange(-nb, nb + 1)
         run_s, run_e = runs[i]
-        lo, hi = run_s[min(p0, K - 1)], run_e[min(p0, K - 1)] + 1
+        anchor = min(p0, K - 1) if P.avail[i, min(p0, K - 1)] else min((p0 + q0) // 2, K - 1)
+        lo, hi = run_s[anchor], run_e[anchor] + 1
         pp, qq = np.meshgrid(np.clip(p0 + off, lo, hi), np.clip(q0 + off, lo, hi), indexing="ij")
         dur = t[qq] - t[pp]
         ok = (qq > pp) & (dur >= P.min_s[i] - _TOL)
@@ -1057,29 +1069,46 @@ def _optimise(P: _Plan, time_s: float, mip_gap: float, max_candidates: int, grid
 
     # 2. a restricted solve around the LP's support
     support = np.flatnonzero(lp_x[xg] > 1e-6)
-    near = _neighbourhood(P, guide, support, 3)
+    near = _neighbourhood(P, guide, support, 2)
     M1, x1, near, _ = _build_model(P, cands=near, **kw)
     consider(_solve(M1, max(0.3, 0.45 * left()), mip_gap), x1, near)
     # 3. the whole thinned lattice (most of what is left when the guided solve found nothing)
     if left() > 0.5:
         M2, x2, C, _ = _build_model(P, cands=C, **kw)
-        res2 = _solve(M2, max(0.3, (0.4 if best is not None else 0.8) * left()), mip_gap)
+        res2 = _solve(M2, max(0.3, (0.7 if best is None else 0.25) * left()), mip_gap)
         consider(res2, x2, C)
         if res2.status == 0 and guide is not full:
             bound = max(bound, float(res2.fun))
     if best is None:
         return _Solved(np.zeros(0, int), C, math.inf, TIME_LIMIT, None)
-    # 4. polish on the full grid around the best plan (and the LP's guide) while it improves
+    # 4. polish on the full grid, one UTC day at a time: the bookings elsewhere stay as they are
+    #    (so the incumbent is always a solution and each small solve is quick), the day's bookings
+    #    may move, stretch, shrink, vanish or go to another station
     before = best.fun
-    for _ in range(4):
-        if left() < 0.5:
-            break
-        keep = best.fun
-        near2 = _neighbourhood(P, best.cands, best.chosen, 3, also=[(guide, support)])
-        M3, x3, near2, _ = _build_model(P, cands=near2, **kw)
-        res3 = _solve(M3, max(0.3, left() - 0.1), mip_gap)
-        consider(res3, x3, near2)
-        if best.fun >= keep - 1e-9:
+    days = [d for d in P.days if d + 86400.0 > P.t[0] and d < P.t[-1]]
+    for sweep, span_days in enumerate((1, 2, 1, 2)):
+        improved = False
+        for d0 in days:
+            if left() < 0.4:
+                break
+            d1 = d0 + 86400.0 * span_days
+            bc = best.cands
+            inside = (bc.start[best.chosen] < d1) & (bc.end[best.chosen] > d0)
+            fixed = best.chosen[~inside]
+            g_in = support[(guide.start[support] < d1) & (guide.end[support] > d0)]
+            near = _neighbourhood(P, bc, best.chosen[inside], 3, also=[(guide, g_in)], swap=1)
+            keys = np.concatenate([np.stack([bc.station[fixed], bc.p[fixed], bc.q[fixed]]),
+                                   np.stack([near.station, near.p, near.q])], axis=1)
+            keys = np.unique(keys, axis=1)
+            cand = _cands_from(P, keys[0], keys[1], keys[2])
+            M3, x3, cand, _ = _build_model(P, cands=cand, **kw)
+            fk = set(zip(bc.station[fixed].tolist(), bc.p[fixed].tolist(), bc.q[fixed].tolist()))
+            is_fixed = np.array([k in fk for k in zip(cand.station.tolist(), cand.p.tolist(), cand.q.tolist())])
+            M3.lb[0] = np.where(is_fixed, 1.0, M3.lb[0])
+            keep = best.fun
+            consider(_solve(M3, max(0.2, min(2.0, left() - 0.1)), mip_gap), x3, cand)
+            improved |= best.fun < keep - 1e-9
+        if not improved and sweep >= 1:
             break
     if best.fun < before - 1e-9:
         notes.append(f"polishing on the {grid_min:g}-min grid saved {before - best.fun:.2f} cost-hours")
