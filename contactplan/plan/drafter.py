@@ -30,10 +30,12 @@ The mixed-integer programme (HiGHS through :func:`scipy.optimize.milp`)
 Solving
     Small windows are solved exactly. Large ones (more than ``max_candidates``
     candidates) are drafted with the LP relaxation as a guide: an exact solve over
-    the grid bookings near the LP's support, a solve on a thinned lattice, then
-    polishing on the full grid around the best plan while time lasts. The gap is
-    measured against the LP bound (of the thinned lattice when the full LP is too
-    large; the notes say which).
+    the grid bookings near the LP's support, a short solve on a thinned lattice,
+    then polishing on the full grid one or two UTC days at a time (the bookings
+    elsewhere held, so every small solve starts from a valid plan; the day's
+    bookings may move, stretch, shrink, vanish or change station) while time
+    lasts. The gap is measured against the LP bound (of the thinned lattice when
+    the full LP is too large; the notes say which).
 
 Verification
     The plan is then checked with the real recorder and plan rules
