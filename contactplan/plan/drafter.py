@@ -1206,7 +1206,15 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         C = sol.cands
         base.n_candidates = len(C)
         if not len(sol.chosen) and not math.isfinite(sol.fun):
-            if out is not None:  # a tightened re-solve failed: keep the plan found before
+            if out is not None and sol.infeasible and exclusive and (out.recorder_lost_gbit or 0) > 0:
+                base.explanations = [
+                    f"the recorder can only be kept from overflowing with two stations downlinking at once "
+                    f"(the plan found loses {out.recorder_lost_gbit:.1f} Gbit), but the spacecraft sends one "
+                    f"stream at a time: book more downlink passes, lower production or allow more on board"]
+                base.notes = notes
+                base.solve_time_s = time.perf_counter() - t_start
+                return base
+            if out is not None:  # a tightened re-solve failed: keep the plan found before (see its check)
                 notes.append("tightening the plan after the check found no better plan in time")
                 break
             if sol.infeasible:
