@@ -1250,13 +1250,13 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, 
         again = False
         lost = out.recorder_lost_gbit or 0.0
         if lost > 1e-6 and math.isfinite(P.capacity):
-            if not exclusive:
-                exclusive = True
-                notes.append(f"the recorder check lost {lost:.2f} Gbit: solved again with one downlink at a time")
-            else:
+            if attempt < 2:
                 margin += lost + 1.0
                 notes.append(f"the recorder check lost {lost:.2f} Gbit: solved again {margin:.1f} Gbit below "
                              "capacity")
+            else:  # last resort: downlink times of two bookings never overlap
+                exclusive = True
+                notes.append(f"the recorder check lost {lost:.2f} Gbit: solved again with one downlink at a time")
             again = True
         short_days = [f for f in findings if f.rule == "contact-per-day"]
         for f in short_days:
