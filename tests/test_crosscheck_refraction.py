@@ -68,3 +68,43 @@ def test_apparent_and_geometric_are_inverse_and_monotone():
         assert np.max(np.abs(geometric_elevation_deg(a, h) - el)) < 1e-9
         assert np.all(np.diff(a) > 0) and np.all(a >= el)
     assert float(apparent_elevation_deg(90.0)) == pytest.approx(90.0, abs=1e-12)
+
+
+def test_passes_with_refraction_match_skyfield_plus_the_ray_trace():
+    # Reference: skyfield geometric look angles (test_crosscheck_passes) turned apparent with the ray trace
+    # above (no P.834 involved), brute-force search. A station with a 0.5-deg limit, where refraction matters
+    # most. P.834 and the trace differ by ~0.005 deg there, ~2 s of rise: tolerance 5 s.
+    import dataclasses
+
+    from test_crosscheck_passes import DAY_S, _Reference, _reference_passes, _skyfield_timescale
+
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.geometry.passes import find_passes
+    from contactplan.paths import demo_scenario
+    from contactplan.scenario.load import load_scenario
+    from contactplan.scenario.model import GeometryOptions, Station
+
+    st = Station(id="LOW", name="Low", latitude_deg=47.0, longitude_deg=8.0, height_m=600.0, min_elevation_deg=0.5)
+    sc = load_scenario(demo_scenario())
+    sc = dataclasses.replace(sc, stations=[st], geometry=GeometryOptions(refraction=True))
+    s = sc.start_tt
+    e = s + 2 * DAY_S
+    eph = ephemeris_for(sc, s, e)
+    ours = find_passes(sc, eph, s, e)
+
+    app_grid = np.linspace(-0.5, 30.0, 300)
+    geo_grid = app_grid - np.array([_ray_trace_bending_deg(a, st.height_m / 1000.0) if a > 0 else
+                                    _ray_trace_bending_deg(0.0, st.height_m / 1000.0) for a in app_grid])
+
+    class _Refracted(_Reference):
+        def look(self, t_tt):
+            az, el, rng = super().look(t_tt)
+            return az, np.interp(el, geo_grid, app_grid), rng
+
+    ref = _Refracted(st, eph, _skyfield_timescale())
+    aos, los, _, _ = _reference_passes(ref, s, e)
+    got_aos = np.array([p.aos_tt for p in ours if not p.clipped_start])
+    got_los = np.array([p.los_tt for p in ours if not p.clipped_end])
+    assert len(aos) >= 1 and len(got_aos) == len(aos) and len(got_los) == len(los)
+    assert np.max(np.abs(got_aos - aos)) < 5.0 and np.max(np.abs(got_los - los)) < 5.0
+    print(f"refraction on: AOS within {np.max(np.abs(got_aos - aos)):.2f} s, LOS within {np.max(np.abs(got_los - los)):.2f} s")
