@@ -4,6 +4,7 @@ the whole window (invented stations and mission; see tests/test_rules.py for the
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from contactplan.link.profiles import RecorderResult
 from contactplan.plan.rules import check_plan
@@ -127,3 +128,44 @@ def test_no_link_says_why_downlink_brings_nothing():
     assert "[spacecraft.link]" in f[0].message
     sc.spacecraft.link = m.Link(frequency_mhz=25900.0, eirp_dbw=40.0, required_ebn0_db=2.5)
     assert rules_of(check_plan(sc, PASSES), "no-link") == []
+
+
+def test_oem_with_a_gap_between_segments_gives_passes_volumes_and_findings(minimal_path, tmp_path, capsys):
+    """Two OEM segments with 12 h missing between them (a delivery around a manoeuvre). With a link
+    model this used to stop with "asked for ...11:59:56Z, outside the covered span": the emission
+    instant of a pass rising at the second segment's first epoch lies a light time inside the gap.
+    Passes away from the gap must carry the same volumes as with the unbroken ephemeris."""
+    import json
+
+    from contactplan.cli import main
+    from contactplan.plan.pipeline import compute_plan
+    from contactplan.scenario.load import load_scenario
+
+    a, b = tmp_path / "a.oem", tmp_path / "b.oem"
+    # NRV (the station with a downlink) is up at 00:00 UTC in January: the second segment starts in a pass
+    for out, t0, t1 in ((a, "2027-01-12T00:00:00Z", "2027-01-14T12:00:00Z"),
+                        (b, "2027-01-15T00:00:00Z", "2027-01-19T00:00:00Z")):
+        assert main(["export", str(minimal_path), "--out", str(out), "--start", t0, "--end", t1, "--step", "300"]) == 0
+    second = b.read_text("utf-8")
+    (tmp_path / "gap.oem").write_text(a.read_text("utf-8") + "\n" + second[second.index("META_START"):], "utf-8")
+    lines = [('ephemeris = { oem = "gap.oem" }' if ln.startswith("ephemeris = { libration") else ln)
+             for ln in minimal_path.read_text("utf-8").splitlines()]
+    sc_path = tmp_path / "week.toml"
+    sc_path.write_text("\n".join(lines) + "\n", "utf-8")
+    capsys.readouterr()
+
+    gap0, gap1 = parse_utc("2027-01-14T12:00:00Z"), parse_utc("2027-01-15T00:00:00Z")
+    plan = compute_plan(load_scenario(sc_path))
+    ref = compute_plan(load_scenario(minimal_path))
+    assert [(f.start_tt, f.end_tt) for f in plan.findings if f.rule == "no-ephemeris"] == [(gap0, gap1)]
+    [cut] = [p for p in plan.passes if p.station == "NRV" and p.aos_tt == gap1]
+    assert cut.clipped_start and cut.volume_gbit > 0  # the pass that made the link stage stop
+    same = {(p.station, round(p.aos_tt)): p.volume_gbit for p in ref.passes}
+    away = [p for p in plan.passes if not (p.clipped_start or p.clipped_end) and p.volume_gbit is not None]
+    assert away
+    for p in away:
+        assert p.volume_gbit == pytest.approx(same[(p.station, round(p.aos_tt))], rel=1e-3)
+    # the command line says the same, in one piece
+    assert main(["passes", str(sc_path), "--out", str(tmp_path / "p.json")]) == 0
+    doc = json.loads((tmp_path / "p.json").read_text("utf-8"))
+    assert len(doc["ephemeris_coverage"]) == 2

@@ -56,18 +56,9 @@ def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris
              "passes at the coverage edges are clipped")
     passes = find_passes(scenario, eph, start_tt, end_tt, stations=stations)
     if scenario.spacecraft.link is not None and passes:
-        try:
-            from contactplan.link import annotate_passes
-        except ImportError:
-            try:
-                from contactplan.link.volume import annotate_passes
-            except ImportError:
-                annotate_passes = None
-        if annotate_passes is not None:
-            try:
-                annotate_passes(scenario, passes, eph)
-            except NotImplementedError:
-                pass
+        from contactplan.plan.pipeline import annotate_by_segment
+
+        annotate_by_segment(scenario, passes, eph)
     return (passes, eph) if with_ephemeris else passes
 
 
