@@ -200,3 +200,10 @@ def test_version(capsys):
     with pytest.raises(SystemExit) as ex:
         main(["--version"])
     assert ex.value.code == 0 and capsys.readouterr().out.strip() == f"contactplan {__version__}"
+
+
+def test_revalidation_shift_that_rounds_to_zero_has_no_minus_sign():
+    from contactplan.commands.check import _signed
+
+    assert [_signed(x) for x in (None, -0.01, 0.0, 0.04, -0.06, 12.345, -3.0)] == \
+        ["-", "+0.0", "+0.0", "+0.0", "-0.1", "+12.3", "-3.0"]

@@ -31,7 +31,10 @@ def add_arguments(parser) -> None:
 
 
 def _signed(x) -> str:
-    return "-" if x is None else f"{x:+.1f}"
+    """A shift in seconds with its sign, one decimal; a shift that rounds to zero reads +0.0, not -0.0."""
+    if x is None:
+        return "-"
+    return f"{x:+.1f}" if round(x, 1) != 0 else "+0.0"
 
 
 def format_findings(findings) -> list[str]:
