@@ -33,3 +33,25 @@ def test_cyrillic_and_greek_station_names_reach_the_pdf(minimal_path, tmp_path):
         for f in (page["/Resources"].get("/Font") or {}).values():
             fonts.add(str(f.get_object()["/BaseFont"]))
     assert any("DejaVuSans" in f for f in fonts), fonts
+
+
+def test_cover_says_when_the_ephemeris_misses_part_of_the_window(minimal_path, tmp_path):
+    from pypdf import PdfReader
+
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.io.exporting import write_ephemeris
+    from contactplan.ephemeris import open_oem
+    from contactplan.timescale import parse_utc
+
+    sc = load_scenario(minimal_path)
+    oem = tmp_path / "part.oem"
+    write_ephemeris(sc, oem, parse_utc("2027-01-14T00:00:00Z"), sc.end_tt, 600.0)
+    plan = compute_plan(sc, open_oem(oem))
+    out = tmp_path / "week.pdf"
+    write_report(plan, out)
+    first = " ".join((PdfReader(str(out)).pages[0].extract_text() or "").split())
+    assert "Ephemeris covers (UTC) 2027-01-14T00:00:00Z to 2027-01-19T00:00:00Z only" in first
+    # with the whole window covered the row is not there
+    full = tmp_path / "full.pdf"
+    write_report(compute_plan(sc, ephemeris_for(sc)), full)
+    assert "Ephemeris covers" not in (PdfReader(str(full)).pages[0].extract_text() or "")

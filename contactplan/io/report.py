@@ -420,6 +420,10 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         eph_name = str(spec.oem_path.name) if spec.kind == "oem" and spec.oem_path else spec.kind
     if eph_name:
         facts.append(["Ephemeris source", str(eph_name)])
+    cover = getattr(plan, "coverage", None)
+    if cover is not None and [(float(a), float(b)) for a, b in cover] != [(float(sc.start_tt), float(sc.end_tt))]:
+        spans = "; ".join(f"{_fmt(a)} to {_fmt(b)}" for a, b in cover) or "nothing of the window"
+        facts.append(["Ephemeris covers (UTC)", f"{spans} only: nothing is checked outside"])
     facts.append(["Generator", f"contactplan {__version__}"])
     story.append(table([[P(a, small), P(b, small)] for a, b in facts], [0.3 * frame_w, 0.7 * frame_w],
                        extra=[("BACKGROUND", (0, 0), (-1, 0), colors.white),
