@@ -207,3 +207,43 @@ def test_revalidation_shift_that_rounds_to_zero_has_no_minus_sign():
 
     assert [_signed(x) for x in (None, -0.01, 0.0, 0.04, -0.06, 12.345, -3.0)] == \
         ["-", "+0.0", "+0.0", "+0.0", "-0.1", "+12.3", "-3.0"]
+
+
+def test_ephemeris_export_across_a_gap_writes_one_segment_per_part(minimal_path, tmp_path, capsys):
+    """Re-exporting an OEM that has a gap between segments: one OEM segment on each side, read back
+    by the independent `oem` package (CCSDS 502.0-B-2 allows several segments in one message)."""
+    import numpy as np
+    import oem as oem_reader
+
+    from contactplan.ephemeris import ephemeris_for
+    from contactplan.scenario.load import load_scenario
+    from contactplan.timescale import parse_utc
+
+    a, b = tmp_path / "a.oem", tmp_path / "b.oem"
+    for out, t0, t1 in ((a, "2027-01-12T00:00:00Z", "2027-01-14T12:00:00Z"),
+                        (b, "2027-01-15T00:00:00Z", "2027-01-19T00:00:00Z")):
+        assert main(["export", str(minimal_path), "--out", str(out), "--start", t0, "--end", t1, "--step", "300"]) == 0
+    second = b.read_text("utf-8")
+    (tmp_path / "gap.oem").write_text(a.read_text("utf-8") + "\n" + second[second.index("META_START"):], "utf-8")
+    lines = [('ephemeris = { oem = "gap.oem" }' if ln.startswith("ephemeris = { libration") else ln)
+             for ln in minimal_path.read_text("utf-8").splitlines()]
+    sc_path = tmp_path / "week.toml"
+    sc_path.write_text("\n".join(lines) + "\n", "utf-8")
+    capsys.readouterr()
+    again = tmp_path / "again.oem"
+    assert main(["export", str(sc_path), "--out", str(again), "--step", "3600"]) == 0
+    said = capsys.readouterr().out
+    assert "in 2 segments around the source's gaps" in said
+
+    msg = oem_reader.OrbitEphemerisMessage.open(str(again))
+    segs = list(msg.segments)
+    assert len(segs) == 2
+    first, last = list(segs[0].states), list(segs[1].states)
+    assert first[0].epoch.isot.startswith("2027-01-12T00:00:00") and first[-1].epoch.isot.startswith("2027-01-14T12:00:00")
+    assert last[0].epoch.isot.startswith("2027-01-15T00:00:00") and last[-1].epoch.isot.startswith("2027-01-19T00:00:00")
+    # the states are those of the source to the metre (the built-in orbit sampled the same way)
+    ref = ephemeris_for(load_scenario(minimal_path))
+    for st in (first[5], last[7]):
+        t = parse_utc(st.epoch.isot + "Z")
+        want = ref.state(np.array([t]))[0][0]
+        assert np.allclose(np.asarray(st.position, dtype=float), want, atol=1e-3)

@@ -254,11 +254,13 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
             n = write_bookings(scenario, out, fmt, plan=plan, now_tt=now_tt)
         return f"wrote {_plural(n, 'booking')} to {out}{note}"
     if what == "ephemeris":
-        n, t0, t1 = write_ephemeris(scenario, out, start_tt, end_tt, step_s,
-                                   ephemeris=getattr(plan, "ephemeris", None), creation_tt=now_tt)
+        n, t0, t1, segs = write_ephemeris(scenario, out, start_tt, end_tt, step_s,
+                                         ephemeris=getattr(plan, "ephemeris", None), creation_tt=now_tt)
         from contactplan.timescale import format_utc
 
-        return f"wrote {_plural(n, 'ephemeris point')} ({format_utc(t0, 0)} to {format_utc(t1, 0)}, every {step_s:g} s) to {out}"
+        parts = f" in {segs} segments around the source's gaps" if segs > 1 else ""
+        return (f"wrote {_plural(n, 'ephemeris point')} ({format_utc(t0, 0)} to {format_utc(t1, 0)}, "
+                f"every {step_s:g} s){parts} to {out}")
     # report
     plan = _plan_for(scenario, plan, progress, cancel)
     from contactplan.io.report import write_report
@@ -299,9 +301,30 @@ def ephemeris_epochs(start_tt: float, end_tt: float, step_s: float):
     return t
 
 
+def _around_gaps(eph, t):
+    """Epochs ``t`` (TT s) split around the source's gaps between segments: epochs inside a gap are
+    dropped, the gap's edges added, and the index where each new part starts returned, so the OEM
+    gets one segment per gap-free part (as flight dynamics delivers it). Ends outside the source
+    are left to raise when sampled."""
+    import numpy as np
+
+    gaps = [(float(a), float(b)) for a, b in (getattr(eph, "gaps", None) or []) if b > t[0] and a < t[-1]]
+    if not gaps:
+        return t, []
+    keep = np.ones(t.size, dtype=bool)
+    for a, b in gaps:
+        keep &= ~((t > a) & (t < b))
+    edges = np.array([x for g in gaps for x in g if t[0] <= x <= t[-1]], dtype=float)
+    t = np.union1d(t[keep], edges)
+    starts = [int(np.searchsorted(t, b)) for a, b in sorted(gaps) if t[0] < b <= t[-1]]
+    return t, starts
+
+
 def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 600.0, ephemeris=None,
                     creation_tt: float | None = None):
-    """Sample the scenario's ephemeris and write CCSDS OEM KVN; returns (points, first_tt, last_tt)."""
+    """Sample the scenario's ephemeris and write CCSDS OEM KVN; returns (points, first_tt, last_tt, segments).
+
+    A gap in the source between its segments gives one OEM segment per part on each side."""
     from contactplan.ephemeris import ephemeris_for
 
     start = scenario.start_tt if start_tt is None else float(start_tt)
@@ -310,14 +333,15 @@ def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 6
     eph = ephemeris
     if eph is None or not bool(eph.covers(t).all()):
         eph = ephemeris_for(scenario, start, end)
+    t, starts = _around_gaps(eph, t)
     pos, vel = eph.state(t)  # raises OutOfSpanError naming the covered span
     from contactplan.io.oem import write_oem
 
     sc_raw = getattr(scenario.spacecraft, "raw", {}) or {}
-    write_oem(out, t, pos, vel, object_name=scenario.spacecraft.name,
+    write_oem(out, t, pos, vel, object_name=scenario.spacecraft.name, segment_starts=starts,
               object_id=str(sc_raw.get("object_id") or "UNKNOWN"), center="EARTH", frame="ICRF",
               time_system="UTC", creation_tt=creation_tt,
               comments=[f"Sampled by contactplan {__version__} from scenario {scenario.name!r}, "
                         f"revision {scenario.revision}, every {step_s:g} s",
                         f"Source: {getattr(eph, 'name', 'ephemeris')}", CAUTION])
-    return len(t), float(t[0]), float(t[-1])
+    return len(t), float(t[0]), float(t[-1]), len(starts) + 1

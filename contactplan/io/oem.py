@@ -912,12 +912,14 @@ def _num(x: float) -> str:
 def write_oem(path, t_tt, pos_km, vel_km_s, object_name: str, object_id: str, center: str = "EARTH",
               frame: str = "ICRF", time_system: str = "UTC", originator: str = "contactplan", comments=(),
               interpolation: str = "LAGRANGE", interpolation_degree: int = 7, creation_tt: float | None = None,
-              acc_km_s2=None) -> Path:
-    """Write one segment as a KVN OEM version 2.0, atomically.
+              acc_km_s2=None, segment_starts=()) -> Path:
+    """Write a KVN OEM version 2.0, atomically: one segment, or one per part when ``segment_starts``
+    gives the indexes of ``t_tt`` where a new segment begins (around a gap in the source).
 
     ``pos_km``/``vel_km_s`` (N, 3) are written as given: relative to ``center``
     in ``frame`` axes. Numbers are written with the shortest text that reads back
     to the same float; epochs with 3, 6 or 9 decimals (see :func:`format_epochs`).
+    Every segment needs at least 2 states.
     """
     from contactplan.fileio import atomic_write
     from contactplan.timescale import now_tt
@@ -940,7 +942,9 @@ def write_oem(path, t_tt, pos_km, vel_km_s, object_name: str, object_id: str, ce
     if center not in CENTERS or frame not in FRAMES or ts not in TIME_SYSTEMS:
         raise InputError(f"cannot write centre {center}, frame {frame}, time system {ts}", path)
     interpolation = interpolation.upper()
-    degree = min(int(interpolation_degree), len(t) - 1)
+    bounds = [0] + sorted({int(k) for k in segment_starts if 0 < int(k) < len(t)}) + [len(t)]
+    if any(b - a < 2 for a, b in zip(bounds[:-1], bounds[1:])):
+        raise InputError("an ephemeris segment needs at least 2 states", path)
     for name, val in (("OBJECT_NAME", object_name), ("OBJECT_ID", object_id), ("ORIGINATOR", originator)):
         if not str(val).strip() or "\n" in str(val):
             raise InputError(f"{name} must be one line of text", path)
@@ -950,15 +954,19 @@ def write_oem(path, t_tt, pos_km, vel_km_s, object_name: str, object_id: str, ce
     for c in comments:
         for ln in str(c).splitlines() or [""]:
             out.append(f"COMMENT {ln}".rstrip())
-    out += [f"CREATION_DATE = {created}", f"ORIGINATOR = {originator}", "", "META_START",
-            f"OBJECT_NAME = {object_name}", f"OBJECT_ID = {object_id}", f"CENTER_NAME = {center}",
-            f"REF_FRAME = {frame}", f"TIME_SYSTEM = {ts}", f"START_TIME = {ep[0]}", f"STOP_TIME = {ep[-1]}",
-            f"INTERPOLATION = {interpolation}", f"INTERPOLATION_DEGREE = {degree}", "META_STOP", ""]
+    out += [f"CREATION_DATE = {created}", f"ORIGINATOR = {originator}"]
     cols = [ep] + [[repr(x) for x in p[:, j].tolist()] for j in range(3)] \
         + [[repr(x) for x in v[:, j].tolist()] for j in range(3)]
     if a is not None:
         cols += [[repr(x) for x in a[:, j].tolist()] for j in range(3)]
-    out.extend(" ".join(row) for row in zip(*cols))
+    rows = [" ".join(row) for row in zip(*cols)]
+    for i0, i1 in zip(bounds[:-1], bounds[1:]):
+        degree = min(int(interpolation_degree), i1 - i0 - 1)
+        out += ["", "META_START",
+                f"OBJECT_NAME = {object_name}", f"OBJECT_ID = {object_id}", f"CENTER_NAME = {center}",
+                f"REF_FRAME = {frame}", f"TIME_SYSTEM = {ts}", f"START_TIME = {ep[i0]}", f"STOP_TIME = {ep[i1 - 1]}",
+                f"INTERPOLATION = {interpolation}", f"INTERPOLATION_DEGREE = {degree}", "META_STOP", ""]
+        out.extend(rows[i0:i1])
     return atomic_write(path, "\n".join(out) + "\n")
 
 
