@@ -216,3 +216,40 @@ def test_earth_shadow_entry_and_exit_match_brute_force(distance_km):
             assert abs(g0 - r0) <= 2.0 and abs(g1 - r1) <= 2.0
             assert start < g0 < g1 < end
     assert (len(got_umb) == 1) == (distance_km < 1.38e6)
+
+
+def test_moon_shadow_entry_and_exit_match_brute_force():
+    # A point fixed in GCRS 50000 km behind the Moon on the anti-Sun side at mid-window: the Moon moves on
+    # (~1 km/s) and its umbra and penumbra sweep over the point. Brute force as above with the Moon
+    # (radius 1738 km, from memory) as the occulting body, vectors from skyfield's DE421.
+    from contactplan.data import planetary_ephemeris, skyfield_timescale
+    from contactplan.geometry.analytic import FixedDirectionEphemeris
+    from contactplan.geometry.shadow import shadow_spans
+
+    start = parse_utc("2027-05-03T00:00:00Z")
+    end = start + 0.5 * DAY_S
+    mid = np.array([start + 0.25 * DAY_S])
+    moon = bodies.moon_km(mid)[0][0]
+    sun = bodies.sun_km(mid)[0][0]
+    u = (moon - sun) / np.linalg.norm(moon - sun)
+    point = moon + 50000.0 * u
+    d = np.linalg.norm(point)
+    eph = FixedDirectionEphemeris(float(np.degrees(np.arctan2(point[1], point[0]))),
+                                  float(np.degrees(np.arcsin(point[2] / d))), float(d))
+    ours = [s for s in shadow_spans(eph, start, end) if s.body == "moon"]
+
+    planets = planetary_ephemeris()
+    ts = skyfield_timescale()
+    t = np.arange(start, end + 1.0, 2.0)
+    tt = ts.tt_jd(2451545.0, t / DAY_S)
+    r = eph.position_km(t)
+    s_vec = (planets["sun"] - planets["earth"]).at(tt).position.km.T - r
+    m_vec = (planets["moon"] - planets["earth"]).at(tt).position.km.T - r
+    a = np.degrees(np.arcsin(696000.0 / np.linalg.norm(s_vec, axis=1)))
+    b = np.degrees(np.arcsin(1738.0 / np.linalg.norm(m_vec, axis=1)))
+    c = _sep_deg(s_vec, m_vec)
+    for kind, flag in (("penumbra", c < a + b), ("umbra", c < b - a)):
+        idx = np.nonzero(flag)[0]
+        got = [(x.start_tt, x.end_tt) for x in ours if x.kind == kind]
+        assert idx.size and len(got) == 1 and np.all(np.diff(idx) == 1), kind
+        assert abs(got[0][0] - t[idx[0]]) <= 2.0 and abs(got[0][1] - t[idx[-1]]) <= 2.0, kind
