@@ -165,6 +165,7 @@ def test_sun_earth_probe_and_separations_per_pass_match_astropy(demo):
         worst_moon = max(worst_moon, abs(p.moon_separation_min_deg - float(np.min(los.separation(moon).deg))))
         worst_sun = max(worst_sun, abs(p.sun_separation_min_deg - float(np.min(los.separation(sun).deg))))
     assert worst_moon < 0.01 and worst_sun < 0.01, (worst_moon, worst_sun)
+    print(f"SEP within {np.max(np.abs(got - sep)):.1e} deg, Moon separation {worst_moon:.1e}, Sun {worst_sun:.1e}")
 
 
 # ---------------------------------------------------------------- shadows vs brute force
