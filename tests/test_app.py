@@ -24,6 +24,8 @@ from PySide6.QtWidgets import QApplication, QMessageBox  # noqa: E402
 
 from contactplan import CAUTION  # noqa: E402
 from contactplan.paths import demo_scenario  # noqa: E402
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 from contactplan.scenario import load_scenario  # noqa: E402
 from contactplan.timescale import parse_utc, utc_day_start  # noqa: E402
 
@@ -633,44 +635,41 @@ def test_station_edit_marks_passes_stale_and_recomputes(win, demo_copy, demo_pla
     _wait_job(win, qtbot)
 
 
-def test_run_app_on_a_broken_file_shows_the_error_and_keeps_running(qapp, tmp_path, monkeypatch):
-    from PySide6.QtCore import QTimer
+def test_run_app_on_a_broken_file_shows_the_error_and_keeps_running(tmp_path):
+    """The real start-up, in its own process (its event loop ends with the test)."""
+    import subprocess
+    import sys
 
-    from contactplan.app.main import run_app
-    from contactplan.app.window import MainWindow
     from contactplan.errors import InputError
 
-    for var in ("HOME", "XDG_CONFIG_HOME", "XDG_DATA_HOME", "XDG_STATE_HOME"):
-        monkeypatch.setenv(var, str(tmp_path / var.lower()))
-    QStandardPaths.setTestModeEnabled(True)
     bad = tmp_path / "bad.toml"
     bad.write_text("[scenario]\nname = 'x'\nstart = 'yesterday'\n", encoding="utf-8")
     with pytest.raises(InputError) as exc:
         load_scenario(bad)
-    seen = {}
-
-    def look():
-        wins = [w for w in QApplication.topLevelWidgets() if isinstance(w, MainWindow) and w.isVisible()]
-        seen["errors"] = [w.last_error for w in wins]
-        for w in wins:
-            w.close()
-        qapp.quit()
-
-    import logging
-    import sys
-
-    monkeypatch.setattr(sys, "excepthook", sys.excepthook)  # run_app installs its own; put it back after
-    logger = logging.getLogger("contactplan")
-    handlers = list(logger.handlers)
-    QTimer.singleShot(300, look)
-    try:
-        assert run_app(str(bad)) == 0
-    finally:
-        for h in logger.handlers[:]:
-            if h not in handlers:
-                logger.removeHandler(h)
-                h.close()
-    assert seen["errors"] == [str(exc.value)]
+    env = dict(os.environ, QT_QPA_PLATFORM="offscreen")
+    for var in ("HOME", "XDG_CONFIG_HOME", "XDG_DATA_HOME", "XDG_STATE_HOME"):
+        env[var] = str(tmp_path / var.lower())
+    script = (
+        "import sys\n"
+        "from PySide6.QtCore import QTimer\n"
+        "from PySide6.QtWidgets import QApplication\n"
+        "from contactplan.app.main import application, run_app\n"
+        "application()\n"
+        "from contactplan.app.window import MainWindow\n"
+        "def look():\n"
+        "    for w in QApplication.topLevelWidgets():\n"
+        "        if isinstance(w, MainWindow) and w.isVisible():\n"
+        "            print('ERROR-LINE:' + str(w.last_error), flush=True)\n"
+        "            w.close()\n"
+        "    QApplication.instance().quit()\n"
+        "QTimer.singleShot(1500, look)\n"
+        "sys.exit(run_app(sys.argv[1]))\n"
+    )
+    out = subprocess.run([sys.executable, "-c", script, str(bad)], env=env, capture_output=True, text=True,
+                         timeout=120, cwd=str(ROOT))
+    assert out.returncode == 0, out.stderr[-2000:]
+    lines = [ln[len("ERROR-LINE:"):] for ln in out.stdout.splitlines() if ln.startswith("ERROR-LINE:")]
+    assert lines == [str(exc.value)]
     # the log went to the user log folder
     logs = list((tmp_path / "xdg_state_home").rglob("contactplan.log"))
     assert logs and "bad.toml" in logs[0].read_text(encoding="utf-8")
