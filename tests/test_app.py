@@ -744,3 +744,19 @@ def test_recompute_while_computing_restarts_without_freezing(win, demo_copy, qtb
     t0 = time.perf_counter()
     win.set_scenario(load_scenario(demo_copy), compute=False)
     assert time.perf_counter() - t0 < 5.0 and not win.job.running
+
+
+def test_day_of_year_dates_in_tables(win, demo_copy, demo_plan):
+    sc = _open_with(win, demo_copy, demo_plan)
+    m = win.bookings_model
+    row = next(i for i, b in enumerate(m.rows) if b.id == "B002")
+    assert m.index(row, 2).data() == "2027-01-13T11:00:00Z"
+    win.act_doy.setChecked(True)
+    try:
+        assert m.index(row, 2).data() == "2027-013T11:00:00Z"  # 13 January is day 13 (calendar fact)
+        assert win.passes_model.index(0, 1).data()[4] == "-" and win.passes_model.index(0, 1).data()[8] == "T"
+        # day-of-year text is accepted back when editing
+        assert m.setData(m.index(row, 3), "2027-013T16:00:00Z")
+        assert sc.booking("B002").end_tt == parse_utc("2027-01-13T16:00:00Z")
+    finally:
+        win.act_doy.setChecked(False)

@@ -13,6 +13,19 @@ SORT_ROLE = Qt.ItemDataRole.UserRole + 1  # numeric key for sorting
 OBJECT_ROLE = Qt.ItemDataRole.UserRole + 2  # the Pass / Booking / Finding of the row
 
 
+#: show table times as day of year (2027-012T19:00:00Z) instead of calendar dates
+_DOY = {"on": False}
+
+
+def set_day_of_year(on: bool) -> None:
+    _DOY["on"] = bool(on)
+
+
+def utc_text(tt):
+    """Table time text (scalar or list): calendar or day-of-year UTC, whole seconds."""
+    return format_utc(tt, 0, doy=_DOY["on"])
+
+
 def hours_text(seconds: float) -> str:
     """Duration as ``H:MM`` (rounded to the minute)."""
     m = int(round(seconds / 60.0))
@@ -119,8 +132,8 @@ class PassesModel(_Base):
 
     def _build(self, rows) -> None:
         """Display text and sort keys of every row at once (time columns formatted in one vector call)."""
-        aos = format_utc([p.aos_tt for p in rows], 0) if rows else []
-        los = format_utc([p.los_tt for p in rows], 0) if rows else []
+        aos = utc_text([p.aos_tt for p in rows]) if rows else []
+        los = utc_text([p.los_tt for p in rows]) if rows else []
         self.display, self.keys = [], []
         for p, a, b in zip(rows, aos, los):
             notes = self.notes(p)
@@ -226,7 +239,7 @@ class BookingsModel(_Base):
                 return "" if not (e or w) else f"{e} err, {w} warn"
             if c == 6:
                 return "locked" if b.locked and role == Qt.ItemDataRole.DisplayRole else None
-            return (b.id, b.station, format_utc(b.start_tt, 0), format_utc(b.end_tt, 0), hours_text(b.duration_s),
+            return (b.id, b.station, utc_text(b.start_tt), utc_text(b.end_tt), hours_text(b.duration_s),
                     ", ".join(b.purposes), None, _num(self._down(b), ".1f"), None)[c]
         if role == Qt.ItemDataRole.ToolTipRole and c == 8:
             return "\n".join(f.message for f in self.doc.findings_for(b.id)) or None
@@ -293,7 +306,7 @@ class FindingsModel(_Base):
 
     def _rows(self):
         rows = sorted(self.doc.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
-        starts = format_utc([f.start_tt for f in rows], 0) if rows else []
+        starts = utc_text([f.start_tt for f in rows]) if rows else []
         self.display = [(f.severity, f.rule, ", ".join(f.subjects), t, f.message) for f, t in zip(rows, starts)]
         return rows
 

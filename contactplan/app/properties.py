@@ -7,7 +7,8 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout
 
 from contactplan.errors import InputError
 from contactplan.scenario.model import PURPOSES
-from contactplan.timescale import format_utc, parse_utc
+from contactplan.app.models import utc_text
+from contactplan.timescale import parse_utc
 
 
 def _spin(value: float, lo: float, hi: float, decimals: int = 2, suffix: str = "") -> QDoubleSpinBox:
@@ -101,8 +102,8 @@ class PropertyEditor(QWidget):
         st.addItems([s.id for s in self.doc.scenario.stations])
         st.setCurrentText(b.station)
         self.fields["station"] = st
-        self.fields["start_tt"] = QLineEdit(format_utc(b.start_tt, 0))
-        self.fields["end_tt"] = QLineEdit(format_utc(b.end_tt, 0))
+        self.fields["start_tt"] = QLineEdit(utc_text(b.start_tt))
+        self.fields["end_tt"] = QLineEdit(utc_text(b.end_tt))
         self.form.addRow("Station", st)
         self.form.addRow("Start (UTC)", self.fields["start_tt"])
         self.form.addRow("End (UTC)", self.fields["end_tt"])
@@ -132,7 +133,7 @@ class PropertyEditor(QWidget):
 
     def _build_activity(self, a) -> None:
         self.title.setText(f"Activity {a.id} ({a.kind})")
-        self.fields["start_tt"] = QLineEdit(format_utc(a.start_tt, 0))
+        self.fields["start_tt"] = QLineEdit(utc_text(a.start_tt))
         self.fields["duration_min"] = _spin(a.duration_min, 0, 7 * 1440, 1, "min")
         self.fields["downlink_keepout_min"] = _spin(a.downlink_keepout_min, 0, 1440, 1, "min")
         self.fields["monitor_before_min"] = _spin(a.monitor_before_min, 0, 1440, 1, "min")

@@ -189,6 +189,8 @@ class MainWindow(QMainWindow):
         state = self.settings.value("window/state")
         if state is not None:
             self.restoreState(state)
+        if str(self.settings.value("view/doy", "false")).lower() == "true":
+            self.act_doy.setChecked(True)
         self._update_title()
         self._update_actions()
 
@@ -332,6 +334,8 @@ class MainWindow(QMainWindow):
         if str(self.settings.value("view/shade", "rate")) == "elevation":
             self.act_shade_el.setChecked(True)
             self.timeline.set_shade("elevation")
+        self.act_doy = QAction("&Day-of-year dates in tables", self, checkable=True)
+        self.act_doy.toggled.connect(self.set_day_of_year)
         self.export_actions = []
         for what, fmt, label, filt in EXPORTS:
             a = self._act(label + "...", lambda w=what, f=fmt, flt=filt: self.export_dialog(w, f, flt))
@@ -370,6 +374,7 @@ class MainWindow(QMainWindow):
         m.addSeparator()
         m.addAction(self.act_shade_rate)
         m.addAction(self.act_shade_el)
+        m.addAction(self.act_doy)
         m.addSeparator()
         for d in (self.passes_dock, self.bookings_dock, self.findings_dock, self.sky_dock, self.props_dock,
                   self.history_dock):
@@ -431,6 +436,16 @@ class MainWindow(QMainWindow):
         self.info_box = box
 
     # ------------------------------------------------------------ title, summary, actions
+    def set_day_of_year(self, on: bool) -> None:
+        """Tables and editors show 2027-012T19:00:00Z instead of 2027-01-12T19:00:00Z."""
+        from contactplan.app.models import set_day_of_year
+
+        set_day_of_year(on)
+        self.settings.setValue("view/doy", bool(on))
+        for m in (self.passes_model, self.bookings_model, self.findings_model):
+            m.refresh()
+        self.props.reload()
+
     def set_shade(self, mode: str) -> None:
         self.timeline.set_shade(mode)
         self.settings.setValue("view/shade", mode)
