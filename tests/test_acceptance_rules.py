@@ -169,3 +169,19 @@ def test_oem_with_a_gap_between_segments_gives_passes_volumes_and_findings(minim
     assert main(["passes", str(sc_path), "--out", str(tmp_path / "p.json")]) == 0
     doc = json.loads((tmp_path / "p.json").read_text("utf-8"))
     assert len(doc["ephemeris_coverage"]) == 2
+
+
+def test_end_of_window_findings_dropped_when_the_ephemeris_stops_early():
+    """recorder-end is an instant at the window end: with no ephemeris over the last days the recorder
+    there counts no downlink, so the verdict is withheld (no-ephemeris says why)."""
+    cov1 = parse_utc("2027-01-17T00:00:00Z")
+    sc = make_scenario(requirements=m.Requirements(recorder_end_max_gbit=40.0))
+    rec = RecorderResult(t_tt=T0 + np.arange(3) * H, fill_gbit=np.array([50.0, 60.0, 60.0]), capacity_gbit=100.0,
+                         generated_gbit=10.0, downlinked_gbit=0.0, lost_gbit=0.0, end_gbit=60.0, overflow_spans=[])
+    passes = [p for p in PASSES if p.los_tt <= cov1]
+    found = run_rules(RuleContext.build(sc, passes, recorder=rec, coverage=[(sc.start_tt, cov1)]))
+    assert rules_of(found, "recorder-end") == []
+    assert len(rules_of(found, "no-ephemeris")) == 1
+    # covered to the end: the same recorder gives the warning
+    found = run_rules(RuleContext.build(sc, PASSES, recorder=rec, coverage=[(sc.start_tt, sc.end_tt)]))
+    assert len(rules_of(found, "recorder-end")) == 1

@@ -624,6 +624,13 @@ def clip(findings, start_tt: float, end_tt: float) -> list[Finding]:
     return findings
 
 
+def _touches(f: Finding, g0: float, g1: float) -> bool:
+    """The finding's span overlaps [g0, g1]; an instant (such as the window end) counts when inside it."""
+    if f.end_tt <= f.start_tt:
+        return g0 <= f.start_tt <= g1
+    return f.start_tt < g1 and g0 < f.end_tt
+
+
 def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
     """Run ``rules`` (default :data:`RULES`), clip spans to the window, sort by start then severity."""
     found: list[Finding] = []
@@ -631,8 +638,7 @@ def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
         found.extend(rule(ctx))
     if ctx.uncovered:  # said once by no-ephemeris instead of as false alarms
         found = [f for f in found if f.rule not in NEEDS_EPHEMERIS
-                 or not any(f.start_tt < g1 and g0 < max(f.end_tt, f.start_tt + EDGE_TOLERANCE_S)
-                            for g0, g1 in ctx.uncovered)]
+                 or not any(_touches(f, g0, g1) for g0, g1 in ctx.uncovered)]
     clip(found, ctx.start_tt, ctx.end_tt)
     found.sort(key=sort_key)
     return found
