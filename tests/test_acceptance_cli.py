@@ -247,3 +247,23 @@ def test_ephemeris_export_across_a_gap_writes_one_segment_per_part(minimal_path,
         t = parse_utc(st.epoch.isot + "Z")
         want = ref.state(np.array([t]))[0][0]
         assert np.allclose(np.asarray(st.position, dtype=float), want, atol=1e-3)
+
+
+def test_oem_export_is_ascii_even_for_names_that_are_not(minimal_path, tmp_path, capsys):
+    """KVN messages are ASCII text (CCSDS 502.0-B-2, from memory): a name with accents or other
+    scripts is folded, and the independent `oem` reader still reads the file."""
+    import oem as oem_reader
+
+    from contactplan.io.oem import ascii_text
+
+    assert ascii_text("Córvid — Ωbservatory Søndre Œuvre") == "Corvid - ?bservatory Sondre OEuvre"
+    text = minimal_path.read_text("utf-8").replace('name = "Invented probe"', 'name = "Sonde inventée — Ω"')
+    sc = tmp_path / "week.toml"
+    sc.write_text(text, "utf-8")
+    out = tmp_path / "probe.oem"
+    assert main(["export", str(sc), "--out", str(out), "--step", "3600"]) == 0
+    raw = out.read_bytes()
+    assert raw.isascii()
+    assert b"OBJECT_NAME = Sonde inventee - ?" in raw
+    msg = oem_reader.OrbitEphemerisMessage.open(str(out))
+    assert len(list(list(msg.segments)[0].states)) == 7 * 24 + 1

@@ -909,6 +909,25 @@ def _num(x: float) -> str:
     return r
 
 
+def ascii_text(text) -> str:
+    """``text`` as printable ASCII for a KVN file: accents dropped (é -> e), common punctuation mapped,
+    anything else replaced by '?' so the loss shows."""
+    import unicodedata
+
+    table = {"\u2014": "-", "\u2013": "-", "\u2018": "'", "\u2019": "'", "\u201c": '"', "\u201d": '"',
+             "\u00df": "ss", "\u00e6": "ae", "\u00c6": "AE", "\u0153": "oe", "\u0152": "OE", "\u00f8": "o",
+             "\u00d8": "O", "\u00a0": " "}
+    out = []
+    for ch in unicodedata.normalize("NFKD", str(text)):
+        if ch.isascii():
+            out.append(ch if ch.isprintable() else " ")
+        elif unicodedata.combining(ch):
+            continue
+        else:
+            out.append(table.get(ch, "?"))
+    return "".join(out)
+
+
 def write_oem(path, t_tt, pos_km, vel_km_s, object_name: str, object_id: str, center: str = "EARTH",
               frame: str = "ICRF", time_system: str = "UTC", originator: str = "contactplan", comments=(),
               interpolation: str = "LAGRANGE", interpolation_degree: int = 7, creation_tt: float | None = None,
@@ -948,12 +967,14 @@ def write_oem(path, t_tt, pos_km, vel_km_s, object_name: str, object_id: str, ce
     for name, val in (("OBJECT_NAME", object_name), ("OBJECT_ID", object_id), ("ORIGINATOR", originator)):
         if not str(val).strip() or "\n" in str(val):
             raise InputError(f"{name} must be one line of text", path)
+    # a KVN message is ASCII text (CCSDS 502.0-B-2, KVN rules; from memory): names are folded
+    object_name, object_id, originator = (ascii_text(x) for x in (object_name, object_id, originator))
     ep = format_epochs(t, ts)
     created = format_epochs([now_tt() if creation_tt is None else creation_tt], "UTC", 3)[0]
     out = ["CCSDS_OEM_VERS = 2.0"]
     for c in comments:
         for ln in str(c).splitlines() or [""]:
-            out.append(f"COMMENT {ln}".rstrip())
+            out.append(f"COMMENT {ascii_text(ln)}".rstrip())
     out += [f"CREATION_DATE = {created}", f"ORIGINATOR = {originator}"]
     cols = [ep] + [[repr(x) for x in p[:, j].tolist()] for j in range(3)] \
         + [[repr(x) for x in v[:, j].tolist()] for j in range(3)]
