@@ -760,3 +760,22 @@ def test_day_of_year_dates_in_tables(win, demo_copy, demo_plan):
         assert sc.booking("B002").end_tt == parse_utc("2027-01-13T16:00:00Z")
     finally:
         win.act_doy.setChecked(False)
+
+
+def test_switching_to_dark_recolours_the_timeline(win, demo_copy, demo_plan, monkeypatch):
+    from contactplan.app import theme
+
+    _open_with(win, demo_copy, demo_plan)
+    monkeypatch.setattr(theme, "system_is_dark", lambda: True)
+    win.refresh_theme()
+    assert theme.current().dark
+    assert win.timeline.backgroundBrush().color().name() == theme.dark_theme().background.name()
+    img = win.timeline.grab().toImage()
+    # most of the lanes are now dark
+    dark = sum(img.pixelColor(x, y).lightness() < 100 for x in range(0, img.width(), 17)
+               for y in range(0, img.height(), 17))
+    total = len(range(0, img.width(), 17)) * len(range(0, img.height(), 17))
+    assert dark > 0.5 * total
+    monkeypatch.setattr(theme, "system_is_dark", lambda: False)
+    win.refresh_theme()
+    assert not theme.current().dark

@@ -706,12 +706,6 @@ class Timeline(pg.GraphicsLayoutWidget):
         for plot in (self.lanes_plot, self.rec_plot, self.el_plot):
             plot.getAxis("left").setWidth(92)
             plot.showGrid(x=True, y=False, alpha=0.25)
-        for plot in (self.rec_plot, self.el_plot):
-            plot.getAxis("left").setPen(th.foreground)
-            plot.getAxis("left").setTextPen(th.foreground)
-        for ax in (self.top_axis, self.el_axis, self.lane_axis):
-            ax.setPen(th.foreground)
-            ax.setTextPen(th.foreground)
         layout = self.ci.layout
         layout.setRowStretchFactor(0, 5)
         layout.setRowStretchFactor(1, 2)
@@ -723,6 +717,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             ln.setZValue(50)
             plot.addItem(ln, ignoreBounds=True)
             self.now_lines.append(ln)
+        self.apply_theme()
         self.lanes_plot.scene().sigMouseMoved.connect(self._hover)
         self._now_timer = QTimer(self)
         self._now_timer.timeout.connect(self.update_now)
@@ -734,6 +729,26 @@ class Timeline(pg.GraphicsLayoutWidget):
         doc.recordsChanged.connect(self._records_changed)
         doc.findingsChanged.connect(self._findings_changed)
         doc.selectionChanged.connect(self._selection_changed)
+
+    def apply_theme(self) -> None:
+        """Re-colour everything drawn by pyqtgraph from the current theme (light or dark)."""
+        th = theme.current()
+        self.setBackground(th.background)
+        for plot in (self.lanes_plot, self.rec_plot, self.el_plot):
+            for name in ("left", "top", "bottom"):
+                ax = plot.getAxis(name)
+                ax.setPen(th.foreground)
+                ax.setTextPen(th.foreground)
+        self.fill_curve.setPen(pg.mkPen(th.fill, width=2))
+        self.fill_curve.setBrush(QColor(th.fill.red(), th.fill.green(), th.fill.blue(), 60))
+        self.capacity_line.setPen(pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine))
+        self.capacity_line.label.setColor(th.foreground)
+        self.el_curve.setPen(pg.mkPen(th.track, width=1.5))
+        self.el_min_line.setPen(pg.mkPen(th.day_line, style=Qt.PenStyle.DotLine))
+        for ln in self.now_lines:
+            ln.setPen(pg.mkPen(th.now, width=2))
+        self._findings_changed()
+        self.canvas.update()
 
     # ------------------------------------------------------------ coordinates
     def x_of(self, t_tt: float) -> float:

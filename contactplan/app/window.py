@@ -179,6 +179,12 @@ class MainWindow(QMainWindow):
         self.doc.passesStale.connect(self._stale)
         self.doc.undo_stack.indexChanged.connect(self._update_title)
 
+        try:  # follow the desktop when it switches between light and dark (Qt 6.5+)
+            from PySide6.QtGui import QGuiApplication
+
+            QGuiApplication.styleHints().colorSchemeChanged.connect(self.refresh_theme)
+        except AttributeError:  # pragma: no cover
+            pass
         self.autosave_timer = QTimer(self)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start(int(self.settings.value("autosave_ms", AUTOSAVE_MS)))
@@ -277,6 +283,7 @@ class MainWindow(QMainWindow):
         a = QAction(text, self)
         if icon:
             a.setIcon(icons.icon(icon))
+            a.setProperty("icon_name", icon)
         if shortcut is not None:
             a.setShortcut(QKeySequence(shortcut))
         if tip:
@@ -300,9 +307,11 @@ class MainWindow(QMainWindow):
         self.act_undo = self.doc.undo_stack.createUndoAction(self, "&Undo")
         self.act_undo.setShortcut(QKeySequence(K.Undo))
         self.act_undo.setIcon(icons.icon("undo"))
+        self.act_undo.setProperty("icon_name", "undo")
         self.act_redo = self.doc.undo_stack.createRedoAction(self, "&Redo")
         self.act_redo.setShortcut(QKeySequence(K.Redo))
         self.act_redo.setIcon(icons.icon("redo"))
+        self.act_redo.setProperty("icon_name", "redo")
         self.act_delete = self._act("&Delete booking", self.delete_selected, K.Delete)
         self.act_delete.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
         self.timeline.addAction(self.act_delete)
@@ -436,6 +445,20 @@ class MainWindow(QMainWindow):
         self.info_box = box
 
     # ------------------------------------------------------------ title, summary, actions
+    def refresh_theme(self, *_args) -> None:
+        """Re-read the light/dark scheme and re-colour the timeline, the sky view and the icons."""
+        theme.current(refresh=True)
+        icons.icon.cache_clear()
+        self.timeline.apply_theme()
+        self.sky.update()
+        for a in (self.act_new, self.act_open, self.act_save, self.act_save_as, self.act_import,
+                  self.act_revalidate, self.act_undo, self.act_redo, self.act_zoom_in, self.act_zoom_out,
+                  self.act_prev, self.act_next, self.act_now, self.act_compute, self.act_draft):
+            name = a.property("icon_name")
+            if name:
+                a.setIcon(icons.icon(name))
+        self.findings_model.refresh()
+
     def set_day_of_year(self, on: bool) -> None:
         """Tables and editors show 2027-012T19:00:00Z instead of 2027-01-12T19:00:00Z."""
         from contactplan.app.models import set_day_of_year
