@@ -51,6 +51,8 @@ def test_cover_says_when_the_ephemeris_misses_part_of_the_window(minimal_path, t
     write_report(plan, out)
     first = " ".join((PdfReader(str(out)).pages[0].extract_text() or "").split())
     assert "Ephemeris covers (UTC) 2027-01-14T00:00:00Z to 2027-01-19T00:00:00Z only" in first
+    every = " ".join(" ".join((p.extract_text() or "").split()) for p in PdfReader(str(out)).pages)
+    assert "* pass cut by the window's edge or where the ephemeris stops." in every
     # with the whole window covered the row is not there
     full = tmp_path / "full.pdf"
     write_report(compute_plan(sc, ephemeris_for(sc)), full)

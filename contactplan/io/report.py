@@ -518,7 +518,10 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         w = frame_w
         story += [Spacer(1, 3 * mm), table(rows, [0.1 * w, 0.21 * w, 0.21 * w, 0.1 * w, 0.12 * w, 0.14 * w, 0.12 * w])]
         if any(p.clipped_start or p.clipped_end for p in plan.passes):
-            story.append(P("* pass cut by the window's edge.", small))
+            partial = cover is not None and [(float(a), float(b)) for a, b in cover] != \
+                [(float(sc.start_tt), float(sc.end_tt))]
+            story.append(P("* pass cut by the window's edge" + (" or where the ephemeris stops." if partial else "."),
+                           small))
     else:
         story.append(P("No passes in the window."))
 
