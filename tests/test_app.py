@@ -779,3 +779,16 @@ def test_switching_to_dark_recolours_the_timeline(win, demo_copy, demo_plan, mon
     monkeypatch.setattr(theme, "system_is_dark", lambda: False)
     win.refresh_theme()
     assert not theme.current().dark
+
+
+def test_drag_past_los_stops_at_los(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    win.timeline.zoom_to(p.aos_tt, p.los_tt)
+    QApplication.processEvents()
+    lane = win.timeline.canvas.lane_of_station(p.station)
+    t0 = _grid(p.los_tt - 2 * 3600.0)
+    drag(qtbot, win, t0, p.los_tt + 1800.0, lane + 0.5)
+    b = sc.bookings[-1]
+    assert b.start_tt == pytest.approx(t0, abs=1e-6)
+    assert b.end_tt == pytest.approx(p.los_tt, abs=1e-6)  # clamped to the pass it was drawn on

@@ -141,6 +141,7 @@ class Drag:
         self.lane = lane
         self.x0 = x0
         self.booking = booking
+        self.pass_ = None
         self.station = None
         self.start_tt = booking.start_tt if booking is not None else None
         self.end_tt = booking.end_tt if booking is not None else None
@@ -588,6 +589,7 @@ class LanesCanvas(pg.GraphicsObject):
         if p is not None:
             d = Drag("create", lane, x)
             d.station = p.station
+            d.pass_ = p
             self.drag = d
             return d
         return None
@@ -596,7 +598,8 @@ class LanesCanvas(pg.GraphicsObject):
         t = self.t_of(x)
         if d.mode == "create":
             a, b = sorted((self.snap(self.t_of(d.x0), d.station), self.snap(t, d.station)))
-            d.start_tt, d.end_tt = a, b
+            p = d.pass_  # a new booking stays inside the pass it was drawn on
+            d.start_tt, d.end_tt = min(max(a, p.aos_tt), p.los_tt), min(max(b, p.aos_tt), p.los_tt)
         elif d.mode == "move":
             b = d.booking
             delta = t - self.t_of(d.x0)
