@@ -267,3 +267,25 @@ def test_oem_export_is_ascii_even_for_names_that_are_not(minimal_path, tmp_path,
     assert b"OBJECT_NAME = Sonde inventee - ?" in raw
     msg = oem_reader.OrbitEphemerisMessage.open(str(out))
     assert len(list(list(msg.segments)[0].states)) == 7 * 24 + 1
+
+
+def test_export_to_txt_asks_what_instead_of_writing_an_ephemeris(minimal_path, tmp_path, capsys):
+    """``contactplan passes --out p.txt`` is the aligned table; ``export --out p.txt`` silently wrote an
+    OEM ephemeris instead. Now it asks, and ``--what passes`` gives the same table as ``passes``."""
+    out = tmp_path / "passes.txt"
+    assert main(["export", str(minimal_path), "--out", str(out)]) == 2
+    [line] = _err_lines(capsys)
+    assert "--what passes" in line and "--what ephemeris" in line and not out.exists()
+
+    assert main(["export", str(minimal_path), "--out", str(out), "--what", "passes"]) == 0
+    assert capsys.readouterr().out.startswith("wrote ")
+    table = out.read_text("utf-8")
+    ref = tmp_path / "ref.txt"
+    assert main(["passes", str(minimal_path), "--out", str(ref)]) == 0
+    body = [ln for ln in ref.read_text("utf-8").splitlines() if not ln.startswith("Shadow")]
+    assert table.splitlines()[: len(body) - 1] == body[:-1]  # same rows; the caution closes both
+    assert table.rstrip().endswith("before use.")
+
+    oem = tmp_path / "probe.txt"
+    assert main(["export", str(minimal_path), "--out", str(oem), "--what", "ephemeris"]) == 0
+    assert oem.read_text("utf-8").startswith("CCSDS_OEM_VERS = 2.0")

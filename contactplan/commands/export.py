@@ -14,13 +14,13 @@ EXAMPLES = """\
 
 The extension picks the format: .xlsx, .csv and .json hold the pass table unless
 --what bookings; .ics is the booking calendar, .oem the ephemeris (CCSDS OEM KVN),
-.pdf the weekly report."""
+.pdf the weekly report; .txt needs --what passes (aligned table) or --what ephemeris."""
 
 
 def add_arguments(p) -> None:
     p.add_argument("scenario", metavar="SCENARIO", help="scenario file (.toml)")
     p.add_argument("--out", "-o", required=True, metavar="FILE",
-                   help="file to write; its extension picks the format (.csv .json .xlsx .ics .oem .pdf)")
+                   help="file to write; its extension picks the format (.csv .json .xlsx .ics .oem .pdf .txt)")
     p.add_argument("--what", choices=("passes", "bookings", "ephemeris", "report"),
                    help="what to export (default: from the extension; passes for .csv/.json/.xlsx)")
     p.add_argument("--start", metavar="T", help="start of the span, UTC (default: the scenario window's start)")

@@ -3,7 +3,8 @@
 ``export(...)`` is what the CLI (``contactplan export``) and the app call. It
 picks the format from the extension where that is unambiguous (``.xlsx`` and
 ``.json``/``.csv`` default to the pass table, ``.ics`` is the booking calendar,
-``.oem`` the ephemeris, ``.pdf`` the weekly report) and returns a line such as
+``.oem`` the ephemeris, ``.pdf`` the weekly report; ``.txt`` needs ``what``: the aligned
+pass table or the ephemeris as OEM text) and returns a line such as
 ``wrote 38 passes to passes.xlsx``. Every file is written atomically.
 """
 
@@ -20,7 +21,7 @@ WHATS = ("passes", "bookings", "ephemeris", "report")
 
 #: (what, format) pairs that exist
 SUPPORTED = {
-    ("passes", "csv"), ("passes", "json"), ("passes", "xlsx"),
+    ("passes", "csv"), ("passes", "json"), ("passes", "xlsx"), ("passes", "text"),
     ("bookings", "csv"), ("bookings", "json"), ("bookings", "xlsx"), ("bookings", "ics"),
     ("ephemeris", "oem"),
     ("report", "pdf"),
@@ -31,6 +32,7 @@ CHOICES = (
     ("passes", "xlsx", "Pass table (Excel workbook)", ".xlsx"),
     ("passes", "csv", "Pass table (CSV)", ".csv"),
     ("passes", "json", "Pass table (JSON)", ".json"),
+    ("passes", "text", "Pass table (aligned text)", ".txt"),
     ("bookings", "ics", "Booking calendar (iCalendar)", ".ics"),
     ("bookings", "csv", "Booking list (CSV)", ".csv"),
     ("bookings", "json", "Booking list (JSON)", ".json"),
@@ -62,12 +64,17 @@ def resolve(out, what: str | None = None) -> tuple[str, str]:
         raise InputError(f"cannot tell the format from the extension {ext or '(none)'!r}: use one of {known}", out)
     if what is not None and what not in WHATS:
         raise InputError(f"unknown export {what!r}: choose {', '.join(WHATS)}", out)
+    if ext == ".txt":  # plain text: the aligned pass table or the ephemeris as OEM text
+        if what is None:
+            raise InputError("a .txt file can hold the pass table (--what passes) or the ephemeris as "
+                             "OEM text (--what ephemeris): say which", out)
+        fmt = {"passes": "text", "ephemeris": "oem"}.get(what, fmt)
     if what is None:
         what = _IMPLIED.get(fmt, "passes")
     if what == "ephemeris" and fmt != "oem":
-        fmt = "oem" if ext in (".txt", ".kvn") else fmt
+        fmt = "oem" if ext == ".kvn" else fmt
     if (what, fmt) not in SUPPORTED:
-        fits = sorted(f".{f}" for w, f in SUPPORTED if w == what)
+        fits = sorted(f".{f}" for w, f in SUPPORTED if w == what and f != "text")
         raise InputError(f"{what} cannot be written as {ext}: use {' or '.join(fits)}", out)
     return what, fmt
 
@@ -228,6 +235,10 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
             from contactplan.fileio import atomic_write
 
             atomic_write(out, passes_json(scenario, passes, now_tt))
+        elif fmt == "text":
+            from contactplan.io.passtable import write_passes
+
+            write_passes(out, passes, "text", scenario, scenario.start_tt, scenario.end_tt, footer=[CAUTION])
         else:
             from contactplan.io.xlsx import write_passes_xlsx
 
