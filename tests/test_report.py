@@ -107,3 +107,23 @@ def test_report_refuses_unknown_paper(data_dir, tmp_path):
     with pytest.raises(InputError, match="choose a4 or letter"):
         write_report(make_plan(data_dir), tmp_path / "x.pdf", paper="a3")
     assert not (tmp_path / "x.pdf").exists()
+
+
+def test_report_first_page_renders_with_pdfium(data_dir, tmp_path):
+    """Independent renderer (PDFium through pypdfium2, a test extra): page 1 rasterises to the paper size."""
+    pdfium = pytest.importorskip("pypdfium2")
+    from contactplan.io.report import write_report
+
+    plan = make_plan(data_dir)
+    out = tmp_path / "week.pdf"
+    write_report(plan, out, paper="a4", now_tt=NOW_TT)
+    doc = pdfium.PdfDocument(str(out))
+    try:
+        image = doc[0].render(scale=1.0).to_pil()  # 72 dpi: one pixel per point
+        # A4 is 210 x 297 mm = 595.28 x 841.89 pt (ISO 216); PDFium rounds to whole pixels.
+        assert abs(image.width - 595) <= 1 and abs(image.height - 842) <= 1
+        # Not blank: the cover carries text and a framed caution box.
+        lo, hi = image.convert("L").getextrema()
+        assert lo < 100 and hi > 200
+    finally:
+        doc.close()
