@@ -71,6 +71,19 @@ def _backup(path: Path) -> None:
     _replace(str(tmp_bak), bak)  # the old backup stays until the new one is complete
 
 
+def read_input(path: str | Path) -> bytes:
+    """The bytes of an input file; a missing or unreadable file is an InputError naming it."""
+    path = Path(path)
+    try:
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise InputError("file not found", path) from None
+    except IsADirectoryError:
+        raise InputError("is a folder, not a file", path) from None
+    except OSError as exc:
+        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
+
+
 def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, encoding: str = "utf-8") -> Path:
     """Write ``data`` to ``path`` through a temporary file in the same folder.
 

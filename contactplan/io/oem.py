@@ -35,6 +35,7 @@ from pathlib import Path
 import numpy as np
 
 from contactplan.errors import InputError
+from contactplan.fileio import read_input
 from contactplan.timescale import (
     DAY_S,
     MJD_J2000,
@@ -394,13 +395,7 @@ def _format(t, scale, dec):
 def read_oem(path) -> OemFile:
     """Read a CCSDS OEM file (KVN or XML, version 2.0 or 3.0). Errors: InputError with line."""
     path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("file not found", path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
-    return parse_oem_bytes(data, path)
+    return parse_oem_bytes(read_input(path), path)
 
 
 def parse_oem_bytes(data: bytes, path=None) -> OemFile:

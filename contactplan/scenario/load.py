@@ -12,6 +12,7 @@ import re
 from pathlib import Path
 
 from contactplan.errors import InputError
+from contactplan.fileio import read_input
 from contactplan.scenario import model as m
 from contactplan.timescale import parse_time_value
 
@@ -388,12 +389,7 @@ def parse_text(text: str, path: Path | None = None) -> m.Scenario:
 def load_scenario(path: str | Path) -> m.Scenario:
     """Read and validate a scenario file."""
     path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("file not found", path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror}", path) from None
+    data = read_input(path)
     if not data.strip():
         raise InputError("file is empty", path)
     try:
