@@ -44,3 +44,19 @@ def user_log_dir() -> Path:
     if sys.platform == "darwin":
         return Path.home() / "Library" / "Logs" / "contactplan"
     return Path(os.environ.get("XDG_STATE_HOME", Path.home() / ".local" / "state")) / "contactplan" / "logs"
+
+
+def user_cache_dir() -> Path:
+    """Per-user cache folder (results that can be recomputed, e.g. corrected built-in orbits).
+
+    ``CONTACTPLAN_CACHE_DIR`` overrides it (the tests point it at a temporary folder);
+    otherwise XDG_CACHE_HOME on Linux, ~/Library/Caches on macOS, %LOCALAPPDATA% on Windows.
+    """
+    override = os.environ.get("CONTACTPLAN_CACHE_DIR")
+    if override:
+        return Path(override)
+    if sys.platform == "win32":
+        return Path(os.environ.get("LOCALAPPDATA", Path.home() / "AppData" / "Local")) / "contactplan" / "cache"
+    if sys.platform == "darwin":
+        return Path.home() / "Library" / "Caches" / "contactplan"
+    return Path(os.environ.get("XDG_CACHE_HOME") or (Path.home() / ".cache")) / "contactplan"

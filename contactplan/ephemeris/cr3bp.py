@@ -416,7 +416,8 @@ def halo_orbit(mu: float, point, az_norm: float, branch: str = "north", samples:
     """Corrected periodic halo orbit about L1/L2 with largest out-of-plane excursion ``az_norm``.
 
     ``branch`` "north" puts that excursion at +z (along the primaries' orbital angular
-    momentum), "south" at -z. Cached in memory per arguments.
+    momentum), "south" at -z. Cached in memory per arguments, and on disk
+    (:mod:`contactplan.ephemeris.halo_cache`) so later runs need no integration.
     """
     n = _point_number(point)
     if not (az_norm > 0 and math.isfinite(az_norm)):
@@ -426,6 +427,19 @@ def halo_orbit(mu: float, point, az_norm: float, branch: str = "north", samples:
     if branch == "south":
         return halo_orbit(mu, n, az_norm, "north", samples).mirrored()
     rh = _excursion_richardson(richardson_halo, az_norm, mu, n)
+    from contactplan.ephemeris import halo_cache
+
+    cached = halo_cache.load(mu, n, az_norm, branch, samples)
+    if cached is not None:
+        s0, period, cc, ss = cached
+        return HaloOrbit(mu, n, s0, period, cc, ss, rh)
+    orbit = _corrected_north(mu, n, az_norm, samples, rh)
+    halo_cache.store(mu, n, az_norm, branch, samples, orbit.state0, orbit.period, orbit.coef_cos, orbit.coef_sin)
+    return orbit
+
+
+def _corrected_north(mu: float, n: int, az_norm: float, samples: int, rh: RichardsonHalo) -> HaloOrbit:
+    """The north-branch orbit by differential correction and a Fourier fit (integrates: needs scipy)."""
     # Start at the crossing with the larger |z| and put it on the north side.
     cand = rh.state(np.array([0.0, math.pi]))
     j = int(np.argmax(np.abs(cand[2])))
