@@ -30,6 +30,14 @@ class Ephemeris:
             ok &= ~((t > g0) & (t < g1))
         return ok
 
+    def pieces(self) -> list[tuple[float, float]]:
+        """The covered spans [(start_tt, end_tt)] in time order: the whole span minus the gaps."""
+        return covered_pieces(self)
+
+    def clamp_to_cover(self, t_tt, ref_tt=None) -> np.ndarray:
+        """Instants moved into the covered piece that holds ``ref_tt`` (see :func:`clamp_to_cover`)."""
+        return clamp_to_cover(self, t_tt, ref_tt)
+
     def check_span(self, t_tt) -> None:
         t = np.asarray(t_tt, dtype=float)
         if t.size == 0:
@@ -55,3 +63,48 @@ class Ephemeris:
 
     def _state(self, t_tt: np.ndarray) -> tuple[np.ndarray, np.ndarray]:  # pragma: no cover
         raise NotImplementedError
+
+
+def covered_pieces(ephemeris) -> list[tuple[float, float]]:
+    """[start_tt, end_tt] of any ephemeris-like object minus its ``gaps``, as (start_tt, end_tt) in time order.
+
+    Gap edges are covered instants (a gap is the open span between two segments).
+    """
+    lo, hi = float(ephemeris.start_tt), float(ephemeris.end_tt)
+    out = []
+    a = lo
+    for g0, g1 in sorted(getattr(ephemeris, "gaps", None) or []):
+        g0, g1 = max(float(g0), lo), min(float(g1), hi)
+        if g1 <= g0:
+            continue
+        if g0 >= a:
+            out.append((a, g0))
+        a = max(a, g1)
+    out.append((a, hi))
+    return out
+
+
+def clamp_to_cover(ephemeris, t_tt, ref_tt=None) -> np.ndarray:
+    """Each instant of ``t_tt`` clipped to the covered piece that holds the matching ``ref_tt``.
+
+    ``ref_tt`` (default ``t_tt`` itself) picks the piece: the one containing it, else
+    the nearest one (before the start, after the end, or inside a gap). Used for light
+    time: the emission instant ``t - tau`` is kept in the piece of the receive time ``t``,
+    so a pass that rises at the first epoch after a gap never asks inside the gap, just
+    as one at the very start of the ephemeris never asks before it (the spacecraft
+    position is then a light time late there, see :mod:`contactplan.geometry.topo`).
+    """
+    t = np.asarray(t_tt, dtype=float)
+    gaps = getattr(ephemeris, "gaps", None) or []
+    if not gaps:
+        return np.clip(t, ephemeris.start_tt, ephemeris.end_tt)
+    ref = t if ref_tt is None else np.broadcast_to(np.asarray(ref_tt, dtype=float), t.shape)
+    pieces = covered_pieces(ephemeris)
+    starts = np.array([p[0] for p in pieces])
+    ends = np.array([p[1] for p in pieces])
+    i = np.clip(np.searchsorted(starts, ref, side="right") - 1, 0, len(pieces) - 1)
+    # inside a gap: take the nearer of the piece before and the piece after
+    nxt = np.minimum(i + 1, len(pieces) - 1)
+    after = (ref > ends[i]) & (starts[nxt] - ref < ref - ends[i])
+    i = np.where(after, nxt, i)
+    return np.clip(t, starts[i], ends[i])

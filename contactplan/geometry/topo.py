@@ -22,6 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from contactplan.ephemeris.base import clamp_to_cover
 from contactplan.geometry.earth import EarthRotation, enu_basis, station_itrs_km
 
 C_KM_S = 299792.458  # speed of light (SI definition)
@@ -58,19 +59,24 @@ class Track:
     corrects it to its own to first order in the velocity (the station terms differ
     by < 22 ms).
     ``tau_hint_s`` skips the first ephemeris call when a good light time is known.
-    ``clamp`` (start, end) keeps emission times inside the ephemeris span.
+    ``clamp`` (start, end) keeps emission times inside that span (default: the ephemeris span).
+    Emission times are also kept inside the covered piece of their receive time
+    (:func:`contactplan.ephemeris.base.clamp_to_cover`): next to a gap between OEM
+    segments, or at the ends, the spacecraft is taken at the piece's edge instead of
+    inside the gap (its position is then up to one light time late there).
     """
 
     def __init__(self, ephemeris, t_tt, tau_hint_s=None, clamp=None, rotation=None):
         t = np.atleast_1d(np.asarray(t_tt, dtype=float))
         self.t_tt = t
         lo, hi = clamp if clamp is not None else (ephemeris.start_tt, ephemeris.end_tt)
+        t_in = clamp_to_cover(ephemeris, np.clip(t, lo, hi))  # receive times moved into the cover
         if tau_hint_s is None:
-            r0, _ = ephemeris.state(np.clip(t, lo, hi))
+            r0, _ = ephemeris.state(t_in)
             tau = np.linalg.norm(r0, axis=1) / C_KM_S
         else:
             tau = np.broadcast_to(np.asarray(tau_hint_s, dtype=float), t.shape)
-        te = np.clip(t - tau, lo, hi)
+        te = clamp_to_cover(ephemeris, np.clip(t - tau, lo, hi), ref_tt=t_in)
         r, v = ephemeris.state(te)
         self.tau_s = t - te  # the offset actually used: stations correct from it
         self.r_gcrs_km = r

@@ -52,38 +52,17 @@ def _check_cancel(cancel) -> None:
         raise Cancelled()
 
 
-def _segment(ephemeris, start_tt: float, end_tt: float):
-    """A view of ``ephemeris`` limited to one covered span [start_tt, end_tt] (no gap inside)."""
-    from contactplan.ephemeris.base import Ephemeris
-
-    class Segment(Ephemeris):
-        def _state(self, t_tt):
-            return ephemeris.state(t_tt)
-
-    seg = Segment()
-    seg.name, seg.start_tt, seg.end_tt, seg.gaps = getattr(ephemeris, "name", "ephemeris"), start_tt, end_tt, []
-    return seg
-
-
 def annotate_by_segment(scenario, passes, ephemeris) -> dict:
-    """``link.volume.annotate_passes`` run on each gap-free part of the ephemeris in turn.
+    """Link columns and rate profiles of ``passes``: ``link.volume.annotate_passes`` on the whole ephemeris.
 
-    Between OEM segments there is no state: a pass that rises at a segment's first epoch would ask
-    for the emission instant a light time earlier, inside the gap. Each part is handed over as its
-    own ephemeris, so light time is clamped at the part's edge as it is at the ephemeris's ends."""
+    Kept under this name for its callers. Gaps between OEM segments need no special care here any
+    more: the look angles keep each emission instant inside the covered piece of its receive instant
+    (:func:`contactplan.ephemeris.base.clamp_to_cover`)."""
     from contactplan.link.volume import annotate_passes
 
-    gaps = list(getattr(ephemeris, "gaps", []) or [])
-    if not gaps or not passes:
-        return dict(annotate_passes(scenario, passes, ephemeris) or {})
-    edges = [float(ephemeris.start_tt)] + [x for g in sorted(gaps) for x in (float(g[0]), float(g[1]))] \
-        + [float(ephemeris.end_tt)]
-    out: dict = {}
-    for a, b in zip(edges[0::2], edges[1::2]):
-        group = [p for p in passes if p.aos_tt >= a - 1e-6 and p.los_tt <= b + 1e-6]
-        if group:
-            out.update(annotate_passes(scenario, group, _segment(ephemeris, a, b)) or {})
-    return out
+    if not passes:
+        return {}
+    return dict(annotate_passes(scenario, passes, ephemeris) or {})
 
 
 def _annotate(scenario, ephemeris, passes, progress, cancel) -> dict:
