@@ -32,7 +32,7 @@ _MJD_1972 = 41317.0
 
 _ISO_RE = re.compile(
     r"^\s*(\d{4})-(?:(\d{2})-(\d{2})|(\d{3}))"
-    r"(?:[T ](\d{2}):(\d{2})(?::(\d{2})(?:\.(\d+))?)?)?\s*(Z|z|UTC|[+-]\d{2}:?\d{2})?\s*$"
+    r"(?:[Tt ](\d{2}):(\d{2})(?::(\d{2})(?:\.(\d+))?)?)?\s*(Z|z|UTC|[+-]\d{2}:?\d{2})?\s*$"
 )
 
 
@@ -165,6 +165,7 @@ def parse_utc(text: str, *, scale: str = "UTC") -> float:
     """Parse ISO 8601 calendar or day-of-year time text into TT seconds.
 
     Accepts ``2027-01-12T00:00:00Z``, ``2027-012T00:00:00.5Z``, a missing ``Z``,
+    lowercase ``t`` and ``z`` (RFC 3339 section 5.6 allows them), a space for ``T``,
     a date alone (midnight) and, with ``scale`` other than UTC, a time read in
     that scale (TAI, TT, GPS, TDB) as OEM files carry. Offsets other than zero
     are refused: operations work in UTC.

@@ -91,3 +91,18 @@ def test_format_parse_round_trip(offset):
     text = format_utc(t)
     assert abs(parse_utc(text) - t) <= 0.0005 + 1e-6
     assert format_utc(np.array([t]))[0] == text
+
+
+@pytest.mark.parametrize("text", ["2027-01-12t06:30:00z", "2027-01-12t06:30:00Z", "2027-01-12T06:30:00z",
+                                  "2027-012t06:30:00z", "2027-01-12 06:30:00Z"])
+def test_lowercase_t_and_z_accepted(text):
+    # RFC 3339 section 5.6 (NOTE): "T" and "Z" may alternatively be lower case
+    want = parse_utc("2027-01-12T06:30:00Z")
+    assert parse_utc(text) == want
+    assert want == pytest.approx(_astropy_tt_s("2027-01-12T06:30:00.000"), abs=2e-6)  # astropy/ERFA
+
+
+@pytest.mark.parametrize("bad", ["2027-01-12x06:30:00Z", "2027-01-12tt06:30:00Z", "2027-01-12t06:30:00zz"])
+def test_other_separators_still_refused(bad):
+    with pytest.raises(InputError, match="not a UTC time"):
+        parse_utc(bad)

@@ -14,9 +14,13 @@ from contactplan.errors import OutOfSpanError
 
 
 class Ephemeris:
-    """Base class. Subclasses set ``name``, ``start_tt``, ``end_tt`` and implement ``_state``."""
+    """Base class. Subclasses set ``name``, ``start_tt``, ``end_tt`` and implement ``_state``.
+
+    ``path`` is the file the states come from (None for built-in sources); errors name it.
+    """
 
     name: str = "ephemeris"
+    path: str | None = None
     start_tt: float = -np.inf
     end_tt: float = np.inf
     #: spans (start_tt, end_tt) inside [start_tt, end_tt] with no data (between OEM segments)
@@ -46,11 +50,13 @@ class Ephemeris:
             from contactplan.timescale import format_utc
 
             bad = t[~self.covers(t)][0]
-            raise OutOfSpanError(
-                f"{self.name}: asked for {format_utc(bad, 0)}, outside the covered span "
-                f"{format_utc(self.start_tt, 0)} to {format_utc(self.end_tt, 0)}"
-                + (f" ({len(self.gaps)} gap(s) between segments)" if self.gaps else "")
-            )
+            text = (f"asked for {format_utc(bad, 0)}, outside the covered span "
+                    f"{format_utc(self.start_tt, 0)} to {format_utc(self.end_tt, 0)}"
+                    + (f" ({len(self.gaps)} gap(s) between segments)" if self.gaps else ""))
+            # From a file: "FILE: asked for ..."; a built-in source has no file, its name leads.
+            if self.path:
+                raise OutOfSpanError(text, self.path)
+            raise OutOfSpanError(f"{self.name}: {text}")
 
     def state(self, t_tt) -> tuple[np.ndarray, np.ndarray]:
         """Geocentric ICRF position (km) and velocity (km/s), each (N, 3)."""

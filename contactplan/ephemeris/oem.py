@@ -108,6 +108,7 @@ class OemEphemeris(Ephemeris):
 
         self.oem = oemfile
         path = oemfile.path
+        self.path = None if path is None else str(path)
         label = Path(path).name if path is not None else "OEM"
         self.name = f"{oemfile.object_name} ({label})"
         self._tables = [_Table(s, path) for s in oemfile.segments]

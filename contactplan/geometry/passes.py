@@ -270,9 +270,12 @@ def find_passes(scenario, ephemeris, start_tt=None, end_tt=None, stations=None, 
         return []
     spans = coverage_spans(ephemeris, start, end)
     if not spans:
-        raise OutOfSpanError(
-            f"{getattr(ephemeris, 'name', 'ephemeris')} covers {format_utc(ephemeris.start_tt, 0)} to "
-            f"{format_utc(ephemeris.end_tt, 0)}, nothing of the window {format_utc(start, 0)} to {format_utc(end, 0)}")
+        eph_path = getattr(ephemeris, "path", None)
+        text = (f"covers {format_utc(ephemeris.start_tt, 0)} to {format_utc(ephemeris.end_tt, 0)}, "
+                f"nothing of the window {format_utc(start, 0)} to {format_utc(end, 0)}")
+        if eph_path:
+            raise OutOfSpanError(f"the ephemeris {text}", eph_path)
+        raise OutOfSpanError(f"{getattr(ephemeris, 'name', 'ephemeris')} {text}")
     geo = scenario.geometry
     opts = dict(
         refraction=bool(getattr(geo, "refraction", False)),
