@@ -792,3 +792,63 @@ def test_drag_past_los_stops_at_los(win, demo_copy, demo_plan, qtbot):
     b = sc.bookings[-1]
     assert b.start_tt == pytest.approx(t0, abs=1e-6)
     assert b.end_tt == pytest.approx(p.los_tt, abs=1e-6)  # clamped to the pass it was drawn on
+
+
+# ---------------------------------------------------------------- usability review
+def _settle(n=4):
+    for _ in range(n):
+        QApplication.processEvents()
+
+
+def test_first_day_is_named_at_the_left_edge_of_the_time_axis(win, demo_copy, demo_plan):
+    sc = _open_with(win, demo_copy, demo_plan)
+    tl = win.timeline
+    tl.show_week(sc.start_tt)  # the demo starts at 2027-01-12T00:00Z, a UTC midnight
+    win.grab()
+    _settle()
+    # 2027-01-12 is day 12 and a Tuesday (calendar fact); the name may shorten to fit before 013
+    assert tl.top_axis.edge_label in ("012 Tue 01-12", "012 Tue", "012")
+    assert tl.el_axis.edge_label == tl.top_axis.edge_label
+    # a view starting mid-day names that day too
+    tl.set_range_tt(sc.start_tt + 2.5 * 86400.0, sc.start_tt + 3.2 * 86400.0)
+    win.grab()
+    _settle()
+    assert tl.top_axis.edge_label is not None and tl.top_axis.edge_label.startswith("014")
+
+
+def test_recorder_overflow_says_what_is_lost(win, demo_copy, demo_plan):
+    sc = _open_with(win, demo_copy, demo_plan)
+    win.doc.recheck()
+    rec = win.doc.result.recorder
+    assert rec.overflow_spans, "the demo week overflows its recorder on purpose"
+    tl = win.timeline
+    texts = tl.overflow_texts
+    assert len(texts) == len(rec.overflow_spans)
+    lost = rec.overflow_spans[0][2]
+    assert texts[0].endswith(f"{lost:.1f} Gbit lost")
+    labels = [it for it in tl.overflow_items if getattr(it, "overflow_span", None)]
+    assert labels and labels[0].textItem.toPlainText() == f"{lost:.1f} Gbit lost"
+    # the label stays on screen even when its span runs past the right edge of the view
+    t0 = rec.overflow_spans[0][0]
+    tl.set_range_tt(t0 - 2 * 86400.0, t0 + 1800.0)
+    _settle()
+    (vx0, vx1), _ = tl.rec_plot.getViewBox().viewRange()
+    assert vx0 <= labels[0].pos().x() < vx1
+
+
+def test_caution_is_whole_in_a_small_window(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    win.resize(800, 600)
+    _settle()
+    c = win.caution
+    assert c.isVisible() and c.wordWrap()
+    # the label is tall enough for its wrapped text and lies inside the status bar
+    assert c.height() >= c.heightForWidth(c.width())
+    assert c.geometry().right() <= win.statusBar().width()
+    assert win.statusBar().geometry().bottom() <= win.height()
+
+
+def test_sky_view_gets_room_on_first_start(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    _settle()
+    assert win.sky.width() >= 340 and win.sky.height() >= 340

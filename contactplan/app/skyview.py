@@ -41,7 +41,7 @@ class SkyView(QWidget):
     def __init__(self, doc, parent=None):
         super().__init__(parent)
         self.doc = doc
-        self.setMinimumSize(200, 200)
+        self.setMinimumSize(240, 240)
         self.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
         self.pass_ = None
         self.station = None
@@ -88,7 +88,7 @@ class SkyView(QWidget):
         p = QPainter(self)
         p.setRenderHint(QPainter.RenderHint.Antialiasing)
         p.fillRect(self.rect(), th.background)
-        side = min(self.width(), self.height() - 36) - 40
+        side = min(self.width(), self.height() - 36) - 30  # room for N, E, S, W outside the horizon
         if side < 60:
             return
         cx, cy = self.width() / 2.0, 22 + (self.height() - 36) / 2.0

@@ -37,6 +37,7 @@ class TimeAxis(pg.AxisItem):
     def __init__(self, origin_tt: float, orientation: str = "bottom", **kw):
         super().__init__(orientation, **kw)
         self.origin_tt = origin_tt
+        self.edge_label: str | None = None  # the day named at the left edge (set when drawn)
         self.enableAutoSIPrefix(False)
 
     def tickValues(self, minVal, maxVal, size):
@@ -76,6 +77,50 @@ class TimeAxis(pg.AxisItem):
             else:
                 out.append(text[11:16])
         return out
+
+
+    def day_label(self, tt: float) -> str:
+        """Label of the UTC day holding ``tt``: day of year, weekday, month-day (012 Tue 01-12)."""
+        day0 = float(utc_day_start(tt))
+        return f"{day_of_year(day0):03d} {_WEEKDAYS[_weekday(day0)]} {format_utc(day0, 0)[5:10]}"
+
+    def generateDrawSpecs(self, p):
+        """As pyqtgraph draws it, plus the day at the left edge when its midnight label is not on screen.
+
+        A label centred on a tick at the very edge would spill out of the axis and
+        pyqtgraph drops it, so the first day of a view starting at midnight had no
+        name; a view starting mid-day had none either. The edge label is left-aligned
+        inside the axis and takes the place of any HH:MM label it would cover.
+        """
+        specs = super().generateDrawSpecs(p)
+        if specs is None:
+            return specs
+        axis_spec, tick_specs, text_specs = specs
+        self.edge_label = None
+        lo, hi = self.range
+        if not text_specs or not (math.isfinite(lo) and math.isfinite(hi)) or hi <= lo \
+                or (hi - lo) > 24 * 400:
+            return specs
+        bounds = self.mapRectFromParent(self.geometry())
+        full = self.day_label(self.origin_tt + lo * 3600.0 + 1e-3)
+        y, height = text_specs[0][0].top(), text_specs[0][0].height()
+        # the next day's label limits the room: the name shortens (012 Tue 01-12, 012 Tue, 012) to fit
+        limit = min((r.left() for r, _f, s in text_specs if ":" not in s and s != full), default=bounds.right())
+        for text in (full, full[:7], full[:3]):
+            edge = QRectF(bounds.left() + 2, y, p.fontMetrics().horizontalAdvance(text) + 6, height)
+            if edge.right() + 4 <= limit:
+                break
+        else:
+            return specs  # the next day's label is at the edge: it is enough
+        kept = []
+        for rect, flags, s in text_specs:
+            if rect.left() < edge.right() + 8 and (":" in s or s == full):
+                continue  # an HH:MM label (or this day's own) under the edge label gives way
+            kept.append((rect, flags, s))
+        flags = Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignVCenter | Qt.TextFlag.TextDontClip
+        kept.insert(0, (edge, flags, text))
+        self.edge_label = text
+        return axis_spec, tick_specs, kept
 
 
 def _weekday(tt: float) -> int:
@@ -678,7 +723,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.rec_plot = self.addPlot(row=1, col=0, axisItems={"bottom": self.rec_axis})
         self.rec_plot.setXLink(self.lanes_plot)
         self.rec_plot.hideAxis("bottom")
-        self.rec_plot.setLabel("left", "Recorder", units="Gbit")
+        self.rec_plot.setLabel("left", "Rec.", units="Gbit")
         self.rec_plot.getAxis("left").enableAutoSIPrefix(False)
         self.rec_plot.setMouseEnabled(x=True, y=False)
         self.rec_plot.setMenuEnabled(False)
@@ -691,11 +736,13 @@ class Timeline(pg.GraphicsLayoutWidget):
                                                                        "anchors": [(0, 0), (0, 0)]})
         self.rec_plot.addItem(self.capacity_line)
         self.overflow_items: list = []
+        self.overflow_texts: list = []  # "full 01-18 05:25 to 01-19 00:00: 160.6 Gbit lost", one per span
 
         self.el_axis = TimeAxis(0.0, "bottom")
         self.el_plot = self.addPlot(row=2, col=0, axisItems={"bottom": self.el_axis})
         self.el_plot.setXLink(self.lanes_plot)
-        self.el_plot.setLabel("left", "Elevation", units="deg")
+        self.rec_plot.getViewBox().sigXRangeChanged.connect(self._place_overflow_labels)
+        self.el_plot.setLabel("left", "Elev.", units="deg")
         self.el_plot.getAxis("left").enableAutoSIPrefix(False)
         self.el_plot.setMouseEnabled(x=True, y=False)
         self.el_plot.setMenuEnabled(False)
@@ -713,6 +760,9 @@ class Timeline(pg.GraphicsLayoutWidget):
         layout.setRowStretchFactor(0, 5)
         layout.setRowStretchFactor(1, 2)
         layout.setRowStretchFactor(2, 2)
+        # the strips keep room for their (short) axis names in a short window
+        layout.setRowMinimumHeight(1, 80)
+        layout.setRowMinimumHeight(2, 100)
 
         self.now_lines = []
         for plot in (self.lanes_plot, self.rec_plot, self.el_plot):
@@ -777,6 +827,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             ax.update()
         names = ["Spacecraft"] + [s.id for s in sc.stations]
         self.lane_axis.set_lanes(names)
+        self.ci.layout.setRowMinimumHeight(0, 30 + 20 * len(names))  # lanes stay readable when short
         self.lanes_vb.setYRange(0, len(names), padding=0)
         span_h = (sc.end_tt - sc.start_tt) / 3600.0
         x0, x1 = self.x_of(sc.start_tt), self.x_of(sc.end_tt)
@@ -824,12 +875,46 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.capacity_line.setValue(rec.capacity_gbit)
         self.rec_plot.setYRange(0, max(rec.capacity_gbit, float(np.nanmax(rec.fill_gbit)) if len(x) else 0) * 1.12,
                                 padding=0)
+        cap = float(rec.capacity_gbit)
+        self.overflow_texts = []
         for (t0, t1, lost) in rec.overflow_spans or []:
-            reg = pg.LinearRegionItem(values=(self.x_of(t0), self.x_of(max(t1, t0 + 60))), movable=False,
+            x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
+            text = f"full {format_utc(t0, 0)[5:16].replace('T', ' ')} to {format_utc(t1, 0)[5:16].replace('T', ' ')}: " \
+                   f"{lost:.1f} Gbit lost"
+            reg = pg.LinearRegionItem(values=(x0, x1), movable=False,
                                       brush=th.overflow, pen=pg.mkPen(th.error, width=1))
-            reg.setToolTip(f"recorder full: {lost:.1f} Gbit lost")
+            reg.setToolTip(f"recorder {text}")
             self.rec_plot.addItem(reg, ignoreBounds=True)
             self.overflow_items.append(reg)
+            # a second cue besides the shading: a thick bar on the capacity line, and the loss in words
+            bar = pg.PlotDataItem([x0, x1], [cap, cap], pen=pg.mkPen(th.error, width=5))
+            self.rec_plot.addItem(bar, ignoreBounds=True)
+            self.overflow_items.append(bar)
+            label = pg.TextItem(f"{lost:.1f} Gbit lost", color=th.foreground, anchor=(0, 0),
+                                fill=pg.mkBrush(th.background), border=pg.mkPen(th.error, width=1.5))
+            font = QFont()
+            font.setBold(True)
+            label.setFont(font)
+            label.setToolTip(f"recorder {text}")
+            label.overflow_span = (x0, x1, cap)
+            self.rec_plot.addItem(label, ignoreBounds=True)
+            self.overflow_items.append(label)
+            self.overflow_texts.append(text)
+        self._place_overflow_labels()
+
+    def _place_overflow_labels(self, *_args) -> None:
+        """Keep each "Gbit lost" label just under the capacity line, inside the view when its span is."""
+        vb = self.rec_plot.getViewBox()
+        (vx0, vx1), _ = vb.viewRange()
+        px = vb.viewPixelSize()[0] if vb.width() > 0 else 0.0
+        for it in self.overflow_items:
+            span = getattr(it, "overflow_span", None)
+            if span is None:
+                continue
+            x0, x1, cap = span
+            w = (it.boundingRect().width() + 6) * px
+            x = min(max(x0, vx0), max(vx0, vx1 - w))
+            it.setPos(x, cap)
 
     def _selection_changed(self, sel) -> None:
         self.canvas.show_finding_span(None if sel.kind != "finding" else (sel.key.start_tt, sel.key.end_tt))
@@ -864,7 +949,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         res = self.doc.result
         if station is None or res is None:
             self.el_curve.setData([], [])
-            self.el_plot.setLabel("left", "Elevation", units="deg")
+            self.el_plot.setLabel("left", "Elev.", units="deg")
             self.el_plot.setToolTip("Select a station, pass or booking to see its elevation")
             self.el_min_line.setVisible(False)
             return

@@ -15,9 +15,9 @@ from pathlib import Path
 from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence, QUndoCommand
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog, QDialogButtonBox, QDockWidget,
-                               QFileDialog, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit, QMainWindow,
-                               QMessageBox, QProgressBar, QPushButton, QStyledItemDelegate, QTableView, QUndoView,
-                               QVBoxLayout, QWidget)
+                               QFileDialog, QFrame, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit,
+                               QMainWindow, QMessageBox, QProgressBar, QPushButton, QScrollArea, QSizePolicy,
+                               QStyledItemDelegate, QTableView, QUndoView, QVBoxLayout, QWidget)
 
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
@@ -195,6 +195,9 @@ class MainWindow(QMainWindow):
         state = self.settings.value("window/state")
         if state is not None:
             self.restoreState(state)
+        else:  # first start: a sky view big enough to read, the editor below it
+            self.resizeDocks([self.sky_dock], [400], Qt.Orientation.Horizontal)
+            self.resizeDocks([self.sky_dock, self.props_dock], [430, 300], Qt.Orientation.Vertical)
         if str(self.settings.value("view/doy", "false")).lower() == "true":
             self.act_doy.setChecked(True)
         self._update_title()
@@ -270,7 +273,11 @@ class MainWindow(QMainWindow):
         self.sky = SkyView(doc)
         self.sky_dock = self._dock("Sky", "dock-sky", self.sky, Qt.DockWidgetArea.RightDockWidgetArea)
         self.props = PropertyEditor(doc)
-        self.props_dock = self._dock("Properties", "dock-properties", self.props,
+        props_scroll = QScrollArea()  # a short dock scrolls the form instead of squeezing it
+        props_scroll.setWidget(self.props)
+        props_scroll.setWidgetResizable(True)
+        props_scroll.setFrameShape(QFrame.Shape.NoFrame)
+        self.props_dock = self._dock("Properties", "dock-properties", props_scroll,
                                      Qt.DockWidgetArea.RightDockWidgetArea)
         self.history = QUndoView(doc.undo_stack)
         self.history.setEmptyLabel("(as opened)")
@@ -411,7 +418,14 @@ class MainWindow(QMainWindow):
         self.caution.setObjectName("caution")
         self.caution.setToolTip(CAUTION)
         self.caution.setStyleSheet("QLabel#caution { font-weight: bold; padding: 0 6px; }")
+        # in a narrow window the caution wraps onto a second line instead of being cut
+        self.caution.setWordWrap(True)
+        self.caution.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Preferred)
+        self.caution.setMinimumWidth(420)  # two lines at most
         self.summary = QLabel("")
+        # the counts give way first (they are also in the tables)
+        self.summary.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Preferred)
+        self.summary.setMinimumWidth(1)
         sb.addPermanentWidget(self.summary)
         self.progress = QProgressBar()
         self.progress.setRange(0, 1000)
@@ -423,7 +437,7 @@ class MainWindow(QMainWindow):
         self.cancel_btn.clicked.connect(self.cancel_job)
         sb.addPermanentWidget(self.cancel_btn)
         # the caution is a permanent widget: temporary messages never hide it
-        sb.addPermanentWidget(self.caution)
+        sb.addPermanentWidget(self.caution, 1)
 
     # ------------------------------------------------------------ messages (overridable in tests)
     def show_error(self, text: str, title: str = "contactplan") -> QMessageBox:
