@@ -195,3 +195,22 @@ def test_orbit_is_cached(mu):
     a = cr3bp.halo_orbit(mu, 2, 300000.0 / cr3bp.AU_KM, "north")
     b = cr3bp.halo_orbit(mu, 2, 300000.0 / cr3bp.AU_KM, "north")
     assert a is b
+
+
+def test_numpy_integrator_against_exact_and_scipy(mu):
+    """The extrapolation integrator that corrects the orbit (no scipy on the planning path)."""
+    from contactplan.ephemeris.integrate import integrate, integrate_to_crossing
+
+    # harmonic oscillator x'' = -x: exact solution cos t, -sin t (textbook)
+    y = integrate(lambda t, y: np.array([y[1], -y[0]]), 0.0, [1.0, 0.0], 20 * math.pi)
+    assert np.max(np.abs(y - [1.0, 0.0])) < 1e-11
+    # first downward zero of sin t after 0 is pi, found by the crossing search
+    t, yc = integrate_to_crossing(lambda t, y: np.array([y[1], -y[0]]), np.array([0.0, 1.0]), 0, -1.0, 10.0, 0.3)
+    assert t == pytest.approx(math.pi, abs=1e-13)
+    # a halo state over one period agrees with scipy's DOP853 (reference library)
+    orbit = cr3bp.halo_orbit(mu, 1, 500000.0 / cr3bp.AU_KM)
+    mine = integrate(lambda t, y: cr3bp.eom(t, y, mu), 0.0, orbit.state0, orbit.period)
+    ref = cr3bp.propagate(orbit.state0, orbit.period, mu).y[:, -1]
+    assert np.max(np.abs(mine - ref)) < 1e-9
+    # and the Jacobi constant is kept to the integration tolerance
+    assert abs(cr3bp.jacobi(mine, mu) - cr3bp.jacobi(orbit.state0, mu)) < 1e-11

@@ -49,7 +49,8 @@ t0 = parse_utc("2027-03-01T00:00:00Z")
 spec = LibrationSpec(point="L2", vertical_amplitude_km=300000.0, branch="south", epoch_tt=t0)
 eph = HaloEphemeris.from_spec(spec, t0, t0 + 86400.0 * 3)
 pos, _ = eph.state(t0 + np.array([0.0, 3600.0, 2 * 86400.0]))
-print(json.dumps({"scipy": any(m.split(".")[0] == "scipy" for m in sys.modules), "pos": pos.tolist()}))
+print(json.dumps({"scipy": any(m.split(".")[0] == "scipy" for m in sys.modules),
+                  "integrated": "contactplan.ephemeris.integrate" in sys.modules, "pos": pos.tolist()}))
 """
 
 
@@ -63,9 +64,11 @@ def _run(folder):
 def test_second_process_uses_the_cache_and_does_not_import_scipy(tmp_path):
     folder = tmp_path / "cache"
     first = _run(folder)
-    assert first["scipy"] is True  # the first run corrects the orbit by integration
+    assert first["integrated"] is True  # the first run corrects the orbit by integration...
+    assert first["scipy"] is False  # ...with the numpy integrator, not scipy's
     assert len(_files(folder)) == 1  # only the north orbit is stored; south is its mirror image
     second = _run(folder)
+    assert second["integrated"] is False  # the second one reads the cache
     assert second["scipy"] is False
     assert second["pos"] == first["pos"]  # bit for bit: JSON keeps float64 exactly
 

@@ -21,7 +21,9 @@ Contents
       cached :func:`halo_orbit` that returns a :class:`HaloOrbit`, a Fourier
       representation of the periodic orbit evaluable at any phase.
 
-scipy is imported inside the functions that integrate (it is slow to import).
+The correction integrates with a small numpy extrapolation integrator
+(:mod:`contactplan.ephemeris.integrate`); scipy, slow to import, is used only by
+:func:`propagate`, kept as an independent reference for the tests.
 """
 
 from __future__ import annotations
@@ -289,7 +291,10 @@ def richardson_halo(mu: float, point, az_norm: float) -> RichardsonHalo:
 
 # ---------------------------------------------------------------- integration
 def propagate(state0, t_end: float, mu: float, *, stm: bool = False, t_eval=None, events=None):
-    """Integrate from t=0 to ``t_end`` with scipy's DOP853 (8th order) at tight tolerance."""
+    """Integrate from t=0 to ``t_end`` with scipy's DOP853 (8th order) at tight tolerance.
+
+    Not used on the planning path (see :func:`_half_period_crossing`); the tests use it as an
+    independent check of the orbits corrected with the numpy integrator."""
     from scipy.integrate import solve_ivp
 
     y0 = np.asarray(state0, dtype=float)
@@ -305,17 +310,19 @@ def propagate(state0, t_end: float, mu: float, *, stm: bool = False, t_eval=None
 
 
 def _half_period_crossing(state0, mu, t_guess):
-    """Integrate with the STM to the next y = 0 crossing; returns (t, 42-vector at the crossing)."""
+    """Integrate with the STM to the next y = 0 crossing; returns (t, 42-vector at the crossing).
 
-    def cross(t, s, mu):
-        return s[1]
+    Uses the numpy extrapolation integrator (:mod:`contactplan.ephemeris.integrate`), not scipy.
+    """
+    from contactplan.ephemeris.integrate import integrate_to_crossing
 
-    cross.terminal = True
-    cross.direction = -1.0 if state0[4] > 0 else 1.0
-    sol = propagate(state0, 2.0 * t_guess, mu, stm=True, events=cross)
-    if sol.status != 1 or not len(sol.t_events[0]):
+    y0 = np.concatenate([np.asarray(state0, dtype=float)[:6], np.eye(6).ravel()])
+    direction = -1.0 if state0[4] > 0 else 1.0
+    found = integrate_to_crossing(lambda t, y: eom_stm(t, y, mu), y0, 1, direction, 2.0 * t_guess,
+                                  t_guess / 8.0, rtol=RTOL, atol=ATOL)
+    if found is None:
         raise InputError("halo orbit correction failed: no return to the x-z plane")
-    return sol.t_events[0][0], sol.y_events[0][0]
+    return found
 
 
 def correct_halo(mu: float, state0, half_period_guess: float, *, tol: float = 1e-12, max_iter: int = 30):
@@ -461,6 +468,22 @@ def _corrected_north(mu: float, n: int, az_norm: float, samples: int, rh: Richar
     return HaloOrbit(mu, n, s0, period, cc[:, :keep].copy(), ss[:, :keep].copy(), rh)
 
 
+def _states_at(s0, t_eval, mu) -> np.ndarray:
+    """States (6, N) at the increasing instants ``t_eval`` (t_eval[0] = 0) from ``s0``, numpy integrator."""
+    from contactplan.ephemeris.integrate import integrate
+
+    out = np.empty((6, len(t_eval)))
+    y = np.asarray(s0, dtype=float)[:6].copy()
+    out[:, 0] = y
+    f = lambda t, y_: eom(t, y_, mu)  # noqa: E731
+    for j in range(1, len(t_eval)):
+        y = integrate(f, t_eval[j - 1], y, t_eval[j], RTOL, ATOL)
+        if not np.all(np.isfinite(y)):
+            raise InputError("halo orbit integration failed")
+        out[:, j] = y
+    return out
+
+
 def _symmetric_samples(s0, period, mu, samples):
     """States at phases 2*pi*j/samples, j = 0..samples-1: half a period integrated, the rest mirrored.
 
@@ -472,10 +495,7 @@ def _symmetric_samples(s0, period, mu, samples):
     m2 = samples // 2
     t_eval = np.arange(m2 + 1) * (period / samples)
     t_eval[-1] = period / 2.0
-    sol = propagate(s0, period / 2.0, mu, t_eval=t_eval)
-    if not sol.success or sol.y.shape[1] != m2 + 1:
-        raise InputError("halo orbit integration failed")
-    first = sol.y
+    first = _states_at(s0, t_eval, mu)
     sign = np.array([1.0, -1.0, 1.0, -1.0, 1.0, -1.0])[:, None]
     second = first[:, m2 - 1:0:-1] * sign  # phases pi + ... back to just before 2*pi
     return np.concatenate([first, second], axis=1)

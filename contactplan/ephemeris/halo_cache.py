@@ -27,7 +27,7 @@ import numpy as np
 FORMAT = "contactplan-halo-orbit"
 FORMAT_VERSION = 1
 #: version of the correction and the Fourier fit that produced the numbers
-ALGORITHM_VERSION = 1
+ALGORITHM_VERSION = 2  # 2: numpy extrapolation integrator instead of scipy DOP853
 
 
 def _key(mu: float, point: int, az_norm: float, branch: str, samples: int) -> dict:
