@@ -164,3 +164,20 @@ def test_user_cache_dir(monkeypatch, tmp_path):
         from pathlib import Path
 
         assert user_cache_dir() == Path.home() / ".cache" / "contactplan"
+
+
+def test_demo_passes_never_import_scipy(tmp_path):
+    """The common command on the demo (built-in orbit) stays free of scipy, with an empty cache and with a
+    filled one (scipy alone costs about 0.5 s to import)."""
+    from contactplan.paths import demo_scenario
+
+    code = ("import sys, json, contextlib, io\nfrom contactplan.cli import main\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            f"    code = main(['passes', {str(demo_scenario())!r}])\n"
+            "print(json.dumps([code, sorted({m.split('.')[0] for m in sys.modules} & {'scipy', 'astropy'})]))")
+    env = dict(os.environ, CONTACTPLAN_CACHE_DIR=str(tmp_path / "cache"))
+    for _ in range(2):  # empty cache, then filled
+        proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+        assert proc.returncode == 0, proc.stderr[-2000:]
+        assert json.loads(proc.stdout.strip().splitlines()[-1]) == [0, []]
+    assert len(_files(tmp_path / "cache")) == 1
