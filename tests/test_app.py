@@ -852,3 +852,93 @@ def test_sky_view_gets_room_on_first_start(win, demo_copy, demo_plan):
     _open_with(win, demo_copy, demo_plan)
     _settle()
     assert win.sky.width() >= 340 and win.sky.height() >= 340
+
+
+def _bad_oems(tmp_path):
+    """A few broken OEM files: not an OEM at all, a header only, a data line cut short, times going back."""
+    head = ("CCSDS_OEM_VERS = 2.0\nCREATION_DATE = 2027-01-01T00:00:00\nORIGINATOR = TEST\n\n"
+            "META_START\nOBJECT_NAME = PROBE\nOBJECT_ID = 2027-000A\nCENTER_NAME = EARTH\nREF_FRAME = EME2000\n"
+            "TIME_SYSTEM = UTC\nSTART_TIME = 2027-01-10T00:00:00\nSTOP_TIME = 2027-01-10T02:00:00\nMETA_STOP\n\n")
+    rows = ["2027-01-10T00:00:00 1500000.0 10000.0 5000.0 0.01 0.3 0.02",
+            "2027-01-10T01:00:00 1500036.0 11080.0 5072.0 0.01 0.3 0.02",
+            "2027-01-10T02:00:00 1500072.0 12160.0 5144.0 0.01 0.3 0.02"]
+    files = {
+        "empty.oem": "",
+        "header-only.oem": head,
+        "short-line.oem": head + rows[0] + "\n" + rows[1][:30] + "\n" + rows[2] + "\n",
+        "backwards.oem": head + rows[2] + "\n" + rows[1] + "\n" + rows[0] + "\n",
+    }
+    out = []
+    for name, text in files.items():
+        p = tmp_path / name
+        p.write_text(text, encoding="utf-8")
+        out.append(p)
+    return out
+
+
+def test_a_bad_oem_opens_a_one_line_error_dialog(win, demo_copy, demo_plan, qtbot, tmp_path):
+    sc = _open_with(win, demo_copy, demo_plan)
+    for bad in _bad_oems(tmp_path):
+        for how in ("open", "import"):
+            win.last_error = None
+            win.error_box = None
+            ok = win.open_path(bad) if how == "open" else win.import_ephemeris_path(bad)
+            assert ok is False, (bad.name, how)
+            assert win.last_error and "\n" not in win.last_error, (bad.name, how, win.last_error)
+            assert bad.name in win.last_error, (bad.name, win.last_error)
+            assert win.error_box is not None and win.error_box.text() == win.last_error
+            win.error_box.close()
+    assert win.doc.scenario is sc and sc.spacecraft.ephemeris.kind == "libration"  # nothing changed
+    # re-validation against a bad OEM fails in the worker, into the same kind of dialog
+    win.last_error = None
+    assert win.revalidate(tmp_path / "short-line.oem") is not None
+    _wait_job(win, qtbot)
+    assert win.last_error and "\n" not in win.last_error and "short-line.oem" in win.last_error
+
+
+@pytest.mark.parametrize("what,fmt", [(w, f) for w, f, _label, _filt in
+                                      __import__("contactplan.app.window", fromlist=["EXPORTS"]).EXPORTS])
+def test_every_export_writes_and_says_what_it_wrote(win, demo_copy, demo_plan, qtbot, tmp_path, what, fmt):
+    _open_with(win, demo_copy, demo_plan)
+    win.doc.recheck()
+    out = tmp_path / f"week-{what}.{fmt}"
+    assert win.export_to(out, what) is not None
+    _wait_job(win, qtbot, timeout=300_000)
+    assert win.last_error is None, win.last_error
+    assert out.exists() and out.stat().st_size > 0
+    assert win.last_export and out.name in win.last_export
+    assert out.name in win.statusBar().currentMessage()
+
+
+def test_draft_runs_in_the_worker_with_progress_and_cancel(win, demo_copy, demo_plan, qtbot, monkeypatch):
+    """The window hands its progress bar and Cancel button to the drafter (a stand-in drafter here)."""
+    import time
+
+    from contactplan.errors import Cancelled
+    from contactplan.plan import drafter
+
+    seen = {"fractions": [], "kwargs": None}
+
+    def slow_draft(scenario, **kw):
+        seen["kwargs"] = kw
+        for i in range(400):
+            kw["progress"](i / 400)
+            seen["fractions"].append(i / 400)
+            if kw["cancel"]():
+                raise Cancelled("drafting cancelled")
+            time.sleep(0.01)
+        raise AssertionError("cancel never arrived")
+
+    monkeypatch.setattr(drafter, "draft", slow_draft)
+    sc = _open_with(win, demo_copy, demo_plan)
+    before = _bookings(sc)
+    job = win.draft_week()
+    assert job is not None and win.progress.isVisible() and win.cancel_btn.isVisible()
+    qtbot.waitUntil(lambda: win.progress.value() > 0, timeout=10_000)
+    assert win.timeline.isEnabled()  # the window keeps answering
+    win.cancel_btn.click()
+    _wait_job(win, qtbot)
+    assert seen["kwargs"]["progress"] is not None and seen["kwargs"]["cancel"] is not None
+    assert len(seen["fractions"]) < 400
+    assert not win.progress.isVisible() and "cancelled" in win.statusBar().currentMessage()
+    assert not win.asked and _bookings(sc) == before  # nothing proposed, nothing changed

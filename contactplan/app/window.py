@@ -442,9 +442,12 @@ class MainWindow(QMainWindow):
     # ------------------------------------------------------------ messages (overridable in tests)
     def show_error(self, text: str, title: str = "contactplan") -> QMessageBox:
         """A non-blocking error dialog carrying the one-line message."""
-        self.last_error = text
         log.warning("%s: %s", title, text)
-        box = QMessageBox(QMessageBox.Icon.Critical, title, text, QMessageBox.StandardButton.Ok, self)
+        first, _, rest = str(text).strip().partition("\n")  # one line in the dialog; the rest behind Details
+        self.last_error = first
+        box = QMessageBox(QMessageBox.Icon.Critical, title, first, QMessageBox.StandardButton.Ok, self)
+        if rest.strip():
+            box.setDetailedText(rest.strip())
         box.setWindowModality(Qt.WindowModality.WindowModal)
         box.open()
         self.error_box = box
@@ -864,6 +867,10 @@ class MainWindow(QMainWindow):
         except InputError as exc:
             self.show_error(str(exc), "Cannot read the ephemeris")
             return False
+        except Exception as exc:  # never a traceback in the user's face
+            log.exception("reading %s", path)
+            self.show_error(f"{path}: {exc}", "Cannot read the ephemeris")
+            return False
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
             self.statusBar().showMessage(
@@ -979,10 +986,9 @@ class MainWindow(QMainWindow):
             start, end = sc.start_tt, sc.end_tt
 
         def fn(progress, cancel):
-            progress(0.05)
-            dr = draft(snapshot, result=result, start_tt=start, end_tt=end)
-            progress(1.0)
-            return dr
+            progress(0.02)
+            # the drafter reports its stages and stops between solves when Cancel is pressed
+            return draft(snapshot, result=result, start_tt=start, end_tt=end, progress=progress, cancel=cancel)
 
         def done(dr):
             lines = summary_lines(snapshot, dr)
