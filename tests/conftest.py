@@ -7,6 +7,11 @@ import pytest
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 os.environ.setdefault("MPLBACKEND", "Agg")
+# Built-in orbits are cached on disk; tests never touch the user's own cache folder.
+if "CONTACTPLAN_CACHE_DIR" not in os.environ:
+    import tempfile
+
+    os.environ["CONTACTPLAN_CACHE_DIR"] = tempfile.mkdtemp(prefix="contactplan-test-cache-")
 
 DATA = Path(__file__).parent / "data"
 ROOT = Path(__file__).resolve().parents[1]
