@@ -942,3 +942,90 @@ def test_draft_runs_in_the_worker_with_progress_and_cancel(win, demo_copy, demo_
     assert len(seen["fractions"]) < 400
     assert not win.progress.isVisible() and "cancelled" in win.statusBar().currentMessage()
     assert not win.asked and _bookings(sc) == before  # nothing proposed, nothing changed
+
+
+def test_move_snaps_to_the_grid_and_to_a_pass_edge(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win, min_h=5.0)
+    s = _grid(p.aos_tt + 3600.0)
+    bid = win.doc.add_booking(p.station, s, s + 3600.0)
+    b = sc.booking(bid)
+    win.timeline.zoom_to(p.aos_tt, p.los_tt)
+    QApplication.processEvents()
+    lane = win.timeline.canvas.lane_of_station(p.station)
+    # dragged 17 min 40 s later: the start lands on the 5-minute grid (20 min later), length kept
+    drag(qtbot, win, s + 1800.0, s + 1800.0 + 1060.0, lane + 0.5)
+    assert b.start_tt == pytest.approx(s + 1200.0, abs=1e-6)
+    assert b.end_tt - b.start_tt == pytest.approx(3600.0, abs=1e-6)
+    # dragged so that its end comes a few pixels short of LOS: the end lands on LOS
+    px = win.timeline.canvas.px_s()
+    mid = 0.5 * (b.start_tt + b.end_tt)
+    target_shift = (p.los_tt - 3 * px) - b.end_tt
+    drag(qtbot, win, mid, mid + target_shift, lane + 0.5)
+    assert b.end_tt == pytest.approx(p.los_tt, abs=1e-6)
+    assert b.end_tt - b.start_tt == pytest.approx(3600.0, abs=1e-6)
+    assert win.doc.undo_stack.count() == 3  # created, moved, moved: one undo step each
+    win.act_undo.trigger()
+    win.act_undo.trigger()
+    assert b.start_tt == pytest.approx(s)
+
+
+def test_delete_key_in_the_bookings_table(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    win.bookings_dock.raise_()
+    _settle()
+    v = win.bookings_view
+    idx = v.model().index(0, 0)
+    bid = idx.data(__import__("contactplan.app.models", fromlist=["OBJECT_ROLE"]).OBJECT_ROLE).id
+    v.setFocus()
+    v.setCurrentIndex(idx)
+    win._booking_clicked(idx)
+    assert win.doc.selection.key == bid
+    qtbot.keyClick(v, Qt.Key.Key_Delete)
+    assert all(b.id != bid for b in sc.bookings)
+    win.act_undo.trigger()
+    assert any(b.id == bid for b in sc.bookings)
+
+
+def test_arrow_keys_walk_the_findings_and_the_view_follows(win, demo_copy, demo_plan, qtbot):
+    _open_with(win, demo_copy, demo_plan)
+    win.doc.recheck()
+    win.findings_dock.raise_()
+    _settle()
+    v = win.findings_view
+    assert v.model().rowCount() >= 2
+    v.setFocus()
+    v.setCurrentIndex(v.model().index(0, 0))
+    qtbot.keyClick(v, Qt.Key.Key_Down)
+    from contactplan.app.models import OBJECT_ROLE
+
+    f = v.model().index(1, 0).data(OBJECT_ROLE)
+    assert win.doc.selection.kind == "finding" and win.doc.selection.key is f
+    v0, v1 = win.timeline.visible_tt()
+    assert v0 <= f.start_tt and max(f.end_tt, f.start_tt + 60) <= v1
+
+
+def test_previous_next_and_given_week(win, demo_copy, demo_plan, monkeypatch):
+    from contactplan.app import window as window_mod
+    from contactplan.timescale import DAY_S
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    sc.end_tt = sc.start_tt + 28 * DAY_S
+    tl = win.timeline
+    tl.rebuild()
+    tl.show_week(sc.start_tt)
+    win.act_next.trigger()
+    assert tl.visible_tt()[0] == pytest.approx(sc.start_tt + 7 * DAY_S, abs=1.0)
+    win.act_prev.trigger()
+    assert tl.visible_tt()[0] == pytest.approx(sc.start_tt, abs=1.0)
+    # a given week, typed as a day of year: 2027-019 is 2027-01-19 (calendar fact)
+    monkeypatch.setattr(window_mod.QInputDialog, "getText", staticmethod(lambda *a, **k: ("2027-019", True)))
+    win.act_goto.trigger()
+    v0, v1 = tl.visible_tt()
+    assert v0 == pytest.approx(parse_utc("2027-01-19T00:00:00Z"), abs=1.0)
+    assert v1 - v0 == pytest.approx(7 * DAY_S, abs=1.0)
+    # nonsense gives the one-line error, the view stays
+    monkeypatch.setattr(window_mod.QInputDialog, "getText", staticmethod(lambda *a, **k: ("next tuesday", True)))
+    win.act_goto.trigger()
+    assert win.last_error and "\n" not in win.last_error
+    assert tl.visible_tt()[0] == pytest.approx(v0, abs=1.0)

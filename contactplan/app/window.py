@@ -264,6 +264,7 @@ class MainWindow(QMainWindow):
         for col, width in enumerate((70, 170, 150, 150)):
             self.findings_view.setColumnWidth(col, width)
         self.findings_view.clicked.connect(self._finding_clicked)
+        self.findings_view.selectionModel().currentRowChanged.connect(self._finding_current)
         self.findings_dock = self._dock("Findings", "dock-findings", self.findings_view,
                                         Qt.DockWidgetArea.BottomDockWidgetArea)
         self.tabifyDockWidget(self.passes_dock, self.bookings_dock)
@@ -557,6 +558,10 @@ class MainWindow(QMainWindow):
     def _booking_current(self, current, _previous) -> None:
         if current.isValid() and self.bookings_view.hasFocus():
             self._booking_clicked(current)
+
+    def _finding_current(self, current, _previous) -> None:
+        if current.isValid() and self.findings_view.hasFocus():  # arrow keys walk through the findings
+            self._finding_clicked(current)
 
     def _pass_double_clicked(self, index) -> None:
         p = index.data(OBJECT_ROLE)
