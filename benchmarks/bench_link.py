@@ -13,16 +13,12 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from _timing import best_of  # noqa: E402
 
 
 def _best(fn, repeat=3):
-    best = float("inf")
-    out = None
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
-    return best, out
+    return best_of(fn, repeat)
 
 
 def main(argv) -> int:
