@@ -457,6 +457,17 @@ def test_palette_and_icons_both_themes(qapp):
         assert lo.name() == th.pass_low.name() and hi.name() == th.pass_high.name()
         # foreground against background: WCAG contrast ratio above 4.5 (WCAG 2.1, 1.4.3)
         assert _contrast(th.foreground, th.background) > 4.5
+        # severity words in the findings list are text: 4.5:1 on the background (WCAG 2.1, 1.4.3)
+        for c in (th.error, th.warning):
+            assert _contrast(c, th.background) >= 4.5 and _contrast(c, th.lane_a) >= 4.5
+        # booking labels are dark text on the booking fill, locked or not (WCAG 2.1, 1.4.3)
+        from PySide6.QtGui import QColor
+
+        for fill in (th.booking, th.booking_locked):
+            assert _contrast(QColor("#1A1A1A"), fill) >= 4.5
+        # lines that carry meaning: 3:1 against the lanes (WCAG 2.1, 1.4.11 non-text contrast)
+        for c in (th.now, th.error, th.burn, th.pass_high, th.track, th.booking_edge):
+            assert min(_contrast(c, th.lane_a), _contrast(c, th.lane_b)) >= 3.0, c.name()
         for name in icons.NAMES:
             img = icons.pixmap(name, 32).toImage()
             painted = sum(img.pixelColor(x, y).alpha() > 0 for x in range(0, 32, 2) for y in range(0, 32, 2))
@@ -1029,3 +1040,37 @@ def test_previous_next_and_given_week(win, demo_copy, demo_plan, monkeypatch):
     win.act_goto.trigger()
     assert win.last_error and "\n" not in win.last_error
     assert tl.visible_tt()[0] == pytest.approx(v0, abs=1.0)
+
+
+def test_property_edits_of_stations_and_activities_are_undoable(win, demo_copy, demo_plan):
+    from contactplan.app.document import Selection
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    ed = win.props
+    st = sc.stations[0]
+    win.doc.select(Selection("station", st.id))
+    old_cost, old_name = st.cost_per_hour, st.name
+    ed.fields["cost_per_hour"].setValue(old_cost + 7.0)
+    ed.fields["name"].setText("Renamed hill")
+    ed.apply()
+    assert st.cost_per_hour == pytest.approx(old_cost + 7.0) and st.name == "Renamed hill"
+    assert not win.doc.stale  # cost and name do not move the passes
+    win.act_undo.trigger()
+    assert st.cost_per_hour == pytest.approx(old_cost) and st.name == old_name
+    win.act_redo.trigger()
+    assert st.name == "Renamed hill"
+    win.act_undo.trigger()
+    act = next(a for a in sc.activities if a.series is None)
+    win.doc.select(Selection("activity", act.id))
+    old_len = act.duration_min
+    ed.fields["duration_min"].setValue(old_len + 10.0)
+    ed.apply()
+    assert act.duration_min == pytest.approx(old_len + 10.0)
+    assert win.doc.undo_stack.undoText().startswith(f"Change {act.id}")
+    win.act_undo.trigger()
+    assert act.duration_min == pytest.approx(old_len)
+    # a bad time is refused in the editor, nothing pushed
+    n = win.doc.undo_stack.count()
+    ed.fields["start_tt"].setText("2027-02-30T10:00Z")
+    ed.apply()
+    assert ed.error.text() and win.doc.undo_stack.count() == n

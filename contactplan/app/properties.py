@@ -39,7 +39,6 @@ class PropertyEditor(QWidget):
         outer.addWidget(self.form_host)
         self.error = QLabel("")
         self.error.setWordWrap(True)
-        self.error.setStyleSheet("color: #D55E00")
         outer.addWidget(self.error)
         row = QHBoxLayout()
         self.apply_btn = QPushButton("Apply")
@@ -68,6 +67,9 @@ class PropertyEditor(QWidget):
 
     def reload(self, *_args) -> None:
         self._clear()
+        from contactplan.app import theme
+
+        self.error.setStyleSheet(f"color: {theme.current().error.name()}")  # readable in light and dark
         sel = self.doc.selection
         sc = self.doc.scenario
         self.kind, self.key = None, None

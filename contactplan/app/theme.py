@@ -80,12 +80,14 @@ def light_theme() -> Theme:
         background=_c("#FFFFFF"), foreground=_c("#1A1A1A"),
         lane_a=_c("#F4F6F8"), lane_b=_c("#FFFFFF"), grid=_c("#D0D4D8"), day_line=_c("#7A8088"),
         pass_low=_c("#CFE6F5"), pass_high=_c(BLUE), pass_edge=_c("#1A1A1A"),
-        booking=_c(ORANGE), booking_edge=_c("#3A2A00"), booking_locked=_c("#A87400"),
+        booking=_c(ORANGE), booking_edge=_c("#3A2A00"), booking_locked=_c("#B88400"),
         selection=_c("#1A1A1A"),
         burn=_c(VERMILLION), slew=_c(PURPLE), other=_c(GREEN),
         keepout=_c(VERMILLION, 38), monitor=_c(GREEN, 60), outage=_c("#5A5A5A", 150),
-        error=_c(VERMILLION), warning=_c("#8A6D00"),
-        now=_c(SKY), fill=_c(GREEN), capacity=_c("#1A1A1A"), overflow=_c(VERMILLION, 90),
+        # a darker vermillion and sky than Okabe-Ito's: the error text and the now line need their
+        # WCAG 2.1 contrast on white (4.5:1 for text, 1.4.3; 3:1 for a line, 1.4.11)
+        error=_c("#B34A00"), warning=_c("#8A6D00"),
+        now=_c("#3A8CC0"), fill=_c(GREEN), capacity=_c("#1A1A1A"), overflow=_c(VERMILLION, 90),
         mask=_c("#8C8C8C", 120), track=_c(BLUE),
     )
 

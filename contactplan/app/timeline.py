@@ -766,7 +766,7 @@ class Timeline(pg.GraphicsLayoutWidget):
 
         self.now_lines = []
         for plot in (self.lanes_plot, self.rec_plot, self.el_plot):
-            ln = pg.InfiniteLine(angle=90, pen=pg.mkPen(th.now, width=2))
+            ln = pg.InfiniteLine(angle=90, pen=pg.mkPen(th.now, width=2, style=Qt.PenStyle.DashLine))
             ln.setZValue(50)
             plot.addItem(ln, ignoreBounds=True)
             self.now_lines.append(ln)
@@ -799,7 +799,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.el_curve.setPen(pg.mkPen(th.track, width=1.5))
         self.el_min_line.setPen(pg.mkPen(th.day_line, style=Qt.PenStyle.DotLine))
         for ln in self.now_lines:
-            ln.setPen(pg.mkPen(th.now, width=2))
+            ln.setPen(pg.mkPen(th.now, width=2, style=Qt.PenStyle.DashLine))
         self._findings_changed()
         self.canvas.update()
 

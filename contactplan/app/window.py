@@ -1069,7 +1069,10 @@ class MainWindow(QMainWindow):
             (sw(th.keepout), "keep-out: no downlink (shaded across every lane)"),
             (sw(th.outage), "hatched: station out of service"),
             (sw(th.foreground), "dark strip on top of the spacecraft lane: in the Earth's or Moon's shadow"),
-            (sw(th.now), "now"), (sw(th.fill), "recorder fill; dashed line = capacity; red span = overflow"),
+            (sw(th.now, "border:2px dashed"), "dashed vertical line: now"),
+            (sw(th.fill), "recorder fill; dashed line = capacity"),
+            (sw(th.overflow, "border:2px solid"), "recorder overflow: shaded span, thick bar on the capacity line, "
+                                                  "Gbit lost written at its start"),
         ]
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
