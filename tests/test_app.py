@@ -522,6 +522,9 @@ def test_revalidate_against_the_same_orbit_as_oem_moves_nothing(win, demo_copy, 
     assert rv.broken == []
     shifts = [abs(v) for b in rv.bookings for v in (b.aos_shift_s, b.los_shift_s) if v is not None]
     assert shifts and max(shifts) < 30.0
+    text = win.asked[-1][1]  # one line per booking with its AOS and LOS shift
+    for b in rv.bookings[:14]:
+        assert f"  {b.booking} {b.station}: AOS " in text
     assert sc.spacecraft.ephemeris.kind == "libration"  # not flown: the user said no
 
 
@@ -592,6 +595,9 @@ def test_draft_the_week_is_one_undo_step(win, demo_copy, demo_plan, qtbot):
     assert win.draft_week() is not None
     _wait_job(win, qtbot, timeout=300_000)
     assert win.asked and win.asked[-1][0] in ("Draft the week",)
+    summary = win.asked[-1][1]  # the drafter's summary comes before the question
+    assert "bookings added:" in summary and "station cost-hours:" in summary
+    assert "gap" in summary or "proven optimal" in summary
     after = _bookings(sc)
     assert after != before
     assert all(any(b.id == i for b in sc.bookings) for i in locked)  # locked ones stay
