@@ -863,6 +863,12 @@ def test_caution_is_whole_in_a_small_window(win, demo_copy, demo_plan):
     assert c.height() >= c.heightForWidth(c.width())
     assert c.geometry().right() <= win.statusBar().width()
     assert win.statusBar().geometry().bottom() <= win.height()
+    two_lines = c.height()
+    # wide again: one line, and the status bar gives the room back
+    win.resize(1600, 700)
+    _settle(6)
+    assert c.heightForWidth(c.width()) < two_lines and c.height() >= c.heightForWidth(c.width())
+    assert win.statusBar().height() < two_lines + 6
 
 
 def test_sky_view_gets_room_on_first_start(win, demo_copy, demo_plan):

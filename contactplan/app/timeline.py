@@ -879,8 +879,8 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.overflow_texts = []
         for (t0, t1, lost) in rec.overflow_spans or []:
             x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
-            text = f"full {format_utc(t0, 0)[5:16].replace('T', ' ')} to {format_utc(t1, 0)[5:16].replace('T', ' ')}: " \
-                   f"{lost:.1f} Gbit lost"
+            a, b = (format_utc(t, 0)[5:16].replace("T", " ") for t in (t0, t1))
+            text = f"full {a} to {b}: {lost:.1f} Gbit lost"
             reg = pg.LinearRegionItem(values=(x0, x1), movable=False,
                                       brush=th.overflow, pen=pg.mkPen(th.error, width=1))
             reg.setToolTip(f"recorder {text}")

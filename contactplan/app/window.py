@@ -17,7 +17,7 @@ from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence, QUndoComma
 from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog, QDialogButtonBox, QDockWidget,
                                QFileDialog, QFrame, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit,
                                QMainWindow, QMessageBox, QProgressBar, QPushButton, QScrollArea, QSizePolicy,
-                               QStyledItemDelegate, QTableView, QUndoView, QVBoxLayout, QWidget)
+                               QStatusBar, QStyledItemDelegate, QTableView, QUndoView, QVBoxLayout, QWidget)
 
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
@@ -131,6 +131,45 @@ class StationDelegate(QStyledItemDelegate):
 
     def setModelData(self, editor, model, index):
         model.setData(index, editor.currentText(), Qt.ItemDataRole.EditRole)
+
+
+class CautionLabel(QLabel):
+    """The caution in the status bar: one line when the window is wide, wrapped (never cut) when it is not."""
+
+    MIN_WIDTH = 420  # two lines at most
+
+    def __init__(self, text: str, parent=None):
+        super().__init__(text, parent)
+        self.setWordWrap(True)
+        self.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Preferred)
+        self.setMinimumWidth(self.MIN_WIDTH)
+        self._lines_h = -1
+
+    def _height(self) -> int:
+        return self.heightForWidth(max(self.width(), self.MIN_WIDTH))
+
+    def minimumSizeHint(self):
+        hint = super().minimumSizeHint()
+        hint.setHeight(self._height())
+        return hint
+
+    def sizeHint(self):
+        hint = super().sizeHint()
+        hint.setHeight(self._height())
+        return hint
+
+    def resizeEvent(self, ev):
+        super().resizeEvent(ev)
+        h = self._height()
+        if h != self._lines_h:  # wrapped onto more or fewer lines: let the status bar follow
+            self._lines_h = h
+            self.updateGeometry()
+            bar = self.parentWidget()
+            while bar is not None and not isinstance(bar, QStatusBar):
+                bar = bar.parentWidget()
+            if bar is not None:  # the status bar sizes itself only when asked to
+                bar.setMinimumHeight(h + 6)
+                bar.setMaximumHeight(h + 6)
 
 
 def _table(model, sortable=True) -> QTableView:
@@ -415,14 +454,10 @@ class MainWindow(QMainWindow):
 
     def _build_status(self) -> None:
         sb = self.statusBar()
-        self.caution = QLabel(CAUTION)
+        self.caution = CautionLabel(CAUTION)
         self.caution.setObjectName("caution")
         self.caution.setToolTip(CAUTION)
         self.caution.setStyleSheet("QLabel#caution { font-weight: bold; padding: 0 6px; }")
-        # in a narrow window the caution wraps onto a second line instead of being cut
-        self.caution.setWordWrap(True)
-        self.caution.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Preferred)
-        self.caution.setMinimumWidth(420)  # two lines at most
         self.summary = QLabel("")
         # the counts give way first (they are also in the tables)
         self.summary.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Preferred)
