@@ -850,7 +850,12 @@ def test_recorder_overflow_says_what_is_lost(win, demo_copy, demo_plan):
     tl.set_range_tt(t0 - 2 * 86400.0, t0 + 1800.0)
     _settle()
     (vx0, vx1), _ = tl.rec_plot.getViewBox().viewRange()
-    assert vx0 <= labels[0].pos().x() < vx1
+    assert vx0 <= labels[0].pos().x() < vx1 and labels[0].isVisible()
+    # and it goes away with its span when the view is elsewhere
+    tl.set_range_tt(sc.start_tt, sc.start_tt + 86400.0)
+    _settle()
+    if rec.overflow_spans[0][0] > sc.start_tt + 86400.0:
+        assert not labels[0].isVisible()
 
 
 def test_caution_is_whole_in_a_small_window(win, demo_copy, demo_plan):
@@ -1086,3 +1091,23 @@ def test_property_edits_of_stations_and_activities_are_undoable(win, demo_copy, 
     ed.fields["start_tt"].setText("2027-02-30T10:00Z")
     ed.apply()
     assert ed.error.text() and win.doc.undo_stack.count() == n
+
+
+def test_drag_preview_names_its_snapped_times_and_length(win, demo_copy, demo_plan):
+    _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win, min_h=4.0)
+    tl = win.timeline
+    tl.zoom_to(p.aos_tt, p.los_tt)
+    _settle()
+    c = tl.canvas
+    lane = c.lane_of_station(p.station) + 0.5
+    t0 = _grid(p.aos_tt + 3600.0)
+    d = c.begin_drag(c.x_of(t0 + 40.0), lane)
+    c.update_drag(d, c.x_of(t0 + 2 * 3600.0 + 7 * 60.0 + 40.0), lane)  # 2 h 07 min 40 s after
+    win.grab()  # paint: the preview writes its label
+    from contactplan.timescale import format_utc
+
+    assert d.start_tt == pytest.approx(t0) and d.end_tt == pytest.approx(t0 + 2 * 3600.0 + 600.0)
+    assert c.drag_label == f"{format_utc(t0, 0)[5:16].replace('T', ' ')} - " \
+                           f"{format_utc(t0 + 7800.0, 0)[11:16]}  (2 h 10)"
+    c.drag = None

@@ -203,6 +203,7 @@ class LanesCanvas(pg.GraphicsObject):
         self.shade = "rate"  # or "elevation"
         self._segments: dict = {}  # id(Pass) -> [(t0, t1, level)]
         self._finding_span = None
+        self.drag_label = ""  # what the drag preview says (start - end and length)
         self.setZValue(10)
 
     # ------------------------------------------------------------ geometry
@@ -436,8 +437,14 @@ class LanesCanvas(pg.GraphicsObject):
             painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DashLine))
             painter.drawRect(r)
             painter.setPen(QPen(th.foreground))
-            label = f"{format_utc(d.start_tt, 0)[5:16]} - {format_utc(d.end_tt, 0)[11:16]}"
-            painter.drawText(QPointF(r.left(), r.top() - 3), label)
+            minutes = int(round((d.end_tt - d.start_tt) / 60.0))
+            label = (f"{format_utc(d.start_tt, 0)[5:16].replace('T', ' ')} - {format_utc(d.end_tt, 0)[11:16]}"
+                     f"  ({minutes // 60} h {minutes % 60:02d})")
+            self.drag_label = label
+            fm = painter.fontMetrics()
+            box = QRectF(r.left(), r.top() - fm.height() - 4, fm.horizontalAdvance(label) + 8, fm.height() + 2)
+            painter.fillRect(box, th.background)  # readable over passes and their edges
+            painter.drawText(box, int(Qt.AlignmentFlag.AlignCenter), label)
         # the finding being looked at
         if self._finding_span is not None:
             f0, f1 = self._finding_span
@@ -912,6 +919,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             if span is None:
                 continue
             x0, x1, cap = span
+            it.setVisible(x1 >= vx0 and x0 <= vx1)  # no label for a span off screen
             w = (it.boundingRect().width() + 6) * px
             x = min(max(x0, vx0), max(vx0, vx1 - w))
             it.setPos(x, cap)
