@@ -784,8 +784,10 @@ def test_switching_to_dark_recolours_the_timeline(win, demo_copy, demo_plan, mon
 
     _open_with(win, demo_copy, demo_plan)
     monkeypatch.setattr(theme, "system_is_dark", lambda: True)
+    before = win.export_button.icon().cacheKey()
     win.refresh_theme()
     assert theme.current().dark
+    assert win.export_button.icon().cacheKey() != before  # the toolbar's export button is redrawn too
     assert win.timeline.backgroundBrush().color().name() == theme.dark_theme().background.name()
     img = win.timeline.grab().toImage()
     # most of the lanes are now dark

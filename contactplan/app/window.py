@@ -449,6 +449,7 @@ class MainWindow(QMainWindow):
                   self.act_import, self.act_revalidate, self.act_draft):
             tb.addSeparator() if a is None else tb.addAction(a)
         self.export_button = tb.addAction(icons.icon("export"), "Export report")
+        self.export_button.setProperty("icon_name", "export")
         self.export_button.setToolTip("Export the weekly report (PDF); other exports are in File > Export")
         self.export_button.triggered.connect(lambda: self.export_dialog("report", "pdf", "PDF (*.pdf)"))
 
@@ -504,13 +505,12 @@ class MainWindow(QMainWindow):
         icons.icon.cache_clear()
         self.timeline.apply_theme()
         self.sky.update()
-        for a in (self.act_new, self.act_open, self.act_save, self.act_save_as, self.act_import,
-                  self.act_revalidate, self.act_undo, self.act_redo, self.act_zoom_in, self.act_zoom_out,
-                  self.act_prev, self.act_next, self.act_now, self.act_compute, self.act_draft):
+        for a in self.findChildren(QAction):  # every action with one of our icons, the export button too
             name = a.property("icon_name")
             if name:
                 a.setIcon(icons.icon(name))
         self.findings_model.refresh()
+        self.props.reload()  # its error text takes the theme's colour
 
     def set_day_of_year(self, on: bool) -> None:
         """Tables and editors show 2027-012T19:00:00Z instead of 2027-01-12T19:00:00Z."""
