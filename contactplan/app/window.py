@@ -236,7 +236,8 @@ class MainWindow(QMainWindow):
             self.restoreState(state)
         else:  # first start: a sky view big enough to read, the editor below it
             self.resizeDocks([self.sky_dock], [400], Qt.Orientation.Horizontal)
-            self.resizeDocks([self.sky_dock, self.props_dock], [430, 300], Qt.Orientation.Vertical)
+            self.resizeDocks([self.sky_dock, self.props_dock], [370, 230], Qt.Orientation.Vertical)
+            self.resizeDocks([self.findings_dock], [230], Qt.Orientation.Vertical)  # room for 6 findings
         if str(self.settings.value("view/doy", "false")).lower() == "true":
             self.act_doy.setChecked(True)
         self._update_title()
