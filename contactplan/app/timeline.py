@@ -737,6 +737,11 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.rec_plot.hideButtons()
         self.fill_curve = pg.PlotDataItem(pen=pg.mkPen(th.fill, width=2), fillLevel=0.0,
                                           brush=QColor(th.fill.red(), th.fill.green(), th.fill.blue(), 60))
+        # a year of recorder samples: draw only what is on screen, thinned keeping the peaks
+        # (set on the plot: it passes them to its curves; clipping needs x not to auto-range)
+        self.rec_plot.setClipToView(True)
+        self.rec_plot.setDownsampling(auto=True, mode="peak")
+        self.rec_plot.getViewBox().disableAutoRange(pg.ViewBox.XAxis)
         self.rec_plot.addItem(self.fill_curve)
         self.capacity_line = pg.InfiniteLine(angle=0, pen=pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine),
                                              label="capacity", labelOpts={"position": 0.08, "color": th.foreground,
