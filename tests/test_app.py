@@ -1116,3 +1116,34 @@ def test_drag_preview_names_its_snapped_times_and_length(win, demo_copy, demo_pl
     assert c.drag_label == f"{format_utc(t0, 0)[5:16].replace('T', ' ')} - " \
                            f"{format_utc(t0 + 7800.0, 0)[11:16]}  (2 h 10)"
     c.drag = None
+
+
+def test_escape_drops_a_drag_in_progress(win, demo_copy, demo_plan, qtbot):
+    sc = _open_with(win, demo_copy, demo_plan)
+    p = _free_pass(win)
+    tl = win.timeline
+    tl.zoom_to(p.aos_tt, p.los_tt)
+    _settle()
+    lane = tl.canvas.lane_of_station(p.station) + 0.5
+    t0 = _grid(p.aos_tt + 3600.0)
+    n = len(sc.bookings)
+    vp = tl.viewport()
+    _send(vp, QEvent.Type.MouseButtonPress, _pos(win, t0, lane), Qt.MouseButton.LeftButton)
+    for f in np.linspace(0.1, 1.0, 5):
+        qtbot.wait(25)
+        _send(vp, QEvent.Type.MouseMove, _pos(win, t0 + 7200.0 * f, lane), Qt.MouseButton.LeftButton)
+    assert tl.canvas.drag is not None
+    view_before = tl.visible_tt()
+    qtbot.keyClick(tl, Qt.Key.Key_Escape)
+    assert tl.canvas.drag is None
+    for f in (1.1, 1.2):  # the mouse goes on moving: no pan, no booking
+        qtbot.wait(25)
+        _send(vp, QEvent.Type.MouseMove, _pos(win, t0 + 7200.0 * f, lane), Qt.MouseButton.LeftButton)
+    qtbot.wait(25)
+    _send(vp, QEvent.Type.MouseButtonRelease, _pos(win, t0 + 8000.0, lane), Qt.MouseButton.NoButton)
+    QApplication.processEvents()
+    assert len(sc.bookings) == n and win.doc.undo_stack.count() == 0
+    assert tl.visible_tt() == pytest.approx(view_before)
+    # the next drag works as usual
+    drag(qtbot, win, t0, t0 + 3600.0, lane)
+    assert len(sc.bookings) == n + 1

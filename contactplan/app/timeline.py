@@ -138,6 +138,9 @@ class LaneAxis(pg.AxisItem):
         self.setTicks([[(i + 0.5, n) for i, n in enumerate(names)], []])
 
 
+_CANCELLED = object()  # a gesture dropped with Escape
+
+
 class LanesViewBox(pg.ViewBox):
     """Reads gestures in the lanes: click selects, drag on a pass books, drag a booking moves or resizes it."""
 
@@ -162,12 +165,27 @@ class LanesViewBox(pg.ViewBox):
         else:
             super().mouseClickEvent(ev)
 
+    def cancel_drag(self) -> bool:
+        """Escape during a gesture: drop it; the rest of the mouse drag does nothing. True if one was running."""
+        if self._drag is None or self._drag is _CANCELLED:
+            return False
+        self._drag = _CANCELLED
+        if self.canvas is not None:
+            self.canvas.drag = None
+            self.canvas.update()
+        return True
+
     def mouseDragEvent(self, ev, axis=None):
         if self.canvas is None or axis is not None or ev.button() != Qt.MouseButton.LeftButton:
             return super().mouseDragEvent(ev, axis)
         if ev.isStart():
             p = self.mapSceneToView(ev.buttonDownScenePos())
             self._drag = self.canvas.begin_drag(p.x(), p.y())
+        if self._drag is _CANCELLED:
+            ev.accept()
+            if ev.isFinish():
+                self._drag = None
+            return
         if self._drag is None:
             return super().mouseDragEvent(ev, axis)  # pan
         ev.accept()
@@ -1053,7 +1071,8 @@ class Timeline(pg.GraphicsLayoutWidget):
         elif k == Qt.Key.Key_Home:
             self.show_window()
         elif k == Qt.Key.Key_Escape:
-            self.doc.select(NOTHING)
+            if not self.lanes_vb.cancel_drag():  # first Escape drops a drag, the next one the selection
+                self.doc.select(NOTHING)
         elif k in (Qt.Key.Key_Return, Qt.Key.Key_Enter):
             b = self.doc.selected_booking()
             if b is not None:

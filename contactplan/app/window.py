@@ -1112,7 +1112,8 @@ class MainWindow(QMainWindow):
         ]
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
-                 "(snaps to pass edges and a 5-minute grid). Delete removes, double-click edits purposes. "
+                 "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Delete removes, double-click edits "
+                 "purposes. "
                  "Arrows pan, +/- zoom, Page Up/Down change week, Home shows the whole window.</p>")
         box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)
         box.setTextFormat(Qt.TextFormat.RichText)
