@@ -1114,7 +1114,8 @@ class MainWindow(QMainWindow):
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
                  "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Delete removes, double-click edits "
                  "purposes. "
-                 "Arrows pan, +/- zoom, Page Up/Down change week, Home shows the whole window.</p>")
+                 "Arrows pan, +/- zoom, Page Up/Down or Alt+Left/Right change week, Ctrl+G goes to a given week, "
+                 "Home shows the whole window.</p>")
         box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)
         box.setTextFormat(Qt.TextFormat.RichText)
         box.open()
