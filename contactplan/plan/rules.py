@@ -27,6 +27,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from contactplan.intervals import intersect, subtract, total_s, union  # noqa: F401  (also imported from here)
 from contactplan.plan.findings import ERROR, WARNING, Finding
 from contactplan.timescale import format_utc, utc_day_start, utc_days
 
@@ -35,57 +36,6 @@ EDGE_TOLERANCE_S = 1.0
 #: recorder fill above this fraction of capacity gives ``recorder-high``
 RECORDER_HIGH_FRACTION = 0.9
 _SEVERITY_ORDER = {ERROR: 0, WARNING: 1}
-
-
-# ---------------------------------------------------------------- intervals
-def union(spans) -> list[tuple[float, float]]:
-    """Merge (start, end) spans into sorted, disjoint spans (empty ones dropped)."""
-    out: list[list[float]] = []
-    for a, b in sorted((float(a), float(b)) for a, b in spans if b > a):
-        if out and a <= out[-1][1]:
-            out[-1][1] = max(out[-1][1], b)
-        else:
-            out.append([a, b])
-    return [(a, b) for a, b in out]
-
-
-def intersect(spans_a, spans_b) -> list[tuple[float, float]]:
-    """Intersection of two lists of disjoint sorted spans."""
-    a, b = union(spans_a), union(spans_b)
-    i = j = 0
-    out = []
-    while i < len(a) and j < len(b):
-        lo, hi = max(a[i][0], b[j][0]), min(a[i][1], b[j][1])
-        if hi > lo:
-            out.append((lo, hi))
-        if a[i][1] < b[j][1]:
-            i += 1
-        else:
-            j += 1
-    return out
-
-
-def subtract(spans, holes) -> list[tuple[float, float]]:
-    """``spans`` minus ``holes``."""
-    out = []
-    holes = union(holes)
-    for a, b in union(spans):
-        cur = a
-        for h0, h1 in holes:
-            if h1 <= cur or h0 >= b:
-                continue
-            if h0 > cur:
-                out.append((cur, h0))
-            cur = max(cur, h1)
-            if cur >= b:
-                break
-        if cur < b:
-            out.append((cur, b))
-    return out
-
-
-def total_s(spans) -> float:
-    return float(sum(b - a for a, b in spans))
 
 
 # ---------------------------------------------------------------- text helpers
