@@ -57,6 +57,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from contactplan.errors import InputError
+from contactplan.intervals import subtract, union
 from contactplan.timescale import format_utc, tt_to_utc_fields, utc_days
 
 OPTIMAL = "optimal"
@@ -69,7 +70,9 @@ BOOKING_CHARGE = 0.01
 MAX_CANDIDATES = 6500
 #: the model keeps the recorder this far below capacity (gigabits) as a rounding guard
 FILL_GUARD_GBIT = 1e-3
-_TOL = 1e-3  # seconds
+#: time tolerance (s); also the sliver size for span operations here: covers closer than this are
+#: joined and pieces this short dropped (``tol``/``join_gap`` of :mod:`contactplan.intervals`)
+_TOL = 1e-3
 #: HiGHS presolve spends seconds on these network models for little gain; it stays off
 _PRESOLVE = False
 
@@ -164,34 +167,6 @@ def _keepout_spans(scenario) -> list:
     return out
 
 
-def _merge(intervals) -> list:
-    out = []
-    for a, b in sorted(intervals):
-        if out and a <= out[-1][1] + _TOL:
-            out[-1][1] = max(out[-1][1], b)
-        else:
-            out.append([a, b])
-    return out
-
-
-def _subtract(span, covers) -> list:
-    """Parts of ``span`` (a, b) not covered by the intervals ``covers``."""
-    a, b = span
-    out = []
-    cur = a
-    for c0, c1 in _merge(covers):
-        if c1 <= cur or c0 >= b:
-            continue
-        if c0 > cur + _TOL:
-            out.append((cur, min(c0, b)))
-        cur = max(cur, c1)
-        if cur >= b:
-            break
-    if cur < b - _TOL:
-        out.append((cur, b))
-    return out
-
-
 def _overlap_len(a0, a1, b0, b1):
     return np.maximum(0.0, np.minimum(a1, b1) - np.maximum(a0, b0))
 
@@ -211,7 +186,8 @@ def _tracked(scenario, booking, passes_by_station) -> list:
               if p.aos_tt < b and p.los_tt > a]
     out = []
     for span in inside:
-        out.extend(_subtract(span, [(o.start_tt, o.end_tt) for o in st.outages]))
+        # one pass at a time, so pieces of touching passes stay apart; slivers of _TOL or less dropped
+        out.extend(subtract([span], [(o.start_tt, o.end_tt) for o in st.outages], tol=_TOL))
     return out
 
 
@@ -382,7 +358,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     # kept bookings: the time they track, and the downlink they may return
     lock_cover = np.zeros(K)
     tracked_keep = {kb.id: _tracked(scenario, kb, by_station) for kb in keeps}
-    for c0, c1 in _merge([s for spans_ in tracked_keep.values() for s in spans_]):
+    for c0, c1 in union([s for spans_ in tracked_keep.values() for s in spans_], join_gap=_TOL):
         lock_cover += _overlap_len(a, b, c0, c1)
     lock_cover = np.clip(lock_cover / np.maximum(length, _TOL), 0.0, 1.0)
     lock_data = np.zeros(K)
@@ -397,8 +373,8 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
             wins = downlink_windows(scenario, kb, passes)
         else:
             st = stations[sid[kb.station]]
-            wins = _subtract((kb.start_tt + st.setup_min * 60.0, kb.end_tt - st.teardown_min * 60.0),
-                             [(s0, s1) for s0, s1, _ in keepouts])
+            wins = subtract([(kb.start_tt + st.setup_min * 60.0, kb.end_tt - st.teardown_min * 60.0)],
+                            [(s0, s1) for s0, s1, _ in keepouts], tol=_TOL)
         for w0, w1 in wins:
             for k in np.flatnonzero((a < w1) & (b > w0)):
                 lo, hi = max(a[k], w0), min(b[k], w1)
@@ -416,7 +392,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
         if m1 <= m0:
             continue
         burn_spans.append((burn.id, burn.start_tt, m0, m1))
-        for u0, u1 in _subtract((m0, m1), rc):
+        for u0, u1 in subtract([(m0, m1)], rc, tol=_TOL):
             if u1 - u0 > 1.0:
                 need_cover |= (a < u1 - _TOL) & (b > u0 + _TOL)
                 for k in np.flatnonzero((a < u1 - _TOL) & (b > u0 + _TOL)):
@@ -440,7 +416,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
             rng_need[j] = max(0, req.ranging_per_day_min - have)
 
     lock_day = np.zeros(len(days))
-    kept_union = _merge([s_ for spans_ in tracked_keep.values() for s_ in spans_])
+    kept_union = union([s_ for spans_ in tracked_keep.values() for s_ in spans_], join_gap=_TOL)
     for j, m in enumerate(days):
         lock_day[j] = sum(float(_overlap_len(c0, c1, m, m + 86400.0)) for c0, c1 in kept_union)
 
@@ -483,6 +459,8 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
 
 
 def _merge_pieces(pieces):
+    """Sorted pieces, exact duplicates dropped. Not a union: each piece is its own constraint (one booking
+    must track all of it), so overlapping or touching pieces are kept apart."""
     return sorted(set((float(lo), float(hi)) for lo, hi in pieces))
 
 
@@ -814,7 +792,7 @@ def _explain(scenario, P: _Plan) -> list:
         idx = np.flatnonzero(P.need_cover & (a < m1) & (b > m0) & ~any_track)
         if not len(idx):
             continue
-        gaps = _merge([(max(a[k], m0), min(b[k], m1)) for k in idx])
+        gaps = union([(max(a[k], m0), min(b[k], m1)) for k in idx], join_gap=_TOL)
         where = "; ".join(_span_text(g0, g1) for g0, g1 in gaps[:3])
         seen = np.zeros(K, dtype=bool)
         for i in range(S):
