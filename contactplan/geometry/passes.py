@@ -27,6 +27,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from contactplan.intervals import clip, subtract
+
 MAX_STEP_ANGLE_DEG = 3.0  # largest turn of the line of sight between coarse samples
 PRE_STEP_S = 600.0  # spacing of the samples used to size the coarse grid
 EVENT_TOL_S = 0.01  # AOS/LOS refined to this (bracket width, seconds)
@@ -75,23 +77,9 @@ class Pass:
 # ---------------------------------------------------------------- coverage and grid
 def coverage_spans(ephemeris, start_tt: float, end_tt: float) -> list[tuple[float, float]]:
     """Sub-spans of [start_tt, end_tt] the ephemeris answers (its span minus its gaps)."""
-    s0 = max(float(start_tt), float(ephemeris.start_tt))
-    s1 = min(float(end_tt), float(ephemeris.end_tt))
-    if not s1 > s0:
-        return []
-    spans = [(s0, s1)]
-    for g0, g1 in sorted(getattr(ephemeris, "gaps", []) or []):
-        nxt = []
-        for a, b in spans:
-            if g1 <= a or g0 >= b:
-                nxt.append((a, b))
-                continue
-            if g0 > a:
-                nxt.append((a, g0))
-            if g1 < b:
-                nxt.append((g1, b))
-        spans = nxt
-    return [(a, b) for a, b in spans if b > a]
+    # gaps are positive spans between segments (contactplan.io.oem.coverage); a zero-length one would cut nothing
+    span = clip([(ephemeris.start_tt, ephemeris.end_tt)], start_tt, end_tt)
+    return subtract(span, getattr(ephemeris, "gaps", []) or [])
 
 
 def coarse_grid(ephemeris, start_tt: float, end_tt: float, max_angle_deg: float = MAX_STEP_ANGLE_DEG,

@@ -8,24 +8,16 @@ keep-out (:attr:`Activity.keepout_span_tt`) and outside the station's outages.
 
 from __future__ import annotations
 
+from contactplan.intervals import subtract
+
 
 def subtract_spans(spans, cuts):
-    """``spans`` (sorted, disjoint (start, end) pairs) minus the union of ``cuts``."""
-    out = list(spans)
-    for c0, c1 in cuts:
-        if not c1 > c0:
-            continue
-        nxt = []
-        for s0, s1 in out:
-            if c1 <= s0 or c0 >= s1:
-                nxt.append((s0, s1))
-                continue
-            if c0 > s0:
-                nxt.append((s0, c0))
-            if c1 < s1:
-                nxt.append((c1, s1))
-        out = nxt
-    return out
+    """``spans`` (sorted, disjoint (start, end) pairs) minus the union of ``cuts``.
+
+    :func:`contactplan.intervals.subtract`; kept under this name for callers of this module.
+    Spans that touch come out joined (this module only ever passes one span).
+    """
+    return subtract(spans, cuts)
 
 
 def downlink_pieces(scenario, booking, passes):
@@ -49,9 +41,7 @@ def downlink_pieces(scenario, booking, passes):
         if p.station != booking.station or p.los_tt <= start or p.aos_tt >= end:
             continue
         span = (max(start, p.aos_tt), min(end, p.los_tt))
-        for s0, s1 in subtract_spans([span], cuts):
-            if s1 > s0:
-                pieces.append((s0, s1, p))
+        pieces += [(s0, s1, p) for s0, s1 in subtract([span], cuts)]
     pieces.sort(key=lambda x: x[0])
     return pieces
 
