@@ -75,6 +75,9 @@ def covered_pieces(ephemeris) -> list[tuple[float, float]]:
     """[start_tt, end_tt] of any ephemeris-like object minus its ``gaps``, as (start_tt, end_tt) in time order.
 
     Gap edges are covered instants (a gap is the open span between two segments).
+    Unlike :func:`contactplan.intervals.subtract` this keeps zero-length pieces: an instant
+    between two touching gaps, or at a gap on the span's edge, is covered and
+    :func:`clamp_to_cover` may clamp to it.
     """
     lo, hi = float(ephemeris.start_tt), float(ephemeris.end_tt)
     out = []
