@@ -4,9 +4,10 @@ A 5 ms QTimer heartbeat runs in the GUI thread while ``MainWindow.compute()``
 predicts a year of passes (the bundled demo, an invented mission, with its
 window stretched to 365 days) in the worker thread. The longest gap between
 heartbeats, less the 5 ms period, is the stall. Target: under 100 ms.
-A second figure is the stall while the finished year is handed to the views
-(tables, timeline, findings) in the GUI thread, reported for information; a third
-the stall while the demo week is drafted in the worker (same target).
+A second figure is the longest stall while the finished year (about 1,770
+passes) is handed to the views in the GUI thread: tables reset over prepared
+columns, timeline repainted, findings listed; a third the stall while the demo
+week is drafted in the worker. All three count in the verdict (same target).
 
     QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_app_stall.py
 """
@@ -93,7 +94,9 @@ def main() -> int:
           f"({state['ticks']} heartbeats of {PERIOD_MS} ms)")
     print(f"longest event-loop stall while computing: {state['worst']:.1f} ms (target < {TARGET_MS:.0f} ms) "
           f"{'OK' if ok else 'OVER TARGET'}")
-    print(f"stall while the year is handed to the views (GUI thread, for information): {state['worst_ui']:.1f} ms")
+    ok_ui = state["worst_ui"] < TARGET_MS
+    print(f"longest stall while the year is handed to the views (GUI thread): {state['worst_ui']:.1f} ms "
+          f"(target < {TARGET_MS:.0f} ms) {'OK' if ok_ui else 'OVER TARGET'}")
     # drafting a week (HiGHS in the worker) must not hold the event loop either
     win.set_scenario(load_scenario(demo_scenario()), compute=False)
     job = win.compute()
@@ -116,7 +119,7 @@ def main() -> int:
           f"(target < {TARGET_MS:.0f} ms) {'OK' if ok_draft else 'OVER TARGET'}")
     win.doc.undo_stack.setClean()
     win.close()
-    return 0 if ok and ok_draft else 1
+    return 0 if ok and ok_ui and ok_draft else 1
 
 
 if __name__ == "__main__":

@@ -97,3 +97,93 @@ def test_models_sort_and_filter(doc):
     fm.refresh()
     sev = [fm.index(r, 0).data() for r in range(fm.rowCount())]
     assert sev == sorted(sev, key=lambda s: s != "error")  # errors first
+
+
+def _many_passes(doc, n=600):
+    """n invented passes alternating between the two stations of minimal.toml, one every 3 hours."""
+    from dataclasses import replace
+
+    base = doc.result.passes
+    t0 = parse_utc("2027-01-12T00:00:00Z")
+    out = []
+    for i in range(n):
+        p = base[i % 2]
+        aos = t0 + i * 10800.0
+        out.append(replace(p, aos_tt=aos, los_tt=aos + 3600.0 + 60.0 * (i % 7), max_elevation_tt=aos + 1800.0,
+                           max_elevation_deg=10.0 + (i * 37) % 80, outages=[]))
+    return out
+
+
+def test_passes_model_serves_rows_lazily_and_matches_the_passes(doc):
+    from contactplan.app.models import FilterProxy, PassesModel, PassTable, hours_text, utc_text
+
+    passes = _many_passes(doc)
+    doc.result = PlanResult(scenario=doc.scenario, ephemeris=None, passes=passes)
+    pm = PassesModel(doc)
+    pm.refresh()
+    assert pm.rowCount() == 600
+    # nothing is formatted until a view asks; a cell costs one block of its column, not the table
+    text = pm.table.text
+    assert all(col is None for col in text._cols)
+    assert pm.index(599, 1).data() == utc_text(passes[599].aos_tt)
+    assert text._cols[1][0] is None and text._cols[2] is None
+    for r in (0, 255, 256, 598):
+        p = pm.index(r, 0).data(Qt.ItemDataRole.UserRole + 2)
+        assert p is passes[r]
+        assert pm.index(r, 2).data() == utc_text(p.los_tt)
+        assert pm.index(r, 3).data() == hours_text(p.duration_s)
+        assert pm.index(r, 4).data() == f"{p.max_elevation_deg:.1f}"
+    # sorting (stable, both ways) and filtering agree with the passes themselves
+    proxy = FilterProxy()
+    proxy.setSourceModel(pm)
+    proxy.sort(4, Qt.SortOrder.DescendingOrder)
+    rows = [pm.rows[r] for r in range(pm.rowCount())]
+    assert rows == sorted(passes, key=lambda p: p.max_elevation_deg, reverse=True)
+    assert [pm.index(r, 4).data() for r in range(3)] == [f"{p.max_elevation_deg:.1f}" for p in rows[:3]]
+    proxy.sort(3, Qt.SortOrder.AscendingOrder)  # ties keep the elevation order
+    rows = [pm.rows[r] for r in range(pm.rowCount())]
+    assert rows == sorted(sorted(passes, key=lambda p: p.max_elevation_deg, reverse=True),
+                          key=lambda p: p.duration_s)
+    day = utc_text(passes[17].aos_tt)[:10]
+    proxy.set_text(day)
+    want = [p for p in rows if day in utc_text(p.aos_tt) or day in utc_text(p.los_tt)]
+    assert [proxy.index(r, 0).data(Qt.ItemDataRole.UserRole + 2) for r in range(proxy.rowCount())] == want
+    proxy.set_text("")
+    proxy.set_station("KAL")
+    assert proxy.rowCount() == 300
+
+    # a table prepared in the worker is taken as it is when it matches the passes and the date style
+    table = PassTable(passes, doy=False).prepare()
+    pm.adopt(table)
+    pm.refresh()
+    assert pm.table is table and pm.index(0, 1).data() == utc_text(pm.rows[0].aos_tt)
+    pm.adopt(PassTable(passes, doy=True).prepare())  # other date style: not used
+    pm.refresh()
+    assert pm.table is not table and pm.table.doy is False
+    pm.adopt(PassTable(list(passes), doy=False))  # made from another list: not used
+    pm.refresh()
+    assert pm.table.source is passes
+
+
+def test_findings_for_follows_edits(doc):
+    bid = doc.add_booking("KAL", parse_utc("2027-01-13T07:00:00Z"), parse_utc("2027-01-13T09:00:00Z"))
+    before = doc.findings_for(bid)
+    doc.edit_booking(bid, start_tt=parse_utc("2027-01-13T15:30:00Z"), end_tt=parse_utc("2027-01-13T17:00:00Z"))
+    after = doc.findings_for(bid)
+    assert any(f.severity == "error" for f in after) and after != before
+    assert after == [f for f in doc.findings if bid in f.subjects]
+    doc.undo_stack.undo()
+    assert doc.findings_for(bid) == [f for f in doc.findings if bid in f.subjects]
+    assert not any(f.severity == "error" for f in doc.findings_for(bid))
+    assert doc.findings_for("NO-SUCH-ID") == []
+
+
+def test_time_axis_labels_every_tick_of_a_view(qapp):
+    from contactplan.app.timeline import TimeAxis
+
+    ax = TimeAxis(parse_utc("2027-01-12T00:00:00Z"))
+    # calendar facts, checked with Python's datetime (proleptic Gregorian calendar):
+    # 2027-01-12 is a Tuesday, day 12; 2027-03-01 is a Monday, day 60, 48 days later
+    assert ax.tickStrings([0.0, 6.0, 24.0, 30.5, 48 * 24.0], 1.0, 6.0) == [
+        "012 Tue 01-12", "06:00", "013 Wed 01-13", "06:30", "060 Mon 03-01"]
+    assert ax.tickStrings([], 1.0, 6.0) == []

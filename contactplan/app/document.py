@@ -67,6 +67,7 @@ class PlanDocument(QObject):
         self.last_check_s = 0.0
         self.stale = False
         self.revision = 0  # counts edits; a result computed at an older revision is checked again
+        self._by_subject = None  # (findings list, its length, {subject: [Finding]})
 
     # ------------------------------------------------------------ state
     @property
@@ -105,6 +106,7 @@ class PlanDocument(QObject):
         self.resultChanged.emit()
         if revision is not None and revision == self.revision and result.findings is not None:
             self.check_error = None
+            self._by_subject = None
             self.findingsChanged.emit()
         else:
             self.recheck()
@@ -116,6 +118,7 @@ class PlanDocument(QObject):
     def recheck(self) -> None:
         """Re-run the recorder and rules for the current bookings; emit findingsChanged."""
         if self.result is None:
+            self._by_subject = None
             self.findingsChanged.emit()
             return
         t0 = time.perf_counter()
@@ -132,6 +135,7 @@ class PlanDocument(QObject):
             self.check_error = f"plan check failed: {exc}"
             self.message.emit(self.check_error)
         self.last_check_s = time.perf_counter() - t0
+        self._by_subject = None
         self.findingsChanged.emit()
 
     @property
@@ -139,7 +143,18 @@ class PlanDocument(QObject):
         return [] if self.result is None else list(self.result.findings or [])
 
     def findings_for(self, subject: str) -> list:
-        return [f for f in self.findings if subject in (f.subjects or [])]
+        """Findings naming ``subject``, from an index built once per list of findings (views ask per item)."""
+        found = None if self.result is None else self.result.findings
+        if not found:
+            return []
+        cached = self._by_subject
+        if cached is None or cached[0] is not found or cached[1] != len(found):
+            index: dict = {}
+            for f in found:
+                for s in dict.fromkeys(f.subjects or []):
+                    index.setdefault(s, []).append(f)
+            cached = self._by_subject = (found, len(found), index)
+        return list(cached[2].get(subject, ()))
 
     def select(self, selection: Selection) -> None:
         if selection != self.selection:

@@ -38,6 +38,55 @@ def _num(v, fmt: str) -> str:
     return format(v, fmt)
 
 
+class LazyText:
+    """Display text of a table, one column at a time, built the first time a cell of it is asked for.
+
+    ``fill(column, lo, hi)`` returns the texts of rows ``lo..hi-1`` of a column; it is
+    called for a block of rows at once (time columns then cost one vector call per
+    block, not one conversion per cell), so a view showing thirty rows of a year
+    formats a few blocks, not the year. Holds no Qt object: a worker thread may
+    build it whole (:meth:`fill_all`) and the window then only swaps it in.
+    """
+
+    BLOCK = 256
+
+    def __init__(self, n: int, columns: int, fill):
+        self.n = n
+        self._fill = fill
+        self._cols: list = [None] * columns
+        self._lower: list | None = None
+
+    def cell(self, i: int, c: int) -> str:
+        col = self._cols[c]
+        if col is None:
+            col = self._cols[c] = [None] * self.n
+        s = col[i]
+        if s is None:
+            lo = i - i % self.BLOCK
+            hi = min(self.n, lo + self.BLOCK)
+            col[lo:hi] = self._fill(c, lo, hi)
+            s = col[i]
+        return s
+
+    def column(self, c: int) -> list:
+        col = self._cols[c]
+        if col is None or None in col:
+            col = self._cols[c] = list(self._fill(c, 0, self.n)) if self.n else []
+        return col
+
+    def row_lower(self, i: int) -> str:
+        """Every cell of row ``i`` joined by spaces, lower case (what the text filter searches)."""
+        if self._lower is None:
+            cols = [self.column(c) for c in range(len(self._cols))]
+            self._lower = [" ".join(cells).lower() for cells in zip(*cols)] if self.n else []
+        return self._lower[i]
+
+    def fill_all(self) -> "LazyText":
+        if self.n:
+            self.row_lower(0)
+        return self
+
+
 class _Base(QAbstractTableModel):
     COLUMNS: tuple = ()
 
@@ -45,8 +94,6 @@ class _Base(QAbstractTableModel):
         super().__init__(parent)
         self.doc = doc
         self.rows: list = []
-        self.display: list | None = None  # per-row display tuples, when a model caches them
-        self.keys: list | None = None  # per-row sort-key tuples, when a model caches them
         self.sort_column = -1
         self.sort_order = Qt.SortOrder.AscendingOrder
 
@@ -69,27 +116,26 @@ class _Base(QAbstractTableModel):
         self._apply_sort()
         self.endResetModel()
 
-    def _key(self, r: int, c: int):
-        if self.keys is not None:
-            return self.keys[r][c]
-        return self.data(self.index(r, c), SORT_ROLE)
+    def _column_keys(self, c: int) -> list:
+        """Sort keys of column ``c`` in the current row order (models with prepared columns override)."""
+        return [self.data(self.index(r, c), SORT_ROLE) for r in range(len(self.rows))]
+
+    def _permute(self, perm: list) -> None:
+        """Put the rows in the order ``perm`` (old row numbers, new order)."""
+        self.rows = [self.rows[i] for i in perm]
 
     def _apply_sort(self) -> None:
         c = self.sort_column
         if c < 0 or not self.rows:
             return
-        keys = [self._key(r, c) for r in range(len(self.rows))]
+        keys = self._column_keys(c)
         try:
             perm = sorted(range(len(keys)), key=keys.__getitem__,
                           reverse=self.sort_order == Qt.SortOrder.DescendingOrder)
         except TypeError:
             perm = sorted(range(len(keys)), key=lambda i: str(keys[i]),
                           reverse=self.sort_order == Qt.SortOrder.DescendingOrder)
-        self.rows = [self.rows[i] for i in perm]
-        if self.display is not None:
-            self.display = [self.display[i] for i in perm]
-        if self.keys is not None:
-            self.keys = [self.keys[i] for i in perm]
+        self._permute(perm)
 
     def sort(self, column, order=Qt.SortOrder.AscendingOrder):
         """Sort in Python on the per-column keys (stable; far cheaper than a proxy calling back per pair)."""
@@ -105,8 +151,97 @@ class _Base(QAbstractTableModel):
         return -1
 
 
+def pass_notes(p) -> str:
+    out = []
+    if p.clipped_start:
+        out.append("starts before window")
+    if p.clipped_end:
+        out.append("ends after window")
+    if p.outages:
+        out.append("outage")
+    if getattr(p, "moon_flag", False):
+        out.append("Moon near")
+    if p.sun_separation_min_deg < 10.0:
+        out.append(f"Sun {p.sun_separation_min_deg:.1f} deg")
+    return ", ".join(out)
+
+
+class PassTable:
+    """The passes table's columns for one list of passes: sort keys and display text.
+
+    Keys are built a column at a time when a sort asks for them, text a block of
+    rows at a time when a view shows them (:class:`LazyText`). No Qt object: the
+    worker that computed the passes can :meth:`prepare` it whole, and the model
+    then takes it as it is (``source`` is the list it was made from, ``doy`` the
+    date style of its times).
+    """
+
+    COLUMNS = 9
+
+    def __init__(self, passes, doy: bool | None = None):
+        self.source = passes
+        self.passes = list(passes)
+        self.doy = _DOY["on"] if doy is None else bool(doy)
+        self.text = LazyText(len(self.passes), self.COLUMNS, self._fill)
+        self._keys: list = [None] * self.COLUMNS
+
+    def __len__(self) -> int:
+        return len(self.passes)
+
+    def _fill(self, c: int, lo: int, hi: int) -> list:
+        ps = self.passes[lo:hi]
+        if c == 0:
+            return [p.station for p in ps]
+        if c in (1, 2):
+            tt = [p.aos_tt if c == 1 else p.los_tt for p in ps]
+            return format_utc(tt, 0, doy=self.doy) if tt else []
+        if c == 3:
+            return [hours_text(p.duration_s) for p in ps]
+        if c == 4:
+            return [f"{p.max_elevation_deg:.1f}" for p in ps]
+        if c == 5:
+            return [_num(p.max_rate_kbps, ",.0f") for p in ps]
+        if c == 6:
+            return [_num(p.volume_gbit, ".1f") for p in ps]
+        if c == 7:
+            return [f"{p.min_range_km:,.0f}" for p in ps]
+        return [pass_notes(p) for p in ps]
+
+    def keys(self, c: int) -> list:
+        k = self._keys[c]
+        if k is None:
+            ps = self.passes
+            if c == 0:
+                k = [p.station for p in ps]
+            elif c == 1:
+                k = [p.aos_tt for p in ps]
+            elif c == 2:
+                k = [p.los_tt for p in ps]
+            elif c == 3:
+                k = [p.duration_s for p in ps]
+            elif c == 4:
+                k = [p.max_elevation_deg for p in ps]
+            elif c == 5:
+                k = [p.max_rate_kbps if p.max_rate_kbps is not None else -1.0 for p in ps]
+            elif c == 6:
+                k = [p.volume_gbit if p.volume_gbit is not None else -1.0 for p in ps]
+            elif c == 7:
+                k = [p.min_range_km for p in ps]
+            else:
+                k = self.text.column(8)
+            self._keys[c] = k
+        return k
+
+    def prepare(self) -> "PassTable":
+        """Build every key and every text now (in the worker thread, off the event loop)."""
+        for c in range(self.COLUMNS):
+            self.keys(c)
+        self.text.fill_all()
+        return self
+
+
 class PassesModel(_Base):
-    """One row per predicted pass."""
+    """One row per predicted pass, served from a :class:`PassTable` (nothing is formatted up front)."""
 
     COLUMNS = (
         ("Station", "station id"),
@@ -122,51 +257,47 @@ class PassesModel(_Base):
 
     def __init__(self, doc, parent=None):
         super().__init__(doc, parent)
+        self.table = PassTable([])
+        self.order: list = []  # row -> index in the table
+        self._prepared: PassTable | None = None
         doc.scenarioReplaced.connect(self.refresh)
         doc.resultChanged.connect(self.refresh)
 
+    def adopt(self, table: PassTable) -> None:
+        """A table prepared in the worker for the passes about to arrive; used if it matches them."""
+        self._prepared = table
+
     def _rows(self):
-        rows = [] if self.doc.result is None else list(self.doc.result.passes)
-        self._build(rows)
-        return rows
+        passes = [] if self.doc.result is None else self.doc.result.passes
+        t, self._prepared = self._prepared, None
+        if t is None or t.source is not passes or len(t) != len(passes) or t.doy != _DOY["on"]:
+            t = PassTable(passes)
+        self.table = t
+        self.order = list(range(len(t)))
+        return list(t.passes)
 
-    def _build(self, rows) -> None:
-        """Display text and sort keys of every row at once (time columns formatted in one vector call)."""
-        aos = utc_text([p.aos_tt for p in rows]) if rows else []
-        los = utc_text([p.los_tt for p in rows]) if rows else []
-        self.display, self.keys = [], []
-        for p, a, b in zip(rows, aos, los):
-            notes = self.notes(p)
-            self.display.append((p.station, a, b, hours_text(p.duration_s), f"{p.max_elevation_deg:.1f}",
-                                 _num(p.max_rate_kbps, ",.0f"), _num(p.volume_gbit, ".1f"),
-                                 f"{p.min_range_km:,.0f}", notes))
-            self.keys.append((p.station, p.aos_tt, p.los_tt, p.duration_s, p.max_elevation_deg,
-                              p.max_rate_kbps if p.max_rate_kbps is not None else -1.0,
-                              p.volume_gbit if p.volume_gbit is not None else -1.0, p.min_range_km, notes))
+    def _column_keys(self, c: int) -> list:
+        k = self.table.keys(c)
+        return [k[j] for j in self.order]
 
-    @staticmethod
-    def notes(p) -> str:
-        out = []
-        if p.clipped_start:
-            out.append("starts before window")
-        if p.clipped_end:
-            out.append("ends after window")
-        if p.outages:
-            out.append("outage")
-        if getattr(p, "moon_flag", False):
-            out.append("Moon near")
-        if p.sun_separation_min_deg < 10.0:
-            out.append(f"Sun {p.sun_separation_min_deg:.1f} deg")
-        return ", ".join(out)
+    def _permute(self, perm: list) -> None:
+        super()._permute(perm)
+        self.order = [self.order[i] for i in perm]
+
+    def row_lower(self, row: int) -> str:
+        """The row's cells joined, lower case, for the text filter."""
+        return self.table.text.row_lower(self.order[row])
+
+    notes = staticmethod(pass_notes)
 
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
         if not index.isValid():
             return None
         r, c = index.row(), index.column()
         if role == Qt.ItemDataRole.DisplayRole:
-            return self.display[r][c]
+            return self.table.text.cell(self.order[r], c)
         if role == SORT_ROLE:
-            return self.keys[r][c]
+            return self.table.keys(c)[self.order[r]]
         if role == OBJECT_ROLE:
             return self.rows[r]
         if role == Qt.ItemDataRole.TextAlignmentRole and c in (3, 4, 5, 6, 7):
@@ -301,14 +432,47 @@ class FindingsModel(_Base):
 
     def __init__(self, doc, parent=None):
         super().__init__(doc, parent)
+        self.found: list = []  # the findings, errors first, in the order the text is kept
+        self.order: list = []  # row -> index in found
+        self.text = LazyText(0, len(self.COLUMNS), self._fill)
         doc.scenarioReplaced.connect(self.refresh)
         doc.findingsChanged.connect(self.refresh)
 
     def _rows(self):
-        rows = sorted(self.doc.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
-        starts = utc_text([f.start_tt for f in rows]) if rows else []
-        self.display = [(f.severity, f.rule, ", ".join(f.subjects), t, f.message) for f, t in zip(rows, starts)]
-        return rows
+        self.found = sorted(self.doc.findings, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+        self.text = LazyText(len(self.found), len(self.COLUMNS), self._fill)
+        self.order = list(range(len(self.found)))
+        return list(self.found)
+
+    def _fill(self, c: int, lo: int, hi: int) -> list:
+        fs = self.found[lo:hi]
+        if c == 0:
+            return [f.severity for f in fs]
+        if c == 1:
+            return [f.rule for f in fs]
+        if c == 2:
+            return [", ".join(f.subjects) for f in fs]
+        if c == 3:
+            return utc_text([f.start_tt for f in fs]) if fs else []
+        return [f.message for f in fs]
+
+    def _column_keys(self, c: int) -> list:
+        if c == 0:
+            return [0 if f.severity == "error" else 1 for f in self.rows]
+        if c == 1:
+            return [f.rule for f in self.rows]
+        if c == 2:
+            return [",".join(f.subjects) for f in self.rows]
+        if c == 3:
+            return [f.start_tt for f in self.rows]
+        return [f.message for f in self.rows]
+
+    def _permute(self, perm: list) -> None:
+        super()._permute(perm)
+        self.order = [self.order[i] for i in perm]
+
+    def row_lower(self, row: int) -> str:
+        return self.text.row_lower(self.order[row])
 
     def data(self, index, role=Qt.ItemDataRole.DisplayRole):
         if not index.isValid():
@@ -320,7 +484,7 @@ class FindingsModel(_Base):
         if role == SORT_ROLE:
             return (0 if f.severity == "error" else 1, f.rule, ",".join(f.subjects), f.start_tt, f.message)[c]
         if role == Qt.ItemDataRole.DisplayRole:
-            return self.display[index.row()][c]
+            return self.text.cell(self.order[index.row()], c)
         if role == Qt.ItemDataRole.ToolTipRole:
             return f.message
         if role == Qt.ItemDataRole.ForegroundRole and c == 0:
@@ -367,10 +531,14 @@ class FilterProxy(QSortFilterProxyModel):
         if not self.station and not self.text:
             return True
         m = self.sourceModel()
-        obj = m.index(row, 0, parent).data(OBJECT_ROLE)
+        rows = getattr(m, "rows", None)
+        obj = rows[row] if rows is not None and not parent.isValid() else m.index(row, 0, parent).data(OBJECT_ROLE)
         if self.station and getattr(obj, "station", self.station) != self.station:
             return False
         if self.text:
+            lower = getattr(m, "row_lower", None)
+            if lower is not None:  # the model's own joined text, built once per column (not a call per cell)
+                return self.text in lower(row)
             cells = " ".join(str(m.index(row, c, parent).data() or "") for c in range(m.columnCount()))
             return self.text in cells.lower()
         return True

@@ -66,14 +66,16 @@ class TimeAxis(pg.AxisItem):
         return [(24.0, major_days), (step, minor)]
 
     def tickStrings(self, values, scale, spacing):
+        if len(values) == 0:
+            return []
+        tt = self.origin_tt + np.asarray(values, dtype=float) * 3600.0  # one vector conversion for all ticks
+        texts = format_utc(tt, 0)  # 2027-01-12T06:00:00Z
+        doys = day_of_year(tt)
+        days = _weekday(tt)
         out = []
-        for v in values:
-            tt = self.origin_tt + v * 3600.0
-            text = format_utc(tt, 0)  # 2027-01-12T06:00:00Z
+        for text, doy, wd in zip(texts, doys, days):
             if text[11:19] == "00:00:00":
-                doy = day_of_year(tt)
-                wd = _WEEKDAYS[_weekday(tt)]
-                out.append(f"{doy:03d} {wd} {text[5:10]}")
+                out.append(f"{int(doy):03d} {_WEEKDAYS[int(wd)]} {text[5:10]}")
             else:
                 out.append(text[11:16])
         return out
@@ -123,12 +125,14 @@ class TimeAxis(pg.AxisItem):
         return axis_spec, tick_specs, kept
 
 
-def _weekday(tt: float) -> int:
-    """0 = Monday (2000-01-01 was a Saturday)."""
+def _weekday(tt):
+    """0 = Monday (2000-01-01 was a Saturday); an int for one instant, an int array for many."""
     from contactplan.timescale import tt_to_utc_fields
 
     mjd, _ = tt_to_utc_fields(tt)
-    return int((int(mjd) - 51544 + 5) % 7)
+    if np.ndim(mjd) == 0:
+        return int((int(mjd) - 51544 + 5) % 7)
+    return (np.asarray(mjd, dtype=np.int64) - 51544 + 5) % 7
 
 
 class LaneAxis(pg.AxisItem):
@@ -221,6 +225,7 @@ class LanesCanvas(pg.GraphicsObject):
         self.shade = "rate"  # or "elevation"
         self._segments: dict = {}  # id(Pass) -> [(t0, t1, level)]
         self._finding_span = None
+        self._pass_index = None  # (passes list, its length, AOS array or None if unsorted, longest pass in s)
         self.drag_label = ""  # what the drag preview says (start - end and length)
         self.setZValue(10)
 
@@ -270,8 +275,29 @@ class LanesCanvas(pg.GraphicsObject):
         (x0, x1), _ = vb.viewRange()
         return (x1 - x0) * 3600.0 / w
 
+    def visible_passes(self, t_lo: float, t_hi: float):
+        """The passes that may show between t_lo and t_hi, in the result's order (a year is not walked per paint).
+
+        Passes come sorted by AOS: the candidates are those with AOS in
+        [t_lo - longest pass, t_hi], found by bisection; the caller still tests each.
+        """
+        passes = [] if self.doc.result is None else self.doc.result.passes
+        idx = self._pass_index
+        if idx is None or idx[0] is not passes or idx[1] != len(passes):
+            aos = np.fromiter((p.aos_tt for p in passes), dtype=float, count=len(passes))
+            longest = max((p.los_tt - p.aos_tt for p in passes), default=0.0)
+            ordered = bool(len(aos) < 2 or np.all(np.diff(aos) >= 0))
+            idx = self._pass_index = (passes, len(passes), aos if ordered else None, longest)
+        _passes, _n, aos, longest = idx
+        if aos is None:
+            return passes
+        i0 = int(np.searchsorted(aos, t_lo - longest, side="left"))
+        i1 = int(np.searchsorted(aos, t_hi, side="right"))
+        return passes[i0:i1]
+
     def invalidate(self) -> None:
         self._segments.clear()
+        self._pass_index = None
         self.prepareGeometryChange()
         self.update()
 
@@ -332,8 +358,11 @@ class LanesCanvas(pg.GraphicsObject):
         painter.resetTransform()
         painter.setRenderHint(QPainter.RenderHint.Antialiasing, False)
 
-        def rect(t0, t1, y0, y1) -> QRectF:
-            return tr.mapRect(QRectF(self.x_of(t0), y0, self.x_of(t1) - self.x_of(t0), y1 - y0))
+        origin = self.tl.origin_tt
+
+        def rect(t0, t1, y0, y1) -> QRectF:  # as x_of, inlined: it runs a few hundred times a paint
+            x0, x1 = (float(t0) - origin) / 3600.0, (float(t1) - origin) / 3600.0
+            return tr.mapRect(QRectF(x0, y0, x1 - x0, y1 - y0))
 
         left, right = self.x_of(t_lo), self.x_of(t_hi)
         # lane backgrounds
@@ -370,10 +399,11 @@ class LanesCanvas(pg.GraphicsObject):
         painter.setFont(small)
         if self.doc.result is not None:
             edge_pen = QPen(th.pass_edge, 1)
-            for p in self.doc.result.passes:
+            lanes = {s.id: i for i, s in enumerate(self.stations, start=1)}
+            for p in self.visible_passes(t_lo, t_hi):
                 if p.los_tt < t_lo or p.aos_tt > t_hi:
                     continue
-                lane = self.lane_of_station(p.station)
+                lane = lanes.get(p.station, -1)
                 if lane < 0:
                     continue
                 for s0, s1, lvl in self.segments(p):
@@ -832,6 +862,15 @@ class Timeline(pg.GraphicsLayoutWidget):
             ln.setPen(pg.mkPen(th.now, width=2, style=Qt.PenStyle.DashLine))
         self._findings_changed()
         self.canvas.update()
+
+    def settle(self) -> None:
+        """Bring the plots' ranges and transforms up to date now instead of at the next paint.
+
+        pyqtgraph defers them to just before a paint; when they change then, the
+        scene is dirtied again and the window is painted a second time. Called at
+        the end of a hand-off (a computed year arriving), the window paints once.
+        """
+        self.scene().prepareForPaint()
 
     # ------------------------------------------------------------ coordinates
     def x_of(self, t_tt: float) -> float:

@@ -23,7 +23,7 @@ from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
 from contactplan.app.document import PlanDocument, Selection
-from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel
+from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel, PassTable
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
 from contactplan.app.timeline import Timeline
@@ -947,6 +947,20 @@ class MainWindow(QMainWindow):
         self.progress.setVisible(False)
         self.cancel_btn.setVisible(False)
         self._update_actions()
+        self._settle_layout()
+
+    def _settle_layout(self) -> None:
+        """Lay the status bar and the window out now rather than in a later pass of the event loop.
+
+        Hiding the progress bar can rewrap the caution and change the status bar's
+        height, which resizes the timeline; settled here, before a job's results are
+        handed to the views, the window is painted once at its final size instead
+        of once before the relayout and again after it.
+        """
+        for w in (self.statusBar(), self):
+            lay = w.layout()
+            if lay is not None:
+                lay.activate()
 
     def cancel_job(self, wait: bool = False) -> None:
         if self.job is not None and self.job.running:
@@ -968,15 +982,22 @@ class MainWindow(QMainWindow):
         from contactplan.plan.pipeline import compute_plan
 
         revision = self.doc.revision
+        doy = self.act_doy.isChecked()
+        prepared = {}
 
         def fn(progress, cancel):
-            return compute_plan(sc, progress=progress, cancel=cancel)
+            result = compute_plan(sc, progress=progress, cancel=cancel)
+            # the passes table's keys and texts are made here too, so the window only swaps them in
+            prepared["table"] = PassTable(result.passes, doy=doy).prepare()
+            return result
 
         def done(result):
             if self.doc.scenario is sc:
+                self.passes_model.adopt(prepared.pop("table", None))
                 self.doc.set_result(result, revision=revision)
                 self._update_summary()
                 self.statusBar().showMessage(f"{len(result.passes)} passes predicted", 5000)
+                self.timeline.settle()  # one paint for the whole hand-off, not two
 
         return self.run_job("Passes", fn, done)
 
