@@ -17,7 +17,10 @@ Times before 1972 (no integral-second UTC) are refused.
 
 from __future__ import annotations
 
+import bisect
 import datetime as _dt
+import functools
+import math
 import re
 
 import numpy as np
@@ -270,7 +273,8 @@ def format_utc(tt, decimals: int = 3, doy: bool = False):
 
     Scalar in, str out; array in, list of str out.
     """
-    scalar = np.ndim(tt) == 0
+    if np.ndim(tt) == 0:
+        return _format_one(float(tt), decimals, doy)
     y, mo, d, hh, mm, ss, fr, mjd_day = _fields(np.atleast_1d(tt), decimals)
     if doy:
         jan1 = _days_from_civil(y, 1, 1) + _MJD_UNIX
@@ -282,7 +286,78 @@ def format_utc(tt, decimals: int = 3, doy: bool = False):
         if decimals:
             t += f".{fr[i]:0{decimals}d}"
         out.append(f"{date}T{t}Z")
-    return out[0] if scalar else out
+    return out
+
+
+@functools.lru_cache(maxsize=1)
+def _change_lists():
+    change_tt, _, dat_tab = _tt_change_points()
+    return change_tt.tolist(), dat_tab.tolist()
+
+
+def _civil_one(z: int):
+    """Scalar twin of :func:`_civil_from_days` (days since 1970-01-01 -> y, m, d)."""
+    z += 719468
+    era = z // 146097
+    doe = z - era * 146097
+    yoe = (doe - doe // 1460 + doe // 36524 - doe // 146096) // 365
+    doy = doe - (365 * yoe + yoe // 4 - yoe // 100)
+    mp = (5 * doy + 2) // 153
+    d = doy - (153 * mp + 2) // 5 + 1
+    m = mp + 3 if mp < 10 else mp - 9
+    return yoe + era * 400 + (m <= 2), m, d
+
+
+def _days_one(y: int, m: int, d: int) -> int:
+    """Scalar twin of :func:`_days_from_civil`."""
+    y -= m <= 2
+    era = y // 400
+    yoe = y - era * 400
+    doy = (153 * ((m + 9) % 12) + 2) // 5 + d - 1
+    return era * 146097 + yoe * 365 + yoe // 4 - yoe // 100 + doy - 719468
+
+
+def _format_one(tt: float, decimals: int, doy: bool) -> str:
+    """Scalar path of :func:`format_utc` in plain Python.
+
+    Same arithmetic as the array path (checked against it in the tests), without
+    numpy calls: formatting one time at a time from a worker thread must not keep
+    the GUI thread waiting (many tiny numpy calls hand the interpreter lock back
+    and forth and starve the other thread).
+    """
+    change, dat_tab = _change_lists()
+    idx = max(bisect.bisect_right(change, tt) - 1, 0)
+    dat = dat_tab[idx]
+    utc_s = tt - TT_MINUS_TAI_S - dat
+    mjd_day = math.floor(utc_s / DAY_S + MJD_J2000)
+    sod = utc_s - (mjd_day - MJD_J2000) * DAY_S
+    if idx + 1 < len(change):
+        step = dat_tab[idx + 1] - dat
+        if step > 0 and change[idx + 1] - step <= tt < change[idx + 1]:
+            mjd_day -= 1
+            sod += DAY_S
+    q = 10 ** decimals
+    units = int(round(sod * q))
+    day_units = units + 1 if sod >= DAY_S else int(DAY_S * q)
+    if units >= day_units and sod < DAY_S:
+        mjd_day += 1
+        units -= int(DAY_S * q)
+    leap = units >= int(DAY_S * q)
+    whole, frac = divmod(units, q)
+    if leap:
+        hh, mm, ss = 23, 59, 60
+    else:
+        hh, mm, ss = whole // 3600, (whole % 3600) // 60, whole % 60
+    y, mo, d = _civil_one(mjd_day - _MJD_UNIX)
+    if doy:
+        jan1 = _days_one(y, 1, 1) + _MJD_UNIX
+        date = f"{y:04d}-{mjd_day - jan1 + 1:03d}"
+    else:
+        date = f"{y:04d}-{mo:02d}-{d:02d}"
+    t = f"{hh:02d}:{mm:02d}:{ss:02d}"
+    if decimals:
+        t += f".{frac:0{decimals}d}"
+    return f"{date}T{t}Z"
 
 
 def format_doy(tt, decimals: int = 0):

@@ -106,3 +106,20 @@ def test_lowercase_t_and_z_accepted(text):
 def test_other_separators_still_refused(bad):
     with pytest.raises(InputError, match="not a UTC time"):
         parse_utc(bad)
+
+
+@given(st.floats(min_value=-20 * 365.25 * 86400.0, max_value=40 * 365.25 * 86400.0),
+       st.sampled_from([0, 1, 3, 6]), st.booleans())
+def test_scalar_formatting_matches_array_path(offset, decimals, doy):
+    # The scalar fast path and the vectorised path are two implementations of one rule.
+    t = parse_utc("2000-01-01T00:00:00Z") + offset
+    assert format_utc(t, decimals, doy) == format_utc(np.array([t]), decimals, doy)[0]
+
+
+@pytest.mark.parametrize("text", ["2016-12-31T23:59:59.999Z", "2016-12-31T23:59:60.000Z",
+                                  "2016-12-31T23:59:60.9996Z", "2017-01-01T00:00:00.000Z",
+                                  "2027-12-31T23:59:59.9996Z"])
+def test_scalar_formatting_at_leap_second_and_day_edges(text):
+    t = parse_utc(text)
+    assert format_utc(t) == format_utc(np.array([t]))[0]
+    assert format_doy(t, 3) == format_utc(np.array([t]), 3, True)[0]
