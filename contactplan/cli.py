@@ -64,7 +64,15 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _show_warning(message, category, filename, lineno, file=None, line=None):
+    """Warnings reach the user as one plain line, like errors."""
+    print(f"contactplan: warning: {' '.join(str(message).split())}", file=sys.stderr if file is None else file)
+
+
 def main(argv: list[str] | None = None) -> int:
+    import warnings
+
+    warnings.showwarning = _show_warning
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or (argv[0] not in COMMANDS and not argv[0].startswith("-")):
         return main_gui(argv[0] if argv else None)

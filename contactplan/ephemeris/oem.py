@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import functools
 import math
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -100,8 +101,16 @@ class _Table:
         self.step = uniform_step(self.t)
 
 
+class OemWarning(UserWarning):
+    """Something in an OEM file was read with a compromise (degree lowered, columns ignored)."""
+
+
 class OemEphemeris(Ephemeris):
-    """Interpolating geocentric ICRF ephemeris over an :class:`~contactplan.io.oem.OemFile`."""
+    """Interpolating geocentric ICRF ephemeris over an :class:`~contactplan.io.oem.OemFile`.
+
+    The reader's compromises (``oemfile.warnings``) are issued once each as
+    :class:`OemWarning` so the CLI and the app can show them.
+    """
 
     def __init__(self, oemfile):
         from contactplan.io.oem import coverage
@@ -109,6 +118,8 @@ class OemEphemeris(Ephemeris):
         self.oem = oemfile
         path = oemfile.path
         self.path = None if path is None else str(path)
+        for note in oemfile.warnings:
+            warnings.warn(f"{self.path or 'OEM'}: {note}", OemWarning, stacklevel=2)
         label = Path(path).name if path is not None else "OEM"
         self.name = f"{oemfile.object_name} ({label})"
         self._tables = [_Table(s, path) for s in oemfile.segments]
