@@ -25,6 +25,9 @@ def setup_logging() -> Path | None:
     root = logging.getLogger("contactplan")
     root.addHandler(handler)
     root.setLevel(logging.INFO)
+    # Engine warnings (EOP table ends, OEM degree lowered...) go to the same log.
+    logging.captureWarnings(True)
+    logging.getLogger("py.warnings").addHandler(handler)
     return path
 
 
