@@ -109,14 +109,11 @@ def test_aligned_table_tells_a_window_edge_from_an_ephemeris_edge():
     assert lines[3].endswith("under way at window end")
 
 
-def test_ephemeris_export_outside_the_oem_says_what_to_do(minimal_path, tmp_path, capsys):
+def test_ephemeris_export_outside_the_oem_says_what_to_do(minimal_path, tmp_path, capsys, oem_scenario):
     part = tmp_path / "part.oem"
     assert main(["export", str(minimal_path), "--out", str(part), "--start", "2027-01-14T00:00:00Z",
                  "--end", "2027-01-16T00:00:00Z"]) == 0
-    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in minimal_path.read_text("utf-8").splitlines()]
-    sc = tmp_path / "week.toml"
-    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    sc = oem_scenario("part.oem")
     capsys.readouterr()
     out = tmp_path / "again.oem"
     assert main(["export", str(sc), "--out", str(out)]) == 2  # the scenario window starts 12 Jan
@@ -159,16 +156,13 @@ def test_aligned_table_shows_the_day_of_year_of_aos(minimal_path, capsys):
     assert {r[1] for r in rows} >= {"366", "001"}  # 2016 is a leap year
 
 
-def test_pass_json_says_what_the_ephemeris_covers(minimal_path, tmp_path, capsys):
+def test_pass_json_says_what_the_ephemeris_covers(minimal_path, tmp_path, capsys, oem_scenario):
     import json
 
     part = tmp_path / "part.oem"
     assert main(["export", str(minimal_path), "--out", str(part), "--start", "2027-01-14T00:00:00Z",
                  "--end", "2027-01-16T00:00:00Z"]) == 0
-    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in minimal_path.read_text("utf-8").splitlines()]
-    sc = tmp_path / "week.toml"
-    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    sc = oem_scenario("part.oem")
     out = tmp_path / "p.json"
     assert main(["passes", str(sc), "--out", str(out)]) == 0
     err = capsys.readouterr().err
@@ -209,7 +203,7 @@ def test_revalidation_shift_that_rounds_to_zero_has_no_minus_sign():
         ["-", "+0.0", "+0.0", "+0.0", "-0.1", "+12.3", "-3.0"]
 
 
-def test_ephemeris_export_across_a_gap_writes_one_segment_per_part(minimal_path, tmp_path, capsys):
+def test_ephemeris_export_across_a_gap_writes_one_segment_per_part(minimal_path, tmp_path, capsys, gap_oem_scenario):
     """Re-exporting an OEM that has a gap between segments: one OEM segment on each side, read back
     by the independent `oem` package (CCSDS 502.0-B-2 allows several segments in one message)."""
     import numpy as np
@@ -219,16 +213,7 @@ def test_ephemeris_export_across_a_gap_writes_one_segment_per_part(minimal_path,
     from contactplan.scenario.load import load_scenario
     from contactplan.timescale import parse_utc
 
-    a, b = tmp_path / "a.oem", tmp_path / "b.oem"
-    for out, t0, t1 in ((a, "2027-01-12T00:00:00Z", "2027-01-14T12:00:00Z"),
-                        (b, "2027-01-15T00:00:00Z", "2027-01-19T00:00:00Z")):
-        assert main(["export", str(minimal_path), "--out", str(out), "--start", t0, "--end", t1, "--step", "300"]) == 0
-    second = b.read_text("utf-8")
-    (tmp_path / "gap.oem").write_text(a.read_text("utf-8") + "\n" + second[second.index("META_START"):], "utf-8")
-    lines = [('ephemeris = { oem = "gap.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in minimal_path.read_text("utf-8").splitlines()]
-    sc_path = tmp_path / "week.toml"
-    sc_path.write_text("\n".join(lines) + "\n", "utf-8")
+    sc_path = gap_oem_scenario
     capsys.readouterr()
     again = tmp_path / "again.oem"
     assert main(["export", str(sc_path), "--out", str(again), "--step", "3600"]) == 0

@@ -74,7 +74,7 @@ def test_pass_cut_by_the_ephemeris_end_is_not_open():
     assert rules_of(found, "outside-pass") == []  # not checkable, said by no-ephemeris
 
 
-def test_check_command_on_a_partial_oem(minimal_path, tmp_path, capsys):
+def test_check_command_on_a_partial_oem(minimal_path, tmp_path, capsys, oem_scenario):
     """End to end: an OEM written by the export for part of the window, then ``check`` on a copy of the
     scenario pointing at it. The OEM reader and writer are the project's; the expectation (nothing is
     claimed where no ephemeris is) is common practice, no source."""
@@ -85,11 +85,7 @@ def test_check_command_on_a_partial_oem(minimal_path, tmp_path, capsys):
     oem = tmp_path / "part.oem"
     assert main(["export", str(minimal_path), "--out", str(oem), "--start", "2027-01-14T00:00:00Z",
                  "--end", "2027-01-19T00:00:00Z", "--step", "600"]) == 0
-    text = minimal_path.read_text("utf-8")
-    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in text.splitlines()]
-    sc = tmp_path / "week.toml"
-    sc.write_text("\n".join(lines) + "\n", "utf-8")
+    sc = oem_scenario("part.oem")
     capsys.readouterr()
     assert main(["check", str(sc), "--format", "json"]) == 1
     doc = json.loads(capsys.readouterr().out)
@@ -130,7 +126,7 @@ def test_no_link_says_why_downlink_brings_nothing():
     assert rules_of(check_plan(sc, PASSES), "no-link") == []
 
 
-def test_oem_with_a_gap_between_segments_gives_passes_volumes_and_findings(minimal_path, tmp_path, capsys):
+def test_oem_with_a_gap_between_segments_gives_passes_volumes_and_findings(minimal_path, tmp_path, capsys, gap_oem_scenario):
     """Two OEM segments with 12 h missing between them (a delivery around a manoeuvre). With a link
     model this used to stop with "asked for ...11:59:56Z, outside the covered span": the emission
     instant of a pass rising at the second segment's first epoch lies a light time inside the gap.
@@ -141,17 +137,8 @@ def test_oem_with_a_gap_between_segments_gives_passes_volumes_and_findings(minim
     from contactplan.plan.pipeline import compute_plan
     from contactplan.scenario.load import load_scenario
 
-    a, b = tmp_path / "a.oem", tmp_path / "b.oem"
     # NRV (the station with a downlink) is up at 00:00 UTC in January: the second segment starts in a pass
-    for out, t0, t1 in ((a, "2027-01-12T00:00:00Z", "2027-01-14T12:00:00Z"),
-                        (b, "2027-01-15T00:00:00Z", "2027-01-19T00:00:00Z")):
-        assert main(["export", str(minimal_path), "--out", str(out), "--start", t0, "--end", t1, "--step", "300"]) == 0
-    second = b.read_text("utf-8")
-    (tmp_path / "gap.oem").write_text(a.read_text("utf-8") + "\n" + second[second.index("META_START"):], "utf-8")
-    lines = [('ephemeris = { oem = "gap.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in minimal_path.read_text("utf-8").splitlines()]
-    sc_path = tmp_path / "week.toml"
-    sc_path.write_text("\n".join(lines) + "\n", "utf-8")
+    sc_path = gap_oem_scenario
     capsys.readouterr()
 
     gap0, gap1 = parse_utc("2027-01-14T12:00:00Z"), parse_utc("2027-01-15T00:00:00Z")

@@ -413,7 +413,7 @@ def test_xml_variants_read_alike(data_dir):
     np.testing.assert_array_equal(s.acc_km_s2, np.tile([1e-9, 2e-9, 3e-9], (len(s), 1)))
 
 
-def test_out_of_span_error_names_the_file(data_dir, tmp_path):
+def test_out_of_span_error_names_the_file(data_dir, tmp_path, oem_scenario):
     """The error leads with the OEM file (``FILE: asked for ...``), like every other input error."""
     import shutil
     import subprocess
@@ -429,9 +429,7 @@ def test_out_of_span_error_names_the_file(data_dir, tmp_path):
     assert str(exc.value).startswith(f"{path}: asked for 2027-01-12T12:00:00Z, outside the covered span ")
     assert "part.oem (" not in str(exc.value)  # the object name no longer takes the file's place
     # and the command line prints it as one line: contactplan: error: FILE: asked for ...
-    lines = [('ephemeris = { oem = "part.oem" }' if ln.startswith("ephemeris = { libration") else ln)
-             for ln in (data_dir / "minimal.toml").read_text("utf-8").splitlines()]
-    (tmp_path / "week.toml").write_text("\n".join(lines) + "\n", "utf-8")
+    oem_scenario("part.oem")
     proc = subprocess.run([sys.executable, "-m", "contactplan", "export", str(tmp_path / "week.toml"),
                            "--out", str(tmp_path / "x.oem"), "--start", "2027-01-12T00:00:00Z",
                            "--end", "2027-01-12T02:00:00Z"], capture_output=True, text=True)
