@@ -18,7 +18,6 @@ import importlib.util
 import math
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))

@@ -11,7 +11,7 @@ import pytest
 from contactplan.ephemeris import ephemeris_for, open_oem
 from contactplan.ephemeris.base import clamp_to_cover, covered_pieces
 from contactplan.geometry.passes import find_passes
-from contactplan.geometry.topo import C_KM_S, Track, look_angles
+from contactplan.geometry.topo import Track, look_angles
 from contactplan.io.oem import write_oem
 from contactplan.link.volume import annotate_passes
 from contactplan.scenario.load import load_scenario

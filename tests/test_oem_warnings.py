@@ -33,7 +33,7 @@ def test_lowered_degree_is_a_warning(tmp_path):
 
 
 def test_cli_prints_one_plain_warning_line(tmp_path):
-    path = _short_oem(tmp_path / "short.oem")
+    _short_oem(tmp_path / "short.oem")
     scen = tmp_path / "s.toml"
     scen.write_text(
         '[scenario]\nname = "w"\nstart = "2027-01-12T00:00:00Z"\nend = "2027-01-12T00:30:00Z"\n'

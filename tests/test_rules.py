@@ -13,7 +13,7 @@ from contactplan.geometry.passes import Pass
 from contactplan.link.profiles import RecorderResult
 from contactplan.plan.findings import ERROR, WARNING
 from contactplan.plan.rules import (
-    RULES, RuleContext, check_plan, clip, intersect, run_rules, subtract, union,
+    RULES, RuleContext, check_plan, clip, intersect, subtract, union,
 )
 from contactplan.scenario import model as m
 from contactplan.timescale import format_utc, parse_utc

@@ -431,7 +431,7 @@ class LanesCanvas(pg.GraphicsObject):
         # Earth or Moon shadow on the spacecraft: a dark strip along the top of its lane
         for sh in (getattr(self.doc.result, "shadows", None) or []):
             try:
-                s0, s1, body, kind = sh[0], sh[1], sh[2], sh[3]
+                s0, s1, kind = sh[0], sh[1], sh[3]
             except (TypeError, IndexError):
                 continue
             if s1 < t_lo or s0 > t_hi:

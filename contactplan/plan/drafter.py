@@ -532,7 +532,6 @@ def _candidates(P: _Plan, lengths_on=True, step: int = 1) -> _Cands:
     """
     t = P.t
     K = len(t) - 1
-    ko_cum = np.concatenate(([0], np.cumsum(P.keepout)))
     cols = {k: [] for k in ("station", "p", "q")}
     for i in range(len(P.stations)):
         mask = P.avail[i]
