@@ -478,6 +478,17 @@ class MainWindow(QMainWindow):
         sb.addPermanentWidget(self.caution, 1)
 
     # ------------------------------------------------------------ messages (overridable in tests)
+    def _read_or_say(self, reader, path, title):
+        """``reader(path)``, or None after a one-line error dialog (never a traceback in the user's face)."""
+        try:
+            return reader(path)
+        except InputError as exc:
+            self.show_error(str(exc), title)
+        except Exception as exc:
+            log.exception("reading %s", path)
+            self.show_error(f"{path}: {exc}", title)
+        return None
+
     def show_error(self, text: str, title: str = "contactplan") -> QMessageBox:
         """A non-blocking error dialog carrying the one-line message."""
         log.warning("%s: %s", title, text)
@@ -721,14 +732,8 @@ class MainWindow(QMainWindow):
             return self.new_around_oem(path)
         from contactplan.scenario import load_scenario
 
-        try:
-            sc = load_scenario(path)
-        except InputError as exc:
-            self.show_error(str(exc), "Cannot open the scenario")
-            return False
-        except Exception as exc:  # never a traceback in the user's face
-            log.exception("opening %s", path)
-            self.show_error(f"{path}: {exc}", "Cannot open the scenario")
+        sc = self._read_or_say(load_scenario, path, "Cannot open the scenario")
+        if sc is None:
             return False
         self.set_scenario(sc, compute=compute)
         self._add_recent(path)
@@ -903,14 +908,8 @@ class MainWindow(QMainWindow):
         from contactplan.ephemeris import open_oem
         from contactplan.scenario.model import EphemerisSpec
 
-        try:
-            eph = open_oem(path)
-        except InputError as exc:
-            self.show_error(str(exc), "Cannot read the ephemeris")
-            return False
-        except Exception as exc:  # never a traceback in the user's face
-            log.exception("reading %s", path)
-            self.show_error(f"{path}: {exc}", "Cannot read the ephemeris")
+        eph = self._read_or_say(open_oem, path, "Cannot read the ephemeris")
+        if eph is None:
             return False
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
