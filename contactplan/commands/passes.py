@@ -56,9 +56,9 @@ def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris
              "passes at the coverage edges are clipped")
     passes = find_passes(scenario, eph, start_tt, end_tt, stations=stations)
     if scenario.spacecraft.link is not None and passes:
-        from contactplan.plan.pipeline import annotate_by_segment
+        from contactplan.plan.pipeline import link_profiles
 
-        annotate_by_segment(scenario, passes, eph)
+        link_profiles(scenario, passes, eph)
     return (passes, eph) if with_ephemeris else passes
 
 

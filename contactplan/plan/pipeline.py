@@ -52,12 +52,11 @@ def _check_cancel(cancel) -> None:
         raise Cancelled()
 
 
-def annotate_by_segment(scenario, passes, ephemeris) -> dict:
-    """Link columns and rate profiles of ``passes``: ``link.volume.annotate_passes`` on the whole ephemeris.
+def link_profiles(scenario, passes, ephemeris) -> dict:
+    """Fill the link columns of ``passes`` and return their rate profiles (``id(pass) -> PassProfile``).
 
-    Kept under this name for its callers. Gaps between OEM segments need no special care here any
-    more: the look angles keep each emission instant inside the covered piece of its receive instant
-    (:func:`contactplan.ephemeris.base.clamp_to_cover`)."""
+    Gaps between OEM segments need no care here: the look angles keep each emission instant inside
+    the covered piece of its receive instant (:func:`contactplan.ephemeris.base.clamp_to_cover`)."""
     from contactplan.link.volume import annotate_passes
 
     if not passes:
@@ -73,7 +72,7 @@ def _annotate(scenario, ephemeris, passes, progress, cancel) -> dict:
         return {}
     if scenario.spacecraft.link is None:
         return {}
-    out = annotate_by_segment(scenario, passes, ephemeris)
+    out = link_profiles(scenario, passes, ephemeris)
     if progress is not None:
         progress(1.0)
     return dict(out or {})
