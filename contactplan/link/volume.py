@@ -99,7 +99,8 @@ def geometry_nodes(passes, ref_tt: float, node_step_s: float):
 
 
 def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_step_s: float = 900.0,
-                    max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1) -> dict:
+                    max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1,
+                    ref_tt: float | None = None) -> dict:
     """Rate profiles and volumes for every pass of a station that takes downlink.
 
     Sets ``pass.max_rate_kbps`` (kbit/s, 0 when no rate closes) and ``pass.volume_gbit``
@@ -115,7 +116,8 @@ def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_
     volumes by under 0.2 %. Passes where the sampled
     curvature predicts more than ``max_interp_error_deg`` or ``max_interp_error_db``
     (fast near-Earth geometry) are evaluated exactly at every sample instead.
-    ``geometry_step_s=None`` evaluates every sample exactly.
+    ``geometry_step_s=None`` evaluates every sample exactly. ``ref_tt`` anchors that grid
+    (default: the first AOS; a split run passes the first AOS of the whole set).
     """
     link = scenario.spacecraft.link
     if link is None or not passes:
@@ -147,7 +149,7 @@ def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_
             out.update(profiles_from_samples(link, station, plist, t, offsets, la.range_km, la.elevation_deg))
         return out
 
-    ref = min(p.aos_tt for _, plist in groups for p in plist)
+    ref = min(p.aos_tt for _, plist in groups for p in plist) if ref_tt is None else float(ref_tt)
     nodes = [geometry_nodes(plist, ref, geometry_step_s) for _, plist in groups]
     all_t, inverse = np.unique(np.concatenate([n[0] for n in nodes]), return_inverse=True)
     track = Track(ephemeris, all_t)
