@@ -458,7 +458,20 @@ def _first_of_runs(pid) -> np.ndarray:
     return np.flatnonzero(np.concatenate([[True], pid[1:] != pid[:-1]])) if pid.size else np.zeros(0, np.int64)
 
 
-def _culminations(ev, grid, per, sites, starts, ends, p_st):
+def _in_pass_rows(grid, sites, starts, ends, p_st):
+    """Per station: (k, its pass numbers pk, grid rows inside one of its passes, the pass of each row)."""
+    out = []
+    for k in range(len(sites)):
+        pk = np.nonzero(p_st == k)[0]
+        if pk.size == 0:
+            continue
+        seg = _segment_of(starts[pk], ends[pk], grid)
+        inside = np.nonzero(seg >= 0)[0]
+        out.append((k, pk, inside, seg[inside]))
+    return out
+
+
+def _culminations(ev, grid, per, rows, starts, ends, p_st):
     """Instant of highest elevation in each pass: the zero of d(el)/dt near the best in-pass sample.
 
     The bracket is the best sample's neighbours clipped to the pass; where the rate does not change
@@ -469,15 +482,9 @@ def _culminations(ev, grid, per, sites, starts, ends, p_st):
 
     a = starts.copy()
     b = ends.copy()
-    for k in range(len(sites)):
-        pk = np.nonzero(p_st == k)[0]
-        if pk.size == 0:
-            continue
-        seg = _segment_of(starts[pk], ends[pk], grid)
-        inside = np.nonzero(seg >= 0)[0]
+    for k, pk, inside, sseg in rows:
         if inside.size == 0:
             continue
-        sseg = seg[inside]
         el = per[k]["el"][inside]
         first = _first_of_runs(sseg)
         # best sample of each run: the run's maximum (reduceat), the first index reaching it
@@ -507,19 +514,13 @@ def _build(ev, sites, grid, track, per, starts, ends, c_start, c_end, p_st, opts
     from contactplan.geometry.topo import C_KM_S
 
     n = starts.size
-    t_culm = _culminations(ev, grid, per, sites, starts, ends, p_st)
-    step(0.85)
     # In-pass grid samples of each station (rows sorted by time, so each pass is one run).
-    samp_rows, samp_pass, samp_st = [], [], []
-    for k in range(len(sites)):
-        pk = np.nonzero(p_st == k)[0]
-        if pk.size == 0:
-            continue
-        seg = _segment_of(starts[pk], ends[pk], grid)
-        inside = np.nonzero(seg >= 0)[0]
-        samp_rows.append(inside)
-        samp_pass.append(pk[seg[inside]])
-        samp_st.append(k)
+    rows = _in_pass_rows(grid, sites, starts, ends, p_st)
+    t_culm = _culminations(ev, grid, per, rows, starts, ends, p_st)
+    step(0.85)
+    samp_rows = [r[2] for r in rows]
+    samp_pass = [r[1][r[3]] for r in rows]
+    samp_st = [r[0] for r in rows]
     # Exact geometry at AOS, LOS and culmination, in one evaluation.
     t_e = np.concatenate([starts, ends, t_culm])
     s_e = np.concatenate([p_st, p_st, p_st])
