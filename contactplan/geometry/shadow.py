@@ -40,26 +40,16 @@ class BodyTrack:
     """
 
     STEP_S = 3600.0
-    BLOCK = 720  # hours of nodes per planetary-kernel call (30 days)
 
     def __init__(self, start_tt: float, end_tt: float):
         from contactplan.ephemeris import bodies
 
-        # Nodes are computed in fixed blocks of BLOCK hours counted from J2000, one call per block,
-        # so a node has the same value whatever span asked for it (the planetary kernel's batched
-        # arithmetic can differ in the last bit with the batch): a split search gives the same passes.
-        b0 = int(np.floor((np.floor(start_tt / self.STEP_S) - 1) / self.BLOCK))
-        b1 = int(np.floor((np.ceil(end_tt / self.STEP_S) + 1) / self.BLOCK))
-        n0 = b0 * self.BLOCK
+        n0 = np.floor(start_tt / self.STEP_S) - 1
+        n1 = np.ceil(end_tt / self.STEP_S) + 1
         self.t0 = n0 * self.STEP_S
-        self.nodes = np.arange(n0, (b1 + 2) * self.BLOCK) * self.STEP_S
-        sun, moon = [], []
-        for b in range(b0, b1 + 2):
-            t = np.arange(b * self.BLOCK, (b + 1) * self.BLOCK) * self.STEP_S
-            sun.append(bodies.sun_km(t, velocity=True))
-            moon.append(bodies.moon_km(t, velocity=True))
-        self._sun = self._cubic(np.concatenate([x[0] for x in sun]), np.concatenate([x[1] for x in sun]))
-        self._moon = self._cubic(np.concatenate([x[0] for x in moon]), np.concatenate([x[1] for x in moon]))
+        self.nodes = np.arange(n0, n1 + 1) * self.STEP_S
+        self._sun = self._cubic(*bodies.sun_km(self.nodes, velocity=True))
+        self._moon = self._cubic(*bodies.moon_km(self.nodes, velocity=True))
 
     def _cubic(self, p, v):
         """Per-interval coefficients (4, N-1, 3) of the cubic Hermite piece p0 + s (c1 + s (c2 + s c3))."""
