@@ -63,8 +63,9 @@ def _day_axis(ax, start_tt: float, end_tt: float) -> None:
     ticks = mids[::every]
     ax.set_xticks([(m - start_tt) / 86400.0 for m in ticks])
     ax.set_xticklabels([f"{format_utc(m, 0)[5:10]}\nDOY {day_of_year(m):03d}" for m in ticks], fontsize=6.5)
-    for m in mids:
-        ax.axvline((m - start_tt) / 86400.0, color="#BBBBBB", lw=0.5, zorder=0)
+    if mids:  # one collection for every midnight line (not one artist each)
+        ax.vlines([(m - start_tt) / 86400.0 for m in mids], 0.0, 1.0, transform=ax.get_xaxis_transform(),
+                  colors="#BBBBBB", lw=0.5, zorder=0)
     ax.set_xlim(0.0, span_days)
     if span_days <= 16:  # minor ticks every 6 h
         first = (mids[0] - start_tt) / 86400.0 if mids else 0.0
