@@ -117,7 +117,7 @@ def main() -> int:
     timer.stop()
     t_draft = time.perf_counter() - t0
     ok_draft = state["worst"] < TARGET_MS
-    print(f"drafting the demo week in the worker took {t_draft:.1f} s; longest stall {state['worst']:.1f} ms "
+    print(f"drafting the demo week in the worker took {t_draft:.1f} s wall; longest stall {state['worst']:.1f} ms wall {CPUS} "
           f"(target < {TARGET_MS:.0f} ms) {'OK' if ok_draft else 'OVER TARGET'}")
     win.doc.undo_stack.setClean()
     win.close()

@@ -128,52 +128,39 @@ def _parse_finals(path: Path) -> dict[str, np.ndarray]:
 
 
 def _eop_cache_path() -> Path:
-    from contactplan.paths import user_cache_dir
+    from contactplan.cachefile import path_for
 
-    return user_cache_dir() / "eop" / "finals2000A.bin"
+    return path_for("eop", "finals2000A.bin")
 
 
 def _eop_cache_load(key: dict) -> dict[str, np.ndarray] | None:
     """The cached table when its header matches ``key`` and its checksum holds, else None."""
-    import hashlib
-    import json
+    from contactplan.cachefile import load
 
-    try:
-        raw = _eop_cache_path().read_bytes()
-        head, sep, body = raw.partition(b"\n")
-        doc = json.loads(head)
-        if not sep or not isinstance(doc, dict) or doc.get("key") != key:
-            return None
-        n = doc.get("rows")
-        if not isinstance(n, int) or n < 2 or len(body) != 8 * n * len(_EOP_COLUMNS):
-            return None
-        if hashlib.sha256(body).hexdigest() != doc.get("sha256"):
-            return None
-        cols = np.frombuffer(body, dtype="<f8").reshape(len(_EOP_COLUMNS), n)
-        if not np.all(np.isfinite(cols)) or np.any(np.diff(cols[0]) <= 0):
-            return None
-        return {name: cols[i].copy() for i, name in enumerate(_EOP_COLUMNS)}
-    except (OSError, ValueError, TypeError, UnicodeDecodeError):
+    cols = load(_eop_cache_path(), key)
+    if cols is None or cols.ndim != 2 or cols.shape[0] != len(_EOP_COLUMNS) or cols.shape[1] < 2:
         return None
+    if not np.all(np.isfinite(cols)) or np.any(np.diff(cols[0]) <= 0):
+        return None
+    return {name: cols[i].copy() for i, name in enumerate(_EOP_COLUMNS)}
 
 
 def _eop_cache_store(key: dict, tab: dict[str, np.ndarray]) -> bool:
-    import hashlib
-    import json
+    from contactplan.cachefile import store
 
-    from contactplan.errors import InputError
-    from contactplan.fileio import atomic_write
+    return store(_eop_cache_path(), key, np.stack([np.asarray(tab[c], dtype=float) for c in _EOP_COLUMNS]))
 
+
+def eop_source_key() -> dict | None:
+    """What identifies the packaged Earth-orientation and leap-second files (for caches built from them)."""
     try:
-        body = np.stack([np.asarray(tab[c], dtype="<f8") for c in _EOP_COLUMNS]).tobytes()
-        head = json.dumps({"key": key, "rows": int(tab["mjd_utc"].size),
-                           "sha256": hashlib.sha256(body).hexdigest()}, sort_keys=True)
-        path = _eop_cache_path()
-        path.parent.mkdir(parents=True, exist_ok=True)
-        atomic_write(path, head.encode() + b"\n" + body)
-        return True
-    except (OSError, InputError, ValueError):
-        return False
+        out = {"format": EOP_CACHE_FORMAT}
+        for name in ("finals2000A.all", "Leap_Second.dat"):
+            st = (_iers_dir() / name).stat()
+            out[name] = [str(_iers_dir() / name), st.st_size, st.st_mtime_ns]
+        return out
+    except OSError:
+        return None
 
 
 _warned_eop = False
