@@ -14,7 +14,8 @@ Method
     3. Every sign change, and every sampled extremum that could hide one, is
        refined together, all stations in one batch (false position with
        safeguards) to :data:`EVENT_TOL_S`.
-    4. Culmination by golden-section search on elevation inside each pass.
+    4. Culmination: the zero of the elevation rate next to the best in-pass sample
+       (false position, every pass at once).
 
 Measured (benchmarks/bench_passes.py, CPU): a year, six masked stations, built-in
 halo orbit: about 0.3 s, 1.5 times the arithmetic floor counted there and some 230
