@@ -1075,7 +1075,7 @@ class MainWindow(QMainWindow):
 
     def export_to(self, path, what: str | None = None) -> Job | None:
         """Write one export in the background; the status bar says what was written."""
-        from contactplan.io.exporting import export
+        from contactplan.commands.export import export
 
         sc = copy.copy(self.doc.scenario)
         sc.bookings = [copy.copy(b) for b in self.doc.scenario.bookings]

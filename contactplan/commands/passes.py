@@ -98,7 +98,13 @@ def run(args) -> int:
                              f"use .csv, .json, .xlsx or .txt", args.out)
     start = _time(args.start, "start") if args.start else None
     end = _time(args.end, "end") if args.end else None
+    from contactplan.commands.export import guard_output
+
+    if args.out:
+        guard_output(args.out, None, [args.scenario])
     scenario = load_scenario(args.scenario)
+    if args.out:
+        guard_output(args.out, scenario)
     if args.station:
         known = [s.id for s in scenario.stations]
         for sid in args.station:
@@ -137,7 +143,10 @@ def run(args) -> int:
             print(line)
         print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")
         return 0
+    from contactplan.fileio import backup
+
     try:
+        backup(args.out)  # a replaced file is kept as name~, as saves do
         if fmt == "xlsx":
             from contactplan.io.xlsx import write_passes_xlsx
 
