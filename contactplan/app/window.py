@@ -35,7 +35,7 @@ from contactplan.timescale import DAY_S, format_utc, parse_utc
 log = logging.getLogger("contactplan.app")
 
 APP_NAME = "contactplan"
-AUTOSAVE_MS = 3 * 60 * 1000  # every three minutes while there are unsaved edits
+AUTOSAVE_MS = 2000  # a snapshot this long after the last edit (debounced; written in a background thread)
 MAX_RECENT = 8
 
 #: export menu: (what, format, label, extension filter)
@@ -224,9 +224,17 @@ class MainWindow(QMainWindow):
             QGuiApplication.styleHints().colorSchemeChanged.connect(self.refresh_theme)
         except AttributeError:  # pragma: no cover
             pass
-        self.autosave_timer = QTimer(self)
+        self.autosave_timer = QTimer(self)  # restarted by every edit: fires once the edits pause
+        self.autosave_timer.setSingleShot(True)
+        self.autosave_timer.setInterval(int(self.settings.value("autosave_ms", AUTOSAVE_MS)))
         self.autosave_timer.timeout.connect(self.autosave)
-        self.autosave_timer.start(int(self.settings.value("autosave_ms", AUTOSAVE_MS)))
+        self.doc.undo_stack.indexChanged.connect(self.autosave_timer.start)
+        if self.autosaver.error:  # the planner starts anyway; the status bar says so
+            log.warning("%s", self.autosaver.error)
+            self.autosave_off = QLabel(f"Autosave off: {self.autosaver.error.removeprefix('autosave is off: ')}")
+            self.autosave_off.setObjectName("autosave_off")
+            self.autosave_off.setToolTip(self.autosaver.error)
+            self.statusBar().insertPermanentWidget(0, self.autosave_off)
         self.resize(1400, 880)
         geo = self.settings.value("window/geometry")
         if geo is not None:
@@ -504,6 +512,49 @@ class MainWindow(QMainWindow):
 
     def ask(self, title: str, text: str, buttons, default):
         return QMessageBox.question(self, title, text, buttons, default)
+
+    def choose_recovery(self, snaps, requested=None):
+        """Ask what to do with the snapshots left by planners that did not close cleanly.
+
+        Returns ``("recover", [snap])``, ``("discard", [snaps...])`` or ``("keep", [])`` (open
+        ``requested`` or the demo, and offer the snapshots again at the next start)."""
+        from PySide6.QtWidgets import QDialog, QDialogButtonBox, QListWidget, QVBoxLayout
+
+        from contactplan.app.main import recovery_label
+
+        dlg = QDialog(self)
+        dlg.setWindowTitle("Recover unsaved edits?")
+        lay = QVBoxLayout(dlg)
+        n = len(snaps)
+        lay.addWidget(QLabel(f"contactplan did not close cleanly: {n} autosaved plan{'s' if n != 1 else ''} "
+                             "with unsaved edits. Choose one to recover, discard the ones you do not need, "
+                             "or keep them for later."))
+        lst = QListWidget()
+        lst.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
+        for snap in snaps:
+            lst.addItem(recovery_label(snap))
+        lst.setCurrentRow(0)
+        lay.addWidget(lst)
+        box = QDialogButtonBox()
+        recover = box.addButton("Recover selected", QDialogButtonBox.ButtonRole.AcceptRole)
+        discard = box.addButton("Discard selected", QDialogButtonBox.ButtonRole.DestructiveRole)
+        later = box.addButton(f"Open {Path(requested).name} instead" if requested else "Keep for later",
+                              QDialogButtonBox.ButtonRole.RejectRole)
+        lay.addWidget(box)
+        clicked = []
+        box.clicked.connect(lambda b: (clicked.append(b), dlg.accept()))
+        dlg.exec()
+        rows = sorted(i.row() for i in lst.selectedIndexes())
+        chosen = [snaps[r] for r in rows]
+        b = clicked[0] if clicked else later
+        if b is recover and chosen:
+            return "recover", chosen[:1]
+        if b is discard and chosen:
+            ans = self.ask("Discard autosaved edits?", f"Discard {len(chosen)} autosaved plan(s)? "
+                           "Their unsaved edits are lost.", QMessageBox.StandardButton.Yes
+                           | QMessageBox.StandardButton.No, QMessageBox.StandardButton.No)
+            return ("discard", chosen) if ans == QMessageBox.StandardButton.Yes else ("keep", [])
+        return "keep", []
 
     def info(self, title: str, text: str) -> None:
         box = QMessageBox(QMessageBox.Icon.Information, title, text, QMessageBox.StandardButton.Ok, self)
@@ -803,15 +854,23 @@ class MainWindow(QMainWindow):
         self.autosave(force=True)
         return True
 
-    def autosave(self, force: bool = False) -> None:
-        """Snapshot the scenario to the user data folder (when edited, or ``force``)."""
+    def autosave(self, force: bool = False, wait: bool = False) -> None:
+        """Snapshot the scenario to the user data folder (when edited, or ``force``).
+
+        The text is made here; the file is written in a background thread (``wait``: here and now)."""
         sc = self.doc.scenario
-        if sc is None or not (force or self.doc.dirty):
+        if sc is None or not (force or self.doc.dirty) or not self.autosaver.enabled:
             return
         try:
             from contactplan.scenario import dumps
 
-            self.autosaver.write(dumps(sc), sc.path, sc.name)
+            text = dumps(sc)
+            if wait:
+                self.autosaver.wait()
+                self.autosaver.write(text, sc.path, sc.name)
+            else:
+                self.autosaver.write_async(text, sc.path, sc.name,
+                                           on_error=lambda exc: log.error("autosave failed: %s", exc))
         except Exception:  # an autosave failing must never disturb the user
             log.exception("autosave failed")
 
@@ -1148,6 +1207,7 @@ class MainWindow(QMainWindow):
         self.cancel_job(wait=True)
         self.settings.setValue("window/geometry", self.saveGeometry())
         self.settings.setValue("window/state", self.saveState())
+        self.autosave_timer.stop()
         self.autosaver.clear()
         ev.accept()
 
