@@ -51,6 +51,14 @@ SCENARIO_EXPECT = {
     "offset_time.toml": ("scenario.start", "non-zero offset"),
     "stations_not_a_list.toml": ("stations", "array of tables"),
     "wrong_type.toml": ("stations[NRV].latitude_deg", "expected a number"),
+    "window_end_2927.toml": ("scenario.end", "2927-01-19T00:00:00Z is after 2050-01-01, past what the packaged "
+                             "DE421 planetary ephemeris (de421.bsp) and time tables cover"),
+    "window_end_9999.toml": ("scenario.end", "9999-01-19T00:00:00Z is after 2050-01-01"),
+    "window_too_long.toml": ("scenario.end", "more than the 3653 days (ten years) a plan may span"),
+    "series_id_too_long.toml": ("activity_series[STATIONKEEPING-MANOEUVRE-WEEK03].id",
+                                "its activities get ids such as 'STATIONKEEPING-MANOEUVRE-WEEK03-03' "
+                                "(more than 32 characters); use at most 29 characters"),
+    "id_with_newline.toml": ("stations[KAL\\n\\x1b[31mEVIL].id", "'KAL\\n\\x1b[31mEVIL' is not a valid id"),
 }
 
 OEM_EXPECT = {

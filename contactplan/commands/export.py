@@ -62,6 +62,12 @@ def run(args) -> int:
                 raise exc.at(None, f"--{opt}") from None
     guard_output(args.out, None, [args.scenario])
     scenario = load_scenario(args.scenario)
+    if times:
+        from contactplan.bounds import window_problem
+
+        bad = window_problem(times.get("start", scenario.start_tt), times.get("end", scenario.end_tt))
+        if bad is not None:
+            raise InputError(bad[1], None, f"--{bad[0]}")
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
                       step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")

@@ -115,6 +115,11 @@ def run(args) -> int:
     end = scenario.end_tt if end is None else end
     if not end > start:
         raise InputError("the window must end after it starts (check --start and --end)")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)
+    if bad is not None:
+        raise InputError(bad[1], None, f"--{bad[0]}")
 
     def warn(msg):
         print(f"contactplan: warning: {' '.join(str(msg).split())}", file=sys.stderr)

@@ -11,7 +11,7 @@ import math
 import re
 from pathlib import Path
 
-from contactplan.errors import InputError
+from contactplan.errors import InputError, show_id
 from contactplan.fileio import read_input
 from contactplan.scenario import model as m
 from contactplan.timescale import parse_time_value
@@ -75,7 +75,7 @@ class Table:
         if choices and v not in choices:
             self.fail(key, f"{v!r} is not one of {', '.join(choices)}")
         if pattern is not None and not pattern.match(v):
-            self.fail(key, f"{v!r} is not a valid id (letters, digits, _ . : -, at most 32)")
+            self.fail(key, f"'{show_id(v)}' is not a valid id (letters, digits, _ . : -, at most 32)")
         self.loaded[key] = v
         return v
 
@@ -133,7 +133,8 @@ class Table:
             self.fail(key, "expected an array of tables ([[" + key + "]])")
         out = []
         for i, item in enumerate(v):
-            label = item.get("id") if isinstance(item, dict) and isinstance(item.get("id"), str) else f"#{i + 1}"
+            label = (show_id(item["id"]) if isinstance(item, dict) and isinstance(item.get("id"), str)
+                     else f"#{i + 1}")  # escaped and cut: an id may hold line breaks or terminal escapes
             out.append(Table(item, self.path, f"{self._field(key)}[{label}]"))
         return out
 
@@ -256,10 +257,16 @@ def _activity(t: Table) -> m.Activity:
 
 def _series(t: Table) -> m.ActivitySeries:
     kind = t.str("kind", choices=m.ACTIVITY_KINDS)
-    return t.keep(m.ActivitySeries(
+    s = t.keep(m.ActivitySeries(
         id=t.str("id", pattern=_ID_RE), kind=kind, first_start_tt=t.time("first_start"),
         every_days=t.num("every_days", lo=0, lo_open=True, hi=3650),
         count=t.num("count", lo=1, hi=1000, integer=True), **_margins(t, kind)))
+    longest = s.expand()[-1].id  # member ids must be valid ids too, or a plan that loads could not save
+    if not _ID_RE.match(longest):
+        room = 32 - (len(longest) - len(s.id))
+        t.fail("id", f"series id {s.id!r} is too long: its activities get ids such as {longest!r} "
+                     f"(more than 32 characters); use at most {room} characters")
+    return s
 
 
 def _booking(t: Table, station_ids: set) -> m.Booking:
@@ -324,6 +331,11 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     end = sc.time("end")
     if end <= start:
         sc.fail("end", "planning window ends before it starts")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)  # a typo such as 2927 must not stall the planner for minutes
+    if bad is not None:
+        sc.fail(bad[0], bad[1])
     revision = sc.num("revision", 0, lo=0, integer=True)
 
     sp = root.sub("spacecraft")

@@ -1,0 +1,95 @@
+"""Bad input that used to crash, stall or lie: window bounds, series ids, table ends, messages."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from contactplan.cli import main
+from contactplan.errors import InputError, OutOfSpanError
+from contactplan.scenario import load_scenario, parse_text, save_scenario
+
+DATA = Path(__file__).parent / "data"
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _minimal_with(old: str, new: str) -> str:
+    text = (DATA / "minimal.toml").read_text("utf-8")
+    assert old in text
+    return text.replace(old, new, 1)
+
+
+def test_a_series_id_of_29_characters_loads_edits_and_saves(tmp_path):
+    sid = "S" * 29  # members "SSS...-01": exactly 32 characters
+    p = tmp_path / "week.toml"
+    p.write_text(_minimal_with('id = "SK"', f'id = "{sid}"'), "utf-8")
+    sc = load_scenario(p)
+    members = [a for a in sc.activities if a.series == sid]
+    assert [len(a.id) for a in members] == [32, 32, 32]
+    members[0].start_tt += 600.0  # a member edit: the series is written out as plain activities
+    save_scenario(sc, p)
+    again = load_scenario(p)
+    assert sorted(a.id for a in again.activities) == sorted(a.id for a in sc.activities)
+
+
+def test_a_series_id_too_long_for_its_members_is_refused_on_loading():
+    with pytest.raises(InputError) as e:
+        parse_text(_minimal_with('id = "SK"', f'id = "{"S" * 30}"'))
+    assert e.value.where == f"activity_series[{'S' * 30}].id" and "use at most 29 characters" in e.value.message
+
+
+def _one_error(capsys) -> str:
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("contactplan: error: "), err
+    return err[0]
+
+
+def test_window_typo_on_the_command_line_is_one_line_naming_the_option(capsys):
+    assert main(["passes", str(DATA / "minimal.toml"), "--end", "2927-01-19T00:00:00Z"]) == 2
+    line = _one_error(capsys)
+    assert "--end: 2927-01-19T00:00:00Z is after 2050-01-01" in line and "de421.bsp" in line
+    assert main(["export", str(DATA / "minimal.toml"), "--out", "x.csv", "--start", "2027-01-12T00:00:00Z",
+                 "--end", "2040-01-12T00:00:00Z"]) == 2
+    assert "--end: the window is 4748 days long" in _one_error(capsys)
+
+
+def test_de421_span_stated_matches_the_kernel_and_its_message_names_file_and_date():
+    from contactplan.bounds import LATEST_TT
+    from contactplan.ephemeris.bodies import _kernel, sun_km
+    from contactplan.timescale import parse_utc
+
+    seg = _kernel()[0, 10]
+    # the bound must lie inside what the kernel itself covers (read from de421.bsp)
+    assert (LATEST_TT / 86400.0 + 2451545.0) < seg.end_jd
+    with pytest.raises(OutOfSpanError) as e:
+        sun_km(parse_utc("2060-01-01T00:00:00Z"))
+    assert e.value.path.endswith("de421.bsp")
+    assert "2060-01-01T00:00" in e.value.message and "1899-07-29 to 2053-10-09" in e.value.message
+
+
+def test_end_of_table_warning_gives_a_date():
+    import warnings
+
+    from contactplan import data
+
+    data._warned_eop = False
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        data.earth_orientation([data.eop_table()["mjd_utc"][-1] + 400.0])
+    msgs = [str(w.message) for w in caught if "Earth-orientation" in str(w.message)]
+    last = data.eop_table()["mjd_utc"][-1]
+    assert msgs and data._mjd_date(last) in msgs[0]
+    assert data._mjd_date(60000) == "2023-02-25"  # MJD 0 = 1858-11-17, MJD 60000 = 2023-02-25 (from memory)
+
+
+def test_no_unclosed_de421_warning_at_exit():
+    code = ("from contactplan.ephemeris.bodies import sun_km\n"
+            "from contactplan.data import planetary_ephemeris\n"
+            "sun_km(0.0); planetary_ephemeris()\n")
+    out = subprocess.run([sys.executable, "-W", "always::ResourceWarning", "-X", "dev", "-c", code],
+                         capture_output=True, text=True, env=dict(os.environ, PYTHONPATH=str(ROOT)), timeout=120)
+    assert out.returncode == 0 and "de421.bsp" not in out.stderr, out.stderr[-2000:]
