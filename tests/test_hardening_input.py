@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import sys
@@ -93,3 +94,55 @@ def test_no_unclosed_de421_warning_at_exit():
     out = subprocess.run([sys.executable, "-W", "always::ResourceWarning", "-X", "dev", "-c", code],
                          capture_output=True, text=True, env=dict(os.environ, PYTHONPATH=str(ROOT)), timeout=120)
     assert out.returncode == 0 and "de421.bsp" not in out.stderr, out.stderr[-2000:]
+
+
+@pytest.mark.parametrize("argv, words", [
+    (["passes"], "the following arguments are required: SCENARIO (see contactplan passes --help)"),
+    (["export", "x.toml", "--out", "a.csv", "--what", "foo"], "argument --what: invalid choice: 'foo'"),
+    (["passes", "x.toml", "--bogus"], "unrecognized arguments: --bogus"),
+    (["draft", str(DATA / "minimal.toml"), "--out", "never-written.toml", "--time-limit", "inf"],
+     "--time-limit inf: give a positive, finite number of seconds"),
+])
+def test_command_line_errors_are_one_line(argv, words, capsys):
+    with pytest.raises(SystemExit) if argv[0] != "draft" else _no_exit() as e:
+        rc = main(argv)
+    rc = e.value.code if e is not None and hasattr(e, "value") else rc
+    assert rc == 2
+    out = capsys.readouterr()
+    lines = out.err.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("contactplan: error: ") and words in lines[0], lines
+    assert out.out == ""
+
+
+class _no_exit:
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *a):
+        return False
+
+
+def test_utf16_xml_oem_says_the_encoding_is_not_supported(tmp_path):
+    from contactplan.io.oem import read_oem
+
+    xml = '<?xml version="1.0" encoding="UTF-16"?>\n<oem id="CCSDS_OEM_VERS" version="2.0"></oem>\n'
+    for name, data in (("bom.xml", xml.encode("utf-16")), ("le.xml", xml.encode("utf-16-le")),
+                       ("be.xml", xml.encode("utf-16-be"))):
+        p = tmp_path / name
+        p.write_bytes(data)
+        with pytest.raises(InputError) as e:
+            read_oem(p)
+        assert "UTF-16 text: this encoding is not supported" in str(e.value) and str(p) in str(e.value)
+
+
+def test_ids_with_line_breaks_and_terminal_escapes_are_escaped_and_cut(capsys, tmp_path):
+    evil = "B\n\x1b[2J\u202eX" + "Y" * 80
+    text = _minimal_with('[[stations]]', f'[[bookings]]\nid = {json.dumps(evil)}\n'
+                         'station = "NRV"\nstart = "2027-01-13T00:00:00Z"\nend = "2027-01-13T01:00:00Z"\n\n'
+                         '[[stations]]')
+    p = tmp_path / "week.toml"
+    p.write_text(text, "utf-8")
+    assert main(["check", str(p)]) == 2
+    line = _one_error(capsys)
+    assert "\x1b" not in line and "\u202e" not in line and "\\x1b[2J\\u202eX" in line
+    assert len(line) < 400 and "\u2026" in line

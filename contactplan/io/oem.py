@@ -398,10 +398,30 @@ def read_oem(path) -> OemFile:
     return parse_oem_bytes(read_input(path), path)
 
 
+def _wide_encoding(data: bytes) -> str | None:
+    """"UTF-16" or "UTF-32" when the bytes look like text in that encoding (a byte-order mark, or
+    ASCII characters interleaved with zero bytes), else None."""
+    head = data[:4]
+    if head.startswith((b"\xff\xfe\x00\x00", b"\x00\x00\xfe\xff")):
+        return "UTF-32"
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        return "UTF-16"
+    sample = data[:200]
+    if len(sample) >= 8:
+        even, odd = sample[0::2], sample[1::2]
+        if (even.count(0) > 0.9 * len(even) and odd.count(0) < 0.1 * len(odd)) or \
+                (odd.count(0) > 0.9 * len(odd) and even.count(0) < 0.1 * len(even)):
+            return "UTF-16"
+    return None
+
+
 def parse_oem_bytes(data: bytes, path=None) -> OemFile:
     """Parse OEM content already in memory (``path`` is only used in messages)."""
     if not data.strip():
         raise InputError("file is empty", path)
+    wide = _wide_encoding(data)
+    if wide:
+        raise InputError(f"{wide} text: this encoding is not supported; save the OEM as UTF-8 or ASCII", path, 1)
     if b"\x00" in data:
         raise InputError("binary content, not a CCSDS OEM text file", path, data[: data.index(b"\x00")].count(b"\n") + 1)
     try:
