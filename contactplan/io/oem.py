@@ -69,6 +69,19 @@ _SV_PLAIN = {("EPOCH", "X", "Y", "Z", "X_DOT", "Y_DOT", "Z_DOT"),
 #: tolerance for comparing header times with data epochs (s)
 _TIME_TOL_S = 1e-6
 
+#: physically meaningful states (refused otherwise, naming the line): a position from the
+#: Earth's centre no smaller than its polar radius, 6356.752 km (WGS 84, from memory), and from
+#: any centre no larger than 1e13 km (about 67,000 au, the order of the Sun's sphere of influence
+#: in the Galaxy, from memory); a speed below the speed of light, 299,792.458 km/s (SI definition).
+MIN_EARTH_RADIUS_KM = 6356.0
+MAX_RADIUS_KM = 1.0e13
+MAX_SPEED_KM_S = 299_792.458
+#: neighbouring states whose position change disagrees with their mean velocity by more than
+#: this fraction of the step are more than the interpolation can follow (an outlier): refused
+MAX_STEP_MISMATCH = 0.5
+#: a spacing inside a segment this many times its median is a hole in the data: warned
+GAP_FACTOR = 10.0
+
 _KV_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_]*)\s*=\s*(.*?)\s*$")
 _COMMENT_RE = re.compile(r"^\s*COMMENT(?:\s(.*))?$")
 _WORD_RE = re.compile(r"^\s*([A-Za-z][A-Za-z0-9_]*)\s*$")
@@ -884,6 +897,7 @@ class _KvnOrXml:
             self.fail(f"epoch {epochs[r]} lies outside the segment's START_TIME to STOP_TIME", int(data_lines[r]))
         if len(t) < 2:
             self.fail("segment holds a single state; at least 2 are needed to interpolate", meta_line)
+        self._check_states(t, values, data_lines, center, meta_line)
         a = max(start if ustart is None else ustart, t[0])
         b = min(stop if ustop is None else ustop, t[-1])
         if b <= a:
@@ -901,6 +915,46 @@ class _KvnOrXml:
             acc_km_s2=None if acc is None else np.ascontiguousarray(acc), comments=comments, metadata=md,
             line=meta_line or 0, data_lines=data_lines, covariance_count=ncov,
         )
+
+    def _check_states(self, t, values, data_lines, center, meta_line) -> None:
+        """Refuse absurd states and outliers, warn about holes (vectorised over the segment)."""
+        pos, vel = values[:, 0:3], values[:, 3:6]
+        r = np.hypot(np.hypot(pos[:, 0], pos[:, 1]), pos[:, 2])  # no overflow for 1e200 km
+        v = np.hypot(np.hypot(vel[:, 0], vel[:, 1]), vel[:, 2])
+        low = MIN_EARTH_RADIUS_KM if center == "EARTH" else 0.0
+        bad = np.flatnonzero((r < low) | (r > MAX_RADIUS_KM) | (v >= MAX_SPEED_KM_S))
+        if bad.size:
+            k = int(bad[0])
+            if r[k] < low:
+                why = (f"position {r[k]:.6g} km from the Earth's centre is below its surface "
+                       f"(states must be at least {low:g} km from it)")
+            elif r[k] > MAX_RADIUS_KM:
+                why = f"position {r[k]:.6g} km from {center.lower()} is beyond {MAX_RADIUS_KM:g} km"
+            else:
+                why = f"speed {v[k]:.6g} km/s is not below the speed of light"
+            self.fail(f"state is not physically meaningful: {why}", int(data_lines[k]))
+        dt = np.diff(t)
+        dr = np.diff(pos, axis=0)
+        mean_v = 0.5 * (vel[1:] + vel[:-1])
+        miss = np.linalg.norm(dr - mean_v * dt[:, None], axis=1)
+        scale = np.maximum(np.linalg.norm(dr, axis=1), np.linalg.norm(mean_v, axis=1) * dt)
+        jump = np.flatnonzero(miss > MAX_STEP_MISMATCH * scale + 1.0)
+        if jump.size:
+            i = int(jump[0])
+            self.fail(f"the state does not follow from the one at line {int(data_lines[i])}: the position moves "
+                      f"{np.linalg.norm(dr[i]):.6g} km in {dt[i]:g} s where the velocities say "
+                      f"{np.linalg.norm(mean_v[i]) * dt[i]:.6g} km (an outlier the interpolation cannot follow)",
+                      int(data_lines[i + 1]))
+        if dt.size >= 3:
+            med = float(np.median(dt))
+            holes = np.flatnonzero(dt > GAP_FACTOR * med)
+            if holes.size:
+                i = int(holes[0])
+                more = f" ({holes.size} such holes in the segment)" if holes.size > 1 else ""
+                self.warnings.append(
+                    f"segment at line {meta_line}: states at lines {int(data_lines[i])} and {int(data_lines[i + 1])} "
+                    f"are {dt[i]:g} s apart, more than {GAP_FACTOR:g} times the median spacing of {med:g} s: "
+                    f"the orbit is interpolated across the hole{more}; split the segment if data are missing")
 
     def _finish(self, version, encoding, header, comments, segments) -> OemFile:
         for prev, seg in zip(segments, segments[1:]):
