@@ -146,3 +146,33 @@ def test_ids_with_line_breaks_and_terminal_escapes_are_escaped_and_cut(capsys, t
     line = _one_error(capsys)
     assert "\x1b" not in line and "\u202e" not in line and "\\x1b[2J\\u202eX" in line
     assert len(line) < 400 and "\u2026" in line
+
+
+@pytest.mark.filterwarnings("always::contactplan.scenario.load.UnknownKeyWarning")
+def test_misspelt_keys_are_warned_with_a_suggestion_kept_on_save_and_become_findings(tmp_path, capsys):
+    import warnings
+
+    from contactplan.scenario.load import UnknownKeyWarning
+
+    text = _minimal_with("min_elevation_deg = 10.0", "min_elevaton_deg = 10.0")
+    text = text.replace('name = "North Ridge"', 'name = "North Ridge"\nsetpu_min = 12', 1)
+    p = tmp_path / "week.toml"
+    p.write_text(text, "utf-8")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        sc = load_scenario(p)
+    msgs = [str(w.message) for w in caught if issubclass(w.category, UnknownKeyWarning)]
+    assert f"{p}:stations[NRV].min_elevaton_deg: unknown key 'min_elevaton_deg' (kept on save, but it has no " \
+           "effect; did you mean min_elevation_deg?)" in msgs
+    assert any("stations[NRV].setpu_min" in m and "did you mean setup_min?" in m for m in msgs)
+    assert any("scenario.owner" in m and "did you mean" not in m for m in msgs)  # far from any known key
+    save_scenario(sc, p)
+    assert "min_elevaton_deg = 10.0" in p.read_text("utf-8") and "setpu_min = 12" in p.read_text("utf-8")
+    # the command line shows one warning line each; the findings carry them too
+    assert main(["check", str(p)]) in (0, 1)
+    err = capsys.readouterr()
+    assert "contactplan: warning: " in err.err and "did you mean min_elevation_deg?" in err.err
+    from contactplan.plan.pipeline import unknown_key_findings
+
+    fs = unknown_key_findings(load_scenario(p))
+    assert {f.rule for f in fs} == {"unknown-key"} and len(fs) == len(msgs)

@@ -36,13 +36,20 @@ def _as_float(x) -> float:
 class Table:
     """A TOML table with typed, validated getters that name the field on error."""
 
-    def __init__(self, data, path: Path | None, where: str):
+    def __init__(self, data, path: Path | None, where: str, registry: list | None = None):
         if not isinstance(data, dict):
             raise InputError(f"expected a table, got {type(data).__name__}", path, where)
         self.data = data
         self.path = path
         self.where = where
         self.loaded: dict = {}
+        self.read: set = set()  # every key the loader asked for (known keys, present or not)
+        self.registry = registry
+        if registry is not None:
+            registry.append(self)
+
+    def child(self, data, where: str) -> "Table":
+        return Table(data, self.path, where, self.registry)
 
     def _field(self, key: str) -> str:
         return f"{self.where}.{key}" if self.where else key
@@ -51,6 +58,7 @@ class Table:
         raise InputError(message, self.path, self._field(key) if key else self.where)
 
     def _get(self, key, default):
+        self.read.add(key)
         if key in self.data:
             return self.data[key]
         if default is _MISSING:
@@ -58,12 +66,13 @@ class Table:
         return default
 
     def sub(self, key: str, required: bool = True) -> "Table | None":
+        self.read.add(key)
         v = self.data.get(key, _MISSING)
         if v is _MISSING:
             if required:
                 self.fail(key, "missing section (required)")
             return None
-        return Table(v, self.path, self._field(key))
+        return self.child(v, self._field(key))
 
     def str(self, key, default=_MISSING, choices=None, pattern=None):
         v = self._get(key, default)
@@ -128,6 +137,7 @@ class Table:
         return v
 
     def records(self, key) -> list["Table"]:
+        self.read.add(key)
         v = self.data.get(key, [])
         if not isinstance(v, list):
             self.fail(key, "expected an array of tables ([[" + key + "]])")
@@ -135,7 +145,18 @@ class Table:
         for i, item in enumerate(v):
             label = (show_id(item["id"]) if isinstance(item, dict) and isinstance(item.get("id"), str)
                      else f"#{i + 1}")  # escaped and cut: an id may hold line breaks or terminal escapes
-            out.append(Table(item, self.path, f"{self._field(key)}[{label}]"))
+            out.append(self.child(item, f"{self._field(key)}[{label}]"))
+        return out
+
+    def unknown(self) -> list[tuple[str, str, str | None]]:
+        """(field, key, the known key it may mean or None) for each key the loader did not read."""
+        import difflib
+
+        out = []
+        for key in self.data:
+            if key not in self.read:
+                close = difflib.get_close_matches(str(key), sorted(self.read), n=1, cutoff=0.75)
+                out.append((self._field(key), str(key), close[0] if close else None))
         return out
 
     def keep(self, rec):
@@ -324,7 +345,9 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     """Build a :class:`Scenario` from an already parsed TOML document (older formats upgraded first)."""
     base = path.parent if path is not None else None
     doc, fv = upgrade_document(doc, path)
-    root = Table(doc, path, "")
+    tables: list = []
+    root = Table(doc, path, "", tables)
+    root.read.add("format_version")
     sc = root.sub("scenario")
     name = sc.str("name")
     start = sc.time("start")
@@ -339,6 +362,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     revision = sc.num("revision", 0, lo=0, integer=True)
 
     sp = root.sub("spacecraft")
+    sp.read.add("object_id")  # read by the ephemeris export (OEM OBJECT_ID)
     et = sp.sub("ephemeris")
     spacecraft = m.Spacecraft(name=sp.str("name"), ephemeris=_ephemeris(et, base))
     lt = sp.sub("link", required=False)
@@ -380,7 +404,29 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         format_version=fv, revision=revision, path=path, document=doc,
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table
+    scen.unknown_keys = unknown_keys(tables, path)
     return scen
+
+
+class UnknownKeyWarning(UserWarning):
+    """A key the loader does not know: kept on save, but it changes nothing (often a misspelling)."""
+
+
+def unknown_key_message(field: str, key: str, close: str | None) -> str:
+    hint = f"; did you mean {close}?" if close else ""
+    return f"unknown key {show_id(key)!r} (kept on save, but it has no effect{hint})"
+
+
+def unknown_keys(tables, path) -> list[tuple[str, str, str | None]]:
+    """Every unknown key of the document as (field, key, close known key or None); each is also warned
+    (:class:`UnknownKeyWarning`, one line naming the file and field)."""
+    import warnings
+
+    found = [u for t in tables for u in t.unknown()]
+    for field, key, close in found:
+        warnings.warn(str(InputError(unknown_key_message(field, key, close), path, field)), UnknownKeyWarning,
+                      stacklevel=3)
+    return found
 
 
 def parse_text(text: str, path: Path | None = None) -> m.Scenario:
