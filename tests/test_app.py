@@ -646,12 +646,43 @@ def test_opening_an_oem_offers_a_new_scenario_around_it(win, demo_copy, demo_pla
     _wait_job(win, qtbot)
     win.doc.undo_stack.setClean()
     win.answers = [B.Yes]
-    assert win.open_path(oem)
+    assert win.open_path(oem)  # read in the worker: the window only asks, then builds the scenario
+    _wait_job(win, qtbot)
+    assert win.asked[-1][0] == "New scenario from an ephemeris"
     sc = win.doc.scenario
     assert sc.spacecraft.ephemeris.kind == "oem" and sc.path is None
     assert sc.bookings == [] and len(sc.stations) == len(load_scenario(demo_copy).stations)
     _wait_job(win, qtbot)
     assert len(win.doc.result.passes) > 0
+
+
+def test_opening_an_oem_parses_it_once_in_the_worker_and_a_fifo_never_hangs(win, demo_copy, demo_plan, qtbot,
+                                                                            tmp_path, monkeypatch):
+    import threading
+
+    from contactplan.io import oem as oem_io
+
+    _open_with(win, demo_copy, demo_plan)
+    oem = tmp_path / "once.oem"
+    win.export_to(oem, "ephemeris")
+    _wait_job(win, qtbot)
+    win.doc.undo_stack.setClean()
+    reads = []
+    real = oem_io.read_oem
+    monkeypatch.setattr(oem_io, "read_oem", lambda p: (reads.append(threading.current_thread().name), real(p))[1])
+    win.answers = [B.Yes]
+    win.open_path(oem)
+    _wait_job(win, qtbot)
+    _wait_job(win, qtbot)  # the passes on it
+    assert len(win.doc.result.passes) > 0
+    assert len(reads) == 1 and reads[0] != threading.main_thread().name  # parsed once, not on the GUI thread
+    if hasattr(os, "mkfifo"):
+        fifo = tmp_path / "pipe.oem"
+        os.mkfifo(fifo)
+        win.last_error = None
+        assert win.open_path(fifo) is not None
+        _wait_job(win, qtbot, timeout=10_000)
+        assert "FIFO" in win.last_error and "pipe.oem" in win.last_error
 
 
 def test_sky_track_agrees_with_the_pass(win, demo_copy, demo_plan):
@@ -1025,8 +1056,9 @@ def test_a_bad_oem_opens_a_one_line_error_dialog(win, demo_copy, demo_plan, qtbo
         for how in ("open", "import"):
             win.last_error = None
             win.error_box = None
-            ok = win.open_path(bad) if how == "open" else win.import_ephemeris_path(bad)
-            assert ok is False, (bad.name, how)
+            job = win.open_path(bad) if how == "open" else win.import_ephemeris_path(bad)
+            assert job is not None, (bad.name, how)  # read in the worker, never on the event loop
+            _wait_job(win, qtbot)
             assert win.last_error and "\n" not in win.last_error, (bad.name, how, win.last_error)
             assert bad.name in win.last_error, (bad.name, win.last_error)
             assert win.error_box is not None and win.error_box.text() == win.last_error

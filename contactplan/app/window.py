@@ -905,18 +905,18 @@ class MainWindow(QMainWindow):
         new.path = None
         self.set_scenario(new)
 
-    def new_around_oem(self, oem_path: Path) -> bool:
-        """Offer a new scenario that flies the given OEM, with the stations of the open scenario or the demo."""
+    def new_around_oem(self, oem_path: Path) -> Job | None:
+        """Read the OEM in the worker (parsed once: the plan reuses it), then offer a new scenario that
+        flies it, with the stations of the open scenario or the demo. A bad file: a one-line dialog."""
         from contactplan.ephemeris import open_oem
 
-        try:
-            eph = open_oem(oem_path)
-        except InputError as exc:
-            self.show_error(str(exc), "Cannot read the ephemeris")
-            return False
-        except Exception as exc:
-            self.show_error(f"{oem_path}: {exc}", "Cannot read the ephemeris")
-            return False
+        oem_path = Path(oem_path)
+        self._stop_passes()
+        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(oem_path),
+                            lambda eph: self._offer_around_oem(oem_path, eph),
+                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
+
+    def _offer_around_oem(self, oem_path: Path, eph) -> bool:
         base = self.doc.scenario
         source = "the open scenario"
         if base is None:
@@ -963,13 +963,24 @@ class MainWindow(QMainWindow):
         if path:
             self.import_ephemeris_path(path)
 
-    def import_ephemeris_path(self, path) -> bool:
+    def import_ephemeris_path(self, path) -> Job | None:
+        """Read the OEM in the worker, then fly it (one undo step); a bad file: a one-line dialog."""
         from contactplan.ephemeris import open_oem
+
+        self._stop_passes()
+        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(path),
+                            lambda eph: self._fly_ephemeris(path, eph),
+                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
+
+    def _stop_passes(self) -> None:
+        """A pass computation under way gives way to reading a new ephemeris (it is redone after)."""
+        if self.job is not None and self.job.running and self.job.title == "Passes":
+            self.job.cancel()
+            self.job.wait()
+
+    def _fly_ephemeris(self, path, eph) -> bool:
         from contactplan.scenario.model import EphemerisSpec
 
-        eph = self._read_or_say(open_oem, path, "Cannot read the ephemeris")
-        if eph is None:
-            return False
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
             self.statusBar().showMessage(
@@ -1232,8 +1243,20 @@ def revalidation_lines(rv, name: str, limit: int = 14) -> list:
 
 
 def _looks_oem(path: Path) -> bool:
+    """True when the first bytes of a regular file name a CCSDS OEM (never blocks on a FIFO)."""
+    import os
+    import stat
+
     try:
-        head = path.read_text(encoding="utf-8", errors="replace")[:400]
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except OSError:
         return False
+    try:
+        if not stat.S_ISREG(os.fstat(fd).st_mode):
+            return False
+        head = os.read(fd, 400).decode("utf-8", errors="replace")
+    except OSError:
+        return False
+    finally:
+        os.close(fd)
     return "CCSDS_OEM_VERS" in head
