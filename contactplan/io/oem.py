@@ -29,6 +29,7 @@ float, so write -> read round-trips to the last bit (TDB: to about 1 ns).
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from contactplan.io.oem_model import *  # noqa: F401,F403 - the shared model and limits
