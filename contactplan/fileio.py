@@ -220,15 +220,9 @@ def _kind(mode: int) -> str:
 def read_input(path: str | Path) -> bytes:
     """The bytes of an input file; a missing or unreadable file is an InputError naming it."""
     path = Path(path)
+    fd = None
     try:
         fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))  # a FIFO must not block the open
-    except FileNotFoundError:
-        raise InputError("file not found", path) from None
-    except IsADirectoryError:
-        raise InputError("is a folder, not a file", path) from None
-    except OSError as exc:
-        raise InputError(f"cannot read: {exc.strerror or exc}", path) from None
-    try:
         st = os.fstat(fd)
         if stat.S_ISDIR(st.st_mode):
             raise InputError("is a folder, not a file", path)
