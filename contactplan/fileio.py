@@ -132,13 +132,12 @@ def _backup(path: Path) -> None:
         shutil.copy2(path, tmp_bak)
     try:
         _replace(tmp_bak, bak)  # the old backup stays until the new one is complete
-    except BaseException:
+    finally:
+        # a rename between two links of one file does nothing (POSIX): the temporary name may remain
         try:
             os.unlink(tmp_bak)
         except OSError:
             pass
-        raise
-    finally:
         _ACTIVE.discard(str(Path(tmp_bak).resolve()))
 
 
