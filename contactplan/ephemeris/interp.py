@@ -19,18 +19,21 @@ from __future__ import annotations
 import numpy as np
 
 
-def window_starts(t_nodes: np.ndarray, t: np.ndarray, n: int, step: float | None = None) -> np.ndarray:
+def window_starts(t_nodes: np.ndarray, t: np.ndarray, n: int, step: float | None = None, origin=None) -> np.ndarray:
     """Index of the first node of the ``n``-node window used for each query time.
 
     With equally spaced nodes (``step``) the interval is found by division
     instead of a search (a query on a node may then take the window one
-    interval earlier, which holds it all the same).
+    interval earlier, which holds it all the same). ``origin`` (t0_tt, offset): the nodes are a run
+    of a longer equally spaced table that starts at t0_tt, ``offset`` nodes before ``t_nodes[0]``;
+    the division is then done from t0_tt so the windows are the longer table's, to the bit.
     """
     size = len(t_nodes)
     if n > size:
         raise ValueError(f"window of {n} nodes but only {size} nodes")
     if step is not None:
-        m = np.floor((t - t_nodes[0]) * (1.0 / step)).astype(np.int64)
+        t0, offset = (t_nodes[0], 0) if origin is None else origin
+        m = np.floor((t - t0) * (1.0 / step)).astype(np.int64) - offset
     else:
         m = np.searchsorted(t_nodes, t, side="right") - 1  # interval [t_m, t_m+1)
     k = m - (n // 2 - 1) if n % 2 == 0 else m - n // 2
@@ -129,16 +132,17 @@ def _combine(weights, k, table):
     return out.T  # (M, columns) view; rows are not contiguous, which numpy handles alike
 
 
-def lagrange(t_nodes, pos, vel, t, degree: int, step=None):
+def lagrange(t_nodes, pos, vel, t, degree: int, step=None, origin=None):
     """Lagrange interpolation of position and velocity at times ``t``.
 
     Returns (pos (M, 3), vel (M, 3)); ``vel`` may be None (then None is returned
     for it). Queries outside [t_nodes[0], t_nodes[-1]] are extrapolated: callers
-    check the span first. ``step``: the node spacing when uniform (faster).
+    check the span first. ``step``: the node spacing when uniform (faster); ``origin``: see
+    :func:`window_starts`.
     """
     t = np.asarray(t, dtype=float)
     n = degree + 1
-    k = window_starts(t_nodes, t, n, step)
+    k = window_starts(t_nodes, t, n, step, origin)
     L, _, _ = _basis(t_nodes, t, k, n, step=step)
     if vel is None:
         return _combine(L, k, pos), None
@@ -156,16 +160,16 @@ def lagrange_derivative(t_nodes, pos, t, degree: int, step=None):
     return _combine(dL, k, pos)
 
 
-def hermite(t_nodes, pos, vel, t, degree: int, step=None):
+def hermite(t_nodes, pos, vel, t, degree: int, step=None, origin=None):
     """Hermite interpolation matching position and velocity at ``degree + 1`` nodes.
 
     H(t) = sum_i [(1 - 2 c_i (t - t_i)) L_i^2 p_i + (t - t_i) L_i^2 v_i],
     c_i = L_i'(t_i) = sum_{j != i} 1 / (t_i - t_j). Velocity is H'(t).
-    Returns (pos (M, 3), vel (M, 3)).
+    Returns (pos (M, 3), vel (M, 3)). ``origin``: see :func:`window_starts`.
     """
     t = np.asarray(t, dtype=float)
     n = degree + 1
-    k = window_starts(t_nodes, t, n, step)
+    k = window_starts(t_nodes, t, n, step, origin)
     L, dL, d = _basis(t_nodes, t, k, n, derivative=True, step=step)
     if step is None:
         nodes = np.stack([t_nodes[k + j] for j in range(n)])
@@ -194,13 +198,13 @@ def hermite(t_nodes, pos, vel, t, degree: int, step=None):
     return p, v
 
 
-def interpolate(method: str, t_nodes, pos, vel, t, degree: int, step=None):
+def interpolate(method: str, t_nodes, pos, vel, t, degree: int, step=None, origin=None):
     """Dispatch on the OEM ``INTERPOLATION`` value (LAGRANGE, HERMITE or LINEAR)."""
     method = method.upper()
     if method == "HERMITE":
-        return hermite(t_nodes, pos, vel, t, degree, step)
+        return hermite(t_nodes, pos, vel, t, degree, step, origin)
     if method == "LINEAR":
-        return lagrange(t_nodes, pos, vel, t, 1, step)
+        return lagrange(t_nodes, pos, vel, t, 1, step, origin)
     if method == "LAGRANGE":
-        return lagrange(t_nodes, pos, vel, t, degree, step)
+        return lagrange(t_nodes, pos, vel, t, degree, step, origin)
     raise ValueError(f"unknown interpolation {method!r}")

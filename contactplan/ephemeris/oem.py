@@ -98,7 +98,19 @@ class _Table:
         self.v = np.ascontiguousarray(v)
         self.method = seg.interpolation
         self.degree = min(seg.interpolation_degree, len(t) - 1)
-        self.step = uniform_step(self.t)
+        part = getattr(seg, "part", None)
+        if part is None:  # the whole segment
+            self.step = uniform_step(self.t)
+            self.origin = None
+            self.loaded = None
+        else:  # a run of it (windowed read): windows placed on the whole table
+            offset, t0, step, lo, hi = part
+            self.step = step
+            self.origin = None if step is None else (t0, offset)
+            self.loaded = (lo, hi)
+
+    def interpolate(self, t):
+        return interpolate(self.method, self.t, self.p, self.v, t, self.degree, self.step, self.origin)
 
 
 class OemWarning(UserWarning):
@@ -142,23 +154,36 @@ class OemEphemeris(Ephemeris):
     def segments(self):
         return self.oem.segments
 
+    def _segment_of(self, t):
+        if len(self._pieces) == 1:
+            return np.full(t.size, self._piece_seg[0], dtype=np.int64)
+        piece = np.clip(np.searchsorted(self._piece_start, t, side="right") - 1, 0, len(self._pieces) - 1)
+        return self._piece_seg[piece]
+
+    def _read_whole(self) -> None:
+        """Replace the windowed tables by the whole file's (a query outside the loaded runs)."""
+        from contactplan.io.oem import read_oem
+
+        whole = read_oem(self.path)
+        self.oem = whole
+        self._tables = [_Table(s, whole.path) for s in whole.segments]
+
     def _state(self, t_tt: np.ndarray):
         t = t_tt
+        seg_of = self._segment_of(t)
+        segs = np.unique(seg_of)
+        for s in segs:
+            loaded = self._tables[int(s)].loaded
+            if loaded is not None:
+                ts = t if segs.size == 1 else t[seg_of == s]
+                if ts.size and (ts.min() < loaded[0] or ts.max() > loaded[1]):
+                    self._read_whole()
+                    break
+        if segs.size <= 1:
+            return self._tables[int(segs[0]) if segs.size else int(self._piece_seg[0])].interpolate(t)
         pos = np.empty((t.size, 3))
         vel = np.empty((t.size, 3))
-        if len(self._pieces) == 1:
-            tab = self._tables[int(self._piece_seg[0])]
-            return interpolate(tab.method, tab.t, tab.p, tab.v, t, tab.degree, tab.step)
-        else:
-            piece = np.clip(np.searchsorted(self._piece_start, t, side="right") - 1, 0, len(self._pieces) - 1)
-            seg_of = self._piece_seg[piece]
-        for s in np.unique(seg_of):
-            tab = self._tables[int(s)]
-            if seg_of.size and np.all(seg_of == s):
-                p, v = interpolate(tab.method, tab.t, tab.p, tab.v, t, tab.degree, tab.step)
-                return p, v
+        for s in segs:
             idx = np.flatnonzero(seg_of == s)
-            p, v = interpolate(tab.method, tab.t, tab.p, tab.v, t[idx], tab.degree, tab.step)
-            pos[idx] = p
-            vel[idx] = v
+            pos[idx], vel[idx] = self._tables[int(s)].interpolate(t[idx])
         return pos, vel

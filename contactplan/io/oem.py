@@ -63,8 +63,9 @@ def _wide_encoding(data: bytes) -> str | None:
     return None
 
 
-def parse_oem_bytes(data: bytes, path=None) -> OemFile:
-    """Parse OEM content already in memory (``path`` is only used in messages)."""
+def parse_oem_bytes(data: bytes, path=None, spans=None) -> OemFile:
+    """Parse OEM content already in memory (``path`` is only used in messages; ``spans``: see
+    :attr:`contactplan.io.oem_model.Reader.spans`, KVN only)."""
     if not data.strip():
         raise InputError("file is empty", path)
     wide = _wide_encoding(data)
@@ -80,7 +81,9 @@ def parse_oem_bytes(data: bytes, path=None) -> OemFile:
         raise InputError("file is empty", path)
     if text.lstrip().startswith("<"):
         return _xml_reader(path).xml(text)
-    return _kvn_reader(path).kvn(text)
+    reader = _kvn_reader(path)
+    reader.spans = dict(spans or {})
+    return reader.kvn(text)
 
 
 

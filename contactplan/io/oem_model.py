@@ -95,6 +95,11 @@ class OemSegment:
     line: int = 0
     data_lines: np.ndarray | None = None  # line number of each state
     covariance_count: int = 0
+    #: set by a windowed read (:mod:`contactplan.io.oem_window`) when only a run of the segment's
+    #: states was read: (index of the first state read, first epoch of the whole segment, its node
+    #: spacing when uniform else None, loaded_start_tt, loaded_end_tt); interpolation between
+    #: loaded_start_tt and loaded_end_tt gives the whole segment's values to the bit
+    part: tuple | None = None
 
     def __len__(self) -> int:
         return len(self.t_tt)
@@ -386,6 +391,9 @@ class Reader:
     def __init__(self, path):
         self.path = path
         self.warnings: list = []
+        #: META_START line -> (first, last) epoch of the whole segment, for a windowed read that
+        #: parses only some of its states (the useable span is the whole segment's)
+        self.spans: dict = {}
 
     def fail(self, message, line=None):
         raise InputError(message, self.path, line)
@@ -483,8 +491,9 @@ class Reader:
         if len(t) < 2:
             self.fail("segment holds a single state; at least 2 are needed to interpolate", meta_line)
         self._check_states(t, values, data_lines, center, meta_line)
-        a = max(start if ustart is None else ustart, t[0])
-        b = min(stop if ustop is None else ustop, t[-1])
+        t_first, t_last = self.spans.get(meta_line, (t[0], t[-1]))
+        a = max(start if ustart is None else ustart, t_first)
+        b = min(stop if ustop is None else ustop, t_last)
         if b <= a:
             self.fail("the useable span holds no data", where.get("USEABLE_START_TIME", meta_line))
         if degree + 1 > len(t):
