@@ -50,6 +50,9 @@ def _skyfield_timescale():
     return ts
 
 
+_TIMES: dict = {}  # (timescale, shape, bytes of the TT seconds) -> skyfield Time
+
+
 class _Reference:
     """Skyfield-based elevation, azimuth and range of the spacecraft from one station."""
 
@@ -62,7 +65,16 @@ class _Reference:
         self.topos = wgs84.latlon(station.latitude_deg, station.longitude_deg, elevation_m=station.height_m)
 
     def _time(self, t_tt):
-        return self.ts.tt_jd(2451545.0, np.asarray(t_tt, dtype=float) / DAY_S)
+        """The skyfield Time of ``t_tt``, kept for the other stations: a Time keeps its nutation and
+        precession, the reference's main cost, so the same instants are never evaluated twice."""
+        t_tt = np.asarray(t_tt, dtype=float)
+        key = (id(self.ts), t_tt.shape, t_tt.tobytes())
+        hit = _TIMES.get(key)
+        if hit is None:
+            if len(_TIMES) >= 32:
+                _TIMES.pop(next(iter(_TIMES)))
+            hit = _TIMES[key] = self.ts.tt_jd(2451545.0, t_tt / DAY_S)
+        return hit
 
     def look(self, t_tt):
         """(azimuth_deg, elevation_deg, range_km) with geocentric light-time iteration (receive time t_tt)."""
@@ -115,24 +127,43 @@ def _limit(station, az_deg):
     return np.maximum(station.min_elevation_deg, np.interp(np.mod(az_deg, 360.0), azp, elp))
 
 
-def _reference_passes(ref, start, end, step_s=60.0):
-    """Brute force: margin sampled every ``step_s``, every sign change bisected to 1 ms."""
+def _reference_passes(ref, start, end, step_s=60.0, grid=None):
+    """Brute force: margin sampled every ``step_s``, every sign change bisected to 1 ms.
+    ``grid``, a dict, receives the sample times and their (azimuth, elevation, range)."""
     def margin(t):
-        az, el, _ = ref.look(t)
-        return el - _limit(ref.station, az)
+        az, el, rng = ref.look(t)
+        return el - _limit(ref.station, az), (az, el, rng)
 
     t = np.arange(start, end, step_s)
     t = np.append(t, end)
-    g = margin(t)
+    g, looks = margin(t)
+    if grid is not None:
+        grid.update(t=t, look=looks)
     idx = np.nonzero((g[1:] > 0) != (g[:-1] > 0))[0]
     lo, hi = t[idx], t[idx + 1]
     rising = g[idx + 1] > 0
     for _ in range(17):  # 60 s / 2^17 < 1 ms
         mid = 0.5 * (lo + hi)
-        same = (margin(mid) > 0) == rising
+        same = (margin(mid)[0] > 0) == rising
         lo, hi = np.where(same, lo, mid), np.where(same, mid, hi)
     ev = 0.5 * (lo + hi)
     return ev[rising], ev[~rising], g[0] > 0, g[-1] > 0
+
+
+def _reference_max_elevation(ref, mine):
+    """The reference's highest elevation on a 1-s grid within 120 s of each pass's culmination
+    (clipped to the pass): found on a 10-s grid, then on the 1-s grid within 10 s of that maximum
+    (the elevation is one smooth arc there, so this is the 1-s grid's maximum)."""
+    tc = np.array([p.max_elevation_tt for p in mine])
+    lo = np.array([p.aos_tt for p in mine])[:, None]
+    hi = np.array([p.los_tt for p in mine])[:, None]
+    coarse = np.clip(tc[:, None] + np.arange(-120.0, 120.5, 10.0)[None, :], lo, hi)
+    _, el, _ = ref.look(coarse.ravel())
+    best = coarse[np.arange(len(mine)), el.reshape(coarse.shape).argmax(axis=1)]
+    fine = np.clip(best[:, None] + np.arange(-10.0, 10.5, 1.0)[None, :],
+                   np.maximum(lo, tc[:, None] - 120.0), np.minimum(hi, tc[:, None] + 120.0))
+    _, el_f, _ = ref.look(fine.ravel())
+    return np.maximum(el.reshape(coarse.shape).max(axis=1), el_f.reshape(fine.shape).max(axis=1))
 
 
 @pytest.fixture(scope="module")
@@ -159,7 +190,8 @@ def test_aos_los_and_culmination_match_skyfield(demo, ts, week):
     worst_event = worst_el = 0.0
     for st in demo.stations:
         ref = _Reference(st, eph, ts)
-        aos, los, up_start, up_end = _reference_passes(ref, s, e)
+        grid = {}
+        aos, los, up_start, up_end = _reference_passes(ref, s, e, grid=grid)
         mine = [p for p in ours if p.station == st.id]
         got_aos = np.array([p.aos_tt for p in mine if not p.clipped_start])
         got_los = np.array([p.los_tt for p in mine if not p.clipped_end])
@@ -173,24 +205,20 @@ def test_aos_los_and_culmination_match_skyfield(demo, ts, week):
         if not mine:
             continue
         # culmination: the reference elevation on a 1-s grid around our instant
-        tc = np.array([p.max_elevation_tt for p in mine])
-        grid = tc[:, None] + np.arange(-120.0, 120.5, 1.0)[None, :]
-        lo = np.array([p.aos_tt for p in mine])[:, None]
-        hi = np.array([p.los_tt for p in mine])[:, None]
-        grid = np.clip(grid, lo, hi)
-        _, el, _ = ref.look(grid.ravel())
-        ref_max = el.reshape(grid.shape).max(axis=1)
+        ref_max = _reference_max_elevation(ref, mine)
         got_max = np.array([p.max_elevation_deg for p in mine])
         worst_el = max(worst_el, float(np.max(np.abs(got_max - ref_max))))
-        # AOS/LOS azimuths, and the range extremes over each pass (reference sampled every 60 s plus ends)
-        az_a, _, _ = ref.look(np.array([p.aos_tt for p in mine]))
-        az_l, _, _ = ref.look(np.array([p.los_tt for p in mine]))
+        # AOS/LOS azimuths, and the range extremes over each pass (reference sampled every 60 s, on
+        # the search grid's instants, plus the ends)
+        az_a, _, rng_a = ref.look(np.array([p.aos_tt for p in mine]))
+        az_l, _, rng_l = ref.look(np.array([p.los_tt for p in mine]))
         for got, want in ((np.array([p.aos_azimuth_deg for p in mine]), az_a),
                           (np.array([p.los_azimuth_deg for p in mine]), az_l)):
             assert np.max(np.abs((got - want + 180.0) % 360.0 - 180.0)) < 1e-3
-        parts = [np.append(np.arange(p.aos_tt, p.los_tt, 60.0), p.los_tt) for p in mine]
-        _, _, rng_all = ref.look(np.concatenate(parts))  # one reference call for every pass of the station
-        for p, rng in zip(mine, np.split(rng_all, np.cumsum([len(x) for x in parts])[:-1])):
+        gt, grng = grid["t"], grid["look"][2]
+        for k, p in enumerate(mine):
+            inside = grng[(gt >= p.aos_tt) & (gt <= p.los_tt)]
+            rng = np.concatenate([[rng_a[k], rng_l[k]], inside])
             # the engine takes the extremes over its coarse samples (up to 600 s apart) and the three exact
             # points: up to R_E omega^2 (300 s)^2 / 2 = 1.5 km off, a millionth of the range
             assert abs(p.min_range_km - rng.min()) < 2.0 and abs(p.max_range_km - rng.max()) < 2.0
