@@ -126,11 +126,29 @@ def _damage(path, how):
         path.write_text("[1, 2, 3]")
 
 
+@pytest.fixture(scope="module")
+def good_cache(tmp_path_factory, mu):
+    """(orbit, file name, file bytes) of one freshly corrected orbit and its cache file."""
+    folder = tmp_path_factory.mktemp("good-cache")
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setenv("CONTACTPLAN_CACHE_DIR", str(folder))
+        cr3bp.halo_orbit.cache_clear()
+        try:
+            fresh = cr3bp.halo_orbit(mu, 2, AZ)
+        finally:
+            cr3bp.halo_orbit.cache_clear()
+        (path,) = _files(folder)
+        return fresh, path.relative_to(folder), path.read_bytes()
+
+
 @pytest.mark.parametrize("how", ["truncated", "garbage", "empty", "digit", "old-version", "wrong-shape",
                                  "inconsistent", "list"])
-def test_bad_cache_file_is_recomputed_quietly(cache_dir, mu, how):
-    fresh = cr3bp.halo_orbit(mu, 2, AZ)
-    (path,) = _files(cache_dir)
+def test_bad_cache_file_is_recomputed_quietly(cache_dir, mu, good_cache, how):
+    fresh, name, good = good_cache  # the orbit corrected once for the module, and its file
+    path = cache_dir / name
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_bytes(good)
+    assert halo_cache.load(mu, 2, AZ, "north", 256) is not None  # the copy is a good cache file
     _damage(path, how)
     assert halo_cache.load(mu, 2, AZ, "north", 256) is None
     cr3bp.halo_orbit.cache_clear()
