@@ -131,12 +131,7 @@ def good_cache(tmp_path_factory, mu):
     """(orbit, file name, file bytes) of one freshly corrected orbit and its cache file."""
     folder = tmp_path_factory.mktemp("good-cache")
     with pytest.MonkeyPatch.context() as mp:
-        mp.setenv("CONTACTPLAN_CACHE_DIR", str(folder))
-        cr3bp.halo_orbit.cache_clear()
-        try:
-            fresh = cr3bp.halo_orbit(mu, 2, AZ)
-        finally:
-            cr3bp.halo_orbit.cache_clear()
+        fresh = _orbit_cached_in(folder, mp, mu)
         (path,) = _files(folder)
         return fresh, path.relative_to(folder), path.read_bytes()
 
@@ -158,15 +153,20 @@ def test_bad_cache_file_is_recomputed_quietly(cache_dir, mu, good_cache, how):
     assert halo_cache.load(mu, 2, AZ, "north", 256) is not None
 
 
+def _orbit_cached_in(folder, monkeypatch, mu):
+    """A freshly corrected orbit with the cache folder set to ``folder`` (no copy kept in memory)."""
+    monkeypatch.setenv("CONTACTPLAN_CACHE_DIR", str(folder))
+    cr3bp.halo_orbit.cache_clear()
+    try:
+        return cr3bp.halo_orbit(mu, 2, AZ)
+    finally:
+        cr3bp.halo_orbit.cache_clear()
+
+
 def test_unwritable_cache_is_skipped(tmp_path, monkeypatch, mu):
     blocker = tmp_path / "a-file"
     blocker.write_text("not a folder")
-    monkeypatch.setenv("CONTACTPLAN_CACHE_DIR", str(blocker))
-    cr3bp.halo_orbit.cache_clear()
-    try:
-        orbit = cr3bp.halo_orbit(mu, 2, AZ)
-    finally:
-        cr3bp.halo_orbit.cache_clear()
+    orbit = _orbit_cached_in(blocker, monkeypatch, mu)
     assert orbit.period > 0
     assert blocker.read_text() == "not a folder"
 
