@@ -227,6 +227,7 @@ class LanesCanvas(pg.GraphicsObject):
         self._finding_span = None
         self._pass_index = None  # (passes list, its length, AOS array or None if unsorted, longest pass in s)
         self.drag_label = ""  # what the drag preview says (start - end and length)
+        self.findings_stale = False  # True while a newer state is being checked: outlines faded
         self.setZValue(10)
 
     # ------------------------------------------------------------ geometry
@@ -508,11 +509,12 @@ class LanesCanvas(pg.GraphicsObject):
     def _outline(self, painter, r: QRectF, subject: str, selected: bool, th) -> None:
         fs = self.doc.findings_for(subject)
         painter.setBrush(Qt.BrushStyle.NoBrush)
+        fade = (lambda c: QColor(c.red(), c.green(), c.blue(), 90)) if self.findings_stale else QColor
         if any(f.severity == "error" for f in fs):
-            painter.setPen(QPen(th.error, 3, Qt.PenStyle.SolidLine))
+            painter.setPen(QPen(fade(th.error), 3, Qt.PenStyle.SolidLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
         elif fs:
-            painter.setPen(QPen(th.warning, 2.5, Qt.PenStyle.DashLine))
+            painter.setPen(QPen(fade(th.warning), 2.5, Qt.PenStyle.DashLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
         if selected:
             painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
@@ -861,6 +863,11 @@ class Timeline(pg.GraphicsLayoutWidget):
         for ln in self.now_lines:
             ln.setPen(pg.mkPen(th.now, width=2, style=Qt.PenStyle.DashLine))
         self._findings_changed()
+        self.canvas.update()
+
+    def set_findings_stale(self, on: bool) -> None:
+        """Outlines of findings are drawn faded while the plan is being checked again."""
+        self.canvas.findings_stale = bool(on)
         self.canvas.update()
 
     def settle(self) -> None:

@@ -191,7 +191,7 @@ class MainWindow(QMainWindow):
         super().__init__()
         self.settings = settings or QSettings()
         self.autosaver = autosaver or Autosaver()
-        self.doc = PlanDocument(self)
+        self.doc = PlanDocument(self, background=True)  # the plan check runs in a worker thread
         self.job: Job | None = None
         self.error_box: QMessageBox | None = None
         self.last_error: str | None = None
@@ -213,6 +213,7 @@ class MainWindow(QMainWindow):
 
         self.doc.selectionChanged.connect(self._selection_changed)
         self.doc.findingsChanged.connect(self._update_summary)
+        self.doc.checkingChanged.connect(self._checking)
         self.doc.message.connect(self._message)
         self.doc.undo_stack.cleanChanged.connect(self._update_title)
         self.doc.passesStale.connect(self._stale)
@@ -626,7 +627,18 @@ class MainWindow(QMainWindow):
             text += f" | {d.check_error}"
         if d.stale:
             text += " | passes out of date"
+        if d.checking:
+            text += " | checking..."
         self.summary.setText(text)
+
+    def _checking(self, on: bool) -> None:
+        """Mark the findings shown as out of date while the plan is checked again in the worker."""
+        self.findings_dock.setWindowTitle("Findings (checking...)" if on else "Findings")
+        self.findings_view.setProperty("stale", on)
+        # the old findings stay readable but dimmed until the new ones arrive
+        self.findings_view.setStyleSheet("QTableView { color: palette(mid); }" if on else "")
+        self.timeline.set_findings_stale(on)
+        self._update_summary()
 
     def _stale(self, stale: bool) -> None:
         self._update_summary()
@@ -1216,6 +1228,7 @@ class MainWindow(QMainWindow):
             ev.ignore()
             return
         self.cancel_job(wait=True)
+        self.doc.wait_checked(10000)  # no worker thread outlives the window
         self.settings.setValue("window/geometry", self.saveGeometry())
         self.settings.setValue("window/state", self.saveState())
         self.autosave_timer.stop()
