@@ -2,9 +2,8 @@
 
 :class:`BackgroundCheck` takes requests from the document after every edit. A burst
 of requests within :data:`DEBOUNCE_MS` becomes one run. The run works on a snapshot
-(:func:`snapshot`) of the result: its own copies of the bookings, stations and
-activities, so edits made in the GUI thread while it runs cannot change what it
-reads. Each request raises a generation counter; a run whose generation is no
+(:func:`snapshot`) of the result with its own lists of bookings, stations and
+activities. Each request raises a generation counter; a run whose generation is no
 longer the newest is dropped when it ends and the newest state is checked next.
 While a request is pending or running, :attr:`BackgroundCheck.checking` is True and
 ``checkingChanged`` says so (the views mark their findings as out of date).
@@ -28,26 +27,59 @@ DEBOUNCE_MS = 40
 
 
 def snapshot(result):
-    """A copy of ``result`` whose scenario has its own booking, station and activity records.
+    """A copy of ``result`` whose scenario has its own lists of bookings, stations and activities.
 
-    Shallow per record: the document's edits replace field values (never mutate them in
-    place), so copying each record is enough to keep the worker's view fixed.
-    Passes, profiles and coverage are shared read-only.
+    The records themselves are shared (copying 50,000 of them would cost a quarter of a
+    second in the GUI thread). That is safe because every edit of a record raises the
+    generation in the same GUI-thread call that makes it: a run that may have read a
+    record while it changed is always older than the newest request, so its result
+    (or its error) is dropped. The own lists keep adds and removals from moving under
+    the worker's loops. Passes, profiles and coverage are shared read-only.
     """
-    sc = result.scenario
+    return dataclasses.replace(result, scenario=snapshot_scenario(result.scenario))
+
+
+def snapshot_scenario(sc):
+    """A shallow copy of scenario ``sc`` with its own record lists (see :func:`snapshot`)."""
     snap = copy.copy(sc)
     for name in ("bookings", "stations", "activities", "series"):
         items = getattr(sc, name, None)
         if isinstance(items, list):
-            setattr(snap, name, [copy.copy(x) for x in items])
-    return dataclasses.replace(result, scenario=snap)
+            setattr(snap, name, list(items))
+    return snap
+
+
+@dataclasses.dataclass
+class FindingsIndex:
+    """What the views need of a list of findings, made once in the worker beside the check.
+
+    ``found``: the list it was made from (its identity says whether it still holds);
+    ``ordered``: errors first, then by start and rule (the findings table's order);
+    ``by_subject``: {booking, activity or station id: [Finding]}; ``errors``: how many are errors.
+    """
+
+    found: list
+    ordered: list
+    by_subject: dict
+    errors: int
+
+
+def index_findings(findings) -> FindingsIndex:
+    found = findings if findings is not None else []
+    ordered = sorted(found, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+    by_subject: dict = {}
+    for f in found:
+        for s in dict.fromkeys(f.subjects or []):
+            by_subject.setdefault(s, []).append(f)
+    return FindingsIndex(found, ordered, by_subject, sum(f.severity == "error" for f in found))
 
 
 class BackgroundCheck(QObject):
     """Runs ``check_fn(snapshot)`` in a worker thread for the newest request; ``finished`` delivers it."""
 
     checkingChanged = Signal(bool)
-    #: (generation, base result the snapshot was taken from, checked copy or None, error text or None, seconds)
+    #: (generation, base result the snapshot was taken from, (checked copy, FindingsIndex) or None,
+    #: error text or None, seconds)
     finished = Signal(int, object, object, object, float)
 
     def __init__(self, check_fn, parent=None, debounce_ms: int = DEBOUNCE_MS):
@@ -113,7 +145,8 @@ class BackgroundCheck(QObject):
         t0 = time.perf_counter()
 
         def work(_progress, _cancel):
-            return fn(snap) or snap
+            out = fn(snap) or snap
+            return out, index_findings(out.findings)
 
         job = Job("Check", work, self)
         self._job = job

@@ -71,7 +71,7 @@ class PlanDocument(QObject):
         self.last_check_s = 0.0
         self.stale = False
         self.revision = 0  # counts edits; a result computed at an older revision is checked again
-        self._by_subject = None  # (findings list, its length, {subject: [Finding]})
+        self._index = None  # FindingsIndex of the current findings
         self.background = None
         if background:
             from contactplan.app.checking import BackgroundCheck
@@ -115,14 +115,16 @@ class PlanDocument(QObject):
         self.scenarioReplaced.emit()
         self.recheck()
 
-    def set_result(self, result, revision: int | None = None) -> None:
+    def set_result(self, result, revision: int | None = None, index=None) -> None:
         """A freshly computed PlanResult for the current scenario (bookings stay as edited).
 
         ``revision``: the document revision the result was computed at; when no edit
         came since, its findings are current and the check is not run again.
+        ``index``: a FindingsIndex of ``result.findings`` made in the worker.
         """
         result.scenario = self.scenario
         self.result = result
+        self._index = index
         self.stale = False
         self.passesStale.emit(False)
         self.resultChanged.emit()
@@ -130,7 +132,6 @@ class PlanDocument(QObject):
             if self.background is not None:
                 self.background.supersede()  # a check of an older result would only overwrite these
             self.check_error = None
-            self._by_subject = None
             self.findingsChanged.emit()
         else:
             self.recheck()
@@ -148,7 +149,6 @@ class PlanDocument(QObject):
         if self.result is None:
             if self.background is not None:
                 self.background.supersede()
-            self._by_subject = None
             self.findingsChanged.emit()
             return
         if self.background is not None:
@@ -170,7 +170,6 @@ class PlanDocument(QObject):
             self.check_error = f"plan check failed: {exc}"
             self.message.emit(self.check_error)
         self.last_check_s = time.perf_counter() - t0
-        self._by_subject = None
         self.findingsChanged.emit()
 
     def _checked(self, _gen, base, out, error, seconds) -> None:
@@ -178,16 +177,32 @@ class PlanDocument(QObject):
         if base is not self.result:
             return  # the result was replaced meanwhile (a new scenario or a fresh computation)
         if error is None and out is not None:
+            out, index = out
             self.result.recorder = out.recorder
             self.result.findings = out.findings
+            self._index = index
             self.check_error = None
         elif error is not None and error != "cancelled":
             self.check_error = ("plan rules are not available in this build" if error.startswith("not available")
                                 else f"plan check failed: {error}")
             self.message.emit(self.check_error)
         self.last_check_s = seconds
-        self._by_subject = None
         self.findingsChanged.emit()
+
+    def findings_index(self):
+        """The :class:`~contactplan.app.checking.FindingsIndex` of the current findings (made in the
+        worker after a check; here, once per list, when they came another way)."""
+        from contactplan.app.checking import index_findings
+
+        found = None if self.result is None else self.result.findings
+        idx = self._index
+        if idx is None or idx.found is not found or len(idx.found) != len(found or []):
+            idx = self._index = index_findings(found)
+        return idx
+
+    def sorted_findings(self) -> list:
+        """The findings, errors first, then by start and rule."""
+        return list(self.findings_index().ordered)
 
     @property
     def findings(self) -> list:
@@ -198,14 +213,7 @@ class PlanDocument(QObject):
         found = None if self.result is None else self.result.findings
         if not found:
             return []
-        cached = self._by_subject
-        if cached is None or cached[0] is not found or cached[1] != len(found):
-            index: dict = {}
-            for f in found:
-                for s in dict.fromkeys(f.subjects or []):
-                    index.setdefault(s, []).append(f)
-            cached = self._by_subject = (found, len(found), index)
-        return list(cached[2].get(subject, ()))
+        return list(self.findings_index().by_subject.get(subject, ()))
 
     def select(self, selection: Selection) -> None:
         if selection != self.selection:
