@@ -165,6 +165,7 @@ class Heartbeat:
         self.timer.start()
         app.processEvents()
         t0 = time.perf_counter()
+        self.last = self.clock.nsecsElapsed() / 1e6  # the action's own time counts as a stall
         action()
         while not until() and time.perf_counter() - t0 < timeout_s:
             app.processEvents()
@@ -251,7 +252,7 @@ def _open(app, win, hb, path: Path, label: str):
 
     def done():
         return (win.job is None or not win.job.running) and win.doc.result is not None \
-            and win.doc.result.passes and not win.doc.checking
+            and win.doc.result.passes and not getattr(win.doc, "checking", False)
 
     stall, wall = hb.measure(app, lambda: win.open_path(path), done)
     n_b = len(win.doc.scenario.bookings)
@@ -275,7 +276,7 @@ def _edit(app, win, hb, label: str, action) -> bool:
         t_edit["t"] = time.perf_counter()
         action()
 
-    stall, _wall = hb.measure(app, act, lambda: arrived["t"] is not None and not win.doc.checking)
+    stall, _wall = hb.measure(app, act, lambda: arrived["t"] is not None and not getattr(win.doc, "checking", False))
     win.doc.findingsChanged.disconnect(on_findings)
     check_s = win.doc.last_check_s
     late_ms = (arrived["t"] - t_edit["t"] - check_s) * 1000.0
