@@ -1193,8 +1193,13 @@ class MainWindow(QMainWindow):
         if plan is not None:
             plan = copy.copy(plan)
             plan.scenario = sc
+        behind = self.doc.checking  # the findings shown are older than the bookings: check again here
 
         def fn(progress, cancel):
+            if behind and plan is not None:
+                from contactplan.plan.pipeline import check
+
+                check(plan)  # on the copy: the recorder and findings of the bookings exported
             return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
 
         def done(line):
