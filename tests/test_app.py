@@ -93,6 +93,7 @@ def _open_with(win, path, plan):
     res.findings = []
     win.set_scenario(sc, result=res)
     win._add_recent(path)
+    assert win.doc.wait_checked()  # the findings come from the worker's check
     QApplication.processEvents()
     return sc
 
@@ -244,6 +245,7 @@ def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy,
         shift = _grid(k0 - 600.0) - s  # moved earlier, the same
     bid = win.doc.add_booking(p.station, s, s + 3600.0)
     b = sc.booking(bid)
+    assert win.doc.wait_checked()
 
     def keepout_findings():
         return [f for f in win.doc.findings
@@ -257,6 +259,7 @@ def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy,
     drag(qtbot, win, grab, grab + shift, lane + 0.5)
     assert b.start_tt == pytest.approx(s + shift, abs=1e-6)
     assert b.end_tt - b.start_tt == pytest.approx(3600.0)
+    qtbot.waitUntil(lambda: not win.doc.checking, timeout=10000)  # the findings come from the worker
     found = keepout_findings()
     assert len(found) == 1 and found[0].severity == "error"
     # the findings table and the booking row know it
@@ -265,6 +268,7 @@ def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy,
     # undo puts the booking back and the finding goes
     win.act_undo.trigger()
     assert b.start_tt == pytest.approx(s)
+    qtbot.waitUntil(lambda: not win.doc.checking, timeout=10000)
     assert keepout_findings() == []
     assert win.doc.last_check_s < 0.5  # findings follow an edit within a fraction of a second
 
@@ -978,7 +982,7 @@ def test_first_day_is_named_at_the_left_edge_of_the_time_axis(win, demo_copy, de
 
 def test_recorder_overflow_says_what_is_lost(win, demo_copy, demo_plan):
     sc = _open_with(win, demo_copy, demo_plan)
-    win.doc.recheck()
+    win.doc.recheck(wait=True)
     rec = win.doc.result.recorder
     assert rec.overflow_spans, "the demo week overflows its recorder on purpose"
     tl = win.timeline
@@ -1075,7 +1079,7 @@ def test_a_bad_oem_opens_a_one_line_error_dialog(win, demo_copy, demo_plan, qtbo
                                       __import__("contactplan.app.window", fromlist=["EXPORTS"]).EXPORTS])
 def test_every_export_writes_and_says_what_it_wrote(win, demo_copy, demo_plan, qtbot, tmp_path, what, fmt):
     _open_with(win, demo_copy, demo_plan)
-    win.doc.recheck()
+    win.doc.recheck(wait=True)
     out = tmp_path / f"week-{what}.{fmt}"
     assert win.export_to(out, what) is not None
     _wait_job(win, qtbot, timeout=300_000)
@@ -1164,7 +1168,7 @@ def test_delete_key_in_the_bookings_table(win, demo_copy, demo_plan, qtbot):
 
 def test_arrow_keys_walk_the_findings_and_the_view_follows(win, demo_copy, demo_plan, qtbot):
     _open_with(win, demo_copy, demo_plan)
-    win.doc.recheck()
+    win.doc.recheck(wait=True)
     win.findings_dock.raise_()
     _settle()
     v = win.findings_view

@@ -156,7 +156,9 @@ class Autosaver:
             return toml
 
     def write_async(self, text: str, original, name: str, on_error=None) -> None:
-        """Snapshot in a background thread (the newest text wins when several are queued)."""
+        """Snapshot in a background thread (the newest text wins when several are queued).
+
+        ``text`` may be a callable returning the text: it is then made in that thread too."""
         if not self.enabled:
             return
         self._pending = (text, original, name, on_error)
@@ -167,7 +169,8 @@ class Autosaver:
             while self._pending is not None:
                 job, self._pending = self._pending, None
                 try:
-                    self.write(*job[:3])
+                    text = job[0]() if callable(job[0]) else job[0]
+                    self.write(text, *job[1:3])
                 except Exception as exc:  # an autosave failing must never disturb the user
                     if job[3] is not None:
                         job[3](exc)

@@ -1,8 +1,11 @@
 """The open plan: scenario, computed result, undo stack, selection. Widgets only view it.
 
 Every edit is a :class:`QUndoCommand` pushed on :attr:`PlanDocument.undo_stack`;
-after each redo or undo the document re-runs the cheap plan check
-(:func:`contactplan.plan.pipeline.check`) so findings follow the edit.
+after each redo or undo the document re-runs the plan check
+(:func:`contactplan.plan.pipeline.check`) so findings follow the edit. With
+``background=True`` (the window's document) the check runs in a worker thread,
+debounced, newest edit wins (:mod:`contactplan.app.checking`); ``checking`` is True
+and ``checkingChanged`` fires while the findings shown are older than the plan.
 Times are TT seconds since J2000 (``_tt``), as everywhere in the engine.
 """
 
@@ -55,8 +58,9 @@ class PlanDocument(QObject):
     selectionChanged = Signal(object)  # Selection
     passesStale = Signal(bool)  # True: an edit moved the geometry, passes need recomputing
     message = Signal(str)  # a short status line
+    checkingChanged = Signal(bool)  # True: findings are being checked again (the ones shown are stale)
 
-    def __init__(self, parent=None, check_fn=None):
+    def __init__(self, parent=None, check_fn=None, background: bool = False):
         super().__init__(parent)
         self.scenario = None
         self.result = None  # PlanResult
@@ -67,7 +71,14 @@ class PlanDocument(QObject):
         self.last_check_s = 0.0
         self.stale = False
         self.revision = 0  # counts edits; a result computed at an older revision is checked again
-        self._by_subject = None  # (findings list, its length, {subject: [Finding]})
+        self._index = None  # FindingsIndex of the current findings
+        self.background = None
+        if background:
+            from contactplan.app.checking import BackgroundCheck
+
+            self.background = BackgroundCheck(lambda r: self.check_fn(r), self)
+            self.background.checkingChanged.connect(self.checkingChanged)
+            self.background.finished.connect(self._checked)
 
     # ------------------------------------------------------------ state
     @property
@@ -78,8 +89,19 @@ class PlanDocument(QObject):
     def dirty(self) -> bool:
         return not self.undo_stack.isClean()
 
+    @property
+    def checking(self) -> bool:
+        """True while a background check of a newer state is pending or running."""
+        return self.background is not None and self.background.checking
+
+    def wait_checked(self, ms: int = 60000) -> bool:
+        """Block until the findings are those of the current state (no-op without a background check)."""
+        return True if self.background is None else self.background.wait(ms)
+
     def set_scenario(self, scenario, result=None) -> None:
         """Open a scenario (result: an already computed PlanResult, else passes are empty until computed)."""
+        if self.background is not None:
+            self.background.supersede()
         self.scenario = scenario
         self.undo_stack.clear()
         self.undo_stack.setClean()
@@ -93,20 +115,23 @@ class PlanDocument(QObject):
         self.scenarioReplaced.emit()
         self.recheck()
 
-    def set_result(self, result, revision: int | None = None) -> None:
+    def set_result(self, result, revision: int | None = None, index=None) -> None:
         """A freshly computed PlanResult for the current scenario (bookings stay as edited).
 
         ``revision``: the document revision the result was computed at; when no edit
         came since, its findings are current and the check is not run again.
+        ``index``: a FindingsIndex of ``result.findings`` made in the worker.
         """
         result.scenario = self.scenario
         self.result = result
+        self._index = index
         self.stale = False
         self.passesStale.emit(False)
         self.resultChanged.emit()
         if revision is not None and revision == self.revision and result.findings is not None:
+            if self.background is not None:
+                self.background.supersede()  # a check of an older result would only overwrite these
             self.check_error = None
-            self._by_subject = None
             self.findingsChanged.emit()
         else:
             self.recheck()
@@ -115,11 +140,21 @@ class PlanDocument(QObject):
         self.stale = True
         self.passesStale.emit(True)
 
-    def recheck(self) -> None:
-        """Re-run the recorder and rules for the current bookings; emit findingsChanged."""
+    def recheck(self, wait: bool = False) -> None:
+        """Re-run the recorder and rules for the current bookings; emit findingsChanged.
+
+        With a background check this only asks for one (findingsChanged follows when it
+        arrives); ``wait=True`` also blocks until it has.
+        """
         if self.result is None:
-            self._by_subject = None
+            if self.background is not None:
+                self.background.supersede()
             self.findingsChanged.emit()
+            return
+        if self.background is not None:
+            self.background.request(self.result)
+            if wait:
+                self.background.wait()
             return
         t0 = time.perf_counter()
         try:
@@ -135,8 +170,39 @@ class PlanDocument(QObject):
             self.check_error = f"plan check failed: {exc}"
             self.message.emit(self.check_error)
         self.last_check_s = time.perf_counter() - t0
-        self._by_subject = None
         self.findingsChanged.emit()
+
+    def _checked(self, _gen, base, out, error, seconds) -> None:
+        """The newest background check ended: take its recorder and findings into the current result."""
+        if base is not self.result:
+            return  # the result was replaced meanwhile (a new scenario or a fresh computation)
+        if error is None and out is not None:
+            out, index = out
+            self.result.recorder = out.recorder
+            self.result.findings = out.findings
+            self._index = index
+            self.check_error = None
+        elif error is not None and error != "cancelled":
+            self.check_error = ("plan rules are not available in this build" if error.startswith("not available")
+                                else f"plan check failed: {error}")
+            self.message.emit(self.check_error)
+        self.last_check_s = seconds
+        self.findingsChanged.emit()
+
+    def findings_index(self):
+        """The :class:`~contactplan.app.checking.FindingsIndex` of the current findings (made in the
+        worker after a check; here, once per list, when they came another way)."""
+        from contactplan.app.checking import index_findings
+
+        found = None if self.result is None else self.result.findings
+        idx = self._index
+        if idx is None or idx.found is not found or len(idx.found) != len(found or []):
+            idx = self._index = index_findings(found)
+        return idx
+
+    def sorted_findings(self) -> list:
+        """The findings, errors first, then by start and rule."""
+        return list(self.findings_index().ordered)
 
     @property
     def findings(self) -> list:
@@ -147,14 +213,7 @@ class PlanDocument(QObject):
         found = None if self.result is None else self.result.findings
         if not found:
             return []
-        cached = self._by_subject
-        if cached is None or cached[0] is not found or cached[1] != len(found):
-            index: dict = {}
-            for f in found:
-                for s in dict.fromkeys(f.subjects or []):
-                    index.setdefault(s, []).append(f)
-            cached = self._by_subject = (found, len(found), index)
-        return list(cached[2].get(subject, ()))
+        return list(self.findings_index().by_subject.get(subject, ()))
 
     def select(self, selection: Selection) -> None:
         if selection != self.selection:

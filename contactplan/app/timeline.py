@@ -19,6 +19,7 @@ from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen
 
 from contactplan.app import theme
 from contactplan.app.document import NOTHING, Selection
+from contactplan.app.spans import DETAIL_MAX, SpanIndex, paint_runs
 from contactplan.timescale import DAY_S, day_of_year, format_utc, now_tt, utc_day_start, utc_days
 
 GRID_S = 300.0  # bookings snap to a 5-minute grid ...
@@ -227,6 +228,10 @@ class LanesCanvas(pg.GraphicsObject):
         self._finding_span = None
         self._pass_index = None  # (passes list, its length, AOS array or None if unsorted, longest pass in s)
         self.drag_label = ""  # what the drag preview says (start - end and length)
+        self.findings_stale = False  # True while a newer state is being checked: outlines faded
+        self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
+        self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
+                                                    max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
         self.setZValue(10)
 
     # ------------------------------------------------------------ geometry
@@ -380,8 +385,8 @@ class LanesCanvas(pg.GraphicsObject):
         for d in utc_days(t_lo, t_hi):
             x = tr.map(QPointF(self.x_of(d), 0)).x()
             painter.drawLine(QPointF(x, tr.map(QPointF(0, 0)).y()), QPointF(x, tr.map(QPointF(0, n)).y()))
-        acts = [a for a in sc.activities if a.keepout_span_tt[1] > t_lo and a.keepout_span_tt[0] < t_hi
-                or a.monitor_span_tt[1] > t_lo and a.monitor_span_tt[0] < t_hi]
+        acts = self._activity_index.visible(sc.activities, self.doc.revision, t_lo, t_hi)
+        dense_acts = len(acts) > DETAIL_MAX  # more than the lane can show one by one: merged runs
         # outages, hatched
         hatch = QBrush(th.outage, Qt.BrushStyle.BDiagPattern)
         for i, st in enumerate(self.stations, start=1):
@@ -419,7 +424,10 @@ class LanesCanvas(pg.GraphicsObject):
                     painter.drawRect(r.adjusted(-2, -2, 2, 2))
         # keep-outs: faint over every lane (passes included), edges dashed
         ko_pen = QPen(th.burn, 1, Qt.PenStyle.DashLine)
-        for a in acts:
+        if dense_acts:
+            paint_runs(painter, tr, origin, [a.keepout_span_tt for a in acts
+                                             if a.downlink_keepout_min > 0 or a.kind == "burn"], 0, n, th.keepout)
+        for a in ([] if dense_acts else acts):
             k0, k1 = a.keepout_span_tt
             if a.downlink_keepout_min > 0 or a.kind == "burn":
                 r = rect(k0, k1, 0, n)
@@ -441,7 +449,9 @@ class LanesCanvas(pg.GraphicsObject):
             painter.fillRect(rect(s0, s1, 0.02, 0.12), shade)
         # spacecraft lane
         label_until = -1e9
-        for a in sorted(acts, key=lambda a: a.start_tt):
+        if dense_acts:
+            self._paint_dense(painter, tr, acts, 0, th, {"burn": th.burn, "slew": th.slew}, th.other, 0.2, 0.8)
+        for a in ([] if dense_acts else sorted(acts, key=lambda a: a.start_tt)):
             colour = {"burn": th.burn, "slew": th.slew}.get(a.kind, th.other)
             if a.kind == "burn" and (a.monitor_before_min or a.monitor_after_min):
                 m0, m1 = a.monitor_span_tt
@@ -464,7 +474,15 @@ class LanesCanvas(pg.GraphicsObject):
         # bookings
         bold = QFont(small)
         bold.setBold(True)
-        for b in sc.bookings:
+        shown = self._booking_index.visible(sc.bookings, self.doc.revision, t_lo, t_hi)
+        if len(shown) > DETAIL_MAX:  # merged runs per lane; the selected and the dragged one in full
+            lanes_of = {st.id: i for i, st in enumerate(self.stations, start=1)}
+            for sid, lane in lanes_of.items():
+                self._paint_dense(painter, tr, [b for b in shown if b.station == sid and b is not
+                                                (self.drag.booking if self.drag else None)],
+                                  lane, th, {}, th.booking, 0.28, 0.72)
+            shown = [b for b in shown if sel.kind == "booking" and sel.key == b.id]
+        for b in shown:
             if b.end_tt < t_lo or b.start_tt > t_hi:
                 continue
             if self.drag is not None and self.drag.booking is b:
@@ -502,17 +520,38 @@ class LanesCanvas(pg.GraphicsObject):
             painter.drawRect(r)
         painter.restore()
 
+    def _paint_dense(self, painter, tr, items, lane, th, colours, default, y0, y1) -> None:
+        """Many items of one lane as merged runs, coloured by kind; those with findings get a strip below."""
+        origin = self.tl.origin_tt
+        by_colour: dict = {}
+        for it in items:
+            by_colour.setdefault(colours.get(getattr(it, "kind", None), default).rgba(), []).append(it)
+        for rgba, group in by_colour.items():
+            paint_runs(painter, tr, origin, [(it.start_tt, it.end_tt) for it in group], lane + y0, lane + y1,
+                       QColor.fromRgba(rgba))
+        errors, warnings = [], []
+        for it in items:
+            fs = self.doc.findings_for(it.id)
+            if fs:
+                (errors if any(f.severity == "error" for f in fs) else warnings).append((it.start_tt, it.end_tt))
+        fade = 90 if self.findings_stale else 255
+        for spans, colour in ((warnings, th.warning), (errors, th.error)):
+            c = QColor(colour)
+            c.setAlpha(fade)
+            paint_runs(painter, tr, origin, spans, lane + y1, lane + y1 + 0.08, c)
+
     def _concerned(self, subject: str):
         return self.doc.findings_for(subject)
 
     def _outline(self, painter, r: QRectF, subject: str, selected: bool, th) -> None:
         fs = self.doc.findings_for(subject)
         painter.setBrush(Qt.BrushStyle.NoBrush)
+        fade = (lambda c: QColor(c.red(), c.green(), c.blue(), 90)) if self.findings_stale else QColor
         if any(f.severity == "error" for f in fs):
-            painter.setPen(QPen(th.error, 3, Qt.PenStyle.SolidLine))
+            painter.setPen(QPen(fade(th.error), 3, Qt.PenStyle.SolidLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
         elif fs:
-            painter.setPen(QPen(th.warning, 2.5, Qt.PenStyle.DashLine))
+            painter.setPen(QPen(fade(th.warning), 2.5, Qt.PenStyle.DashLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
         if selected:
             painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
@@ -861,6 +900,11 @@ class Timeline(pg.GraphicsLayoutWidget):
         for ln in self.now_lines:
             ln.setPen(pg.mkPen(th.now, width=2, style=Qt.PenStyle.DashLine))
         self._findings_changed()
+        self.canvas.update()
+
+    def set_findings_stale(self, on: bool) -> None:
+        """Outlines of findings are drawn faded while the plan is being checked again."""
+        self.canvas.findings_stale = bool(on)
         self.canvas.update()
 
     def settle(self) -> None:

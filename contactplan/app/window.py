@@ -186,12 +186,16 @@ def _table(model, sortable=True) -> QTableView:
     return v
 
 
+#: scenario files above this size are read in the worker (a few hundred bookings take 0.1 s to parse)
+READ_IN_WORKER_BYTES = 64 * 1024
+
+
 class MainWindow(QMainWindow):
     def __init__(self, settings: QSettings | None = None, autosaver: Autosaver | None = None):
         super().__init__()
         self.settings = settings or QSettings()
         self.autosaver = autosaver or Autosaver()
-        self.doc = PlanDocument(self)
+        self.doc = PlanDocument(self, background=True)  # the plan check runs in a worker thread
         self.job: Job | None = None
         self.error_box: QMessageBox | None = None
         self.last_error: str | None = None
@@ -213,6 +217,7 @@ class MainWindow(QMainWindow):
 
         self.doc.selectionChanged.connect(self._selection_changed)
         self.doc.findingsChanged.connect(self._update_summary)
+        self.doc.checkingChanged.connect(self._checking)
         self.doc.message.connect(self._message)
         self.doc.undo_stack.cleanChanged.connect(self._update_title)
         self.doc.passesStale.connect(self._stale)
@@ -617,16 +622,27 @@ class MainWindow(QMainWindow):
         if d.scenario is None:
             self.summary.setText("")
             return
-        fs = d.findings
-        e = sum(f.severity == "error" for f in fs)
-        w = len(fs) - e
+        idx = d.findings_index()
+        e = idx.errors
+        w = len(idx.found) - e
         n = 0 if d.result is None else len(d.result.passes)
         text = f"{n} passes | {len(d.scenario.bookings)} bookings | {e} errors, {w} warnings"
         if d.check_error:
             text += f" | {d.check_error}"
         if d.stale:
             text += " | passes out of date"
+        if d.checking:
+            text += " | checking..."
         self.summary.setText(text)
+
+    def _checking(self, on: bool) -> None:
+        """Mark the findings shown as out of date while the plan is checked again in the worker."""
+        self.findings_dock.setWindowTitle("Findings (checking...)" if on else "Findings")
+        self.findings_view.setProperty("stale", on)
+        # the old findings stay readable but dimmed until the new ones arrive
+        self.findings_view.setStyleSheet("QTableView { color: palette(mid); }" if on else "")
+        self.timeline.set_findings_stale(on)
+        self._update_summary()
 
     def _stale(self, stale: bool) -> None:
         self._update_summary()
@@ -783,12 +799,32 @@ class MainWindow(QMainWindow):
             return self.new_around_oem(path)
         from contactplan.scenario import load_scenario
 
+        try:
+            size = path.stat().st_size
+        except OSError:
+            size = 0
+        if size > READ_IN_WORKER_BYTES:  # a big plan is read in the worker: the window keeps answering
+            return self._open_in_worker(path, compute)
         sc = self._read_or_say(load_scenario, path, "Cannot open the scenario")
         if sc is None:
             return False
         self.set_scenario(sc, compute=compute)
         self._add_recent(path)
         return True
+
+    def _open_in_worker(self, path: Path, compute: bool) -> Job | None:
+        """Read and check a large scenario file in the worker, then open it (None when busy)."""
+        from contactplan.scenario import load_scenario
+
+        if self.job is not None and self.job.running and self.job.title == "Passes":
+            self.cancel_job(wait=True)  # the old plan's passes are of no use any more
+
+        def done(sc):
+            self.set_scenario(sc, compute=compute)
+            self._add_recent(path)
+
+        return self.run_job("Reading", lambda _progress, _cancel: load_scenario(path), done,
+                            lambda text: self.show_error(text, "Cannot open the scenario"))
 
     def set_scenario(self, sc, compute: bool = True, result=None) -> None:
         self.cancel_job(wait=True)
@@ -857,19 +893,20 @@ class MainWindow(QMainWindow):
     def autosave(self, force: bool = False, wait: bool = False) -> None:
         """Snapshot the scenario to the user data folder (when edited, or ``force``).
 
-        The text is made here; the file is written in a background thread (``wait``: here and now)."""
+        The text is made and the file written in a background thread (``wait``: here and now)."""
         sc = self.doc.scenario
         if sc is None or not (force or self.doc.dirty) or not self.autosaver.enabled:
             return
         try:
+            from contactplan.app.checking import snapshot_scenario
             from contactplan.scenario import dumps
 
-            text = dumps(sc)
             if wait:
                 self.autosaver.wait()
-                self.autosaver.write(text, sc.path, sc.name)
-            else:
-                self.autosaver.write_async(text, sc.path, sc.name,
+                self.autosaver.write(dumps(sc), sc.path, sc.name)
+            else:  # the text is made in the autosave thread, from the scenario's lists as they are now
+                snap = snapshot_scenario(sc)
+                self.autosaver.write_async(lambda: dumps(snap), sc.path, sc.name,
                                            on_error=lambda exc: log.error("autosave failed: %s", exc))
         except Exception:  # an autosave failing must never disturb the user
             log.exception("autosave failed")
@@ -1048,6 +1085,7 @@ class MainWindow(QMainWindow):
                 self.job.wait()
             else:
                 return None
+        from contactplan.app.checking import index_findings
         from contactplan.plan.pipeline import compute_plan
 
         revision = self.doc.revision
@@ -1058,12 +1096,13 @@ class MainWindow(QMainWindow):
             result = compute_plan(sc, progress=progress, cancel=cancel)
             # the passes table's keys and texts are made here too, so the window only swaps them in
             prepared["table"] = PassTable(result.passes, doy=doy).prepare()
+            prepared["findings"] = index_findings(result.findings)
             return result
 
         def done(result):
             if self.doc.scenario is sc:
                 self.passes_model.adopt(prepared.pop("table", None))
-                self.doc.set_result(result, revision=revision)
+                self.doc.set_result(result, revision=revision, index=prepared.pop("findings", None))
                 self._update_summary()
                 self.statusBar().showMessage(f"{len(result.passes)} passes predicted", 5000)
                 self.timeline.settle()  # one paint for the whole hand-off, not two
@@ -1154,8 +1193,13 @@ class MainWindow(QMainWindow):
         if plan is not None:
             plan = copy.copy(plan)
             plan.scenario = sc
+        behind = self.doc.checking  # the findings shown are older than the bookings: check again here
 
         def fn(progress, cancel):
+            if behind and plan is not None:
+                from contactplan.plan.pipeline import check
+
+                check(plan)  # on the copy: the recorder and findings of the bookings exported
             return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
 
         def done(line):
@@ -1216,6 +1260,7 @@ class MainWindow(QMainWindow):
             ev.ignore()
             return
         self.cancel_job(wait=True)
+        self.doc.wait_checked(10000)  # no worker thread outlives the window
         self.settings.setValue("window/geometry", self.saveGeometry())
         self.settings.setValue("window/state", self.saveState())
         self.autosave_timer.stop()

@@ -8,6 +8,7 @@ engine then raises :class:`contactplan.errors.Cancelled`).
 from __future__ import annotations
 
 import logging
+import sys
 import threading
 import time
 import traceback
@@ -17,6 +18,12 @@ from PySide6.QtCore import QCoreApplication, QObject, QThread, Signal
 from contactplan.errors import Cancelled, InputError
 
 log = logging.getLogger("contactplan.app")
+
+#: how long a worker thread may hold the interpreter before the GUI thread gets it (s). Python's
+#: default of 5 ms is paid by every Python callback of a paint while a job runs (a paint makes
+#: dozens), so the event loop stalled for hundreds of ms behind a busy worker; 0.5 ms keeps it
+#: answering at the price of a little more switching in the worker.
+SWITCH_INTERVAL_S = 0.0005
 
 
 class _Runner(QObject):
@@ -88,6 +95,8 @@ class Job(QObject):
 
     def start(self) -> None:
         self.running = True
+        if sys.getswitchinterval() > SWITCH_INTERVAL_S:
+            sys.setswitchinterval(SWITCH_INTERVAL_S)
         self.thread.start()
 
     def cancel(self) -> None:
