@@ -254,7 +254,8 @@ def _link(t: Table) -> m.Link:
     lid = t.str("id", pattern=_ID_RE)
     direction = t.str("direction", choices=m.DIRECTIONS)
     down = direction == "down"
-    need = _MISSING if down else None
+    budget_keys = ("eirp_dbw", "required_ebn0_db", "rates_kbps")
+    need = _MISSING if down and any(k in t.data for k in budget_keys) else None
     lk = m.Link(
         id=lid, direction=direction, band=t.str("band", ""),
         frequency_mhz=t.num("frequency_mhz", need, lo=100.0, hi=100000.0),
@@ -262,7 +263,7 @@ def _link(t: Table) -> m.Link:
         required_ebn0_db=t.num("required_ebn0_db", need, lo=-10, hi=40) if down else None,
         margin_db=t.num("margin_db", 3.0, lo=0, hi=40),
         other_losses_db=t.num("other_losses_db", 0.0, lo=0, hi=60),
-        rates_kbps=_rates(t, required=down),
+        rates_kbps=_rates(t, required=need is _MISSING),
         max_rate_changes_per_pass=t.num("max_rate_changes_per_pass", None, lo=0, hi=1000, integer=True),
         required_pt_dbhz=None if down else t.num("required_pt_dbhz", None, lo=-20, hi=100),
         spacecraft_g_over_t_dbk=None if down else t.num("spacecraft_g_over_t_dbk", None, lo=-80, hi=60),
@@ -378,22 +379,26 @@ def upgrade_1_to_2(doc: dict) -> dict:
     """Version 1 -> 2 (the table in docs/scenario.md). Works on a copy; keys it does not know are kept.
 
     - ``[spacecraft.link]`` becomes the down link ``DN`` of ``[[spacecraft.links]]`` carrying telemetry,
-      playback, ranging and doppler, and an up link ``UP`` without budget (closes whenever a station
-      offering it tracks) carrying commanding, ranging and doppler. Without a link, no links.
-    - a station's ``setup_min`` / ``teardown_min`` become ``pre_pass_min`` / ``post_pass_min``; with a
-      link, every station gets ``{ link = "UP" }`` and, with ``g_over_t_dbk``, ``{ link = "DN",
-      g_over_t_dbk = ... }`` (with its ``zenith_attenuation_db``).
+      playback, ranging and doppler (without a ``[spacecraft.link]``, ``DN`` has no budget: no rates or
+      volumes, as before), and an up link ``UP`` without budget (closes whenever a station offering it
+      tracks) carrying commanding, ranging and doppler.
+    - a station's ``setup_min`` / ``teardown_min`` become ``pre_pass_min`` / ``post_pass_min``; every
+      station gets ``{ link = "UP" }`` and, with ``g_over_t_dbk``, ``{ link = "DN", g_over_t_dbk = ... }``
+      (with its ``zenith_attenuation_db``).
     - a booking's ``purposes`` become ``services``: downlink -> telemetry + playback, ranging -> ranging +
       doppler, commanding -> commanding.
     """
     doc = copy.deepcopy(doc)
     doc["format_version"] = 2
     sp = doc.get("spacecraft")
-    has_link = isinstance(sp, dict) and isinstance(sp.get("link"), dict)
+    has_link = isinstance(sp, dict)
     if has_link:
-        old = sp.pop("link")
+        old = sp.pop("link", None)
         down = {"id": m.MAIN_DOWNLINK_ID, "direction": "down"}
-        down.update(old)
+        if isinstance(old, dict):
+            down.update(old)
+        elif old is not None:
+            down["link"] = old  # not a table: left for the loader to refuse
         down["carries"] = list(m.DOWN_SERVICES)
         up = {"id": m.UPLINK_ID, "direction": "up", "carries": list(m.UP_SERVICES)}
         sp["links"] = [down, up]

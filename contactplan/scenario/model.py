@@ -219,7 +219,7 @@ class Link(Record):
     """One spacecraft link, one band and one direction.
 
     Down: spacecraft ``eirp_dbw``, ``required_ebn0_db`` (+ ``margin_db``), ``rates_kbps``; the
-    station gives G/T. Up: ``required_pt_dbhz`` (+ ``margin_db``) and ``spacecraft_g_over_t_dbk``;
+    station gives G/T (a down link without them has no budget: no rates or volumes). Up: ``required_pt_dbhz`` (+ ``margin_db``) and ``spacecraft_g_over_t_dbk``;
     the station gives EIRP. An up link without ``required_pt_dbhz`` has no budget: it is taken to
     close whenever a station offering it tracks the spacecraft.
     """
@@ -292,7 +292,8 @@ class Spacecraft(Record):
 
 
 def _main_link_get(self):
-    return main_downlink(self.links)
+    lk = main_downlink(self.links)
+    return lk if lk is not None and lk.has_budget else None
 
 
 def _main_link_put(self, value):
@@ -310,7 +311,8 @@ def _main_link_put(self, value):
         self.links[self.links.index(old)] = value
 
 
-Spacecraft.link = property(_main_link_get, _main_link_put, doc="The main downlink (:func:`main_downlink`).")
+Spacecraft.link = property(_main_link_get, _main_link_put,
+                           doc="The main downlink (:func:`main_downlink`) when it has a budget, else None.")
 
 
 @dataclass(eq=False)
@@ -465,6 +467,15 @@ class Scenario(Record):
             if s.id == station_id:
                 return s
         raise KeyError(station_id)
+
+    def track_span_tt(self, booking: Booking) -> tuple[float, float]:
+        """The booking's track (BOT, EOT): ``start + pre_pass_min`` to ``end - post_pass_min`` of its station
+        (EOT may come before BOT for a booking shorter than its pre- and post-pass)."""
+        try:
+            st = self.station(booking.station)
+        except KeyError:
+            return booking.start_tt, booking.end_tt
+        return booking.start_tt + st.pre_pass_min * 60.0, booking.end_tt - st.post_pass_min * 60.0
 
     def activity(self, activity_id: str) -> Activity:
         for a in self.activities:
