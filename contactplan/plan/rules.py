@@ -334,9 +334,10 @@ def rule_station_outage(ctx: RuleContext) -> list[Finding]:
             continue
         for o0, o1, o in _outages_overlapping(ctx, b.station, t0, t1):
             why = f" ({o.reason})" if getattr(o, "reason", "") else ""
+            # pre-pass and post-pass must stay off the outage too: the booking itself ends by / starts after it
             msg = (f"{b.id} tracks through the outage of {b.station} {span_text(o0, o1)}{why}: "
-                   f"end it by {t_text(o0 + ctx.teardown_s(b))} or start it after {t_text(o1 - ctx.setup_s(b))}")
-            fix = [(x0 - ctx.setup_s(b), x1 + ctx.teardown_s(b)) for x0, x1 in subtract([(t0, t1)], [(o0, o1)])]
+                   f"end it by {t_text(o0)} or start it after {t_text(o1)}")
+            fix = subtract([(b.start_tt, b.end_tt)], [(o0, o1)])
             out.append(_finding("station-outage", ERROR, [b.id, b.station], max(o0, t0), min(o1, t1), msg, fix))
     return out
 
@@ -379,8 +380,9 @@ DATA_SERVICES = ("telemetry", "playback")
 
 
 def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
-    """``downlink-in-keepout`` (error): the track of a booking with telemetry or playback overlapping an
-    activity's keep-out (burn, slew...), at a station that can receive.
+    """``downlink-in-keepout`` (error): the track of a booking with playback overlapping an activity's
+    keep-out (burn, slew...), or one with telemetry overlapping the keep-out of a slew or other activity
+    (a burn or momentum dump is monitored by telemetry), at a station that can receive.
 
     The proposed split is the booking whose tracks are the track minus every keep-out it touches."""
     out = []
@@ -397,12 +399,13 @@ def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
         if t1 <= t0:
             continue
         lo_i, hi_i = bisect_left(starts, t0 - longest), bisect_left(starts, t1)
-        hits = [(k0, k1, act) for k0, k1, act in keepouts[lo_i:hi_i] if k1 > t0]
+        # playback never in a keep-out; real-time telemetry not in a slew's or other activity's keep-out
+        # (in a burn's or momentum dump's, telemetry is the monitoring itself)
+        hits = [(k0, k1, act) for k0, k1, act in keepouts[lo_i:hi_i] if k1 > t0
+                and ("playback" in data or act.kind not in ("burn", "momentum-dump"))]
         if not hits:
             continue
-        pre, post = ctx.setup_s(b), ctx.teardown_s(b)
-        pieces = [(a - pre, c + post) for a, c in subtract([(t0, t1)], [(k0, k1) for k0, k1, _ in hits])
-                  if c - a > EDGE_TOLERANCE_S]
+        pieces = _split_around(ctx, b, subtract([(t0, t1)], [(k0, k1) for k0, k1, _ in hits]))
         parts = [span_text(a, c) for a, c in pieces]
         if len(parts) >= 2:
             fix = f"split it into {', '.join(parts[:-1])} and {parts[-1]}"
@@ -418,6 +421,21 @@ def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
                    f"{act.id} ({span_text(k0, k1)}): {fix}{alt}")
             out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, t0), min(k1, t1), msg,
                                 pieces))
+    return out
+
+
+def _split_around(ctx: RuleContext, b, track_pieces) -> list:
+    """Bookings (start, end) whose tracks are ``track_pieces`` (in order), pre-pass and post-pass added, each
+    starting no earlier than the one before ends (a piece left with no track is dropped)."""
+    pre, post = ctx.setup_s(b), ctx.teardown_s(b)
+    out = []
+    last = b.start_tt
+    for a, c in track_pieces:
+        start = max(a - pre, last)
+        if c - (start + pre) <= EDGE_TOLERANCE_S:
+            continue
+        out.append((start, c + post))
+        last = c + post
     return out
 
 

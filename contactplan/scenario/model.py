@@ -244,11 +244,12 @@ class Link(Record):
 
     @property
     def has_budget(self) -> bool:
-        """True when the budget can be computed (down: EIRP and required Eb/N0; up: required Pt/N0)."""
+        """True when the budget can be computed (down: frequency, EIRP and required Eb/N0; up: frequency,
+        required Pt/N0 and spacecraft G/T)."""
         if self.frequency_mhz is None:
             return False
         if self.direction == "down":
-            return self.eirp_dbw is not None and self.required_ebn0_db is not None and bool(self.rates_kbps)
+            return self.eirp_dbw is not None and self.required_ebn0_db is not None
         return self.required_pt_dbhz is not None and self.spacecraft_g_over_t_dbk is not None
 
 
