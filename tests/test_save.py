@@ -168,8 +168,7 @@ def test_record_order_of_the_file_is_kept(tmp_path):
 
 def test_file_without_format_version_loads_as_version_1_and_is_upgraded_on_save(tmp_path):
     # Upgrade path: a plan written before format_version existed (the only older form) is read as
-    # version 1; its first save writes the current format_version and (no link, no purposes,
-    # no setup times here) changes nothing else.
+    # version 1; its first save writes format 2: the upgrade of that file and nothing else.
     old = MINI.replace("format_version = 1\n", "")
     assert "format_version" not in old
     p = tmp_path / "old.toml"
@@ -178,8 +177,8 @@ def test_file_without_format_version_loads_as_version_1_and_is_upgraded_on_save(
     assert sc.format_version == 1
     save_scenario(sc)
     before, after = tomllib.loads(old), doc_of(p)
-    assert after.pop("format_version") == m.FORMAT_VERSION
-    assert after == before
+    assert after["format_version"] == m.FORMAT_VERSION == 2
+    assert after == upgrade_1_to_2(before)
     assert as_data(load_scenario(p)) == as_data(sc)
 
 
