@@ -147,7 +147,7 @@ def rule_command_load(ctx: RuleContext) -> list[Finding]:
     """``command-load`` (error): a burn or momentum dump with ``command_lead_h`` has no booked commanding
     track of at least :data:`COMMAND_MIN_S` ending ``command_lead_h`` before its start (prime), or, with
     ``command_backup``, no second one at another station or on another pass. Names the latest pass that
-    would do. Not checked when that time lies before the window (the load may be sent earlier)."""
+    would do. Not checked when that time lies outside the window (sent earlier, or not yet due)."""
     out = []
     acts = [a for a in ctx.scenario.activities if a.kind in ("burn", "momentum-dump") and a.command_lead_h is not None]
     if not acts:
@@ -155,8 +155,8 @@ def rule_command_load(ctx: RuleContext) -> list[Finding]:
     ops, starts = _command_opportunities(ctx)
     for a in acts:
         deadline = a.start_tt - a.command_lead_h * 3600.0
-        if deadline <= ctx.start_tt:
-            continue
+        if deadline <= ctx.start_tt or deadline > ctx.end_tt:
+            continue  # sent before the window, or not due within it
         what = "burn" if a.kind == "burn" else "momentum dump"
         # opportunities: commanding time before the deadline (a track running past it counts up to it)
         # latest starts first (bisection), until a prime and a backup are found or the look-back is used up
