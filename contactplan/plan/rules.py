@@ -350,6 +350,8 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
         bl = sorted(ctx.bookings_at(sid), key=lambda b: (ctx.track(b)[0], b.id))
         for i, b1 in enumerate(bl):
             a1, e1 = ctx.track(b1)
+            if e1 <= a1:
+                continue
             for b2 in bl[i + 1:]:
                 a2, e2 = ctx.track(b2)
                 if a2 >= e1:
