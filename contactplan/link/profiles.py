@@ -55,20 +55,11 @@ class PassProfile:
 
     def profile_steps(self, start_tt: float | None = None, end_tt: float | None = None):
         """Like :meth:`rate_steps` but of the profile itself (what the link could hold), not the plan."""
-        t = np.asarray(self.t_tt, dtype=float)
-        seg = self.segment_rates_kbps()
-        if seg.size == 0:
-            return np.zeros(0), np.zeros(0)
-        lo = t[0] if start_tt is None else max(float(start_tt), t[0])
-        hi = t[-1] if end_tt is None else min(float(end_tt), t[-1])
-        if not hi > lo:
-            return np.zeros(0), np.zeros(0)
-        inner = t[(t > lo) & (t < hi)]
-        edges = np.concatenate(([lo], inner, [hi]))
-        idx = np.clip(np.searchsorted(t, edges[:-1], side="right") - 1, 0, seg.size - 1)
-        rates = seg[idx]
+        edges, rates = _clip_steps(self.t_tt, self.segment_rates_kbps(), start_tt, end_tt)
+        if rates.size == 0:
+            return edges, rates
         keep = np.concatenate(([True], rates[1:] != rates[:-1]))
-        return np.concatenate((edges[:-1][keep], [hi])), rates[keep]
+        return np.concatenate((edges[:-1][keep], edges[-1:])), rates[keep]
 
     @property
     def plan_volume_gbit(self) -> float:
