@@ -270,6 +270,8 @@ def test_send_only_station_cannot_be_booked_for_ranging(demo):
     assert {x.subjects[2] for x in f} == {"telemetry", "ranging", "doppler"}
     rng = next(x for x in f if x.subjects[2] == "ranging")
     assert rng.subjects[1] == "TBC" and "TBC has no down link carrying it" in rng.message
+    assert rng.severity == "error"
+    assert next(x for x in f if x.subjects[2] == "telemetry").severity == "warning"  # no data: antenna time lost
 
 
 def test_receive_only_station_cannot_range_or_command(demo):

@@ -10,7 +10,7 @@ from __future__ import annotations
 from bisect import bisect_right
 
 from contactplan.intervals import subtract, total_s
-from contactplan.plan.findings import ERROR
+from contactplan.plan.findings import ERROR, WARNING
 from contactplan.plan.rules import (
     EDGE_TOLERANCE_S, RuleContext, _finding, _outages_overlapping, minutes, span_text, t_text,
 )
@@ -64,10 +64,16 @@ def rule_prepass_conflict(ctx: RuleContext) -> list[Finding]:
     return out
 
 
+def _severity(service: str) -> str:
+    return WARNING if service in ("telemetry", "playback") else ERROR
+
+
 def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
-    """``service-unavailable`` (error): a booked service that no link of the station carries (two-way
-    ranging and doppler need an up and a down link carrying it), or whose link does not close for the
-    whole tracked time (the minutes named). Silent for a scenario without links."""
+    """``service-unavailable``: a booked service that no link of the station carries (two-way ranging and
+    doppler need an up and a down link carrying it), or whose link does not close for the whole tracked
+    time (the minutes named). An error for commanding, ranging and doppler; a warning for telemetry and
+    playback (antenna time that brings no data, as version 1's ``no-downlink-station``). Silent for a
+    scenario without links."""
     out = []
     if not ctx.links_modelled:
         return out
@@ -83,8 +89,8 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
                 why = missing_direction(ctx.scenario, st, svc)
                 msg = (f"{b.id} books {svc} at {b.station}, which cannot give it ({why}): drop {svc} from "
                        f"{b.id} or book it at a station that gives it")
-                out.append(_finding("service-unavailable", ERROR, [b.id, b.station, svc], b.start_tt, b.end_tt,
-                                    msg))
+                out.append(_finding("service-unavailable", _severity(svc), [b.id, b.station, svc], b.start_tt,
+                                    b.end_tt, msg))
                 continue
             if tracked is None:
                 tracked = ctx.tracked(b)
@@ -98,8 +104,8 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
             msg = (f"{svc} for {b.id} at {b.station} does not close for {minutes(lost)} of its track "
                    f"({_join(span_text(g0, g1) for g0, g1 in gaps)}): move the track to where the link closes "
                    f"or book {svc} elsewhere")
-            out.append(_finding("service-unavailable", ERROR, [b.id, b.station, svc], gaps[0][0], gaps[-1][1],
-                                msg))
+            out.append(_finding("service-unavailable", _severity(svc), [b.id, b.station, svc], gaps[0][0],
+                                gaps[-1][1], msg))
     return out
 
 
