@@ -78,7 +78,9 @@ def _annotate(scenario, ephemeris, passes, progress, cancel) -> tuple[dict, dict
         import contactplan.link.volume  # noqa: F401
     except ImportError:  # link stage not installed in this build
         return {}, {}
-    out = all_link_profiles(scenario, passes, ephemeris)
+    from contactplan.plan import parallel
+
+    out = parallel.all_link_profiles(scenario, passes, ephemeris)  # on every core when the passes are many
     if progress is not None:
         progress(1.0)
     return out
@@ -111,7 +113,8 @@ def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanRe
     :class:`~contactplan.errors.Cancelled`.
     """
     from contactplan.ephemeris import ephemeris_for
-    from contactplan.geometry.passes import coverage_spans, find_passes
+    from contactplan.geometry.passes import coverage_spans
+    from contactplan.plan.parallel import find_passes  # on every core when the work is large
 
     _check_cancel(cancel)
     eph = ephemeris if ephemeris is not None else ephemeris_for(scenario)
