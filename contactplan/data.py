@@ -166,12 +166,20 @@ def eop_source_key() -> dict | None:
 _warned_eop = False
 
 
+def _mjd_date(mjd: float) -> str:
+    """The calendar date (YYYY-MM-DD) of a modified Julian day."""
+    import datetime as dt
+
+    return (dt.date(1858, 11, 17) + dt.timedelta(days=int(mjd))).isoformat()
+
+
 def _warn_eop_once(last_mjd: float) -> None:
     global _warned_eop
     if not _warned_eop:
         _warned_eop = True
         warnings.warn(
-            f"Earth-orientation predictions end at MJD {last_mjd:.0f}; later times use the last "
+            f"Earth-orientation predictions end on {_mjd_date(last_mjd)} (MJD {last_mjd:.0f}); later times "
+            "use the last "
             "values (UT1 error grows by about 1 ms a day). Update the astropy-iers-data package.",
             EOPWarning,
             stacklevel=3,
@@ -222,9 +230,13 @@ def earth_orientation(mjd_utc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.n
 @functools.lru_cache(maxsize=1)
 def planetary_ephemeris():
     """The packaged JPL DE421 kernel, opened with skyfield (never downloaded)."""
+    import atexit
+
     from skyfield.api import load_file
 
-    return load_file(str(skyfield_data_dir() / "de421.bsp"))
+    kernel = load_file(str(skyfield_data_dir() / "de421.bsp"))
+    atexit.register(kernel.close)  # no "unclosed file de421.bsp" at exit
+    return kernel
 
 
 @functools.lru_cache(maxsize=1)

@@ -99,7 +99,13 @@ def run(args) -> int:
                              f"use .csv, .json, .xlsx or .txt", args.out)
     start = _time(args.start, "start") if args.start else None
     end = _time(args.end, "end") if args.end else None
+    from contactplan.commands.export import guard_output
+
+    if args.out:
+        guard_output(args.out, None, [args.scenario])
     scenario = load_scenario(args.scenario)
+    if args.out:
+        guard_output(args.out, scenario)
     if args.station:
         known = [s.id for s in scenario.stations]
         for sid in args.station:
@@ -110,6 +116,11 @@ def run(args) -> int:
     end = scenario.end_tt if end is None else end
     if not end > start:
         raise InputError("the window must end after it starts (check --start and --end)")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)
+    if bad is not None:
+        raise InputError(bad[1], None, f"--{bad[0]}")
 
     def warn(msg):
         print(f"contactplan: warning: {' '.join(str(msg).split())}", file=sys.stderr)
@@ -138,7 +149,10 @@ def run(args) -> int:
             print(line)
         print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")
         return 0
+    from contactplan.fileio import backup
+
     try:
+        backup(args.out)  # a replaced file is kept as name~, as saves do
         if fmt == "xlsx":
             from contactplan.io.xlsx import write_passes_xlsx
 

@@ -393,7 +393,9 @@ def _passes_in_span(sites, ephemeris, s0, s1, opts, step, anchor_tt=None, clamp=
         g = el - ev.limit(az, k)
         per.append({"el": el, "rng": rng, "g": g})
         if not ev.flat[k]:
-            tc = _vertex_crossings(grid, az, [p[0] for p in site.station.horizon_mask])
+            from contactplan.geometry.mask import limit_corner_azimuths_deg
+
+            tc = _vertex_crossings(grid, az, limit_corner_azimuths_deg(site.station))
             extra_t.append(tc)
             extra_s.append(np.full(tc.size, k))
     step(0.35)

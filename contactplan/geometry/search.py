@@ -153,7 +153,14 @@ def extremum_candidates(t, g):
     pr = np.concatenate([pos[1:], [pos[-1]]])
     dl = np.where(np.isnan(gl), 0.0, np.abs(g - gl))
     dr = np.where(np.isnan(gr), 0.0, np.abs(gr - g))
-    slack = np.maximum(dl, dr)
+    # Unequal spacing (extra samples at mask corners): the slope seen over one side, carried over
+    # the other (wider) side, bounds how far the function may reach between the samples.
+    hl = np.concatenate([[0.0], np.diff(t)])
+    hr = np.concatenate([np.diff(t), [0.0]])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        carry_l = np.where(hl > 0, dl * hr / hl, 0.0)
+        carry_r = np.where(hr > 0, dr * hl / hr, 0.0)
+    slack = np.maximum(np.maximum(dl, dr), np.maximum(carry_l, carry_r))
     with np.errstate(invalid="ignore"):
         up_l = np.isnan(gl) | (g > gl)
         up_r = np.isnan(gr) | (g >= gr)

@@ -15,6 +15,8 @@ import csv
 import io
 import json
 
+from contactplan.io.cells import csv_text
+
 FIXED_COLUMNS = (
     "station", "aos_utc", "los_utc", "duration_s", "max_elevation_deg", "max_elevation_utc",
     "aos_azimuth_deg", "los_azimuth_deg", "min_range_km", "max_range_km",
@@ -98,7 +100,7 @@ def _csv_cell(v):
         return ""
     if isinstance(v, bool):
         return "true" if v else "false"
-    return v
+    return csv_text(v)  # text that a spreadsheet would run as a formula gets a leading quote
 
 
 def passes_csv_text(passes, columns=None) -> str:

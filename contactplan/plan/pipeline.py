@@ -144,6 +144,18 @@ def check(result: PlanResult) -> PlanResult:
     sc = result.scenario
     sc.bind()
     result.recorder = _recorder(sc, result.passes, result.profiles)
-    result.findings = run_rules(RuleContext.build(sc, result.passes, result.profiles, result.recorder,
-                                                  coverage=result.coverage, link_profiles=result.link_profiles))
+    # unknown keys first: they are dated at the window start, so the list stays in time order
+    result.findings = unknown_key_findings(sc) + run_rules(RuleContext.build(
+        sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
+        link_profiles=result.link_profiles))
     return result
+
+
+def unknown_key_findings(scenario) -> list:
+    """One warning finding (rule ``unknown-key``) per key of the scenario file the loader did not know."""
+    from contactplan.plan.findings import WARNING, Finding
+    from contactplan.scenario.load import unknown_key_message
+
+    return [Finding(rule="unknown-key", severity=WARNING, subjects=[], start_tt=scenario.start_tt,
+                    end_tt=scenario.start_tt, message=f"{field}: {unknown_key_message(field, key, close)}")
+            for field, key, close in (getattr(scenario, "unknown_keys", None) or [])]
