@@ -176,8 +176,9 @@ class SpanIndex:
 
     __slots__ = ("spans", "starts", "ends")
 
-    def __init__(self, spans):
-        self.spans = union(spans)
+    def __init__(self, spans, merged: bool = False):
+        """``merged``: ``spans`` is already a :func:`union` result (kept as it is)."""
+        self.spans = list(spans) if merged else union(spans)
         self.starts = [a for a, _ in self.spans]
         self.ends = [b for _, b in self.spans]
 

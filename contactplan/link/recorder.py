@@ -21,6 +21,9 @@ initial + generated = downlinked + on board + lost to rounding (far below a bit)
 
 from __future__ import annotations
 
+import weakref
+from bisect import bisect_left, bisect_right
+
 import numpy as np
 
 from contactplan.link.profiles import RecorderResult
@@ -28,6 +31,34 @@ from contactplan.link.windows import DownlinkIndex, downlink_pieces
 
 #: spacing (s) of the extra regular samples added to the result for plotting the age
 SAMPLE_S = 600.0
+
+
+#: each profile's rate plan as Python lists, {PassProfile: (plan edges array, plan rates array, edges, rates)};
+#: a profile never changes once computed (the arrays are compared by identity all the same)
+_PLANS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def plan_steps(prof, start_tt: float, end_tt: float) -> list:
+    """``[(e0, e1, rate_kbps)]`` of ``prof.rate_steps(start_tt, end_tt)``, the same numbers, found by
+    bisection in the profile's plan kept as Python lists (a few steps per piece: cheaper than arrays)."""
+    pe, pr = prof.plan_edges_tt, prof.plan_rates_kbps
+    if pr is None:
+        edges, rates = prof.rate_steps(start_tt, end_tt)
+        return list(zip(edges[:-1].tolist(), edges[1:].tolist(), rates.tolist()))
+    got = _PLANS.get(prof)
+    if got is None or got[0] is not pe or got[1] is not pr:
+        got = (pe, pr, np.asarray(pe, dtype=float).tolist(), np.asarray(pr, dtype=float).tolist())
+        _PLANS[prof] = got
+    e, r = got[2], got[3]
+    if not r:
+        return []
+    lo, hi = max(float(start_tt), e[0]), min(float(end_tt), e[-1])
+    if not hi > lo:
+        return []
+    out_e = [lo] + e[bisect_right(e, lo):bisect_left(e, hi)] + [hi]  # the plan's edges strictly inside
+    last = len(r) - 1
+    return [(out_e[i], out_e[i + 1], r[min(max(bisect_right(e, out_e[i]) - 1, 0), last)])
+            for i in range(len(out_e) - 1)]
 
 
 def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, end_tt: float):
@@ -45,13 +76,12 @@ def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, e
             prof = profiles.get(id(p))
             if prof is None:
                 continue
-            edges, rates = prof.rate_steps(max(s0, start_tt), min(s1, end_tt))
-            on = rates > 0
-            if on.any():
-                parts.append((edges[:-1][on], edges[1:][on], rates[on], np.full(int(on.sum()), k)))
+            for a, b, rate in plan_steps(prof, max(s0, start_tt), min(s1, end_tt)):
+                if rate > 0:
+                    parts.append((a, b, rate, k))
     if not parts:
         return np.array([start_tt, end_tt]), np.zeros(1), np.full(1, -1)
-    e0, e1, r, bi = (np.concatenate([x[j] for x in parts]) for j in range(4))
+    e0, e1, r, bi = (np.array(x) for x in zip(*parts))
     r = r.astype(float)
     n_steps = e0.size
     grid = np.unique(np.concatenate(([start_tt, end_tt], e0, e1)))

@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import weakref
 from bisect import bisect_left, bisect_right
+from collections import OrderedDict
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -192,9 +193,44 @@ class RuleContext:
             self._cache[key] = union(spans + closed_spans_of(computed))
         return self._cache[key]
 
+    def _service_signature(self, sid: str, service: str):
+        """(key, objects) naming everything :meth:`service_spans` reads: the links carrying ``service`` at the
+        station and, per link, the station's passes and their profiles (by identity; the objects are kept with
+        the cached spans so that no id is reused while they are cached)."""
+        from contactplan.link.services import links_for
+
+        st = self.stations.get(sid)
+        plist = self.passes_by_station.get(sid, [])
+        key, objs = [sid, service, id(st), tuple(id(p) for p in plist)], [st, plist]
+        for direction in ("up", "down", None):
+            for lk in links_for(self.scenario, st, service, direction) if st is not None else []:
+                profs = self.link_profiles.get(lk.id)
+                got = [profs.get(id(p)) for p in plist] if profs else []
+                key.append((direction, id(lk), lk.id, lk.has_budget, bool(profs), tuple(map(id, got))))
+                objs += [lk, got]
+        return tuple(key), objs
+
     def service_spans(self, sid: str, service: str) -> list:
-        """Where the station gives ``service``: union over its links carrying it (two-way: up and down both)."""
+        """Where the station gives ``service``: union over its links carrying it (two-way: up and down both).
+
+        Kept from one check to the next while the station, its passes, their profiles and the links stay the
+        same objects (only bookings change between checks)."""
         key = ("service", sid, service)
+        if key not in self._cache:
+            sig, objs = self._service_signature(sid, service)
+            got = _SERVICE_SPANS.get(sig)
+            if got is not None:
+                _SERVICE_SPANS.move_to_end(sig)
+                self._cache[key] = got[0]
+                return got[0]
+            self._cache[key] = self._service_spans(sid, service)
+            _SERVICE_SPANS[sig] = (self._cache[key], objs)
+            while len(_SERVICE_SPANS) > SERVICE_SPANS_KEPT:
+                _SERVICE_SPANS.popitem(last=False)
+        return self._cache[key]
+
+    def _service_spans(self, sid: str, service: str) -> list:
+        key = ("service-computed", sid, service)
         if key not in self._cache:
             from contactplan.link.services import links_for
             from contactplan.scenario.model import TWO_WAY_SERVICES
@@ -216,7 +252,7 @@ class RuleContext:
         """:meth:`service_spans` indexed for look-ups by time (cached for this check)."""
         key = ("service-index", sid, service)
         if key not in self._cache:
-            self._cache[key] = SpanIndex(self.service_spans(sid, service))
+            self._cache[key] = SpanIndex(self.service_spans(sid, service), merged=True)
         return self._cache[key]
 
     def offers(self, sid: str, service: str) -> bool:
@@ -262,10 +298,13 @@ class RuleContext:
         if b <= a:
             spans = []
         else:
-            inside = intersect([(a, b)], [(p.aos_tt, p.los_tt)
-                                          for p in self.passes_overlapping(booking.station, a, b)])
+            held = self.passes_overlapping(booking.station, a, b)
             # only the outages overlapping the track can cut it (bisection)
-            spans = subtract(inside, [(o0, o1) for o0, o1, _ in _outages_overlapping(self, booking.station, a, b)])
+            cuts = [(o0, o1) for o0, o1, _ in _outages_overlapping(self, booking.station, a, b)]
+            if len(held) == 1 and not cuts:  # the common case, as intersect and subtract would give it
+                spans = [(float(max(a, held[0].aos_tt)), float(min(b, held[0].los_tt)))]
+            else:
+                spans = subtract(intersect([(a, b)], [(p.aos_tt, p.los_tt) for p in held]), cuts)
         self._cache[key] = (booking, spans)
         return spans
 
@@ -298,6 +337,10 @@ class RuleContext:
 #: never changed once computed; the arrays are compared by identity all the same. Passes and profiles stay
 #: the same from one check to the next (only bookings change), so each check reuses them.
 _CLOSED: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+#: service spans of the latest checks, {signature: (spans, objects)} (see RuleContext.service_spans)
+_SERVICE_SPANS: OrderedDict = OrderedDict()
+#: how many (station, service) span sets are kept: two or three plans of a few stations
+SERVICE_SPANS_KEPT = 64
 
 
 def closed_spans_of(profiles) -> list[tuple[float, float]]:

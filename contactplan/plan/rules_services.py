@@ -85,9 +85,11 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
         tracked = None
         for svc in b.services:
             if not ctx.offers(b.station, svc):
-                from contactplan.link.services import missing_direction
+                why = ctx._cache.get(("missing", b.station, svc))
+                if why is None:
+                    from contactplan.link.services import missing_direction
 
-                why = missing_direction(ctx.scenario, st, svc)
+                    why = ctx._cache[("missing", b.station, svc)] = missing_direction(ctx.scenario, st, svc)
                 msg = (f"{b.id} books {svc} at {b.station}, which cannot give it ({why}): drop {svc} from "
                        f"{b.id} or book it at a station that gives it")
                 out.append(_finding("service-unavailable", _severity(svc), [b.id, b.station, svc], b.start_tt,
