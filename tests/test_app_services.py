@@ -40,6 +40,12 @@ def test_service_marks_are_drawn_and_legible_at_week_zoom(win, demo_copy, demo_p
             assert view.contains(r.center().toPoint())
         for a, c in zip(cells, cells[1:]):  # side by side, not overlapping
             assert c.left() >= a.right()
+    # rows of bookings in one lane never overlap, even where the bookings do (B003 and B004 at VYH)
+    for st in sc.stations:
+        rows = sorted((marks[b.id][0][1].left(), marks[b.id][-1][1].right()) for b in in_week
+                      if b.station == st.id and marks[b.id])
+        for (_a0, a1), (c0, _c1) in zip(rows, rows[1:]):
+            assert c0 >= a1, st.id
 
 
 def test_pre_and_post_pass_are_lighter_than_the_track(win, demo_copy, demo_plan):

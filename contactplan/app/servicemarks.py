@@ -63,9 +63,10 @@ def mark_font() -> QFont:
     return f
 
 
-def mark_rects(block: QRectF, n: int, spare: QRectF, font: QFont) -> list:
+def mark_rects(block: QRectF, n: int, spare: QRectF, font: QFont, after_x: float = -1e9) -> list:
     """Cells for ``n`` marks on a booking drawn as ``block`` (pixels): inside its lower half when they fit,
-    else centred on the booking in ``spare``, the strip of the lane beside the block."""
+    else centred on the booking in ``spare``, the strip of the lane beside the block; never left of
+    ``after_x`` (the end of the lane's previous row)."""
     fm = QFontMetricsF(font)
     w = fm.horizontalAdvance("W") + 3.0
     h = fm.height() + 1.0
@@ -74,16 +75,17 @@ def mark_rects(block: QRectF, n: int, spare: QRectF, font: QFont) -> list:
         x0, y0 = block.left() + (block.width() - row_w) / 2, block.bottom() - h - 1
     else:
         x0, y0 = block.center().x() - row_w / 2, spare.top() + max(0.0, (spare.height() - h) / 2)
+    x0 = max(x0, after_x)
     return [QRectF(x0 + i * w, y0, w - 1, h) for i in range(n)]
 
 
-def paint_marks(painter, block: QRectF, services, spare: QRectF, edge: QColor) -> list:
+def paint_marks(painter, block: QRectF, services, spare: QRectF, edge: QColor, after_x: float = -1e9) -> list:
     """Draw the booking's service marks; returns ``[(letter, QRectF)]`` as drawn."""
     chosen = [s for s in SERVICES if s in set(services)]
     if not chosen:
         return []
     font = mark_font()
-    cells = mark_rects(block, len(chosen), spare, font)
+    cells = mark_rects(block, len(chosen), spare, font, after_x)
     painter.save()
     painter.setFont(font)
     out = []

@@ -229,6 +229,7 @@ class LanesCanvas(pg.GraphicsObject):
         self._pass_index = None  # (passes list, its length, AOS array or None if unsorted, longest pass in s)
         self.drag_label = ""  # what the drag preview says (start - end and length)
         self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
+        self._marks_until: dict = {}
         self.setZValue(10)
 
     # ------------------------------------------------------------ geometry
@@ -467,9 +468,9 @@ class LanesCanvas(pg.GraphicsObject):
         bold = QFont(small)
         bold.setBold(True)
         self.marks_drawn = {}
-        for b in sc.bookings:
-            if b.end_tt < t_lo or b.start_tt > t_hi:
-                continue
+        self._marks_until = {}  # lane -> right edge (px) of the last mark row drawn in it
+        for b in sorted((b for b in sc.bookings if not (b.end_tt < t_lo or b.start_tt > t_hi)),
+                        key=lambda b: b.start_tt):
             if self.drag is not None and self.drag.booking is b:
                 continue
             lane = self.lane_of_station(b.station)
@@ -548,8 +549,12 @@ class LanesCanvas(pg.GraphicsObject):
             painter.setPen(QPen(QColor("#1A1A1A")))
             painter.drawText(r.adjusted(4, 1, -2, 0), int(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft), b.id)
         # one mark per booked service (T P C R D), inside the block or beside it at week zoom
-        self.marks_drawn[b.id] = paint_marks(painter, r, b.services, spare if spare is not None else r,
-                                             th.booking_edge)
+        lane = self.lane_of_station(b.station)
+        drawn = paint_marks(painter, r, b.services, spare if spare is not None else r, th.booking_edge,
+                            after_x=self._marks_until.get(lane, -1e9))
+        if drawn:  # the next booking's row starts right of this one (overlapping bookings stay readable)
+            self._marks_until[lane] = drawn[-1][1].right() + 2
+        self.marks_drawn[b.id] = drawn
 
     # ------------------------------------------------------------ hit tests
     def booking_at(self, x: float, y: float):
