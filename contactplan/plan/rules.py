@@ -97,6 +97,8 @@ class RuleContext:
     pass_aos: dict = field(default_factory=dict)  # id -> np.array of AOS (sorted), for bisection
     pass_los_max: dict = field(default_factory=dict)  # id -> running maximum of LOS in AOS order
     _cache: dict = field(default_factory=dict, repr=False)
+    _pre_post: dict = field(default_factory=dict, repr=False)  # station id -> (pre-pass s, post-pass s)
+    _outage_index: dict = field(default_factory=dict, repr=False)  # station id -> (outage starts, longest)
 
     @classmethod
     def build(cls, scenario, passes, profiles=None, recorder=None, coverage=None,
@@ -273,11 +275,10 @@ class RuleContext:
         return self.stations.get(sid)
 
     def _pre_post_s(self, sid: str) -> tuple[float, float]:
-        got = self._cache.get(("pre-post", sid))
+        got = self._pre_post.get(sid)
         if got is None:
             st = self.stations.get(sid)
-            got = (0.0, 0.0) if st is None else (st.setup_min * 60.0, st.teardown_min * 60.0)
-            self._cache[("pre-post", sid)] = got
+            got = self._pre_post[sid] = (0.0, 0.0) if st is None else (st.setup_min * 60.0, st.teardown_min * 60.0)
         return got
 
     def setup_s(self, booking) -> float:
@@ -436,12 +437,11 @@ def _outages_overlapping(ctx: RuleContext, sid: str, a: float, b: float) -> list
     outs = ctx.outages.get(sid, [])
     if not outs:
         return []
-    key = ("outage-starts", sid)
-    if key not in ctx._cache:
-        ctx._cache[key] = [o[0] for o in outs]
-        ctx._cache[("outage-longest", sid)] = max(o[1] - o[0] for o in outs)
-    starts = ctx._cache[key]
-    lo = bisect_left(starts, a - ctx._cache[("outage-longest", sid)])
+    got = ctx._outage_index.get(sid)
+    if got is None:
+        got = ctx._outage_index[sid] = ([o[0] for o in outs], max(o[1] - o[0] for o in outs))
+    starts, longest = got
+    lo = bisect_left(starts, a - longest)
     hi = bisect_left(starts, b)
     return [o for o in outs[lo:hi] if o[1] > a]
 
