@@ -368,8 +368,8 @@ def _neighbourhood(P: _Plan, C: _Cands, chosen, step: int, also=(), swap: int = 
 #: branch-and-bound nodes per solve: the search is bounded by work, not by the clock, so the same
 #: input gives the same plan on an idle or a loaded machine (the time limit is only a safety net)
 NODES_EXACT = 4000
-NODES_STAGE = 400
-NODES_POLISH = 100
+NODES_STAGE = 30
+NODES_POLISH = 20
 
 
 @dataclass
