@@ -32,8 +32,10 @@ def add_arguments(parser) -> None:
                         help="draft from this UTC time (default: the scenario's start)")
     parser.add_argument("--end", metavar="T", default=None,
                         help="draft up to this UTC time (default: the scenario's end)")
-    parser.add_argument("--time-limit", metavar="S", type=float, default=10.0,
-                        help="seconds the solver may take; the best plan found by then is kept (default 10)")
+    parser.add_argument("--time-limit", metavar="S", type=float, default=60.0,
+                        help="safety limit in seconds (the search is bounded by work, so the same input gives "
+                             "the same plan; when this limit stops it first, the best plan so far is kept; "
+                             "default 60)")
     parser.add_argument("--grid", metavar="MIN", type=float, default=10.0,
                         help="booking edges on this grid of minutes, 5 to 15 (default 10)")
     parser.add_argument("--recorder-limit", metavar="PCT", type=float, default=100.0,

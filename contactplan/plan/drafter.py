@@ -509,7 +509,7 @@ def _choose_candidates(P: _Plan, max_candidates: int):
     return C, step
 
 
-def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=10.0, grid_min=10.0,
+def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, grid_min=10.0,
           passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
           recorder_limit=1.0, progress=None, cancel=None, link_profiles=None) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
