@@ -443,3 +443,27 @@ def test_exclusive_downlink_rows_forbid_overlapping_downlink_bookings():
     # the drafter's own pre-check (one transmitter: the best station at each moment) says so up front
     dr = D.draft(sc, passes=passes, profiles=profiles)
     assert dr.status == D.INFEASIBLE and "above recorder_end_max_gbit = 50" in dr.explanations[0]
+
+
+def test_command_load_gets_a_prime_and_a_backup_on_another_pass():
+    # SK-01 at 20:00 needs its load sent by 14:00 (6 h before), with a backup on another pass or station:
+    # AAA's one long pass holds at most one of them, so the cheapest plan is a 1-h AAA booking and a
+    # 1-h BBB booking before 14:00 (tracks of 30 min >= 10 min) plus the monitoring booking 19:30-20:45
+    # (track 19:45-20:30) at AAA: 1 + 2 x 1 + 1.25 = 4.25 cost-hours (worked by hand)
+    acts = BURN.replace("07:00:00", "20:00:00") + "command_lead_h = 6.0\ncommand_backup = true\n"
+    sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-13T00:00:00Z",
+                       [station("AAA", setup=15, teardown=15, cost=1.0), station("BBB", setup=15, teardown=15,
+                                                                               cost=2.0)],
+                       requirements={"booking_min_h": 1.0}, activities=acts)
+    passes, profiles = passes_and_profiles([("AAA", "2027-01-12T04:00:00Z", "2027-01-12T22:00:00Z", 0.0),
+                                            ("BBB", "2027-01-12T06:00:00Z", "2027-01-12T12:00:00Z", 0.0)])
+    dr = draft(sc, passes=passes, profiles=profiles, grid_min=15)
+    assert dr.status == OPTIMAL and dr.objective_cost_h == pytest.approx(4.25)
+    assert dr.check_errors == 0 and not [f for f in dr.findings if f.rule == "command-load"]
+    deadline = parse_utc("2027-01-12T14:00:00Z")
+    loads = [b for b in dr.bookings if "commanding" in b.services and b.end_tt - 15 * 60 <= deadline]
+    assert sorted(b.station for b in loads) == ["AAA", "BBB"]
+    # the burn's keep-out takes playback off the monitoring booking, telemetry stays (it monitors)
+    mon = [b for b in dr.bookings if b.start_tt <= parse_utc("2027-01-12T19:30:00Z")
+           and b.end_tt >= parse_utc("2027-01-12T20:45:00Z")]
+    assert mon and "playback" not in mon[0].services and {"telemetry", "doppler"} <= set(mon[0].services)
