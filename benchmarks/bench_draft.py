@@ -4,9 +4,11 @@ The scenario is built here: the built-in Sun-Earth L2 orbit, six invented statio
 spread in longitude (two of them without downlink), three station-keeping burns
 with monitor spans and keep-outs, ten attitude slews, a recorder that overflows
 unless downlink is booked, and the usual daily requirements. Passes and rate
-profiles are computed first (not timed); then ``draft()`` is timed with its
-default 10-s limit. Target: under 10 s on this machine; the optimality gap is
-printed beside the time, and the drafted plan is checked.
+profiles are computed first (not timed); then ``draft()`` is timed, CPU and wall,
+with a 60-s wall-clock safety limit (the search itself is bounded by node counts).
+Target: under 10 s on this machine; the optimality gap and the bound it is measured
+against are printed beside the time, and the drafted plan is checked (errors and
+missed requirements).
 
     .venv/bin/python benchmarks/bench_draft.py
 """
@@ -126,15 +128,16 @@ def main() -> int:
     print(f"scenario: {len(sc.stations)} stations, {sum(a.kind == 'burn' for a in sc.activities)} burns, "
           f"{sum(a.kind == 'slew' for a in sc.activities)} slews, {len(result.passes)} passes "
           f"(computed in {t_plan:.1f} s, not timed)")
-    t0 = time.perf_counter()
-    dr = draft(sc, result=result)
-    t_draft = time.perf_counter() - t0
+    t0, c0 = time.perf_counter(), time.process_time()
+    dr = draft(sc, result=result, time_limit_s=60.0)
+    t_draft, c_draft = time.perf_counter() - t0, time.process_time() - c0
     for line in summary_lines(sc, dr):
         print(line)
     gap = "n/a" if dr.gap is None else f"{100 * dr.gap:.2f} %"
-    print(f"draft time: {t_draft:.2f} s wall {CPUS} (target under {TARGET_S:.0f} s)   gap: {gap}   "
-          f"candidates: {dr.n_candidates}   status: {dr.status}")
-    ok = t_draft < TARGET_S and dr.check_errors == 0
+    print(f"draft time: {c_draft:.2f} s CPU, {t_draft:.2f} s wall {CPUS} (target under {TARGET_S:.0f} s)   "
+          f"gap: {gap} against {dr.gap_basis or 'no bound'}   candidates: {dr.n_candidates}   status: {dr.status}   "
+          f"missed requirements: {len(dr.unmet)}")
+    ok = c_draft < TARGET_S and dr.check_errors == 0 and not dr.unmet
     print("PASS" if ok else "MISS")
     return 0 if ok else 1
 

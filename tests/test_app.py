@@ -132,10 +132,10 @@ def _grid(t):
     return d + round((t - d) / 300.0) * 300.0
 
 
-def _free_pass(win, min_h=5.0, around=None):
+def _free_pass(win, min_h=5.0, around=None, room_h=1.5):
     """A pass of a downlink station, at least ``min_h`` hours long, with no booking on it.
 
-    With ``around`` (a span), the pass must hold it with 1.5 h to spare on one side;
+    With ``around`` (a span), the pass must hold it with ``room_h`` hours to spare on one side;
     bookings already on that pass are deleted (and the undo stack cleared).
     """
     sc = win.doc.scenario
@@ -147,7 +147,7 @@ def _free_pass(win, min_h=5.0, around=None):
         if around is not None:
             if not (p.aos_tt < around[0] and around[1] < p.los_tt):
                 continue
-            if max(around[0] - p.aos_tt, p.los_tt - around[1]) < 1.5 * 3600:
+            if max(around[0] - p.aos_tt, p.los_tt - around[1]) < room_h * 3600:
                 continue
             win.doc.delete_bookings(on_it)
             win.doc.undo_stack.clear()
@@ -235,17 +235,25 @@ def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy,
     assert burns, "the demo has a burn in its week"
     burn = burns[0]
     k0, k1 = burn.keepout_span_tt
-    p = _free_pass(win, min_h=4.0, around=(k0, k1))
-    # a 1-hour downlink booking clear of the keep-out, inside the same pass
-    if k0 - p.aos_tt >= 1.5 * 3600:
-        s = _grid(k0 - 1.5 * 3600.0)
-        shift = _grid(k0 - 600.0) - s  # moved later, it then spans the keep-out's start
+    # a booking holds pre-pass + a 1-hour track + post-pass (45 + 15 min in the demo): only the track
+    # (playback and telemetry time) can fall in a keep-out, so the booking must be longer than an hour
+    pad_s = max(st.pre_pass_min + st.post_pass_min for st in sc.stations) * 60.0
+    length = pad_s + 3600.0
+    p = _free_pass(win, min_h=4.0, around=(k0, k1), room_h=(length + 1800.0) / 3600.0)
+    st = sc.station(p.station)
+    pre_s = st.pre_pass_min * 60.0
+    # a playback booking whose track is clear of the keep-out, inside the same pass
+    if k0 - p.aos_tt >= length + 1800.0:
+        s = _grid(k0 - length - 1800.0)  # its track ends post-pass + 30 min before the keep-out
     else:
-        s = _grid(k1 + 1800.0)
-        shift = _grid(k0 - 600.0) - s  # moved earlier, the same
-    bid = win.doc.add_booking(p.station, s, s + 3600.0)
+        s = _grid(k1 + 1800.0)  # it starts 30 min after the keep-out
+    shift = _grid(k0 - pre_s - 1800.0) - s  # moved, its track runs from 30 min before to 30 min into it
+    bid = win.doc.add_booking(p.station, s, s + length)
     b = sc.booking(bid)
     assert win.doc.wait_checked()
+    assert b.services == ["telemetry", "playback"]
+    bot, eot = sc.track_span_tt(b)
+    assert eot <= k0 or bot >= k1
 
     def keepout_findings():
         return [f for f in win.doc.findings
@@ -255,10 +263,12 @@ def test_move_into_burn_keepout_shows_finding_and_undo_clears_it(win, demo_copy,
     win.timeline.zoom_to(p.aos_tt, p.los_tt)
     QApplication.processEvents()
     lane = win.timeline.canvas.lane_of_station(p.station)
-    grab = s + 1800.0  # the middle of the block
+    grab = s + length / 2  # the middle of the block
     drag(qtbot, win, grab, grab + shift, lane + 0.5)
     assert b.start_tt == pytest.approx(s + shift, abs=1e-6)
-    assert b.end_tt - b.start_tt == pytest.approx(3600.0)
+    assert b.end_tt - b.start_tt == pytest.approx(length)
+    bot, eot = sc.track_span_tt(b)
+    assert bot < k0 < eot
     qtbot.waitUntil(lambda: not win.doc.checking, timeout=10000)  # the findings come from the worker
     found = keepout_findings()
     assert len(found) == 1 and found[0].severity == "error"
@@ -712,24 +722,42 @@ def test_hover_text_and_property_editor(win, demo_copy, demo_plan):
     from contactplan.app.document import Selection
 
     sc = _open_with(win, demo_copy, demo_plan)
-    b = sc.booking("B002")
+    # B006 (ORF, playback only) tracks through the burn's keep-out: an error (resources/demo/week.toml)
+    b = sc.booking("B006")
     canvas = win.timeline.canvas
     win.timeline.zoom_to(b.start_tt, b.end_tt)
     QApplication.processEvents()
     x = win.timeline.x_of(0.5 * (b.start_tt + b.end_tt))
     text = canvas.describe(x, canvas.lane_of_station("ORF") + 0.5)
-    assert "booking B002 at ORF" in text and "error" in text
-    win.doc.select(Selection("booking", "B002"))
+    assert "booking B006 at ORF" in text and "error" in text
+    assert "services: playback [P]" in text
+    assert "track (BOT to EOT) 2027-01-15T12:45:00Z to 2027-01-15T16:45:00Z" in text  # ORF: 45 + 15 min
+    win.doc.select(Selection("booking", "B006"))
     ed = win.props
     assert ed.kind == "booking" and ed.fields["station"].currentText() == "ORF"
-    ed.fields["purpose:ranging"].setChecked(False)
+    assert ed.fields["handover_from"].currentText() == "(none)"
+    ed.fields["service:telemetry"].setChecked(True)
     ed.apply()
-    assert b.purposes == ["downlink"]
+    assert b.services == ["telemetry", "playback"]
     ed.fields["end_tt"].setText("not a time")
     ed.apply()
-    assert ed.error.text() and b.purposes == ["downlink"]
+    assert ed.error.text() and b.services == ["telemetry", "playback"]
     win.act_undo.trigger()
-    assert b.purposes == ["downlink", "ranging"]
+    assert b.services == ["playback"]
+    # SLM has no uplink: commanding, ranging and doppler are greyed out and marked on its booking B007
+    win.doc.select(Selection("booking", "B007"))
+    for s in ("commanding", "ranging", "doppler"):
+        box = ed.fields[f"service:{s}"]
+        assert not box.isEnabled() and "not at SLM" in box.text()
+    assert ed.fields["service:playback"].isEnabled() and ed.fields["service:playback"].isChecked()
+    # B008 continues B007: the handover is shown and can be taken off (undoable)
+    win.doc.select(Selection("booking", "B008"))
+    assert ed.fields["handover_from"].currentText() == "B007"
+    ed.fields["handover_from"].setCurrentText("(none)")
+    ed.apply()
+    assert sc.booking("B008").handover_from is None
+    win.act_undo.trigger()
+    assert sc.booking("B008").handover_from == "B007"
 
 
 @pytest.mark.slow
@@ -867,10 +895,11 @@ def test_double_click_on_a_booking_edits_its_purposes(win, demo_copy, demo_plan,
     QApplication.processEvents()
 
     def fake_exec(dialog):  # the user ticks commanding and presses OK
+        assert dialog.boxes["commanding"].isEnabled()  # ORF has an uplink carrying it
         dialog.boxes["commanding"].setChecked(True)
         return QDialog.DialogCode.Accepted
 
-    monkeypatch.setattr(window_mod.PurposesDialog, "exec", fake_exec)
+    monkeypatch.setattr(window_mod.ServicesDialog, "exec", fake_exec)
     pos = _pos(win, 0.5 * (b.start_tt + b.end_tt), win.timeline.canvas.lane_of_station("ORF") + 0.5)
     vp = win.timeline.viewport()
     with qtbot.waitSignal(win.timeline.editPurposesRequested, timeout=3000) as blocker:
@@ -879,7 +908,7 @@ def test_double_click_on_a_booking_edits_its_purposes(win, demo_copy, demo_plan,
         _send(vp, QEvent.Type.MouseButtonDblClick, pos, Qt.MouseButton.LeftButton)
         _send(vp, QEvent.Type.MouseButtonRelease, pos, Qt.MouseButton.NoButton)
     assert blocker.args == ["B002"]
-    assert b.purposes == ["downlink", "ranging", "commanding"]
+    assert b.services == ["telemetry", "playback", "commanding", "ranging", "doppler"]
     assert win.doc.undo_stack.undoText().startswith("Change B002")
 
 

@@ -86,12 +86,14 @@ def test_models_sort_and_filter(doc):
     bm = BookingsModel(doc)
     bm.refresh()
     assert bm.rowCount() == len(doc.scenario.bookings) == 1
-    assert bm.index(0, 5).data() == "downlink, ranging, commanding"
+    assert bm.index(0, 5).data() == "telemetry, playback, commanding, ranging, doppler"
     assert bm.flags(bm.index(0, 2)) & Qt.ItemFlag.ItemIsEditable
     assert not bm.flags(bm.index(0, 0)) & Qt.ItemFlag.ItemIsEditable
-    assert bm.setData(bm.index(0, 5), "ranging; commanding")
-    assert doc.scenario.booking("B001").purposes == ["ranging", "commanding"]
-    assert not bm.setData(bm.index(0, 5), "ranging, telepathy") and "purposes" in bm.error
+    assert bm.setData(bm.index(0, 5), "ranging; commanding; doppler")
+    assert doc.scenario.booking("B001").services == ["commanding", "ranging", "doppler"]  # in the one order
+    assert not bm.setData(bm.index(0, 5), "ranging, telepathy") and "services" in bm.error
+    doc.undo_stack.undo()
+    assert doc.scenario.booking("B001").services == ["telemetry", "playback", "commanding", "ranging", "doppler"]
 
     fm = FindingsModel(doc)
     fm.refresh()

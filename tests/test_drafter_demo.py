@@ -30,7 +30,7 @@ def test_demo_week_drafted_passes_check_and_never_overflows(demo_plan):
 
     sc, result = demo_plan
     assert result.errors > 0  # the half-drafted week has deliberate conflicts
-    dr = draft(sc, result=result, time_limit_s=10)
+    dr = draft(sc, result=result, time_limit_s=20)
     assert dr.status != INFEASIBLE, dr.explanations
     assert dr.bookings
     # the locked booking stays as it was
@@ -61,11 +61,15 @@ def _run(*args, cwd):
 
 
 def test_cli_draft_writes_scenario_that_checks(tmp_path, minimal_path):
+    # KAL is given a G/T: in format 2 a send-only station cannot monitor the burn (telemetry and doppler),
+    # and SK-01 is seen only from KAL
+    src = tmp_path / "minimal-rx.toml"
+    src.write_text(minimal_path.read_text().replace('height_m = 40.0\n', 'height_m = 40.0\ng_over_t_dbk = 45.0\n'))
     out = tmp_path / "drafted.toml"
-    proc = _run("draft", str(minimal_path), "--out", str(out), "--time-limit", "5", cwd=tmp_path)
+    proc = _run("draft", str(src), "--out", str(out), "--time-limit", "30", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert "bookings added" in proc.stdout and "station cost-hours" in proc.stdout
-    assert "confirm every plan" in proc.stdout
+    assert "confirm every plan" in proc.stdout and "the gap is measured against" in proc.stdout
     sc = load_scenario(out)
     assert sc.bookings and all(b.station in ("NRV", "KAL") for b in sc.bookings)
     chk = _run("check", str(out), cwd=tmp_path)

@@ -180,3 +180,60 @@ def test_matches_the_replaced_tolerant_copies(span, covers):
 @given(st.tuples(fine, fine).filter(lambda s: s[1] > s[0]), pos_spans)
 def test_matches_the_replaced_cutting_copies(span, cuts):
     assert _old_cut([span], cuts) == subtract([span], cuts)
+
+
+# ---------------------------------------------------------------- vectorised path and the index
+import contactplan.intervals as _iv  # noqa: E402
+from contactplan.intervals import SpanIndex  # noqa: E402
+
+loose = st.one_of(fine, st.sampled_from([-np.inf, np.inf, 0.0, 5.0]))
+many_spans = st.lists(st.tuples(loose, loose), max_size=70)
+
+
+def _both_paths(fn, *args):
+    """(plain-Python result, numpy result) of ``fn`` on the same input."""
+    old = _iv.VECTOR_MIN
+    try:
+        _iv.VECTOR_MIN = 10 ** 9
+        plain = fn(*args)
+        _iv.VECTOR_MIN = 1
+        vec = fn(*args)
+    finally:
+        _iv.VECTOR_MIN = old
+    return plain, vec
+
+
+@settings(max_examples=120, deadline=None)
+@given(many_spans, many_spans, st.sampled_from([0.0, 0.0, 1e-3, 0.5, 2.0]))
+def test_vectorised_operations_equal_the_plain_loops_to_the_bit(a, b, tol):
+    for fn, args in ((union, (a,)), (union, (a, tol)), (intersect, (a, b)), (subtract, (a, b, tol))):
+        plain, vec = _both_paths(fn, *args)
+        assert plain == vec, fn.__name__
+        assert all(type(x) is float for s in vec for x in s)
+
+
+@settings(max_examples=80, deadline=None)
+@given(span_lists, span_lists)
+def test_vectorised_operations_are_the_set_operations(a, b):
+    # the same independent model as above, cells of a boolean grid (common practice, no source)
+    _, u = _both_paths(union, a)
+    _, i = _both_paths(intersect, a, b)
+    _, d = _both_paths(subtract, a, b)
+    assert u == _runs(_grid(a))
+    assert i == _runs(_grid(a) & _grid(b))
+    assert d == _runs(_grid(a) & ~_grid(b))
+
+
+@settings(max_examples=120, deadline=None)
+@given(many_spans, st.tuples(fine, fine), pos_spans)
+def test_span_index_reads_only_what_the_operations_read(spans, window, xs):
+    lo, hi = min(window), max(window)
+    index = SpanIndex(spans)
+    assert index.spans == union(spans) and len(index) == len(index.spans)
+    assert index.clip(lo, hi) == clip(spans, lo, hi)
+    inside = [(max(a, lo), min(b, hi)) for a, b in xs]
+    assert subtract(inside, index.overlapping(lo, hi)) == subtract(inside, spans)
+    assert intersect(inside, index.overlapping(lo, hi)) == intersect(inside, spans)
+    if hi > lo:
+        assert index.covers(lo, hi) == (subtract([(lo, hi)], spans) == [])
+    assert SpanIndex(index.spans, merged=True).spans == index.spans

@@ -165,3 +165,27 @@ def test_demo_week_recorder_is_consistent():
         assert got <= top * sum(e - s for s, e in windows) + BIT
     assert r.t_tt[0] == sc.start_tt and r.t_tt[-1] == sc.end_tt
     assert np.all(r.fill_gbit <= rec.capacity_gbit + BIT)
+
+
+# ---------------------------------------------------------------- rate plan look-up by bisection
+from contactplan.link.recorder import plan_steps  # noqa: E402
+
+_edges = st.lists(st.integers(0, 40), min_size=2, max_size=12).map(sorted)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_edges, st.data(), st.floats(-5, 45), st.floats(0, 50), st.booleans())
+def test_plan_steps_equal_the_profile_rate_steps(edges, data, a, length, with_plan):
+    # the bisection on Python lists must give the numbers of PassProfile.rate_steps (numpy), with and
+    # without a rate plan, duplicate edges included
+    rates = data.draw(st.lists(st.sampled_from([0.0, 2.0, 16.0, 256.0]), min_size=len(edges) - 1,
+                               max_size=len(edges) - 1))
+    t = np.array(edges, dtype=float)
+    prof = PassProfile(station="AAA", t_tt=t, elevation_deg=np.full(t.size, 30.0),
+                       rate_kbps=np.array(rates + [rates[-1]]))
+    if with_plan:
+        prof.plan_edges_tt, prof.plan_rates_kbps = t, np.array(rates)
+    e, r = prof.rate_steps(a, a + length)
+    want = list(zip(e[:-1].tolist(), e[1:].tolist(), r.tolist()))
+    assert plan_steps(prof, a, a + length) == want
+    assert plan_steps(prof, a, a + length) == want  # second time from the kept lists

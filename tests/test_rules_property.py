@@ -84,10 +84,21 @@ def test_rules_never_crash_and_stay_in_window(bl, acts, rec, outs, clipped):
 @given(bookings())
 def test_double_booking_matches_pairwise_overlap(bl):
     sc = make_scenario(bl)
-    found = [f for f in check_plan(sc, PASSES) if f.rule == "double-booking"]
+    # format 2: double-booking is about tracks (start + pre-pass to end - post-pass) that overlap;
+    # bookings overlapping only in pre-pass or post-pass are prepass-conflict
+    found = check_plan(sc, PASSES)
+
+    def track(b):
+        return sc.track_span_tt(b)
+
     expected = sum(1 for i, a in enumerate(bl) for b in bl[i + 1:]
-                   if a.station == b.station and a.start_tt < b.end_tt and b.start_tt < a.end_tt)
-    assert len(found) == expected
+                   if a.station == b.station and track(a)[1] > track(a)[0] and track(b)[1] > track(b)[0]
+                   and track(a)[0] < track(b)[1] and track(b)[0] < track(a)[1])
+    assert len([f for f in found if f.rule == "double-booking"]) == expected
+    pre_only = sum(1 for i, a in enumerate(bl) for b in bl[i + 1:]
+                   if a.station == b.station and a.start_tt < b.end_tt and b.start_tt < a.end_tt
+                   and not max(track(a)[0], track(b)[0]) < min(track(a)[1], track(b)[1]))
+    assert len([f for f in found if f.rule == "prepass-conflict" and len(f.subjects) == 3]) == pre_only
 
 
 @settings(max_examples=100, deadline=None)
@@ -108,3 +119,40 @@ def test_union_is_idempotent_on_random_spans():
     assert union(u) == u
     assert all(u[i][1] < u[i + 1][0] for i in range(len(u) - 1))
     assert len(RULES) > 0
+
+
+@settings(max_examples=80, deadline=None)
+@given(bookings())
+def test_ranging_per_day_counts_equal_a_day_by_day_count(bl):
+    # reference: for every whole day, the ranging bookings whose tracked time overlaps it, one by one
+    from contactplan.plan.rules import RuleContext, _whole_days, intersect
+
+    sc = make_scenario(bl, requirements=m.Requirements(ranging_per_day_min=3))
+    ctx = RuleContext.build(sc, PASSES)
+    want = {}
+    for d0, d1 in _whole_days(ctx):
+        n = sum(1 for b in bl if "ranging" in b.purposes and intersect(ctx.tracked(b), [(d0, d1)]))
+        if n < 3:
+            want[d0] = n
+    got = {f.start_tt: f for f in check_plan(sc, PASSES) if f.rule == "no-ranging"}
+    assert sorted(got) == sorted(want)
+    for d0, n in want.items():
+        assert f" has {n} ranging booking" in got[d0].message
+
+
+def test_closed_spans_of_many_profiles_equal_each_profile_s():
+    from contactplan.link.profiles import PassProfile
+    from contactplan.plan.rules import closed_spans_of
+
+    rng = np.random.default_rng(3)
+    profs = []
+    for k in range(30):
+        n = int(rng.integers(0, 12))
+        t = np.sort(rng.uniform(0, 100, n)) + 200.0 * k
+        closes = rng.random(n) < 0.7 if k % 3 else None
+        profs.append(PassProfile(station="NRV", t_tt=t, elevation_deg=np.zeros(n), closes=closes,
+                                 rate_kbps=np.where(rng.random(n) < 0.6, 16.0, 0.0)))
+    want = [s for p in profs for s in p.closed_spans()]
+    assert closed_spans_of(profs) == want
+    assert closed_spans_of(profs) == want  # kept between calls
+    assert sum(1 for _ in want) > 10

@@ -245,20 +245,24 @@ class PlanDocument(QObject):
         self.bookingsChanged.emit()
         self.recheck()
 
-    def add_booking(self, station: str, start_tt: float, end_tt: float, purposes=None) -> str:
-        """Create a booking (undoable); returns its id."""
+    def add_booking(self, station: str, start_tt: float, end_tt: float, purposes=None, services=None) -> str:
+        """Create a booking (undoable); returns its id. ``services`` (default telemetry and playback) win over
+        the v1 ``purposes``."""
         from contactplan.scenario.model import Booking
 
         if end_tt <= start_tt:
             raise ValueError("a booking must end after it starts")
         b = Booking(id=self.scenario.new_booking_id(), station=station, start_tt=float(start_tt),
                     end_tt=float(end_tt), purposes=list(purposes or ["downlink"]))
+        if services is not None:
+            b.services = list(services)
         self.undo_stack.push(AddBooking(self, b))
         self.select(Selection("booking", b.id))
         return b.id
 
     def edit_booking(self, booking_id: str, text: str | None = None, **changes) -> None:
-        """Change fields of a booking (station, start_tt, end_tt, purposes, locked), undoable."""
+        """Change fields of a booking (station, start_tt, end_tt, services, handover_from, locked; the v1
+        ``purposes`` too), undoable."""
         b = self.scenario.booking(booking_id)
         changes = {k: v for k, v in changes.items() if getattr(b, k) != v}
         if not changes:
@@ -275,6 +279,17 @@ class PlanDocument(QObject):
             bad = [p for p in changes["purposes"] if p not in PURPOSES]
             if bad or not changes["purposes"]:
                 raise ValueError(f"purposes must be some of {', '.join(PURPOSES)}")
+        if "services" in changes:
+            from contactplan.scenario.model import SERVICES
+
+            bad = [s for s in changes["services"] if s not in SERVICES]
+            if bad or not changes["services"]:
+                raise ValueError(f"services must be some of {', '.join(SERVICES)}")
+            changes["services"] = [s for s in SERVICES if s in changes["services"]]  # the one order
+        if changes.get("handover_from"):
+            other = self.scenario.booking(changes["handover_from"])  # KeyError for an unknown id
+            if other.id == booking_id:
+                raise ValueError("a booking cannot hand over from itself")
         self.undo_stack.push(EditRecord(self, "booking", booking_id, changes, text or _edit_text(booking_id, changes)))
 
     def delete_bookings(self, ids) -> None:
@@ -284,12 +299,12 @@ class PlanDocument(QObject):
             if self.selection.kind == "booking" and self.selection.key in ids:
                 self.select(NOTHING)
 
-    def edit_record(self, kind: str, rec_id: str, text: str | None = None, **changes) -> None:
-        """Change fields of a station or activity (undoable)."""
-        rec = self._record(kind, rec_id)
+    def edit_record(self, record: str, rec_id: str, text: str | None = None, **changes) -> None:
+        """Change fields of a station or activity (``record``; an activity's own ``kind`` is a field), undoable."""
+        rec = self._record(record, rec_id)
         changes = {k: v for k, v in changes.items() if getattr(rec, k) != v}
         if changes:
-            self.undo_stack.push(EditRecord(self, kind, rec_id, changes, text or _edit_text(rec_id, changes)))
+            self.undo_stack.push(EditRecord(self, record, rec_id, changes, text or _edit_text(rec_id, changes)))
 
     def _record(self, kind: str, rec_id: str):
         if kind == "booking":

@@ -151,6 +151,17 @@ class _Base(QAbstractTableModel):
         return -1
 
 
+def link_margins(per_link, p) -> list:
+    """``[(link id, culmination margin dB)]`` of one pass on every link with a profile for it."""
+    out = []
+    for link_id, profiles in (per_link or {}).items():
+        prof = profiles.get(id(p))
+        m = None if prof is None else prof.culmination_margin_db
+        if m is not None and m == m:
+            out.append((link_id, float(m)))
+    return out
+
+
 def pass_notes(p) -> str:
     out = []
     if p.clipped_start:
@@ -176,11 +187,12 @@ class PassTable:
     date style of its times).
     """
 
-    COLUMNS = 9
+    COLUMNS = 10
 
-    def __init__(self, passes, doy: bool | None = None):
+    def __init__(self, passes, doy: bool | None = None, link_profiles=None):
         self.source = passes
         self.passes = list(passes)
+        self.link_profiles = link_profiles or {}  # link id -> {id(pass): PassProfile}: the margin column
         self.doy = _DOY["on"] if doy is None else bool(doy)
         self.text = LazyText(len(self.passes), self.COLUMNS, self._fill)
         self._keys: list = [None] * self.COLUMNS
@@ -205,6 +217,8 @@ class PassTable:
             return [_num(p.volume_gbit, ".1f") for p in ps]
         if c == 7:
             return [f"{p.min_range_km:,.0f}" for p in ps]
+        if c == 9:
+            return [", ".join(f"{k} {m:+.1f}" for k, m in link_margins(self.link_profiles, p)) for p in ps]
         return [pass_notes(p) for p in ps]
 
     def keys(self, c: int) -> list:
@@ -227,6 +241,8 @@ class PassTable:
                 k = [p.volume_gbit if p.volume_gbit is not None else -1.0 for p in ps]
             elif c == 7:
                 k = [p.min_range_km for p in ps]
+            elif c == 9:  # by the best margin of any link
+                k = [max((m for _k, m in link_margins(self.link_profiles, p)), default=-1e9) for p in ps]
             else:
                 k = self.text.column(8)
             self._keys[c] = k
@@ -253,6 +269,8 @@ class PassesModel(_Base):
         ("Volume (Gbit)", "data the whole pass could bring down"),
         ("Range (km)", "smallest range during the pass"),
         ("Notes", "clipped by the window, Sun or Moon near the line of sight, outages"),
+        ("Margin (dB)", "margin at culmination per link the station offers: down, Eb/N0 above the required; "
+                        "up, Pt/N0 above the required"),
     )
 
     def __init__(self, doc, parent=None):
@@ -270,8 +288,9 @@ class PassesModel(_Base):
     def _rows(self):
         passes = [] if self.doc.result is None else self.doc.result.passes
         t, self._prepared = self._prepared, None
+        per_link = None if self.doc.result is None else getattr(self.doc.result, "link_profiles", None)
         if t is None or t.source is not passes or len(t) != len(passes) or t.doy != _DOY["on"]:
-            t = PassTable(passes)
+            t = PassTable(passes, link_profiles=per_link)
         self.table = t
         self.order = list(range(len(t)))
         return list(t.passes)
@@ -306,7 +325,7 @@ class PassesModel(_Base):
 
 
 class BookingsModel(_Base):
-    """One row per booking; station, times, purposes and the lock are editable (undoable)."""
+    """One row per booking; station, times, services and the lock are editable (undoable)."""
 
     COLUMNS = (
         ("Id", "booking id"),
@@ -314,7 +333,7 @@ class BookingsModel(_Base):
         ("Start (UTC)", "start of the booking (editable, e.g. 2027-01-12T19:00:00Z or 2027-012T19:00Z)"),
         ("End (UTC)", "end of the booking (editable)"),
         ("Length", "hours:minutes"),
-        ("Purposes", "downlink, ranging, commanding (editable, comma separated)"),
+        ("Services", "telemetry, playback, commanding, ranging, doppler (editable, comma separated)"),
         ("Locked", "locked bookings are kept as they are when the week is drafted"),
         ("Down (Gbit)", "data this booking brings down in the recorder simulation"),
         ("Findings", "errors / warnings that name this booking"),
@@ -369,7 +388,7 @@ class BookingsModel(_Base):
             if c == 8:
                 e, w = self._counts(b)
                 return e * 1000 + w
-            return (b.id, b.station, b.start_tt, b.end_tt, b.duration_s, ",".join(b.purposes), int(b.locked))[c]
+            return (b.id, b.station, b.start_tt, b.end_tt, b.duration_s, ",".join(b.services), int(b.locked))[c]
         if role in (Qt.ItemDataRole.DisplayRole, Qt.ItemDataRole.EditRole):
             if c == 8:
                 e, w = self._counts(b)
@@ -377,7 +396,7 @@ class BookingsModel(_Base):
             if c == 6:
                 return "locked" if b.locked and role == Qt.ItemDataRole.DisplayRole else None
             return (b.id, b.station, utc_text(b.start_tt), utc_text(b.end_tt), hours_text(b.duration_s),
-                    ", ".join(b.purposes), None, _num(self._down(b), ".1f"), None)[c]
+                    ", ".join(b.services), None, _num(self._down(b), ".1f"), None)[c]
         if role == Qt.ItemDataRole.ToolTipRole and c == 8:
             return "\n".join(f.message for f in self.doc.findings_for(b.id)) or None
         return None
@@ -411,8 +430,8 @@ class BookingsModel(_Base):
                 t = parse_utc(text)
                 self.doc.edit_booking(b.id, **({"start_tt": t} if c == 2 else {"end_tt": t}))
             elif c == 5:
-                purposes = [p.strip() for p in text.replace(";", ",").split(",") if p.strip()]
-                self.doc.edit_booking(b.id, purposes=purposes)
+                services = [p.strip() for p in text.replace(";", ",").split(",") if p.strip()]
+                self.doc.edit_booking(b.id, services=services)
             else:
                 return False
         except KeyError:

@@ -1,4 +1,7 @@
-"""Property editor for the selected booking, station or activity. Apply pushes one undoable edit."""
+"""Property editor for the selected booking, station or activity. Apply pushes one undoable edit.
+
+A booking's services are a checkable list: a service its station cannot give is greyed out and marked
+(kept checkable while the booking still holds it, so it can be taken off)."""
 
 from __future__ import annotations
 
@@ -6,7 +9,7 @@ from PySide6.QtWidgets import (QCheckBox, QComboBox, QDoubleSpinBox, QFormLayout
                                QPushButton, QVBoxLayout, QWidget)
 
 from contactplan.errors import InputError
-from contactplan.scenario.model import PURPOSES
+from contactplan.scenario.model import ACTIVITY_KINDS, SERVICES
 from contactplan.app.models import utc_text
 from contactplan.timescale import parse_utc
 
@@ -19,6 +22,9 @@ def _spin(value: float, lo: float, hi: float, decimals: int = 2, suffix: str = "
     if suffix:
         s.setSuffix(" " + suffix)
     return s
+
+
+NO_HANDOVER = "(none)"
 
 
 class PropertyEditor(QWidget):
@@ -109,11 +115,24 @@ class PropertyEditor(QWidget):
         self.form.addRow("Station", st)
         self.form.addRow("Start (UTC)", self.fields["start_tt"])
         self.form.addRow("End (UTC)", self.fields["end_tt"])
-        for p in PURPOSES:
-            cb = QCheckBox(p)
-            cb.setChecked(p in b.purposes)
-            self.fields[f"purpose:{p}"] = cb
-            self.form.addRow("Purpose" if p == PURPOSES[0] else "", cb)
+        from contactplan.app.servicemarks import SERVICE_LETTERS, offered
+
+        gives = offered(self.doc.scenario, b.station)
+        for s in SERVICES:
+            cb = QCheckBox(f"{SERVICE_LETTERS[s]}  {s}" + ("" if s in gives else f"  (not at {b.station})"))
+            cb.setChecked(s in b.services)
+            cb.setEnabled(s in gives or s in b.services)
+            cb.setToolTip(f"{s}: {'given' if s in gives else 'not given'} by {b.station}")
+            self.fields[f"service:{s}"] = cb
+            self.form.addRow("Services" if s == SERVICES[0] else "", cb)
+        ho = QComboBox()
+        ho.addItem(NO_HANDOVER)
+        ho.addItems([o.id for o in sorted(self.doc.scenario.bookings, key=lambda o: o.start_tt)
+                     if o.id != b.id and o.station != b.station])
+        ho.setCurrentText(b.handover_from or NO_HANDOVER)
+        ho.setToolTip("the booking at another station this one continues (checked by handover-gap)")
+        self.fields["handover_from"] = ho
+        self.form.addRow("Continues", ho)
         lk = QCheckBox("keep as is when drafting")
         lk.setChecked(b.locked)
         self.fields["locked"] = lk
@@ -123,18 +142,27 @@ class PropertyEditor(QWidget):
         self.title.setText(f"Station {s.id}: {s.name} ({s.latitude_deg:.3f}, {s.longitude_deg:.3f}, {s.height_m:.0f} m)")
         self.fields["name"] = QLineEdit(s.name)
         self.fields["min_elevation_deg"] = _spin(s.min_elevation_deg, -5, 89, 1, "deg")
-        self.fields["setup_min"] = _spin(s.setup_min, 0, 600, 0, "min")
-        self.fields["teardown_min"] = _spin(s.teardown_min, 0, 600, 0, "min")
+        self.fields["pre_pass_min"] = _spin(s.pre_pass_min, 0, 600, 0, "min")
+        self.fields["post_pass_min"] = _spin(s.post_pass_min, 0, 600, 0, "min")
         self.fields["cost_per_hour"] = _spin(s.cost_per_hour, 0, 1e6, 2)
         self.form.addRow("Name", self.fields["name"])
         self.form.addRow("Lowest elevation", self.fields["min_elevation_deg"])
-        self.form.addRow("Set-up", self.fields["setup_min"])
-        self.form.addRow("Tear-down", self.fields["teardown_min"])
+        self.form.addRow("Pre-pass", self.fields["pre_pass_min"])
+        self.form.addRow("Post-pass", self.fields["post_pass_min"])
+        from contactplan.app.servicemarks import offered
+
+        gives = offered(self.doc.scenario, s.id)
+        self.form.addRow("Gives", QLabel(", ".join(x for x in SERVICES if x in gives) or "no services"))
         self.form.addRow("Cost per hour", self.fields["cost_per_hour"])
         self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes."))
 
     def _build_activity(self, a) -> None:
         self.title.setText(f"Activity {a.id} ({a.kind})")
+        kind = QComboBox()
+        kind.addItems(list(ACTIVITY_KINDS))
+        kind.setCurrentText(a.kind)
+        self.fields["kind"] = kind
+        self.form.addRow("Kind", kind)
         self.fields["start_tt"] = QLineEdit(utc_text(a.start_tt))
         self.fields["duration_min"] = _spin(a.duration_min, 0, 7 * 1440, 1, "min")
         self.fields["downlink_keepout_min"] = _spin(a.downlink_keepout_min, 0, 1440, 1, "min")
@@ -145,6 +173,15 @@ class PropertyEditor(QWidget):
         self.form.addRow("No downlink margin", self.fields["downlink_keepout_min"])
         self.form.addRow("Watch before", self.fields["monitor_before_min"])
         self.form.addRow("Watch after", self.fields["monitor_after_min"])
+        lead = _spin(a.command_lead_h or 0.0, 0, 720, 1, "h")
+        lead.setSpecialValueText("none")  # 0: no command load to plan
+        lead.setToolTip("a commanding track must end this long before the burn or momentum dump (command-load)")
+        self.fields["command_lead_h"] = lead
+        backup = QCheckBox("a second commanding track at another station or pass")
+        backup.setChecked(bool(a.command_backup))
+        self.fields["command_backup"] = backup
+        self.form.addRow("Command lead", lead)
+        self.form.addRow("Backup", backup)
         if a.series is not None:
             for w in self.fields.values():
                 w.setEnabled(False)
@@ -155,7 +192,7 @@ class PropertyEditor(QWidget):
     def values(self) -> dict:
         out = {}
         for k, w in self.fields.items():
-            if k.startswith("purpose:"):
+            if k.startswith("service:"):
                 continue
             if isinstance(w, QComboBox):
                 out[k] = w.currentText()
@@ -168,7 +205,10 @@ class PropertyEditor(QWidget):
             else:
                 out[k] = w.text().strip()
         if self.kind == "booking":
-            out["purposes"] = [p for p in PURPOSES if self.fields[f"purpose:{p}"].isChecked()]
+            out["services"] = [s for s in SERVICES if self.fields[f"service:{s}"].isChecked()]
+            out["handover_from"] = None if out["handover_from"] == NO_HANDOVER else out["handover_from"]
+        if self.kind == "activity":
+            out["command_lead_h"] = out["command_lead_h"] or None
         return out
 
     def apply(self) -> None:

@@ -47,6 +47,7 @@ class SkyView(QWidget):
         self.station = None
         self.track = None  # (t, az, el)
         self.note = ""
+        self.margins_line = ""  # the margin per link shown under the title (last paint)
         doc.selectionChanged.connect(self._selection)
         doc.scenarioReplaced.connect(self.clear)
         doc.resultChanged.connect(self.clear)
@@ -82,6 +83,13 @@ class SkyView(QWidget):
                 except Exception as exc:  # geometry not available: show the end points only
                     self.note = f"track not available: {exc}"
         self.update()
+
+    def margins_for(self, q) -> str:
+        """``margin X-DN +6.1 dB, X-UP +30.2 dB`` at culmination ('' without link profiles)."""
+        from contactplan.app.servicemarks import margins_text
+
+        text = margins_text(self.doc.result, q)
+        return f"margin {text}" if text else ""
 
     def paintEvent(self, _ev):
         th = theme.current()
@@ -152,6 +160,9 @@ class SkyView(QWidget):
         title = (f"{q.station}  {format_utc(q.aos_tt, 0)[5:16]} - {format_utc(q.los_tt, 0)[5:16]}  "
                  f"max {q.max_elevation_deg:.1f} deg")
         p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter), title)
+        self.margins_line = self.margins_for(q)
+        if self.margins_line:  # culmination margin per link, under the title
+            p.drawText(QRectF(0, 18, self.width(), 16), int(Qt.AlignmentFlag.AlignCenter), self.margins_line)
         # track
         if self.track is not None:
             _t, az, el = self.track

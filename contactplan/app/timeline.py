@@ -20,6 +20,7 @@ from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen
 from contactplan.app import theme
 from contactplan.app.document import NOTHING, Selection
 from contactplan.app.spans import DETAIL_MAX, SpanIndex, paint_runs
+from contactplan.app.servicemarks import letters, margins_text, paint_marks, services_text
 from contactplan.timescale import DAY_S, day_of_year, format_utc, now_tt, utc_day_start, utc_days
 
 GRID_S = 300.0  # bookings snap to a 5-minute grid ...
@@ -232,6 +233,8 @@ class LanesCanvas(pg.GraphicsObject):
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
         self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
                                                     max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
+        self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
+        self._marks_until: dict = {}
         self.setZValue(10)
 
     # ------------------------------------------------------------ geometry
@@ -474,6 +477,8 @@ class LanesCanvas(pg.GraphicsObject):
         # bookings
         bold = QFont(small)
         bold.setBold(True)
+        self.marks_drawn = {}
+        self._marks_until = {}  # lane -> right edge (px) of the last mark row drawn in it
         shown = self._booking_index.visible(sc.bookings, self.doc.revision, t_lo, t_hi)
         if len(shown) > DETAIL_MAX:  # merged runs per lane; the selected and the dragged one in full
             lanes_of = {st.id: i for i, st in enumerate(self.stations, start=1)}
@@ -482,7 +487,7 @@ class LanesCanvas(pg.GraphicsObject):
                                                 (self.drag.booking if self.drag else None)],
                                   lane, th, {}, th.booking, 0.28, 0.72)
             shown = [b for b in shown if sel.kind == "booking" and sel.key == b.id]
-        for b in shown:
+        for b in sorted(shown, key=lambda b: b.start_tt):
             if b.end_tt < t_lo or b.start_tt > t_hi:
                 continue
             if self.drag is not None and self.drag.booking is b:
@@ -491,7 +496,9 @@ class LanesCanvas(pg.GraphicsObject):
             if lane < 0:
                 continue
             self._draw_booking(painter, rect(b.start_tt, b.end_tt, lane + 0.28, lane + 0.72), b, th, bold,
-                               selected=(sel.kind == "booking" and sel.key == b.id))
+                               selected=(sel.kind == "booking" and sel.key == b.id),
+                               track=rect(*sc.track_span_tt(b), lane + 0.28, lane + 0.72),
+                               spare=rect(b.start_tt, b.end_tt, lane + 0.73, lane + 0.99))
         # drag preview
         d = self.drag
         if d is not None and d.start_tt is not None and d.end_tt is not None:
@@ -557,9 +564,18 @@ class LanesCanvas(pg.GraphicsObject):
             painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
             painter.drawRect(r.adjusted(-5, -5, 5, 5))
 
-    def _draw_booking(self, painter, r: QRectF, b, th, font, selected: bool) -> None:
-        painter.fillRect(r, th.booking_locked if b.locked else th.booking)
-        painter.setPen(QPen(th.booking_edge, 1))
+    def _draw_booking(self, painter, r: QRectF, b, th, font, selected: bool, track=None, spare=None) -> None:
+        fill = th.booking_locked if b.locked else th.booking
+        if track is not None and track.width() < r.width():  # pre-pass and post-pass: lighter, dotted edge
+            bg = th.background
+            light = QColor(int(0.45 * fill.red() + 0.55 * bg.red()), int(0.45 * fill.green() + 0.55 * bg.green()),
+                           int(0.45 * fill.blue() + 0.55 * bg.blue()))  # the booking's colour, faded
+            painter.fillRect(r, light)
+            painter.fillRect(track.intersected(r), fill)
+        else:
+            painter.fillRect(r, fill)
+        painter.setPen(QPen(th.booking_edge, 1, Qt.PenStyle.DotLine if track is not None and
+                            track.width() < r.width() else Qt.PenStyle.SolidLine))
         painter.setBrush(Qt.BrushStyle.NoBrush)
         painter.drawRect(r)
         if b.locked:  # a second cue besides the darker fill: a bar across the top
@@ -571,9 +587,14 @@ class LanesCanvas(pg.GraphicsObject):
         if r.width() > 34:
             painter.setFont(font)
             painter.setPen(QPen(QColor("#1A1A1A")))
-            tags = "".join(p[0].upper() for p in b.purposes)
-            painter.drawText(r.adjusted(4, 0, -2, 0), int(Qt.AlignmentFlag.AlignVCenter | Qt.AlignmentFlag.AlignLeft),
-                             f"{b.id} {tags}" if r.width() > 70 else b.id)
+            painter.drawText(r.adjusted(4, 1, -2, 0), int(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft), b.id)
+        # one mark per booked service (T P C R D), inside the block or beside it at week zoom
+        lane = self.lane_of_station(b.station)
+        drawn = paint_marks(painter, r, b.services, spare if spare is not None else r, th.booking_edge,
+                            after_x=self._marks_until.get(lane, -1e9))
+        if drawn:  # the next booking's row starts right of this one (overlapping bookings stay readable)
+            self._marks_until[lane] = drawn[-1][1].right() + 2
+        self.marks_drawn[b.id] = drawn
 
     # ------------------------------------------------------------ hit tests
     def booking_at(self, x: float, y: float):
@@ -624,8 +645,13 @@ class LanesCanvas(pg.GraphicsObject):
         lines = [format_utc(t, 0)]
         b, part = self.booking_at(x, y)
         if b is not None:
-            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)} "
-                         f"({', '.join(b.purposes)}{', locked' if b.locked else ''})")
+            bot, eot = sc.track_span_tt(b)
+            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)}"
+                         f"{', locked' if b.locked else ''}")
+            lines.append(f"track (BOT to EOT) {format_utc(bot, 0)} to {format_utc(eot, 0)}")
+            lines.append(f"services: {services_text(sc, b)} [{letters(b.services)}]")
+            if b.handover_from:
+                lines.append(f"continues {b.handover_from} (handover)")
             for f in self.doc.findings_for(b.id)[:4]:
                 lines.append(f"{f.severity}: {f.message}")
             if part in ("start", "end"):
@@ -653,6 +679,9 @@ class LanesCanvas(pg.GraphicsObject):
                 vol = "" if p.volume_gbit is None else f", {p.volume_gbit:.1f} Gbit"
                 lines.append(f"pass {p.station} {format_utc(p.aos_tt, 0)} to {format_utc(p.los_tt, 0)}, "
                              f"max {p.max_elevation_deg:.1f} deg{rate}{vol}")
+                margins = margins_text(self.doc.result, p)
+                if margins:
+                    lines.append(f"margin at culmination: {margins}")
                 lines.append("drag across it to book")
         for a in sc.activities:
             k0, k1 = a.keepout_span_tt
@@ -703,7 +732,7 @@ class LanesCanvas(pg.GraphicsObject):
         menu = QMenu()
         if b is not None:
             self.doc.select(Selection("booking", b.id))
-            menu.addAction("Edit purposes...", lambda: self.tl.editPurposesRequested.emit(b.id))
+            menu.addAction("Edit services...", lambda: self.tl.editPurposesRequested.emit(b.id))
             menu.addAction("Unlock" if b.locked else "Lock",
                            lambda: self.doc.edit_booking(b.id, locked=not b.locked))
             menu.addAction("Delete", lambda: self.doc.delete_bookings([b.id]))

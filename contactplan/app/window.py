@@ -29,7 +29,7 @@ from contactplan.app.skyview import SkyView
 from contactplan.app.timeline import Timeline
 from contactplan.app.worker import Job
 from contactplan.errors import InputError
-from contactplan.scenario.model import PURPOSES
+from contactplan.scenario.model import SERVICES
 from contactplan.timescale import DAY_S, format_utc, parse_utc
 
 log = logging.getLogger("contactplan.app")
@@ -94,15 +94,21 @@ class SetEphemeris(QUndoCommand):
         self._set(self.old)
 
 
-class PurposesDialog(QDialog):
-    def __init__(self, booking, parent=None):
+class ServicesDialog(QDialog):
+    """The booking's services; those its station cannot give are greyed out unless booked."""
+
+    def __init__(self, booking, parent=None, gives=None):
         super().__init__(parent)
-        self.setWindowTitle(f"Purposes of {booking.id}")
+        from contactplan.app.servicemarks import SERVICE_LETTERS
+
+        self.setWindowTitle(f"Services of {booking.id}")
         lay = QVBoxLayout(self)
         self.boxes = {}
-        for p in PURPOSES:
-            cb = QCheckBox(p)
-            cb.setChecked(p in booking.purposes)
+        gives = set(SERVICES) if gives is None else set(gives)
+        for p in SERVICES:
+            cb = QCheckBox(f"{SERVICE_LETTERS[p]}  {p}" + ("" if p in gives else f"  (not at {booking.station})"))
+            cb.setChecked(p in booking.services)
+            cb.setEnabled(p in gives or p in booking.services)
             self.boxes[p] = cb
             lay.addWidget(cb)
         bb = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok | QDialogButtonBox.StandardButton.Cancel)
@@ -110,8 +116,14 @@ class PurposesDialog(QDialog):
         bb.rejected.connect(self.reject)
         lay.addWidget(bb)
 
-    def purposes(self) -> list:
+    def services(self) -> list:
         return [p for p, cb in self.boxes.items() if cb.isChecked()]
+
+
+def _marks_legend() -> str:
+    from contactplan.app.servicemarks import legend_text
+
+    return legend_text()
 
 
 class StationDelegate(QStyledItemDelegate):
@@ -377,7 +389,7 @@ class MainWindow(QMainWindow):
         self.act_delete.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
         self.timeline.addAction(self.act_delete)
         self.bookings_view.addAction(self.act_delete)
-        self.act_purposes = self._act("Edit &purposes...", lambda: self.edit_purposes(None), "Ctrl+E")
+        self.act_purposes = self._act("Edit &services...", lambda: self.edit_purposes(None), "Ctrl+E")
         self.act_book_pass = self._act("&Book the selected pass", self.book_selected_pass, "Ctrl+B")
         self.act_zoom_in = self._act("Zoom &in", lambda: self.timeline.zoom(0.5), K.ZoomIn, "zoom-in")
         self.act_zoom_out = self._act("Zoom &out", lambda: self.timeline.zoom(2.0), K.ZoomOut, "zoom-out")
@@ -738,10 +750,12 @@ class MainWindow(QMainWindow):
         if b is None:
             self.statusBar().showMessage("Select a booking first", 5000)
             return
-        dlg = PurposesDialog(b, self)
+        from contactplan.app.servicemarks import offered
+
+        dlg = ServicesDialog(b, self, offered(self.doc.scenario, b.station))
         if dlg.exec() == QDialog.DialogCode.Accepted:
             try:
-                self.doc.edit_booking(b.id, purposes=dlg.purposes())
+                self.doc.edit_booking(b.id, services=dlg.services())
             except ValueError as exc:
                 self.show_error(str(exc))
 
@@ -1095,7 +1109,7 @@ class MainWindow(QMainWindow):
         def fn(progress, cancel):
             result = compute_plan(sc, progress=progress, cancel=cancel)
             # the passes table's keys and texts are made here too, so the window only swaps them in
-            prepared["table"] = PassTable(result.passes, doy=doy).prepare()
+            prepared["table"] = PassTable(result.passes, doy=doy, link_profiles=result.link_profiles).prepare()
             prepared["findings"] = index_findings(result.findings)
             return result
 
@@ -1230,7 +1244,8 @@ class MainWindow(QMainWindow):
         rows = [
             (sw(th.pass_low) + sw(th.pass_colour(0.5)) + sw(th.pass_high),
              "pass; darker = higher rate (or elevation, View menu); black ticks = AOS and LOS"),
-            (sw(th.booking), "booking (letters: D downlink, R ranging, C commanding)"),
+            (sw(th.booking), "booking track (BOT to EOT); lighter, dotted ends: pre-pass and post-pass; "
+                             "lettered boxes: its services (" + _marks_legend() + ")"),
             (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
             (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
             (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
@@ -1247,7 +1262,7 @@ class MainWindow(QMainWindow):
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
                  "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Delete removes, double-click edits "
-                 "purposes. "
+                 "services. "
                  "Arrows pan, +/- zoom, Page Up/Down or Alt+Left/Right change week, Ctrl+G goes to a given week, "
                  "Home shows the whole window.</p>")
         box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)

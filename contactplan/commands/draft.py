@@ -3,8 +3,10 @@
 Locked bookings stay; unlocked ones inside the drafting span are replaced by the
 drafter's proposal (see :mod:`contactplan.plan.drafter`). The scenario is
 written to ``--out`` with the new bookings, atomically. Exit status 0 when a
-plan was written, 1 when the requirements cannot all be met (nothing written,
-the reasons printed), 2 for bad input.
+plan meeting every requirement was written, 1 when the requirements cannot all
+be met or the drafted plan still misses one (nothing written, the reasons
+printed; with ``--best-effort`` a plan that misses only requirement warnings is
+written, exit 0, and what it misses listed), 2 for bad input.
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ EXAMPLES = """\
   contactplan draft week.toml --start 2027-01-14T00:00:00Z --end 2027-01-16T00:00:00Z --out week-b.toml
   contactplan draft week.toml --time-limit 30 --grid 5 --out week-fine.toml
   contactplan draft week.toml --recorder-limit 90 --out week-margin.toml   # keep a 10 % margin
+  contactplan draft week.toml --best-effort --out week-partial.toml   # write it even if a requirement is missed
 """
 
 
@@ -29,13 +32,17 @@ def add_arguments(parser) -> None:
                         help="draft from this UTC time (default: the scenario's start)")
     parser.add_argument("--end", metavar="T", default=None,
                         help="draft up to this UTC time (default: the scenario's end)")
-    parser.add_argument("--time-limit", metavar="S", type=float, default=10.0,
-                        help="seconds the solver may take; the best plan found by then is kept (default 10)")
+    parser.add_argument("--time-limit", metavar="S", type=float, default=60.0,
+                        help="safety limit in seconds (the search is bounded by work, so the same input gives "
+                             "the same plan; when this limit stops it first, the best plan so far is kept; "
+                             "default 60)")
     parser.add_argument("--grid", metavar="MIN", type=float, default=10.0,
                         help="booking edges on this grid of minutes, 5 to 15 (default 10)")
     parser.add_argument("--recorder-limit", metavar="PCT", type=float, default=100.0,
                         help="fill the recorder to at most this percentage of its capacity, 50 to 100 "
                              "(default 100; 90 keeps clear of the recorder-high warning)")
+    parser.add_argument("--best-effort", action="store_true",
+                        help="write the plan even when it misses a requirement warning (each one listed)")
 
 
 def run(args) -> int:
@@ -91,9 +98,17 @@ def run(args) -> int:
         lines.append(CAUTION)
         sys.stdout.write("\n".join(lines) + "\n")
         return 1
+    missed = dr.unmet
+    if missed and not args.best_effort:
+        lines.append(f"the drafted plan misses {len(missed)} requirement{'s' if len(missed) != 1 else ''} "
+                     f"(listed above), so nothing was written to {out}; --best-effort writes it anyway")
+        lines.append(CAUTION)
+        sys.stdout.write("\n".join(lines) + "\n")
+        return 1
     new_sc = dr.apply(scenario)
     save_scenario(new_sc, out, backup=out.exists())
-    lines.append(f"wrote the scenario with {len(new_sc.bookings)} bookings to {out}")
+    lines.append(f"wrote the scenario with {len(new_sc.bookings)} bookings to {out}"
+                 + (f" (best effort: {len(missed)} requirements missed)" if missed else ""))
     lines.append(CAUTION)
     sys.stdout.write("\n".join(lines) + "\n")
     return 0

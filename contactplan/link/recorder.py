@@ -21,13 +21,44 @@ initial + generated = downlinked + on board + lost to rounding (far below a bit)
 
 from __future__ import annotations
 
+import weakref
+from bisect import bisect_left, bisect_right
+
 import numpy as np
 
 from contactplan.link.profiles import RecorderResult
-from contactplan.link.windows import downlink_pieces
+from contactplan.link.windows import DownlinkIndex, downlink_pieces
 
 #: spacing (s) of the extra regular samples added to the result for plotting the age
 SAMPLE_S = 600.0
+
+
+#: each profile's rate plan as Python lists, {PassProfile: (plan edges array, plan rates array, edges, rates)};
+#: a profile never changes once computed (the arrays are compared by identity all the same)
+_PLANS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def plan_steps(prof, start_tt: float, end_tt: float) -> list:
+    """``[(e0, e1, rate_kbps)]`` of ``prof.rate_steps(start_tt, end_tt)``, the same numbers, found by
+    bisection in the profile's plan kept as Python lists (a few steps per piece: cheaper than arrays)."""
+    pe, pr = prof.plan_edges_tt, prof.plan_rates_kbps
+    if pr is None:
+        edges, rates = prof.rate_steps(start_tt, end_tt)
+        return list(zip(edges[:-1].tolist(), edges[1:].tolist(), rates.tolist()))
+    got = _PLANS.get(prof)
+    if got is None or got[0] is not pe or got[1] is not pr:
+        got = (pe, pr, np.asarray(pe, dtype=float).tolist(), np.asarray(pr, dtype=float).tolist())
+        _PLANS[prof] = got
+    e, r = got[2], got[3]
+    if not r:
+        return []
+    lo, hi = max(float(start_tt), e[0]), min(float(end_tt), e[-1])
+    if not hi > lo:
+        return []
+    out_e = [lo] + e[bisect_right(e, lo):bisect_left(e, hi)] + [hi]  # the plan's edges strictly inside
+    last = len(r) - 1
+    return [(out_e[i], out_e[i + 1], r[min(max(bisect_right(e, out_e[i]) - 1, 0), last)])
+            for i in range(len(out_e) - 1)]
 
 
 def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, end_tt: float):
@@ -36,30 +67,38 @@ def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, e
     Returns (edges_tt, rate_kbps, booking_index) with len(edges) = len(rates) + 1;
     booking_index is -1 where nothing is downlinked.
     """
-    steps = []  # (e0, e1, rate, booking index)
-    for bi, booking in enumerate(bookings):
+    parts = []  # per piece: (step starts, step ends, rates, booking index), steps of rate > 0 only
+    index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once for all bookings
+    for k, booking in enumerate(bookings):
         if booking.end_tt <= start_tt or booking.start_tt >= end_tt:
             continue
-        for s0, s1, p in downlink_pieces(scenario, booking, passes):
+        for s0, s1, p in downlink_pieces(scenario, booking, passes, index):
             prof = profiles.get(id(p))
             if prof is None:
                 continue
-            edges, rates = prof.rate_steps(max(s0, start_tt), min(s1, end_tt))
-            for k in range(rates.size):
-                if rates[k] > 0:
-                    steps.append((edges[k], edges[k + 1], rates[k], bi))
-    if not steps:
+            for a, b, rate in plan_steps(prof, max(s0, start_tt), min(s1, end_tt)):
+                if rate > 0:
+                    parts.append((a, b, rate, k))
+    if not parts:
         return np.array([start_tt, end_tt]), np.zeros(1), np.full(1, -1)
-    grid = np.unique(np.concatenate(([start_tt, end_tt], [s[0] for s in steps], [s[1] for s in steps])))
+    e0, e1, r, bi = (np.array(x) for x in zip(*parts))
+    r = r.astype(float)
+    n_steps = e0.size
+    grid = np.unique(np.concatenate(([start_tt, end_tt], e0, e1)))
+    i0 = np.searchsorted(grid, e0)
+    i1 = np.searchsorted(grid, e1)
+    # every (cell, step) covering it; per cell the highest rate wins, the first step in order on a tie
+    n = np.maximum(i1 - i0, 0)
+    order = np.repeat(np.arange(n_steps), n)
+    cell = np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n) + np.repeat(i0, n)
+    pick = np.lexsort((order, -r[order], cell))
+    cell, order = cell[pick], order[pick]
+    first = np.ones(cell.size, dtype=bool)
+    first[1:] = cell[1:] != cell[:-1]
     rate = np.zeros(grid.size - 1)
     owner = np.full(grid.size - 1, -1)
-    i0 = np.searchsorted(grid, [s[0] for s in steps])
-    i1 = np.searchsorted(grid, [s[1] for s in steps])
-    for (e0, e1, r, bi), a, b in zip(steps, i0, i1):
-        sl = slice(a, b)
-        better = r > rate[sl]
-        rate[sl] = np.where(better, r, rate[sl])
-        owner[sl] = np.where(better, bi, owner[sl])
+    rate[cell[first]] = r[order[first]]
+    owner[cell[first]] = bi[order[first]]
     keep = np.concatenate(([True], (rate[1:] != rate[:-1]) | (owner[1:] != owner[:-1])))
     return np.concatenate((grid[:-1][keep], [grid[-1]])), rate[keep], owner[keep]
 

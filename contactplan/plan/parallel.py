@@ -171,36 +171,46 @@ def _reattach(scenario, passes) -> None:
 
 # ---------------------------------------------------------------- link profiles
 def _profile_task(scenario, ephemeris, passes, ref_tt):
-    """Link columns and profiles of these passes (one station group; run in a worker)."""
-    from contactplan.link.volume import annotate_passes
+    """Link columns and every link's profiles of these passes (one station group; run in a worker)."""
+    from contactplan.link.volume import annotate_links
 
-    prof = annotate_passes(scenario, passes, ephemeris, ref_tt=ref_tt) or {}
-    return [(p.max_rate_kbps, p.volume_gbit, prof.get(id(p))) for p in passes]
+    per_link = annotate_links(scenario, passes, ephemeris, ref_tt=ref_tt) or {}
+    cols = [(p.max_rate_kbps, p.volume_gbit) for p in passes]
+    prof = {lid: {i: got[id(p)] for i, p in enumerate(passes) if id(p) in got} for lid, got in per_link.items()}
+    return cols, prof
 
 
-def link_profiles(scenario, passes, ephemeris, executor=None, workers: int | None = None,
-                  split: bool | None = None) -> dict:
-    """:func:`contactplan.plan.pipeline.link_profiles`, split by station over an executor when large."""
-    from contactplan.plan.pipeline import link_profiles as one_core
+def all_link_profiles(scenario, passes, ephemeris, executor=None, workers: int | None = None,
+                      split: bool | None = None) -> tuple[dict, dict]:
+    """:func:`contactplan.plan.pipeline.all_link_profiles`, split by station over an executor when large."""
+    from contactplan.link.volume import playback_profiles
+    from contactplan.plan.pipeline import all_link_profiles as one_core
 
-    if not passes:
-        return {}
+    if not passes or not any(lk.has_budget for lk in scenario.spacecraft.links):
+        return {}, {}
     n_workers = workers or worker_count()
     if split is None:
         split = executor is not None or (n_workers > 1 and len(passes) >= MIN_PASSES)
-    if not split or scenario.spacecraft.link is None:
+    if not split:
         return one_core(scenario, passes, ephemeris)
     ref = float(np.min([p.aos_tt for p in passes]))
     by_station: dict[str, list] = {}
     for p in passes:
         by_station.setdefault(p.station, []).append(p)
     groups = [sum((by_station[s] for s in g), []) for g in _groups(list(by_station), n_workers)]
-    out = {}
+    per_link: dict = {}
     with _OwnPool(executor, n_workers) as pool:
         futures = [pool.submit(_profile_task, scenario, ephemeris, g, ref) for g in groups]
         for g, fut in zip(groups, futures):
-            for p, (rate, volume, prof) in zip(g, fut.result()):
+            cols, prof = fut.result()
+            for p, (rate, volume) in zip(g, cols):
                 p.max_rate_kbps, p.volume_gbit = rate, volume
-                if prof is not None:
-                    out[id(p)] = prof
-    return out
+            for lid, got in prof.items():
+                per_link.setdefault(lid, {}).update({id(g[i]): pr for i, pr in got.items()})
+    return playback_profiles(scenario, passes, per_link), per_link
+
+
+def link_profiles(scenario, passes, ephemeris, executor=None, workers: int | None = None,
+                  split: bool | None = None) -> dict:
+    """:func:`contactplan.plan.pipeline.link_profiles` (playback-link profiles), split like :func:`all_link_profiles`."""
+    return all_link_profiles(scenario, passes, ephemeris, executor, workers, split)[0]

@@ -1,0 +1,908 @@
+"""The drafter's model: slot grid, candidate bookings and the mixed-integer programme.
+
+See :mod:`contactplan.plan.drafter` for what the model means; this module builds it
+(:func:`build_plan`, :func:`candidates`, :func:`build_model`) and runs HiGHS through
+:func:`scipy.optimize.milp` (:func:`solve`, :func:`lp_bound`).
+
+Times are TT seconds since J2000 (``_tt``); volumes in gigabits (1e9 bit).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from contactplan.intervals import subtract, union
+from contactplan.timescale import format_utc, tt_to_utc_fields, utc_days
+
+
+#: cost-hours charged per booking: small beside one slot of station time, so it only breaks ties
+BOOKING_CHARGE = 0.01
+#: above this many candidate bookings the booking-edge lattice is thinned (HiGHS stays fast below it)
+MAX_CANDIDATES = 6500
+#: the model keeps the recorder this far below capacity (gigabits) as a rounding guard
+FILL_GUARD_GBIT = 1e-3
+#: time tolerance (s); also the sliver size for span operations here: covers closer than this are
+#: joined and pieces this short dropped (``tol``/``join_gap`` of :mod:`contactplan.intervals`)
+_TOL = 1e-3
+#: HiGHS presolve spends seconds on these network models for little gain; it stays off
+_PRESOLVE = False
+
+
+# ---------------------------------------------------------------- small helpers
+def _floor_minute(t: np.ndarray) -> np.ndarray:
+    """Round TT instants down to the whole UTC minute."""
+    t = np.asarray(t, dtype=float)
+    _, sod = tt_to_utc_fields(t)
+    return t - np.mod(sod, 60.0)
+
+
+def _ceil_minute(t: np.ndarray) -> np.ndarray:
+    t = np.asarray(t, dtype=float)
+    f = _floor_minute(t)
+    return np.where(t - f > _TOL, f + 60.0, f)
+
+
+def _span_text(a: float, b: float) -> str:
+    return f"{format_utc(a, 0)} to {format_utc(b, 0)}"
+
+
+def _hm(seconds: float) -> str:
+    return f"{seconds / 3600.0:.1f} h"
+
+
+def _keepout_spans(scenario) -> list:
+    """(start_tt, end_tt, activity id) in which no downlink may run: every activity with its keep-out
+    (the same spans the plan rules and the recorder use)."""
+    out = []
+    for a in scenario.activities:
+        s, e = a.keepout_span_tt
+        if e > s:
+            out.append((s, e, a.id))
+    return out
+
+
+def _overlap_len(a0, a1, b0, b1):
+    return np.maximum(0.0, np.minimum(a1, b1) - np.maximum(a0, b0))
+
+
+def _cover_fn(spans):
+    """(edges, cumulative seconds) of sorted disjoint spans: ``_covered`` then gives the seconds of
+    [a, b] they cover, for arrays of a and b at once (one interpolation)."""
+    spans = union(spans, join_gap=_TOL)
+    if not spans:
+        return np.array([0.0, 1.0]), np.zeros(2)
+    xs = np.array(spans, dtype=float).ravel()
+    lens = np.diff(xs)
+    lens[1::2] = 0.0  # gaps between spans cover nothing
+    return xs, np.concatenate(([0.0], np.cumsum(lens)))
+
+
+def _covered(fn, a, b):
+    xs, cum = fn
+    return np.interp(b, xs, cum) - np.interp(a, xs, cum)
+
+
+def _tracked(scenario, booking, passes_by_station) -> list:
+    """Where a booking's station hears the spacecraft: after setup, before teardown, inside passes,
+    outside outages (the plan rules' "tracked time")."""
+    try:
+        st = scenario.station(booking.station)
+    except KeyError:
+        return []
+    a = booking.start_tt + st.setup_min * 60.0
+    b = booking.end_tt - st.teardown_min * 60.0
+    if b <= a:
+        return []
+    inside = [(max(a, p.aos_tt), min(b, p.los_tt)) for p in passes_by_station.get(booking.station, ())
+              if p.aos_tt < b and p.los_tt > a]
+    out = []
+    for span in inside:
+        # one pass at a time, so pieces of touching passes stay apart; slivers of _TOL or less dropped
+        out.extend(subtract([span], [(o.start_tt, o.end_tt) for o in st.outages], tol=_TOL))
+    return out
+
+
+# ---------------------------------------------------------------- rates
+class _Rates:
+    """Downlink volume a station's pass profiles can return over intervals (step rates, exact)."""
+
+    def __init__(self, passes, profiles):
+        per: dict = {}
+        for p in passes:
+            prof = profiles.get(id(p)) if profiles else None
+            if prof is None or len(getattr(prof, "t_tt", ())) < 2:
+                continue
+            if hasattr(prof, "rate_steps"):
+                edges, rates = prof.rate_steps()
+            else:
+                edges = np.asarray(prof.t_tt, dtype=float)
+                rates = np.asarray(prof.rate_kbps, dtype=float)[:-1]
+            edges = np.asarray(edges, dtype=float)
+            rates = np.nan_to_num(np.asarray(rates, dtype=float))
+            if rates.size == 0:
+                continue
+            # clip to the pass: no downlink outside it
+            edges = np.clip(edges, p.aos_tt, p.los_tt)
+            per.setdefault(p.station, []).append((edges, rates))
+        self.cum: dict = {}
+        for st, items in per.items():
+            items.sort(key=lambda x: x[0][0])
+            xs, ys = [], []
+            total = 0.0
+            for edges, rates in items:
+                c = total + np.concatenate(([0.0], np.cumsum(rates * np.diff(edges) * 1e-6)))
+                if xs and edges[0] <= xs[-1][-1]:
+                    edges = np.maximum(edges, xs[-1][-1])
+                xs.append(edges)
+                ys.append(c)
+                total = c[-1]
+            self.cum[st] = (np.concatenate(xs), np.concatenate(ys))
+
+    def volume(self, station: str, a, b):
+        """Gigabits returned over [a, b] at the station's rate moment by moment (arrays broadcast)."""
+        if station not in self.cum:
+            return np.zeros(np.broadcast(np.asarray(a), np.asarray(b)).shape) if np.ndim(a) or np.ndim(b) else 0.0
+        x, y = self.cum[station]
+        v = np.interp(b, x, y) - np.interp(a, x, y)
+        return np.maximum(v, 0.0) if np.ndim(v) else max(float(v), 0.0)
+
+
+# ---------------------------------------------------------------- the model
+@dataclass
+class _Plan:
+    """Everything the model is built from (so the builder can drop constraint groups)."""
+
+    t: np.ndarray  # slot edges, K+1
+    stations: list
+    avail: np.ndarray  # (S, K) bool: the station may be booked over the slot
+    vol: np.ndarray  # (S, K) gigabits the slot returns if all of it is downlink time
+    keepout: np.ndarray  # (K,) bool: slot touches a downlink keep-out
+    lock_cover: np.ndarray  # (K,) share of the slot tracked by kept bookings (any purpose)
+    lock_data_gbit: np.ndarray  # (K,) downlink volume kept bookings may return in the slot
+    need_cover: np.ndarray  # (K,) bool: slot holds a part of a burn monitor span no kept booking tracks
+    day_of_slot: np.ndarray  # (K,) index into days
+    days: np.ndarray  # UTC midnights
+    day_need_s: np.ndarray  # tracked contact seconds asked per day (0: none)
+    day_ranging_need: np.ndarray  # ranging bookings asked per day beyond kept ones
+    week_of_slot: np.ndarray
+    week_cap_s: dict  # (station index, week) -> seconds still allowed
+    fill0: float
+    capacity: float
+    gen_gbit_s: float
+    end_max: float | None
+    fill_end_index: int  # edge index where the end requirement applies
+    min_s: np.ndarray  # (S,) shortest booking per station (booking_min_h, and longer than setup + teardown)
+    max_s: float | None
+    setup_s: np.ndarray
+    teardown_s: np.ndarray
+    cost: np.ndarray
+    downlink: np.ndarray  # (S,) bool
+    burn_spans: list  # (id, start_tt, m0, m1) of burns inside the drafting span
+    need_pieces: list  # (lo, hi) parts of monitor spans no kept booking tracks, cut at slot edges
+    rates: object  # _Rates
+    lock_tracked_day_s: np.ndarray  # tracked seconds of kept bookings per day (union)
+    week0: float = 0.0  # start of the first 7-day block (the scenario start)
+    inpass: np.ndarray | None = None  # (S, K) bool: the slot lies inside a pass of the station (a track may)
+    pass_aos: list = field(default_factory=list)  # per station: sorted AOS of its passes
+    pass_los: list = field(default_factory=list)  # per station: their LOS
+    services: dict = field(default_factory=dict)  # (station index, service) -> _cover_fn of where it closes
+    ko_play: tuple | None = None  # _cover_fn of every keep-out (no playback track there)
+    ko_tel: tuple | None = None  # _cover_fn of slew/other keep-outs (no telemetry track there)
+    commands: list = field(default_factory=list)  # (activity id, deadline_tt, loads needed, kept (station, pass))
+    lock_spans: list = field(default_factory=list)  # union of the kept bookings' tracked time
+
+
+def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keeps, extra_edges):
+    """Slot edges: the UTC grid, day starts, and whole-minute edges of passes, outages and spans."""
+    edges = [np.array([model_start, model_end, d_start, d_end], dtype=float)]
+    mids = utc_days(model_start, model_end)
+    n = int(math.ceil(86400.0 / grid_s))
+    g = (mids[:, None] + np.arange(n)[None, :] * grid_s).ravel()
+    nxt = np.append(mids[1:], mids[-1] + 86400.0)
+    g = g[(g < np.repeat(nxt, n))]
+    edges.append(g)
+    edges.append(mids)
+    if passes:
+        pre = {st.id: st.pre_pass_min * 60.0 for st in scenario.stations}
+        post = {st.id: st.post_pass_min * 60.0 for st in scenario.stations}
+        aos = _ceil_minute(np.array([p.aos_tt for p in passes]))
+        los = _floor_minute(np.array([p.los_tt for p in passes]))
+        # a booking may start its pre-pass before AOS and end its post-pass after LOS
+        edges += [aos, los, aos - np.array([pre.get(p.station, 0.0) for p in passes]),
+                  los + np.array([post.get(p.station, 0.0) for p in passes])]
+    outs = [(o.start_tt, o.end_tt) for st in scenario.stations for o in st.outages]
+    lo_edges = [a for a, _ in outs] + [s for s, _, _ in extra_edges]
+    hi_edges = [b for _, b in outs] + [e for _, e, _ in extra_edges]
+    if lo_edges:
+        edges.append(_floor_minute(np.array(lo_edges)))
+        edges.append(_ceil_minute(np.array(hi_edges)))
+    if keeps:
+        edges.append(np.array([b.start_tt for b in keeps] + [b.end_tt for b in keeps]))
+    weeks = scenario.start_tt + 7 * 86400.0 * np.arange(1, int((model_end - scenario.start_tt) // (7 * 86400.0)) + 1)
+    edges.append(weeks)
+    t = np.unique(np.concatenate(edges))
+    t = t[(t >= model_start - _TOL) & (t <= model_end + _TOL)]
+    keep = np.concatenate([[True], np.diff(t) > 1.0])  # merge edges closer than a second
+    t = t[keep]
+    t[0], t[-1] = model_start, model_end
+    return t
+
+
+def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0,
+                link_profiles=None):
+    from contactplan.link.services import offers
+    from contactplan.plan.rules import RuleContext
+    from contactplan.scenario.model import VELOCITY_KINDS
+
+    req = scenario.requirements
+    scenario.bind()
+    stations = list(scenario.stations)
+    sid = {s.id: i for i, s in enumerate(stations)}
+    model_start = min(scenario.start_tt, d_start)
+    model_end = max(d_end, model_start + 60.0)
+    ctx = RuleContext.build(scenario, passes, profiles, link_profiles=link_profiles)
+
+    def in_range(bk):
+        return bk.end_tt > d_start + _TOL and bk.start_tt < d_end - _TOL
+
+    keeps = [bk for bk in scenario.bookings if bk.locked or not in_range(bk)]
+    removed = [bk for bk in scenario.bookings if not bk.locked and in_range(bk)]
+    keepouts = _keepout_spans(scenario)
+    burns = [a for a in scenario.activities if a.kind in VELOCITY_KINDS]
+    commanded = [a for a in burns if a.command_lead_h is not None]
+    deadlines = [(a.start_tt - a.command_lead_h * 3600.0,) * 2 + (a.id,) for a in commanded]
+    spans = keepouts + [(*a.monitor_span_tt, a.id) for a in burns] + deadlines
+    t = _grid(scenario, model_start, model_end, d_start, d_end, grid_min * 60.0, passes, keeps, spans)
+    a, b = t[:-1], t[1:]
+    K, S = len(a), len(stations)
+    length = b - a
+    in_draft = (a >= d_start - _TOL) & (b <= d_end + _TOL)
+    pre_s = np.array([st.pre_pass_min * 60.0 for st in stations])
+    post_s = np.array([st.post_pass_min * 60.0 for st in stations])
+
+    by_station: dict = {}
+    for p in passes:
+        by_station.setdefault(p.station, []).append(p)
+    # a booking's track lies inside a pass; its pre-pass and post-pass may lie below the mask, but
+    # not on an outage or another booking of the station
+    avail = np.zeros((S, K), dtype=bool)
+    inpass = np.zeros((S, K), dtype=bool)
+    pass_aos, pass_los = [np.zeros(0)] * S, [np.zeros(0)] * S
+    for st, plist in by_station.items():
+        if st not in sid:
+            continue
+        i = sid[st]
+        plist = sorted(plist, key=lambda p: p.aos_tt)
+        pass_aos[i] = np.array([p.aos_tt for p in plist])
+        pass_los[i] = np.array([p.los_tt for p in plist])
+        for p in plist:
+            inpass[i] |= (a >= p.aos_tt - _TOL) & (b <= p.los_tt + _TOL)
+            avail[i] |= (a >= p.aos_tt - pre_s[i] - _TOL) & (b <= p.los_tt + post_s[i] + _TOL)
+    for i, st in enumerate(stations):
+        for o in st.outages:
+            avail[i] &= ~((a < o.end_tt - _TOL) & (b > o.start_tt + _TOL))
+    for kb in keeps:
+        if kb.station in sid:
+            avail[sid[kb.station]] &= ~((a < kb.end_tt - _TOL) & (b > kb.start_tt + _TOL))
+    avail &= in_draft[None, :]
+    inpass &= avail
+
+    keepout = np.zeros(K, dtype=bool)
+    for s0, s1, _ in keepouts:
+        keepout |= (a < s1 - _TOL) & (b > s0 + _TOL)
+    kinds = {x.id: x.kind for x in scenario.activities}
+    ko_play = _cover_fn([(s0, s1) for s0, s1, _ in keepouts])
+    ko_tel = _cover_fn([(s0, s1) for s0, s1, aid in keepouts if kinds.get(aid) not in VELOCITY_KINDS])
+
+    from contactplan.scenario.model import SERVICES
+
+    services = {}
+    for i, st in enumerate(stations):
+        for svc in SERVICES:
+            if offers(scenario, st, svc):
+                services[(i, svc)] = _cover_fn(ctx.service_spans(st.id, svc))
+
+    rates = _Rates(passes, profiles)
+    downlink = np.array([(i, "playback") in services for i in range(S)], dtype=bool)
+    vol = np.zeros((S, K))
+    for i in range(S):
+        if downlink[i]:
+            m = inpass[i] & ~keepout
+            vol[i, m] = rates.volume(stations[i].id, a[m], b[m])
+
+    # kept bookings: the time they track, and the playback they may return
+    lock_cover = np.zeros(K)
+    tracked_keep = {kb.id: _tracked(scenario, kb, by_station) for kb in keeps}
+    kept_union = union([s_ for spans_ in tracked_keep.values() for s_ in spans_], join_gap=_TOL)
+    for c0, c1 in kept_union:
+        lock_cover += _overlap_len(a, b, c0, c1)
+    lock_cover = np.clip(lock_cover / np.maximum(length, _TOL), 0.0, 1.0)
+    lock_data = np.zeros(K)
+    from contactplan.link.windows import downlink_windows
+
+    for kb in keeps:
+        if "playback" not in kb.services or kb.station not in sid or not downlink[sid[kb.station]]:
+            continue
+        for w0, w1 in downlink_windows(scenario, kb, passes):
+            for k in np.flatnonzero((a < w1) & (b > w0)):
+                lo, hi = max(a[k], w0), min(b[k], w1)
+                if hi > lo:
+                    lock_data[k] += rates.volume(kb.station, lo, hi)
+
+    # burn and momentum-dump monitor spans not yet tracked by kept telemetry-and-doppler bookings
+    need_cover = np.zeros(K, dtype=bool)
+    mon = ("telemetry", "doppler")
+    rc = [s_ for kb in keeps if kb.station in sid and all(x in kb.services and (sid[kb.station], x) in services
+                                                          for x in mon) for s_ in tracked_keep[kb.id]]
+    burn_spans = []
+    need_pieces = []
+    for burn in burns:
+        m0, m1 = burn.monitor_span_tt
+        m0, m1 = max(m0, d_start, scenario.start_tt), min(m1, d_end, scenario.end_tt)
+        if m1 <= m0:
+            continue
+        burn_spans.append((burn.id, burn.start_tt, m0, m1))
+        for u0, u1 in subtract([(m0, m1)], rc, tol=_TOL):
+            if u1 - u0 > 1.0:
+                need_cover |= (a < u1 - _TOL) & (b > u0 + _TOL)
+                for k in np.flatnonzero((a < u1 - _TOL) & (b > u0 + _TOL)):
+                    need_pieces.append((max(a[k], u0), min(b[k], u1)))
+
+    # command loads: a prime (and a backup at another station or pass) commanding track of at least
+    # COMMAND_MIN_S before each deadline inside the window; kept bookings count first
+    from contactplan.plan.rules_services import COMMAND_MIN_S
+
+    commands = []
+    for act in commanded:
+        deadline = act.start_tt - act.command_lead_h * 3600.0
+        if deadline <= scenario.start_tt or deadline > scenario.end_tt:
+            continue  # the rule does not check it either
+        kept_groups = set()
+        for kb in keeps:
+            i = sid.get(kb.station)
+            if i is None or "commanding" not in kb.services or (i, "commanding") not in services:
+                continue
+            for s0, s1 in tracked_keep[kb.id]:
+                got = float(_covered(services[(i, "commanding")], s0, min(s1, deadline)))
+                if s1 > s0 and got >= COMMAND_MIN_S:
+                    kept_groups.add((i, int(np.searchsorted(pass_aos[i], s0 + _TOL, side="right") - 1)))
+        need = (2 if act.command_backup else 1) - len(kept_groups)
+        if need > 0:
+            commands.append((act.id, deadline, need, kept_groups))
+
+    # whole UTC days of the scenario window that the drafting span touches (as the rules count them)
+    days = utc_days(model_start, model_end)
+    day_of_slot = np.clip(np.searchsorted(days, a + _TOL, side="right") - 1, 0, len(days) - 1)
+    day_need = np.zeros(len(days))
+    rng_need = np.zeros(len(days))
+    for j, m in enumerate(days):
+        m1 = days[j + 1] if j + 1 < len(days) else m + 86400.0
+        whole = m >= scenario.start_tt - 1e-6 and m1 <= scenario.end_tt + 1e-6
+        if not whole or min(m1, d_end) - max(m, d_start) < 1.0:
+            continue
+        if req.contact_per_day_min_h:
+            day_need[j] = req.contact_per_day_min_h * 3600.0
+        if req.ranging_per_day_min:
+            have = sum(1 for kb in keeps if "ranging" in kb.purposes
+                       and any(s0 < m1 and s1 > m for s0, s1 in tracked_keep[kb.id]))
+            rng_need[j] = max(0, req.ranging_per_day_min - have)
+
+    lock_day = np.zeros(len(days))
+    for j, m in enumerate(days):
+        lock_day[j] = sum(float(_overlap_len(c0, c1, m, m + 86400.0)) for c0, c1 in kept_union)
+
+    week_of_slot = np.floor((a - scenario.start_tt + _TOL) / (7 * 86400.0)).astype(int)
+    week_cap = {}
+    for i, st in enumerate(stations):
+        if st.max_hours_per_week is None:
+            continue
+        for w in np.unique(week_of_slot[avail[i]]):
+            w0 = scenario.start_tt + w * 7 * 86400.0
+            used = sum(float(_overlap_len(kb.start_tt, kb.end_tt, w0, w0 + 7 * 86400.0))
+                       for kb in keeps if kb.station == st.id)
+            week_cap[(i, int(w))] = st.max_hours_per_week * 3600.0 - used
+
+    rec = scenario.spacecraft.recorder
+    if rec is not None:
+        fill0, cap, gen = rec.initial_gbit, rec.capacity_gbit, rec.generation_kbps * 1e-6
+    else:
+        fill0, cap, gen = 0.0, math.inf, 0.0
+    end_max = req.recorder_end_max_gbit if (rec is not None and d_end >= scenario.end_tt - 1.0) else None
+    end_idx = int(np.searchsorted(t, d_end - _TOL, side="right"))
+    cap_eff = cap * fill_fraction - FILL_GUARD_GBIT - fill_margin_gbit if math.isfinite(cap) else cap
+    min_s = np.maximum((req.booking_min_h or 0.0) * 3600.0, pre_s + post_s + 60.0)
+
+    plan = _Plan(
+        t=t, stations=stations, avail=avail, vol=vol, keepout=keepout,
+        lock_cover=lock_cover, lock_data_gbit=lock_data, need_cover=need_cover,
+        day_of_slot=day_of_slot, days=days, day_need_s=day_need, day_ranging_need=rng_need,
+        week_of_slot=week_of_slot, week_cap_s=week_cap, fill0=fill0, capacity=cap_eff, gen_gbit_s=gen,
+        end_max=end_max, fill_end_index=min(end_idx, K), min_s=min_s,
+        max_s=None if req.booking_max_h is None else req.booking_max_h * 3600.0,
+        setup_s=pre_s, teardown_s=post_s,
+        cost=np.array([st.cost_per_hour for st in stations]), downlink=downlink, burn_spans=burn_spans,
+        need_pieces=_merge_pieces(need_pieces), rates=rates, lock_tracked_day_s=lock_day,
+        week0=scenario.start_tt, inpass=inpass, pass_aos=pass_aos, pass_los=pass_los, services=services,
+        ko_play=ko_play, ko_tel=ko_tel, commands=commands, lock_spans=kept_union,
+    )
+    return plan, keeps, removed
+
+
+def _merge_pieces(pieces):
+    """Sorted pieces, exact duplicates dropped. Not a union: each piece is its own constraint (one booking
+    must track all of it), so overlapping or touching pieces are kept apart."""
+    return sorted(set((float(lo), float(hi)) for lo, hi in pieces))
+
+
+def _runs(mask: np.ndarray):
+    """(run_start, run_end) index arrays: the first and last index of the run of True holding each element."""
+    K = len(mask)
+    start = np.full(K, -1)
+    end = np.full(K, -1)
+    d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
+    for s0, e0 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1) - 1):
+        start[s0:e0 + 1] = s0
+        end[s0:e0 + 1] = e0
+    return start, end
+
+
+def _track_window(P: _Plan, i: int, k: int, run_s, run_e):
+    """Slots that must be booked for slot k of station i to be tracked time (setup before, teardown after);
+    None when the run of free slots is too short for that."""
+    t = P.t
+    j0 = int(np.searchsorted(t, t[k] - P.setup_s[i] + _TOL, side="right")) - 1
+    j1 = int(np.searchsorted(t, t[k + 1] + P.teardown_s[i] - _TOL, side="right")) - 1
+    if j0 < run_s[k] or j1 > run_e[k] or j0 < 0 or j1 >= len(t) - 1:
+        return None
+    return j0, j1
+
+
+#: a service is booked on a candidate only when it closes over all but this many seconds of its track
+#: (the rules allow SERVICE_TOLERANCE_S; half of it keeps clear of that edge)
+_CLOSE_SLACK_S = 60.0
+#: real-time telemetry and playback: booked wherever the link closes over part of the track
+_DATA_SERVICES = ("telemetry", "playback")
+
+
+@dataclass
+class _Cands:
+    """Candidate bookings, one entry per candidate (arrays of equal length)."""
+
+    station: np.ndarray  # station index
+    p: np.ndarray  # start edge index
+    q: np.ndarray  # end edge index
+    start: np.ndarray  # TT s
+    end: np.ndarray
+    track0: np.ndarray  # the track (after pre-pass, before post-pass), inside one pass
+    track1: np.ndarray
+    downlink: np.ndarray  # bool: carries playback (the station takes it and the track touches no keep-out)
+    vol: np.ndarray  # gigabits its playback time can return
+    cost: np.ndarray  # cost-hours
+    pass_idx: np.ndarray  # index of the pass holding the track among its station's passes
+    services: dict  # service -> bool array: booked on this candidate (offered, closes, keep-outs allow)
+
+    def __len__(self):
+        return len(self.p)
+
+    @property
+    def monitor(self) -> np.ndarray:
+        """Tracks with telemetry and doppler: they monitor burns and momentum dumps."""
+        return self.services["telemetry"] & self.services["doppler"]
+
+    def service_names(self, c: int) -> list:
+        from contactplan.scenario.model import SERVICES
+
+        return [svc for svc in SERVICES if self.services[svc][c]]
+
+
+def _anchor_nodes(P: _Plan, i: int) -> np.ndarray:
+    """Edge indices where a booking of station i may want to start or end whatever the lattice:
+    keep-out edges, UTC midnights and monitor-span pieces, and those shifted by setup and teardown."""
+    t = P.t
+    K = len(t) - 1
+    ko = P.keepout.astype(np.int8)
+    times = [t[1:-1][np.diff(ko) != 0], P.days]
+    if P.need_pieces:
+        pc = np.array(P.need_pieces)
+        times += [pc[:, 0], pc[:, 1]]
+    base = np.concatenate(times) if times else np.zeros(0)
+    nodes = [np.searchsorted(t, base - _TOL, side="left"),
+             np.searchsorted(t, base - P.setup_s[i] + _TOL, side="right") - 1,
+             np.searchsorted(t, base + P.teardown_s[i] - _TOL, side="left")]
+    out = np.concatenate(nodes)
+    return np.unique(out[(out >= 0) & (out <= K)])
+
+
+def _candidates(P: _Plan, lengths_on=True, step: int = 1) -> _Cands:
+    """Bookings of a station that start and end on slot edges inside one free run.
+
+    With ``step`` > 1 the edges are thinned to every ``step``-th edge of the run plus its ends and
+    the anchor edges (keep-outs, midnights, monitor spans), to keep large windows fast.
+    """
+    t = P.t
+    K = len(t) - 1
+    cols = {k: [] for k in ("station", "p", "q")}
+    for i in range(len(P.stations)):
+        mask = P.avail[i]
+        d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
+        lo_len = P.min_s[i] if lengths_on else P.setup_s[i] + P.teardown_s[i] + 1.0
+        hi_len = P.max_s if (lengths_on and P.max_s is not None) else np.inf
+        anchors = _anchor_nodes(P, i) if step > 1 else None
+        for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
+            nodes = np.arange(k0, k1 + 1)  # edges of the run
+            if step > 1:
+                keep = ((nodes - k0) % step == 0) | (nodes == k1) | np.isin(nodes, anchors)
+                nodes = nodes[keep]
+            pp, qq = np.meshgrid(nodes, nodes, indexing="ij")
+            dur = t[qq] - t[pp]
+            ok = (qq > pp) & (dur >= lo_len - _TOL) & (dur <= hi_len + _TOL)
+            cols["station"].append(np.full(int(ok.sum()), i))
+            cols["p"].append(pp[ok])
+            cols["q"].append(qq[ok])
+    station = np.concatenate(cols["station"]) if cols["station"] else np.zeros(0, int)
+    p = np.concatenate(cols["p"]) if cols["p"] else np.zeros(0, int)
+    q = np.concatenate(cols["q"]) if cols["q"] else np.zeros(0, int)
+    del K
+    return _cands_from(P, station, p, q)
+
+
+def _cands_from(P: _Plan, station, p, q) -> _Cands:
+    """Candidate attributes for bookings of ``station`` from edge ``p`` to edge ``q`` (index arrays);
+    those whose track does not lie inside one pass of the station are dropped."""
+    from contactplan.scenario.model import SERVICES
+
+    t = P.t
+    station, p, q = (np.asarray(v, dtype=int) for v in (station, p, q))
+    start, end = t[p], t[q]
+    track0 = start + P.setup_s[station]
+    track1 = end - P.teardown_s[station]
+    pidx = np.full(len(p), -1)
+    ok = track1 > track0 + _TOL
+    for i in np.unique(station):
+        sel = np.flatnonzero(station == i)
+        aos, los = P.pass_aos[i], P.pass_los[i]
+        if not len(aos):
+            ok[sel] = False
+            continue
+        j = np.searchsorted(aos, track0[sel] + _TOL, side="right") - 1
+        inside = (j >= 0) & (los[np.clip(j, 0, None)] >= track1[sel] - _TOL)
+        ok[sel] &= inside
+        pidx[sel] = j
+    if not np.all(ok):
+        station, p, q, start, end, track0, track1, pidx = (v[ok] for v in (station, p, q, start, end, track0,
+                                                                          track1, pidx))
+    dur = track1 - track0
+    flags = {}
+    for svc in SERVICES:
+        f = np.zeros(len(p), dtype=bool)
+        for i in np.unique(station):
+            fn = P.services.get((int(i), svc))
+            if fn is None:
+                continue
+            sel = np.flatnonzero(station == i)
+            if svc in _DATA_SERVICES:  # where the link does not close it brings no data (a warning)
+                f[sel] = _covered(fn, track0[sel], track1[sel]) > _TOL
+            else:  # commanding and two-way tracking must close over the whole track (an error)
+                f[sel] = dur[sel] - _covered(fn, track0[sel], track1[sel]) <= _CLOSE_SLACK_S
+        flags[svc] = f
+    # playback never in a keep-out; telemetry not in a slew's or other activity's (rule downlink-in-keepout)
+    flags["playback"] &= _covered(P.ko_play, track0, track1) <= _TOL
+    flags["telemetry"] &= _covered(P.ko_tel, track0, track1) <= _TOL
+    downlink = flags["playback"] & P.downlink[station]
+    vol = np.zeros(len(p))
+    for i in np.unique(station):
+        sel = (station == i) & downlink
+        if np.any(sel):
+            vol[sel] = P.rates.volume(P.stations[i].id, track0[sel], track1[sel])
+    cost = P.cost[station] * (end - start) / 3600.0
+    return _Cands(station=station, p=p, q=q, start=start, end=end, track0=track0, track1=track1,
+                  downlink=downlink, vol=vol, cost=cost, pass_idx=pidx, services=flags)
+
+
+class _Model:
+    """Sparse rows for scipy.optimize.milp, built up in numpy blocks."""
+
+    def __init__(self):
+        self.lb, self.ub, self.integ, self.cost = [], [], [], []
+        self.r, self.c, self.v = [], [], []
+        self.rlb, self.rub = [], []
+        self.nvar = 0
+
+    def vars(self, n, lb, ub, integer, cost=0.0) -> np.ndarray:
+        idx = np.arange(self.nvar, self.nvar + n)
+        self.nvar += n
+        self.lb.append(np.broadcast_to(np.asarray(lb, float), (n,)).copy())
+        self.ub.append(np.broadcast_to(np.asarray(ub, float), (n,)).copy())
+        self.integ.append(np.full(n, 1 if integer else 0))
+        self.cost.append(np.broadcast_to(np.asarray(cost, float), (n,)).copy())
+        return idx
+
+    def rows(self, n, lo, hi) -> np.ndarray:
+        start = sum(len(x) for x in self.rlb)
+        self.rlb.append(np.broadcast_to(np.asarray(lo, float), (n,)).copy())
+        self.rub.append(np.broadcast_to(np.asarray(hi, float), (n,)).copy())
+        return np.arange(start, start + n)
+
+    def coef(self, rows, cols, vals):
+        rows, cols = np.asarray(rows), np.asarray(cols)
+        self.r.append(rows.ravel())
+        self.c.append(cols.ravel())
+        self.v.append(np.broadcast_to(np.asarray(vals, float), rows.shape).ravel())
+
+    def arrays(self):
+        if self.nvar == 0:  # nothing to choose: one idle variable fixed at zero keeps the solver happy
+            self.vars(1, 0, 0, False)
+        cat = (lambda xs: np.concatenate(xs) if xs else np.zeros(0))  # noqa: E731
+        return (cat(self.cost), cat(self.lb), cat(self.ub), cat(self.integ), cat(self.r).astype(int),
+                cat(self.c).astype(int), cat(self.v), cat(self.rlb), cat(self.rub))
+
+
+def _contact_rows(M: _Model, P: _Plan, C: _Cands, x, day_extra: dict) -> None:
+    """Rows asking each whole UTC day for its contact hours over the union of tracks.
+
+    The tracks' edges cut time into pieces; ``n[m]`` counts the chosen tracks over piece m (one row per
+    piece: its change from the piece before is the tracks starting there less those ending there) and
+    ``w[m]`` in [0, 1], at most ``n[m]``, is whether piece m is tracked at all. Exact for any plan, with
+    two non-zeros per candidate. Two implied rows per day (a track gives at most the need; the day
+    needs at least this many tracks) tighten the LP."""
+    need = {}
+    for j in np.flatnonzero(P.day_need_s > 0):
+        v = P.day_need_s[j] - P.lock_tracked_day_s[j] + day_extra.get(int(j), 0.0)
+        if v > 0:
+            need[int(j)] = v
+    if not need:
+        return
+    n = len(C)
+    if n == 0:  # nothing can give contact: an empty row states the need (infeasible)
+        for j, v in need.items():
+            M.rows(1, v / 3600.0, np.inf)
+        return
+    kept = np.array(P.lock_spans, dtype=float).reshape(-1, 2)
+    edges = np.unique(np.round(np.concatenate([P.t, C.track0, C.track1, kept.ravel(), P.days]), 3))
+    m0 = np.searchsorted(edges, np.round(C.track0, 3))
+    m1 = np.searchsorted(edges, np.round(C.track1, 3))
+    lo, hi = int(m0.min()), int(m1.max())
+    npc = hi - lo  # pieces lo .. hi-1
+    cnt = M.vars(npc, 0, np.inf, False)
+    rows = M.rows(npc, 0.0, 0.0)
+    M.coef(rows, cnt, 1.0)
+    M.coef(rows[1:], cnt[:-1], -1.0)
+    M.coef(rows[m0 - lo], x, -1.0)
+    ends = m1 < hi
+    M.coef(rows[m1[ends] - lo], x[ends], 1.0)
+    mid = 0.5 * (edges[lo:hi] + edges[lo + 1:hi + 1])
+    plen = edges[lo + 1:hi + 1] - edges[lo:hi]
+    day = np.searchsorted(P.days, mid, side="right") - 1
+    in_kept = np.zeros(npc, dtype=bool)
+    if len(kept):
+        k = np.searchsorted(kept[:, 0], mid, side="right") - 1
+        in_kept = (k >= 0) & (kept[np.clip(k, 0, None), 1] > mid)
+    for j, v in need.items():
+        d0, d1 = P.days[j], P.days[j] + 86400.0
+        sel = np.flatnonzero((day == j) & ~in_kept & (mid > d0) & (mid < d1))
+        r = M.rows(1, v / 3600.0, np.inf)
+        if len(sel):
+            w = M.vars(len(sel), 0, 1, False)
+            rw = M.rows(len(sel), -np.inf, 0.0)
+            M.coef(rw, w, 1.0)
+            M.coef(rw, cnt[sel], -1.0)
+            M.coef(np.full(len(sel), r[0]), w, plen[sel] / 3600.0)
+        ov = np.maximum(0.0, np.minimum(C.track1, d1) - np.maximum(C.track0, d0))
+        cs = np.flatnonzero(ov > 0)
+        if len(cs):
+            r = M.rows(1, v / 3600.0, np.inf)
+            M.coef(np.full(len(cs), r[0]), x[cs], np.minimum(ov[cs], v) / 3600.0)
+            r = M.rows(1, math.ceil(v / float(ov[cs].max()) - 1e-9), np.inf)
+            M.coef(np.full(len(cs), r[0]), x[cs], 1.0)
+
+
+def _command_ok(P: _Plan, C: _Cands, deadline: float) -> np.ndarray:
+    """Candidates whose commanding track before ``deadline`` can carry a command load: at least
+    COMMAND_MIN_S (and a minute more) of it, the uplink closing throughout."""
+    from contactplan.plan.rules_services import COMMAND_MIN_S
+
+    end = np.minimum(C.track1, deadline)
+    ok = C.services["commanding"] & (end - C.track0 >= COMMAND_MIN_S + 60.0)
+    for i in np.unique(C.station[ok]):
+        sel = np.flatnonzero(ok & (C.station == i))
+        fn = P.services[(int(i), "commanding")]
+        ok[sel] = (end[sel] - C.track0[sel]) - _covered(fn, C.track0[sel], end[sel]) <= _TOL
+    return ok
+
+
+def _command_rows(M: _Model, P: _Plan, C: _Cands, x) -> None:
+    """Per commanded burn or dump: a usable commanding track (prime), and with a backup a second one at
+    another station or on another pass (``y[g]`` <= the tracks chosen in group g, at most 1; their sum
+    reaches the loads still needed)."""
+    for _aid, deadline, need, kept_groups in P.commands:
+        ok = _command_ok(P, C, deadline)
+        group = C.station.astype(np.int64) * 1_000_000 + C.pass_idx
+        if kept_groups:
+            ok &= ~np.isin(group, [i * 1_000_000 + j for i, j in kept_groups])
+        sel = np.flatnonzero(ok)
+        if need <= 1:
+            r = M.rows(1, 1, np.inf)
+            M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
+            continue
+        g, inv = np.unique(group[sel], return_inverse=True)
+        y = M.vars(len(g), 0, 1, False)
+        ry = M.rows(len(g), -np.inf, 0.0)
+        M.coef(ry, y, 1.0)
+        M.coef(ry[inv], x[sel], -1.0)
+        r = M.rows(1, need, np.inf)
+        M.coef(np.full(len(g), r[0]), y, 1.0)
+
+
+def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclusive=False, day_extra=None):
+    """The MILP: one binary per candidate booking, a path of bookings and idle time per station
+    (a network, so no two bookings of a station overlap), the requirement rows and the recorder.
+    ``drop`` names requirement groups left out (for explaining infeasibility)."""
+    t = P.t
+    a, b = t[:-1], t[1:]
+    K = len(a)
+    length = b - a
+    C = cands if cands is not None else _candidates(P, "length" not in drop)
+    n = len(C)
+    M = _Model()
+    x = M.vars(n, 0, 1, True, C.cost + BOOKING_CHARGE)
+
+    # a path per station and free run: flow balance at every edge of the run
+    for i in range(len(P.stations)):
+        mask = P.avail[i]
+        d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
+        sel_i = np.flatnonzero(C.station == i)
+        for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
+            nn = k1 - k0 + 1  # nodes k0..k1
+            idle = M.vars(k1 - k0, 0, 1, False, 0.0)
+            rhs = np.zeros(nn)
+            rhs[0], rhs[-1] = -1.0, 1.0  # one unit enters at the first edge, leaves at the last
+            rows = M.rows(nn, rhs, rhs)
+            # inflow - outflow = rhs
+            M.coef(rows[1:], idle, 1.0)
+            M.coef(rows[:-1], idle, -1.0)
+            sel = sel_i[(C.p[sel_i] >= k0) & (C.q[sel_i] <= k1)]
+            M.coef(rows[C.q[sel] - k0], x[sel], 1.0)
+            M.coef(rows[C.p[sel] - k0], x[sel], -1.0)
+
+    # burn and momentum-dump monitor spans: every uncovered piece tracked by one booking holding
+    # telemetry and doppler (conservative: two tracks may not share one piece)
+    if "burns" not in drop:
+        mon = C.monitor
+        for lo, hi in P.need_pieces:
+            cov = np.flatnonzero(mon & (C.track0 <= lo + _TOL) & (C.track1 >= hi - _TOL))
+            r = M.rows(1, 1, np.inf)
+            M.coef(np.full(len(cov), r[0]), x[cov], 1.0)
+
+    # tracked contact per whole UTC day, all stations together (the union, as the rules measure it)
+    if "contact" not in drop:
+        _contact_rows(M, P, C, x, day_extra or {})
+
+    # ranging bookings per whole UTC day: tracked time overlapping the day
+    if "ranging" not in drop:
+        rng = C.services["ranging"]
+        for j in np.flatnonzero(P.day_ranging_need > 0):
+            m0, m1 = P.days[j], P.days[j] + 86400.0
+            sel = np.flatnonzero(rng & (C.track0 < m1) & (C.track1 > m0))
+            r = M.rows(1, P.day_ranging_need[j], np.inf)
+            M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
+
+    # command loads: prime (and backup at another station or pass) commanding before each deadline
+    if "command" not in drop:
+        _command_rows(M, P, C, x)
+
+    # station hours per 7-day block
+    if "week" not in drop:
+        for (i, wk), cap_s in P.week_cap_s.items():
+            w0 = P.week0 + wk * 7 * 86400.0
+            sel = np.flatnonzero(C.station == i)
+            ov = np.maximum(0.0, np.minimum(C.end[sel], w0 + 7 * 86400.0) - np.maximum(C.start[sel], w0))
+            sel, ov = sel[ov > 0], ov[ov > 0]
+            r = M.rows(1, -np.inf, max(cap_s, 0.0) / 3600.0)
+            M.coef(np.full(len(sel), r[0]), x[sel], ov / 3600.0)
+
+    # one transmitter: downlink times of two bookings never overlap (added when the check asks for it)
+    if exclusive:
+        dl = np.flatnonzero(C.downlink & (C.vol > 0))
+        for k in range(K):
+            sel = dl[(C.track0[dl] < b[k] - _TOL) & (C.track1[dl] > a[k] + _TOL)]
+            if len(np.unique(C.station[sel])) > 1:
+                r = M.rows(1, -np.inf, 1)
+                M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
+
+    # recorder: fill at every slot edge, an upper bound of the real fill. A booking's volume leaves at
+    # the first edge after its downlink time begins, never more than is on board then.
+    F = None
+    if math.isfinite(P.capacity) and "recorder" not in drop:
+        cap = max(P.capacity, 0.0)
+        hi = np.where(np.arange(1, K + 1) <= P.fill_end_index, cap, np.inf)
+        F = np.concatenate((M.vars(1, P.fill0, P.fill0, False), M.vars(K, P.gen_gbit_s * length, hi, False)))
+        dl = np.flatnonzero(C.downlink & (C.vol > 1e-9))
+        node = np.clip(np.searchsorted(t, C.track0[dl] - _TOL, side="left"), 0, K - 1)
+        # what is produced during the downlink time goes out with it: that part leaves at the
+        # first edge after the downlink time ends, the rest at the first edge after it begins
+        node_end = np.clip(np.searchsorted(t, C.track1[dl] - _TOL, side="left"), 0, K - 1)
+        during = np.minimum(C.vol[dl], P.gen_gbit_s * (C.track1[dl] - C.track0[dl]))
+        during = np.where(node_end > node, during, 0.0)
+        first = C.vol[dl] - during
+        credit = np.zeros(K, dtype=bool)
+        credit[node] = True
+        credit[node_end[during > 0]] = True
+        credit |= P.lock_data_gbit > 0
+        gen = P.gen_gbit_s * length
+        # edge k: F[k+1] - F[k] + sum(vol x) >= gen - locked   (== gen when nothing can leave there)
+        lo = gen - np.where(P.lock_data_gbit > 0, P.lock_data_gbit, 0.0)
+        rows = M.rows(K, lo, np.where(credit, np.inf, gen))
+        M.coef(rows, F[1:], 1.0)
+        M.coef(rows, F[:-1], -1.0)
+        # no credit beyond the capacity counts (F <= cap): clipping keeps the integer plans, tightens the LP
+        M.coef(rows[node], x[dl], np.minimum(first, cap))
+        late = during > 0
+        M.coef(rows[node_end[late]], x[dl[late]], np.minimum(during[late], cap))
+        # Implied cover rows (same integer solutions, a much closer LP bound): after a downlink the
+        # fill grows by the production rate, so every edge k needs some downlink leaving within the
+        # last cap / production seconds before it (or the start's content to fit), likewise the end.
+        if P.gen_gbit_s > 0 and len(dl):
+            cn = np.where(first > 0, node, node_end)
+            lock_nodes = np.flatnonzero(P.lock_data_gbit > 0)
+            every = max(1, int(round(2 * 3600.0 / max(float(np.median(length)), 1.0))))
+            ks = list(range(every, P.fill_end_index + 1, every)) + [P.fill_end_index]
+            covers = [(kk, cap) for kk in ks]
+            if P.end_max is not None:
+                covers.append((P.fill_end_index, P.end_max))
+            for kk, limit in covers:
+                win = limit / P.gen_gbit_s
+                k_lo = int(np.searchsorted(t, t[kk] - win - _TOL, side="left"))
+                if k_lo == 0 and P.fill0 + P.gen_gbit_s * (t[kk] - t[0]) <= limit + 1e-9:
+                    continue
+                if np.any((lock_nodes >= k_lo) & (lock_nodes < kk)):
+                    continue
+                sel = np.flatnonzero((cn >= k_lo) & (cn < kk))
+                r = M.rows(1, 1, np.inf)
+                M.coef(np.full(len(sel), r[0]), x[dl[sel]], 1.0)
+        # the fill just before the booking's downlink starts is checked at that edge (F[node] <= cap)
+        if P.end_max is not None:
+            r = M.rows(1, -np.inf, P.end_max)
+            M.coef(r, F[P.fill_end_index:P.fill_end_index + 1], 1.0)
+    return M, x, C, F
+
+
+#: HiGHS runs the same way every time: one thread, a fixed seed (its default, made explicit)
+_DETERMINISTIC = {"random_seed": 0, "threads": 1}
+
+
+def _milp(M: _Model, integer: bool, options: dict):
+    """scipy's HiGHS on the model; the options scipy does not name are passed to HiGHS as they are."""
+    import warnings
+
+    from scipy.optimize import Bounds, LinearConstraint, milp
+    from scipy.sparse import csr_array
+
+    c, lb, ub, integ, r, col, v, rlb, rub = M.arrays()
+    cons = []
+    if len(rlb):
+        cons = [LinearConstraint(csr_array((v, (r, col)), shape=(len(rlb), len(c))), rlb, rub)]
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="Unrecognized options", category=RuntimeWarning)
+        res = milp(c, integrality=integ if integer else np.zeros_like(integ), bounds=Bounds(lb, ub),
+                   constraints=cons, options={**_DETERMINISTIC, "disp": False, **options})
+    res.hit_time_limit = "time limit" in str(getattr(res, "message", "")).lower()
+    return res
+
+
+def _solve(M: _Model, time_limit_s: float, mip_gap: float = 1e-3, node_limit: int | None = None):
+    """Branch and bound bounded by work (``node_limit`` nodes) and, as a safety net only, by wall time;
+    ``res.hit_time_limit`` says when the wall clock stopped it (then the result may vary with load)."""
+    opts = {"time_limit": float(max(time_limit_s, 0.1)), "mip_rel_gap": float(mip_gap), "presolve": _PRESOLVE}
+    if node_limit is not None:
+        opts["node_limit"] = int(node_limit)
+    return _milp(M, True, opts)
+
+
+def _lp_bound(M: _Model):
+    """The LP relaxation: (objective, x) or (None, None)."""
+    res = _milp(M, False, {})
+    return (res.fun, res.x) if res.x is not None else (None, None)
+
