@@ -164,7 +164,7 @@ def test_misspelt_keys_are_warned_with_a_suggestion_kept_on_save_and_become_find
     msgs = [str(w.message) for w in caught if issubclass(w.category, UnknownKeyWarning)]
     assert f"{p}:stations[NRV].min_elevaton_deg: unknown key 'min_elevaton_deg' (kept on save, but it has no " \
            "effect; did you mean min_elevation_deg?)" in msgs
-    assert any("stations[NRV].setpu_min" in m and "did you mean setup_min?" in m for m in msgs)
+    assert any("stations[NRV].setpu_min" in m and "did you mean setup_min (pre_pass_min from format 2 on)?" in m for m in msgs)
     assert any("scenario.owner" in m and "did you mean" not in m for m in msgs)  # far from any known key
     save_scenario(sc, p)
     assert "min_elevaton_deg = 10.0" in p.read_text("utf-8") and "setpu_min = 12" in p.read_text("utf-8")

@@ -152,11 +152,14 @@ class Table:
         """(field, key, the known key it may mean or None) for each key the loader did not read."""
         import difflib
 
+        # format-1 names of keys the upgrade renamed: a misspelt old name is still recognised
+        old = {k: f"{k} ({v} from format 2 on)" for k, v in _FORMAT_1_NAMES.items() if v in self.read}
         out = []
         for key in self.data:
             if key not in self.read:
-                close = difflib.get_close_matches(str(key), sorted(self.read), n=1, cutoff=0.75)
-                out.append((self._field(key), str(key), close[0] if close else None))
+                close = difflib.get_close_matches(str(key), sorted(self.read | set(old)), n=1, cutoff=0.75)
+                hint = (old.get(close[0], close[0]) if close[0] not in self.read else close[0]) if close else None
+                out.append((self._field(key), str(key), hint))
         return out
 
     def keep(self, rec):
@@ -552,6 +555,10 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
 
 class UnknownKeyWarning(UserWarning):
     """A key the loader does not know: kept on save, but it changes nothing (often a misspelling)."""
+
+
+#: format-1 key -> the format-2 key it became (for "did you mean" hints on misspelt old names)
+_FORMAT_1_NAMES = {"setup_min": "pre_pass_min", "teardown_min": "post_pass_min", "purposes": "services"}
 
 
 def unknown_key_message(field: str, key: str, close: str | None) -> str:
