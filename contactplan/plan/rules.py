@@ -27,9 +27,11 @@ Terms used by several rules (all times TT seconds since J2000):
 
 from __future__ import annotations
 
+import gc
 import weakref
 from bisect import bisect_left, bisect_right
 from collections import OrderedDict
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -930,11 +932,27 @@ def _touches(f: Finding, g0: float, g1: float) -> bool:
     return f.start_tt < g1 and g0 < f.end_tt
 
 
+@contextmanager
+def gc_paused():
+    """The cyclic garbage collector off while the rules run: they make thousands of small objects and no
+    cycles, and on a year's plan each collection would walk every pass and profile object for nothing
+    (a third of the check's time). Reference counting still frees everything; the collector is back on
+    (if it was on) when the block ends."""
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
+
+
 def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
     """Run ``rules`` (default :data:`RULES`), clip spans to the window, sort by start then severity."""
     found: list[Finding] = []
-    for rule in RULES if rules is None else rules:
-        found.extend(rule(ctx))
+    with gc_paused():
+        for rule in RULES if rules is None else rules:
+            found.extend(rule(ctx))
     if ctx.uncovered:  # said once by no-ephemeris instead of as false alarms
         found = [f for f in found if f.rule not in NEEDS_EPHEMERIS
                  or not any(_touches(f, g0, g1) for g0, g1 in ctx.uncovered)]
