@@ -21,6 +21,7 @@ initial + generated = downlinked + on board + lost to rounding (far below a bit)
 
 from __future__ import annotations
 
+import gc
 import weakref
 from bisect import bisect_left, bisect_right
 
@@ -121,7 +122,13 @@ def simulate_recorder(scenario, passes, profiles, bookings=None, start_tt=None, 
     bookings = list(scenario.bookings if bookings is None else bookings)
     cap = float(rec.capacity_gbit)
     gen = float(rec.generation_kbps) * 1e-6  # Gbit/s
-    edges, rates_kbps, owner = downlink_rate_steps(scenario, passes, profiles or {}, bookings, t0, t1)
+    was = gc.isenabled()  # many small objects, no cycles: no collector walks over the whole plan meanwhile
+    gc.disable()
+    try:
+        edges, rates_kbps, owner = downlink_rate_steps(scenario, passes, profiles or {}, bookings, t0, t1)
+    finally:
+        if was:
+            gc.enable()
     d_rates = rates_kbps * 1e-6
 
     fill = float(rec.initial_gbit)
