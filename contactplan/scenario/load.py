@@ -14,6 +14,7 @@ from pathlib import Path
 from contactplan.errors import InputError
 from contactplan.fileio import read_input
 from contactplan.scenario import model as m
+from contactplan.scenario.orbit_determination import read_orbit_determination, read_tracking_requirements
 from contactplan.timescale import parse_time_value
 
 try:  # Python 3.11+
@@ -356,6 +357,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
         recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
     ))
+    read_tracking_requirements(rq, req)
     gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
     geo = gt.keep(m.GeometryOptions(
         refraction=gt.bool("refraction", False),
@@ -366,6 +368,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
         activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
         format_version=fv, revision=revision, path=path, document=doc,
+        orbit_determination=read_orbit_determination(root),
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table
     return scen
