@@ -28,3 +28,16 @@ def predict(scenario, ephemeris, tracks, manoeuvres, model: NavigationModel | No
 
 __all__ = ["predict", "model_for", "NavigationModel", "NavigationResult", "TrackSpan", "Manoeuvre", "CheckValue",
            "check_times"]
+
+
+def navigation_lines(nav) -> list[str]:
+    """The predicted accuracy at each check time, one line each, for the CLI and the report."""
+    from contactplan.timescale import format_utc
+
+    out = [f"Predicted orbit determination (1-sigma, {nav.measurements} two-way measurements; "
+           f"required {nav.required_position_km:g} km):"]
+    for c in nav.checks:
+        out.append(f"  {c.label:<22} {format_utc(c.t_tt, 0)}  position {c.position_sigma_km:8.3f} km  "
+                   f"velocity {c.velocity_sigma_mm_s:8.3f} mm/s  largest axis {c.largest_axis_km:8.3f} km "
+                   f"at {c.largest_axis_angle_deg:4.0f} deg from the Earth line  {'ok' if c.met else 'NOT MET'}")
+    return out

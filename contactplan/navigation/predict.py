@@ -160,30 +160,25 @@ class NavigationModel:
         self.measured = 0  # tracks measured since built (for tests and benchmarks)
 
     # ------------------------------------------------------------ measurements
-    def _measure(self, tracks: list[TrackSpan]) -> None:
-        """Information at nodes of every track not in the cache, all tracks in one batch."""
+    def rows(self, tracks: list[TrackSpan]):
+        """Whitened partial rows of every measurement of ``tracks`` with respect to the scaled state
+        at its node: (track index (M,), node index (M,), rows (M, 6)), all tracks in one batch."""
         od = self.od
         t_list, kind_list, tr_list = [], [], []
         for i, tr in enumerate(tracks):
             a, b = max(tr.start_tt, self.start_tt), min(tr.end_tt, self.end_tt)
-            site = self.sites.get(tr.station)
-            if site is None or b <= a:
+            if tr.station not in self.sites or b <= a:
                 continue
             if tr.ranging:
                 step = od.range_interval_min * 60.0
                 t = a + step * np.arange(int(np.floor((b - a) / step)) + 1)
-                t_list.append(t), kind_list.append(np.zeros(t.size, np.int8))
-                tr_list.append(np.full(t.size, i))
+                t_list.append(t), kind_list.append(np.zeros(t.size, np.int8)), tr_list.append(np.full(t.size, i))
             if tr.doppler:
                 c = od.doppler_interval_s
-                n = int(np.floor((b - a) / c + 1e-9))
-                t = a + c * (np.arange(n) + 0.5)
-                t_list.append(t), kind_list.append(np.ones(t.size, np.int8))
-                tr_list.append(np.full(t.size, i))
-        for tr in tracks:
-            self._track_cache[tr] = (np.zeros(0, np.int64), np.zeros((0, 6, 6)), 0)
+                t = a + c * (np.arange(int(np.floor((b - a) / c + 1e-9))) + 0.5)
+                t_list.append(t), kind_list.append(np.ones(t.size, np.int8)), tr_list.append(np.full(t.size, i))
         if not t_list:
-            return
+            return np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros((0, 6))
         from contactplan.geometry.earth import station_itrs_km
 
         t = np.concatenate(t_list)
@@ -211,7 +206,16 @@ class NavigationModel:
             rows[dop_i] = (self._map(g2[0], tb2[0], k) - self._map(g2[1], tb2[1], k)) / c
             node[dop_i] = k
             sigma[dop_i] = od.doppler_sigma_mm_s * 1e-6
-        rows = rows / _D[None, :] / sigma[:, None]  # scaled state, whitened
+        return owner, node, rows / _D[None, :] / sigma[:, None]
+
+    def _measure(self, tracks: list[TrackSpan]) -> None:
+        """Information at nodes of every track not in the cache (summed per track and node)."""
+        owner, node, rows = self.rows(tracks)
+        for tr in tracks:
+            self._track_cache[tr] = (np.zeros(0, np.int64), np.zeros((0, 6, 6)), 0)
+        self.measured += len(tracks)
+        if not rows.size:
+            return
         outer = np.einsum("mi,mj->mij", rows, rows)
         order = np.lexsort((node, owner))
         owner, node, outer = owner[order], node[order], outer[order]
@@ -223,7 +227,6 @@ class NavigationModel:
         for i, tr in enumerate(tracks):
             sel = g_owner == i
             self._track_cache[tr] = (g_node[sel], sums[sel], int(counts[sel].sum()))
-        self.measured += len(tracks)
 
     def _node_after(self, t_b) -> np.ndarray:
         return np.clip(np.searchsorted(self.nodes, t_b, side="left"), 0, len(self.nodes) - 1)
@@ -293,9 +296,8 @@ def signature(tracks, manoeuvres) -> tuple:
 
 
 def check_times(scenario, manoeuvres, cutoff_before_burn_h) -> list:
-    """[(t_tt, (label, kind, activity id))]: each burn's data cut-off inside the window, and the window end.
-
-    Without ``cutoff_before_burn_h`` the cut-off is the burn start itself."""
+    """[(t_tt, (label, kind, activity id))]: each burn's data cut-off (its start minus
+    ``cutoff_before_burn_h``) inside the window, and the window end."""
     lead = 3600.0 * (cutoff_before_burn_h or 0.0)
     out = []
     for m in manoeuvres:

@@ -22,6 +22,7 @@ class PlanResult:
     shadows: list = field(default_factory=list)  # [(start_tt, end_tt, body, kind)]
     # parts of the planning window the ephemeris answers [(start_tt, end_tt)]; None: the whole window
     coverage: list | None = None
+    navigation: object | None = None  # NavigationResult (plan/tracking.py navigation_for), None without [orbit_determination]
 
     @property
     def errors(self) -> int:
@@ -131,9 +132,11 @@ def check(result: PlanResult) -> PlanResult:
     Updates ``result.recorder`` and ``result.findings`` in place and returns ``result``.
     """
     from contactplan.plan.rules import RuleContext, run_rules
+    from contactplan.plan.tracking import navigation_for
 
     sc = result.scenario
     result.recorder = _recorder(sc, result.passes, result.profiles)
-    result.findings = run_rules(RuleContext.build(sc, result.passes, result.profiles, result.recorder,
-                                                  coverage=result.coverage))
+    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage)
+    ctx.navigation = result.navigation = navigation_for(result, ctx)
+    result.findings = run_rules(ctx)
     return result

@@ -559,6 +559,8 @@ RULES = [
     rule_body_in_beam,
     rule_no_link,
 ]
+from contactplan.plan.tracking import TRACKING_RULES  # noqa: E402  (it imports helpers from this module)
+RULES.extend(TRACKING_RULES)
 
 
 def sort_key(f: Finding):
