@@ -33,10 +33,16 @@ def info_factor(info: np.ndarray) -> np.ndarray:
     return np.sqrt(np.clip(w, 0.0, None))[:, None] * v.T
 
 
-def measurement_update(s: np.ndarray, info: np.ndarray) -> np.ndarray:
-    """Square-root factor after adding the information ``info`` to the covariance S S^T."""
+def info_factors(infos: np.ndarray) -> np.ndarray:
+    """:func:`info_factor` of a stack (K, n, n), all at once."""
+    w, v = np.linalg.eigh(0.5 * (infos + np.swapaxes(infos, 1, 2)))
+    return np.sqrt(np.clip(w, 0.0, None))[:, :, None] * np.swapaxes(v, 1, 2)
+
+
+def measurement_update(s: np.ndarray, info: np.ndarray | None = None, u: np.ndarray | None = None) -> np.ndarray:
+    """Square-root factor after adding the information ``info`` (or its factor ``u``) to S S^T."""
     n = s.shape[0]
-    u = info_factor(info)
+    u = info_factor(info) if u is None else u
     pre = np.zeros((2 * n, 2 * n))
     pre[:n, :n] = np.eye(n)
     pre[:n, n:] = u @ s
@@ -61,12 +67,14 @@ def sqrt_filter(p0: np.ndarray, phis: np.ndarray, infos: dict, kicks: dict) -> n
     k_nodes = phis.shape[0] + 1
     out = np.empty((k_nodes, n, n))
     s = np.linalg.cholesky(p0)
+    keys = sorted(infos)
+    factors = dict(zip(keys, info_factors(np.array([infos[k] for k in keys])))) if keys else {}
     for k in range(k_nodes):
         if k:
             s = phis[k - 1] @ s
-        lam = infos.get(k)
-        if lam is not None:
-            s = measurement_update(s, lam)
+        u = factors.get(k)
+        if u is not None:
+            s = measurement_update(s, u=u)
         q = kicks.get(k)
         if q is not None:
             s = add_noise(s, q)

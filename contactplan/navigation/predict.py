@@ -165,6 +165,8 @@ class NavigationModel:
         at its node: (track index (M,), node index (M,), rows (M, 6)), all tracks in one batch."""
         od = self.od
         t_list, kind_list, tr_list = [], [], []
+        starts = []  # doppler: index of each count's first edge among the edges
+        n_edges = 0
         for i, tr in enumerate(tracks):
             a, b = max(tr.start_tt, self.start_tt), min(tr.end_tt, self.end_tt)
             if tr.station not in self.sites or b <= a:
@@ -175,8 +177,12 @@ class NavigationModel:
                 t_list.append(t), kind_list.append(np.zeros(t.size, np.int8)), tr_list.append(np.full(t.size, i))
             if tr.doppler:
                 c = od.doppler_interval_s
-                t = a + c * (np.arange(int(np.floor((b - a) / c + 1e-9))) + 0.5)
-                t_list.append(t), kind_list.append(np.ones(t.size, np.int8)), tr_list.append(np.full(t.size, i))
+                n = int(np.floor((b - a) / c + 1e-9))
+                if n:
+                    t = a + c * np.arange(n + 1)  # count edges; count k runs from edge k to edge k + 1
+                    t_list.append(t), kind_list.append(np.ones(t.size, np.int8)), tr_list.append(np.full(t.size, i))
+                    starts.append(n_edges + np.arange(n))
+                    n_edges += n + 1
         if not t_list:
             return np.zeros(0, np.int64), np.zeros(0, np.int64), np.zeros((0, 6))
         from contactplan.geometry.earth import station_itrs_km
@@ -186,27 +192,23 @@ class NavigationModel:
         owner = np.concatenate(tr_list)
         itrs = np.array([station_itrs_km(self.sites[tr.station].latitude_deg, self.sites[tr.station].longitude_deg,
                                          self.sites[tr.station].height_m) for tr in tracks])
-        site_km = itrs[owner]
-        rows = np.zeros((t.size, 6))
-        node = np.zeros(t.size, np.int64)
-        sigma = np.zeros(t.size)
+        # every range evaluation (normal points and count edges) in one batch
+        rng, g, tb, _ = measurements.two_way_range(self.states_at, t, measurements.StationMotion(t, itrs[owner]))
         rng_i = np.flatnonzero(kind == 0)
-        dop_i = np.flatnonzero(kind == 1)
-        if rng_i.size:
-            _, g, tb, _ = measurements.two_way_range(self.states_at, t[rng_i],
-                                                     measurements.StationMotion(t[rng_i], site_km[rng_i]))
-            k = self._node_after(tb)
-            rows[rng_i] = self._map(g, tb, k)
-            node[rng_i] = k
-            sigma[rng_i] = od.range_sigma_m / 1000.0
-        if dop_i.size:
+        edge_i = np.flatnonzero(kind == 1)
+        k = self._node_after(tb[rng_i])
+        out_rows = [self._map(g[rng_i], tb[rng_i], k) / (od.range_sigma_m / 1000.0)]
+        out_node, out_owner = [k], [owner[rng_i]]
+        if starts:
             c = od.doppler_interval_s
-            _, g2, tb2 = measurements.two_way_range_rate(self.states_at, t[dop_i], c, site_km[dop_i])
+            first = edge_i[np.concatenate(starts)]
+            _, g2, tb2 = measurements.count_rows(rng, g, tb, first, first + 1, c)
             k = self._node_after(tb2[0])  # the node at or after the end of the count
-            rows[dop_i] = (self._map(g2[0], tb2[0], k) - self._map(g2[1], tb2[1], k)) / c
-            node[dop_i] = k
-            sigma[dop_i] = od.doppler_sigma_mm_s * 1e-6
-        return owner, node, rows / _D[None, :] / sigma[:, None]
+            rows = (self._map(g2[0], tb2[0], k) - self._map(g2[1], tb2[1], k)) / c
+            out_rows.append(rows / (od.doppler_sigma_mm_s * 1e-6))
+            out_node.append(k), out_owner.append(owner[first])
+        rows = np.concatenate(out_rows) / _D[None, :]
+        return np.concatenate(out_owner), np.concatenate(out_node), rows
 
     def _measure(self, tracks: list[TrackSpan]) -> None:
         """Information at nodes of every track not in the cache (summed per track and node)."""
