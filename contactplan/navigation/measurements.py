@@ -74,22 +74,24 @@ def two_way_range(states_at, t_receive_tt, station: StationMotion):
     ``station``: the stations' motion prepared at ``t_receive_tt``."""
     t_r = np.asarray(t_receive_tt, dtype=float)
     s_r, _ = station.at(np.zeros_like(t_r))
+    # light times are kept as offsets (s): an instant near 1e9 s holds only 1e-7 s, 36 m of light
     r, v = states_at(t_r)
-    t_b = t_r - np.linalg.norm(r - s_r, axis=1) / C_KM_S
+    tau_d = np.linalg.norm(r - s_r, axis=1) / C_KM_S
     for _ in range(_LIGHT_ITERATIONS):
-        r, v = states_at(t_b)
-        t_b = t_r - np.linalg.norm(r - s_r, axis=1) / C_KM_S
+        r, v = states_at(t_r - tau_d)
+        tau_d = np.linalg.norm(r - s_r, axis=1) / C_KM_S
+    t_b = t_r - tau_d
     r, v = states_at(t_b)
-    up = np.linalg.norm(r - s_r, axis=1) / C_KM_S
-    t_t = t_b - up
-    for _ in range(4):
-        s_t, w_t = station.at(t_t - t_r)
-        t_t = t_b - np.linalg.norm(r - s_t, axis=1) / C_KM_S
-    s_t, w_t = station.at(t_t - t_r)
-    rng = 0.5 * C_KM_S * (t_r - t_t)
     d_down = r - s_r
-    u_d = d_down / np.linalg.norm(d_down, axis=1, keepdims=True)
+    down = np.linalg.norm(d_down, axis=1)
+    tau_u = down / C_KM_S
+    for _ in range(4):
+        s_t, w_t = station.at(-(tau_d + tau_u))
+        tau_u = np.linalg.norm(r - s_t, axis=1) / C_KM_S
+    s_t, w_t = station.at(-(tau_d + tau_u))
     d_up = r - s_t
+    rng = 0.5 * (down + np.linalg.norm(d_up, axis=1))
+    u_d = d_down / down[:, None]
     u_u = d_up / np.linalg.norm(d_up, axis=1, keepdims=True)
     # d t_b = a . dr ; d t_t = b . dr ; d rho = -c/2 b . dr
     a = -u_d / (C_KM_S + np.einsum("ni,ni->n", u_d, v))[:, None]
