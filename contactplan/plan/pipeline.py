@@ -137,6 +137,6 @@ def check(result: PlanResult) -> PlanResult:
     sc = result.scenario
     result.recorder = _recorder(sc, result.passes, result.profiles)
     ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage)
-    ctx.navigation = result.navigation = navigation_for(result, ctx)
+    ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
     result.findings = run_rules(ctx)
     return result

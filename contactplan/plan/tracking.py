@@ -365,25 +365,32 @@ TRACKING_RULES = [rule_tracking_per_day, rule_tracking_spread, rule_post_manoeuv
 
 # ---------------------------------------------------------------- the covariance for a plan result
 def navigation_for(result, ctx):
-    """The predicted accuracy for ``result``'s current bookings (None without ``[orbit_determination]``
-    or without an ephemeris). The prepared model is kept on the result; with
-    ``result.navigation_deferred`` set (the planner computes it in the background) only a
-    result already computed for these very tracks is returned."""
+    """The predicted accuracy for ``result``'s current bookings, for the rules: None without
+    ``[orbit_determination]`` or an ephemeris.
+
+    Keeps ``result.navigation`` (the latest prediction) and ``result.navigation_tracks`` (the
+    two-way tracks of the current bookings). The prepared model is kept on the result. With
+    ``result.navigation_deferred`` set (the planner predicts in the background) nothing is
+    computed here: a prediction made for these very tracks is returned, else None, and
+    ``result.navigation`` keeps the last one until the background job replaces it."""
     from contactplan.navigation import predict
     from contactplan.navigation.predict import signature
     from contactplan.plan.twoway import manoeuvres
 
     sc = result.scenario
     if getattr(sc, "orbit_determination", None) is None or result.ephemeris is None:
+        result.navigation = result.navigation_tracks = None
         return None
     tracks = track_index(ctx).tracks
+    result.navigation_tracks = tracks
     mans = manoeuvres(sc)
     old = getattr(result, "navigation", None)
     if old is not None and old.signature == signature(tracks, mans):
         return old
     if getattr(result, "navigation_deferred", False):
         return None
-    return predict(sc, result.ephemeris, tracks, mans, model=navigation_model(result, mans))
+    result.navigation = predict(sc, result.ephemeris, tracks, mans, model=navigation_model(result, mans))
+    return result.navigation
 
 
 def navigation_model(result, mans=None):
