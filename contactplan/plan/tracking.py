@@ -359,6 +359,8 @@ def rule_od_accuracy(ctx) -> list:
 
 
 #: the tracking rules, appended to contactplan.plan.rules.RULES
+TRACKING_NEEDS_EPHEMERIS = frozenset({"tracking-per-day", "tracking-spread", "post-manoeuvre-tracking",
+                                      "cutoff-arc"})
 TRACKING_RULES = [rule_tracking_per_day, rule_tracking_spread, rule_post_manoeuvre_tracking, rule_cutoff_arc,
                   rule_od_accuracy]
 
