@@ -328,3 +328,17 @@ def test_one_station_leaves_the_out_of_plane_direction_worst(setup):
     assert res.largest_axis_angle_deg[-1] > 80.0
     assert abs(axis @ dec_dir) > abs(axis @ ra_dir)
     assert abs(axis @ dec_dir) > 0.9
+
+
+def test_earth_and_moon_merge_at_their_barycentre_far_out():
+    """Far from both, the Earth and Moon pull as one mass at their barycentre (Newton; common
+    practice): the merged gradient matches the split one, and the split test says so."""
+    from contactplan.timescale import parse_utc
+
+    t = np.array([parse_utc("2027-01-12T00:00:00Z")])
+    r = np.array([[3.0e7, 2.0e7, 1.0e7]])
+    split = dynamics.Bodies(t, True).gradient(r)[0]
+    merged = dynamics.Bodies(t, False).gradient(r)[0]
+    assert np.max(np.abs(split - merged)) < 1e-4 * np.max(np.abs(split))
+    assert not dynamics.needs_moon(t, r)
+    assert dynamics.needs_moon(t, np.array([[1.5e6, 0.0, 0.0]]))  # a libration orbit keeps the Moon apart

@@ -2,10 +2,10 @@
 
 Frame: geocentric ICRF axes, position km, velocity km/s, times TT seconds since J2000.
 Bodies (DE421 through :mod:`contactplan.ephemeris.bodies`): the Earth, the Sun and the
-Moon as point masses. Where the Moon's own gravity gradient at the spacecraft stays below
-:data:`MOON_SPLIT_RATIO` of the Earth's over the whole arc, Earth and Moon are merged
-into one point mass at their barycentre (the Earth-Moon barycentre of the issue); closer
-in they are kept apart.
+Moon as point masses. Where merging the Earth and the Moon into one point mass at their
+barycentre changes the gravity gradient at the spacecraft by less than
+:data:`MOON_SPLIT_RATIO` of its size over the whole arc (some ten million km out), they
+are merged; closer in (a libration-point orbit: about 3e-3) they are kept apart.
 
 In a geocentric frame the acceleration is
 
@@ -28,8 +28,7 @@ import numpy as np
 
 from contactplan.ephemeris import bodies
 
-#: Earth and Moon are merged at their barycentre when the Moon's gradient stays below this
-#: fraction of the Earth's (then the split changes the gradient by less than about 1e-6 of it)
+#: Earth and Moon are merged at their barycentre when that changes the gradient by less than this fraction
 MOON_SPLIT_RATIO = 1e-6
 #: longest node step of the covariance grid (s)
 MAX_NODE_STEP_S = 3600.0
@@ -92,13 +91,15 @@ class Bodies:
 
 
 def needs_moon(t_tt, r_km) -> bool:
-    """True when the Moon must be a mass of its own: its gradient at the spacecraft exceeds
-    :data:`MOON_SPLIT_RATIO` of the Earth's somewhere along the samples."""
-    gm = bodies.gm_km3_s2()
-    moon, _ = bodies.moon_km(np.atleast_1d(t_tt))
+    """True when the Moon must be a mass of its own: merging it with the Earth at their
+    barycentre would change the gradient at the spacecraft by more than
+    :data:`MOON_SPLIT_RATIO` of its size somewhere along the samples."""
+    t = np.atleast_1d(t_tt)
     r = np.atleast_2d(r_km)
-    ratio = (gm["moon"] / np.linalg.norm(r - moon, axis=1) ** 3) / (gm["earth"] / np.linalg.norm(r, axis=1) ** 3)
-    return bool(np.max(ratio) > MOON_SPLIT_RATIO)
+    split = Bodies(t, True).gradient(r)
+    merged = Bodies(t, False).gradient(r)
+    err = np.max(np.abs(split - merged), axis=(1, 2)) / np.max(np.abs(split), axis=(1, 2))
+    return bool(np.max(err) > MOON_SPLIT_RATIO)
 
 
 def _f_matrix(grad: np.ndarray) -> np.ndarray:
