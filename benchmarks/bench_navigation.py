@@ -18,39 +18,6 @@ sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from _timing import best_of  # noqa: E402
 
-SCENARIO = """
-format_version = 1
-[scenario]
-name = "Four weeks"
-start = "2027-01-12T00:00:00Z"
-end = "2027-02-09T00:00:00Z"
-[spacecraft]
-name = "Invented probe"
-ephemeris = { libration = { point = "L2", vertical_amplitude_km = 300000.0, branch = "north", epoch = "2027-01-01T00:00:00Z" } }
-[[stations]]
-id = "NRV"
-latitude_deg = 47.35
-longitude_deg = 8.10
-min_elevation_deg = 10.0
-[[stations]]
-id = "KAL"
-latitude_deg = -33.2
-longitude_deg = 151.4
-min_elevation_deg = 10.0
-[[stations]]
-id = "PAM"
-latitude_deg = -35.0
-longitude_deg = -70.0
-min_elevation_deg = 10.0
-[[activity_series]]
-id = "SK"
-kind = "burn"
-first_start = "2027-01-15T14:00:00Z"
-every_days = 7
-count = 4
-duration_min = 20
-[orbit_determination]
-"""
 
 
 def main(argv) -> int:
@@ -63,9 +30,10 @@ def main(argv) -> int:
     from contactplan.plan.twoway import manoeuvres
     from contactplan.scenario.load import parse_text
 
-    sc = parse_text(SCENARIO)
+    text = (ROOT / "tests" / "data" / "navigation.toml").read_text("utf-8")
+    sc = parse_text(text.replace('end = "2027-01-16T00:00:00Z"', 'end = "2027-02-09T00:00:00Z"'))
     eph = ephemeris_for(sc)
-    passes = find_passes(sc, eph)
+    passes = [p for p in find_passes(sc, eph) if p.station in ("NRV", "KAL", "PAM")]
     tracks = [TrackSpan(p.station, p.aos_tt + 600.0, min(p.los_tt - 600.0, p.aos_tt + 8.6 * 3600.0),
                         booking=f"B{i:03d}") for i, p in enumerate(passes)]
     mans = manoeuvres(sc)

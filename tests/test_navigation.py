@@ -14,45 +14,21 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from conftest import DATA
+
 from contactplan.navigation import covariance, dynamics, measurements
 from contactplan.navigation.predict import TIME_UNIT_S, NavigationModel, TrackSpan, check_times
 from contactplan.scenario.orbit_determination import OrbitDetermination
 
-SCENARIO = """
-format_version = 1
-[scenario]
-name = "Nav test"
-start = "2027-01-12T00:00:00Z"
-end = "2027-01-16T00:00:00Z"
-[spacecraft]
-name = "Invented probe"
-ephemeris = { libration = { point = "L2", vertical_amplitude_km = 300000.0, branch = "north", epoch = "2027-01-01T00:00:00Z" } }
-[[stations]]
-id = "NRV"
-latitude_deg = 47.35
-longitude_deg = 8.10
-min_elevation_deg = 10.0
-[[stations]]
-id = "KAL"
-latitude_deg = -33.2
-longitude_deg = 151.4
-min_elevation_deg = 10.0
-[[stations]]
-id = "HWK"
-latitude_deg = 40.4
-longitude_deg = -104.0
-min_elevation_deg = 10.0
-[orbit_determination]
-"""
 
 
 @pytest.fixture(scope="module")
 def setup():
     from contactplan.ephemeris import ephemeris_for
     from contactplan.geometry.passes import find_passes
-    from contactplan.scenario.load import parse_text
+    from contactplan.scenario import load_scenario
 
-    sc = parse_text(SCENARIO)
+    sc = load_scenario(DATA / "navigation.toml")
     eph = ephemeris_for(sc)
     passes = find_passes(sc, eph)
     model = NavigationModel(eph, sc.start_tt, sc.end_tt, OrbitDetermination(), sc.stations, (),
@@ -79,6 +55,14 @@ def reference(setup):
     return t_fine, x0, lambda t: np.array([table[float(x)] for x in np.atleast_1d(t)])
 
 
+def _chain(nodes, pos):
+    """Phi(t_last, t_first) as the product of the interval matrices."""
+    phi = np.eye(6)
+    for step in dynamics.interval_stms(nodes, pos):
+        phi = step @ phi
+    return phi
+
+
 def _scaled_error(a, b):
     d = np.array([1, 1, 1, TIME_UNIT_S, TIME_UNIT_S, TIME_UNIT_S])
     sa, sb = a * d[:, None] / d[None, :], b * d[:, None] / d[None, :]
@@ -88,9 +72,7 @@ def _scaled_error(a, b):
 def test_stm_matches_finite_differences_of_the_same_integrator(reference):
     t_fine, x0, pos = reference
     nodes = t_fine[::2]
-    phi = np.eye(6)
-    for step in dynamics.interval_stms(nodes, pos):
-        phi = step @ phi
+    phi = _chain(nodes, pos)
     # central differences of the nonlinear RK4 propagation with the same steps
     fd = np.zeros((6, 6))
     for j, h in enumerate([1.0, 1.0, 1.0, 1e-5, 1e-5, 1e-5]):
@@ -109,9 +91,7 @@ def test_stm_matches_scipy_solve_ivp(reference):
 
     t_fine, x0, pos = reference
     nodes = t_fine[::2]
-    phi = np.eye(6)
-    for step in dynamics.interval_stms(nodes, pos):
-        phi = step @ phi
+    phi = _chain(nodes, pos)
 
     # the force model written out again here (Earth, Sun, Moon point masses, geocentric),
     # with the bodies from DE421 through a scipy cubic spline every 10 minutes
