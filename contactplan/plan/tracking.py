@@ -33,7 +33,7 @@ import numpy as np
 from contactplan.intervals import subtract, total_s, union
 from contactplan.plan.findings import WARNING
 from contactplan.plan.rules import _finding, _whole_days, span_text, t_text
-from contactplan.plan.twoway import two_way_tracks
+from contactplan.plan.twoway import two_way_stations, two_way_tracks
 from contactplan.scenario.orbit_determination import TRACKING_DEFAULTS
 
 H = 3600.0
@@ -130,15 +130,19 @@ def _pass_index(ctx):
 
 def closing_passes(ctx, windows, need_s: float, stations=None) -> list:
     """Passes whose untracked time inside ``windows`` would add up to ``need_s`` (largest first):
-    [(Pass, free seconds)]. ``stations``: only passes of these."""
+    [(Pass, free seconds)]. Only stations that can track two-way; ``stations``: only these of them."""
     plist, aos, longest = _pass_index(ctx)
     idx = track_index(ctx)
+    able = getattr(ctx, "_two_way_stations", None)
+    if able is None:
+        able = ctx._two_way_stations = two_way_stations(ctx.scenario)
+    stations = able if stations is None else set(stations) & able
     cand = []
     for w0, w1 in union(windows):
         i0 = int(np.searchsorted(aos, w0 - longest, side="left"))
         i1 = int(np.searchsorted(aos, w1, side="left"))
         for p in plist[i0:i1]:
-            if p.los_tt <= w0 or (stations is not None and p.station not in stations):
+            if p.los_tt <= w0 or p.station not in stations:
                 continue
             a, b = max(p.aos_tt, w0), min(p.los_tt, w1)
             outs = [(o0, o1) for o0, o1, _ in ctx.outages.get(p.station, [])]

@@ -56,3 +56,13 @@ def manoeuvres(scenario) -> list[Manoeuvre]:
         out.append(Manoeuvre(a.id, a.kind, float(a.start_tt), float(a.end_tt), sigma))
     out.sort(key=lambda m: m.start_tt)
     return out
+
+
+def two_way_stations(scenario) -> set:
+    """Ids of the stations that can track two-way (with services: an up and a down link that
+    carry ranging or Doppler; before services every station could)."""
+    try:
+        from contactplan.link.services import station_services
+    except ImportError:  # the single-link model: every station ranges
+        return {s.id for s in scenario.stations}
+    return {s.id for s in scenario.stations if {"ranging", "doppler"} & set(station_services(scenario, s))}
