@@ -29,11 +29,32 @@ def _services(booking) -> tuple[bool, bool]:
     return ranging, ranging
 
 
+def _offers(scenario):
+    """``offers(station_id, service)``: with services, whether the station has an up and a down
+    link carrying it (a service booked where it is not offered gives no data); before, always."""
+    try:
+        from contactplan.link.services import offers
+    except ImportError:
+        return lambda sid, service: True
+    cache: dict = {}
+
+    def ok(sid, service):
+        if (sid, service) not in cache:
+            st = next((s for s in scenario.stations if s.id == sid), None)
+            cache[(sid, service)] = st is not None and offers(scenario, st, service)
+        return cache[(sid, service)]
+
+    return ok
+
+
 def two_way_tracks(ctx) -> list[TrackSpan]:
     """Two-way track spans of every booking, sorted by start (a RuleContext gives passes and outages)."""
     out = []
+    offered = _offers(ctx.scenario)
     for b in ctx.scenario.bookings:
         ranging, doppler = _services(b)
+        ranging = ranging and offered(b.station, "ranging")
+        doppler = doppler and offered(b.station, "doppler")
         if not (ranging or doppler):
             continue
         for a, c in ctx.tracked(b):
@@ -61,8 +82,5 @@ def manoeuvres(scenario) -> list[Manoeuvre]:
 def two_way_stations(scenario) -> set:
     """Ids of the stations that can track two-way (with services: an up and a down link that
     carry ranging or Doppler; before services every station could)."""
-    try:
-        from contactplan.link.services import station_services
-    except ImportError:  # the single-link model: every station ranges
-        return {s.id for s in scenario.stations}
-    return {s.id for s in scenario.stations if {"ranging", "doppler"} & set(station_services(scenario, s))}
+    offered = _offers(scenario)
+    return {s.id for s in scenario.stations if offered(s.id, "ranging") or offered(s.id, "doppler")}
