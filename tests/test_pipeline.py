@@ -47,7 +47,8 @@ def test_check_follows_booking_edits(plan):
     burn = m.Activity(id="TEST-BURN", kind="burn", start_tt=mid, duration_min=10, monitor_before_min=30,
                       monitor_after_min=30, downlink_keepout_min=0)
     m0, m1 = burn.monitor_span_tt
-    b = m.Booking(id="B900", station="NRV", start_tt=m0 - 45 * 60, end_tt=m1 + 15 * 60, purposes=["ranging"])
+    b = m.Booking(id="B900", station="NRV", start_tt=m0 - 45 * 60, end_tt=m1 + 15 * 60,
+                  services=["telemetry", "ranging", "doppler"])  # format 2: monitoring is telemetry + doppler
     sc.activities.append(burn)
 
     def unmonitored():
@@ -63,7 +64,10 @@ def test_check_follows_booking_edits(plan):
         check(plan)
         f = unmonitored()
         assert [x.rule for x in f] == ["burn-unmonitored"] and "1 min" in f[0].message
-        b.start_tt = p.aos_tt - 600.0  # now starts before AOS
+        b.start_tt = p.aos_tt - 45 * 60.0  # pre-pass below the mask, track from AOS: fine in format 2
+        check(plan)
+        assert [f.subjects for f in plan.findings if f.rule == "outside-pass"] == []
+        b.start_tt = p.aos_tt - 45 * 60.0 - 600.0  # now the track starts before AOS
         check(plan)
         assert [f.subjects for f in plan.findings if f.rule == "outside-pass"] == [["B900", "NRV"]]
     finally:

@@ -46,9 +46,10 @@ def setup(minimal_path_module):
     old = compute_plan(sc, old_eph)
     nrv = [p for p in old.passes if p.station == "NRV" and not p.clipped_start and not p.clipped_end]
     p = nrv[1]
-    # one booking filling its pass from AOS (setup included) to 1 h before LOS, one safely in the middle
+    # one booking tracking its pass from AOS (the pre-pass before it) to 1 h before LOS, one safely in the middle
+    pre = sc.station("NRV").pre_pass_min * 60.0
     sc.bookings = [
-        m.Booking(id="EDGE", station="NRV", start_tt=p.aos_tt + 1.0, end_tt=p.los_tt - 3600.0,
+        m.Booking(id="EDGE", station="NRV", start_tt=p.aos_tt + 1.0 - pre, end_tt=p.los_tt - 3600.0,
                   purposes=["downlink", "ranging"]),
         m.Booking(id="MID", station="NRV", start_tt=nrv[2].aos_tt + 3600.0, end_tt=nrv[2].aos_tt + 4 * 3600.0,
                   purposes=["ranging"]),

@@ -76,8 +76,16 @@ def test_outside_pass_fires_and_names_the_fitting_pass():
     assert len(f) == 1
     assert f[0].severity == ERROR and f[0].subjects == ["B001", "NRV"]
     assert "NRV@2027-01-12T16:00:00Z" in f[0].message
-    assert "change it to 2027-01-12T16:00:00Z to 2027-01-12T20:00:00Z" in f[0].message
-    assert f[0].start_tt == t("2027-01-12T15:00:00Z") and f[0].end_tt == t("2027-01-12T20:00:00Z")
+    # format 2: only the track (15:45 to 19:45, after 45 min pre-pass, before 15 min post-pass) must lie
+    # in the pass; the fix keeps the pre-pass below the mask: booking 15:15 (track from AOS 16:00) to 20:00
+    assert "change the booking to 2027-01-12T15:15:00Z to 2027-01-12T20:00:00Z" in f[0].message
+    assert f[0].start_tt == t("2027-01-12T15:45:00Z") and f[0].end_tt == t("2027-01-12T19:45:00Z")
+
+
+def test_outside_pass_ignores_pre_pass_below_the_mask():
+    # pre-pass 15:15-16:00 before AOS 16:00, track from AOS: not an error in format 2
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T15:15:00Z", "2027-01-12T20:00:00Z")])
+    assert rules_of(check_plan(sc, PASSES), "outside-pass") == []
 
 
 def test_outside_pass_quiet_inside_and_at_exact_edges():
@@ -130,12 +138,39 @@ def test_station_outage_quiet_when_touching():
 
 # ---------------------------------------------------------------- double-booking
 def test_double_booking_same_station():
+    # tracks: B001 16:45-19:45, B002 18:45-22:45 overlap 18:45-19:45
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T16:00:00Z", "2027-01-12T20:00:00Z"),
+                        booking("B002", "NRV", "2027-01-12T18:00:00Z", "2027-01-12T23:00:00Z")])
+    found = check_plan(sc, PASSES)
+    f = rules_of(found, "double-booking")
+    assert len(f) == 1 and f[0].subjects == ["B001", "B002", "NRV"]
+    assert (f[0].start_tt, f[0].end_tt) == (t("2027-01-12T18:45:00Z"), t("2027-01-12T19:45:00Z"))
+    assert "end B001's track by 2027-01-12T18:45:00Z" in f[0].message
+    assert rules_of(found, "prepass-conflict") == []  # said once, as double-booking
+
+
+def test_prepass_conflict_when_only_pre_and_post_pass_overlap():
+    # B001 post-pass 19:45-20:00 and B002 pre-pass 19:00-19:45: tracks touch, the antenna time does not fit
     sc = make_scenario([booking("B001", "NRV", "2027-01-12T16:00:00Z", "2027-01-12T20:00:00Z"),
                         booking("B002", "NRV", "2027-01-12T19:00:00Z", "2027-01-12T23:00:00Z")])
-    f = rules_of(check_plan(sc, PASSES), "double-booking")
+    found = check_plan(sc, PASSES)
+    assert rules_of(found, "double-booking") == []
+    f = rules_of(found, "prepass-conflict")
     assert len(f) == 1 and f[0].subjects == ["B001", "B002", "NRV"]
     assert (f[0].start_tt, f[0].end_tt) == (t("2027-01-12T19:00:00Z"), t("2027-01-12T20:00:00Z"))
-    assert "end B001 by 2027-01-12T19:00:00Z" in f[0].message
+    assert "60 min more between them" in f[0].message
+
+
+def test_prepass_conflict_on_an_outage_and_quiet_when_clear():
+    o = m.Outage(start_tt=t("2027-01-12T16:00:00Z"), end_tt=t("2027-01-12T16:30:00Z"), reason="dish wash")
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T16:00:00Z", "2027-01-12T20:00:00Z")], outages=[o])
+    found = check_plan(sc, PASSES)
+    f = rules_of(found, "prepass-conflict")
+    assert len(f) == 1 and "pre-pass of B001" in f[0].message and "(dish wash)" in f[0].message
+    assert (f[0].start_tt, f[0].end_tt) == (o.start_tt, o.end_tt)
+    assert rules_of(found, "station-outage") == []
+    sc.bookings[0].start_tt = o.end_tt
+    assert rules_of(check_plan(sc, PASSES), "prepass-conflict") == []
 
 
 def test_double_booking_other_station_or_back_to_back_is_fine():
@@ -157,9 +192,24 @@ def test_downlink_in_keepout_proposes_split():
     assert len(f) == 1 and f[0].subjects == ["B001", "SLEW-A"]
     # keep-out is 21:50 to 22:30
     assert (f[0].start_tt, f[0].end_tt) == (t("2027-01-12T21:50:00Z"), t("2027-01-12T22:30:00Z"))
-    assert ("split it into 2027-01-12T17:00:00Z to 2027-01-12T21:50:00Z and "
-            "2027-01-12T22:30:00Z to 2027-01-13T03:00:00Z") in f[0].message
-    assert "keep it for ranging only" in f[0].message
+    # tracks 17:45-21:50 and 22:30-02:45; the second booking's pre-pass may not overlap the first's post-pass
+    assert ("split it into 2027-01-12T17:00:00Z to 2027-01-12T22:05:00Z and "
+            "2027-01-12T22:05:00Z to 2027-01-13T03:00:00Z") in f[0].message
+    assert "keep it for ranging and doppler only" in f[0].message
+
+
+def test_downlink_in_keepout_ignores_pre_pass_and_telemetry_in_a_burn_keep_out():
+    # the keep-out 21:50-22:30 lies wholly in the pre-pass (21:45-22:30) of a booking tracking from 22:30
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T21:45:00Z", "2027-01-13T03:00:00Z")],
+                       activities=[SLEW])
+    assert rules_of(check_plan(sc, PASSES), "downlink-in-keepout") == []
+    # telemetry (no playback) through a burn's keep-out is its monitoring, not a fault
+    sc = make_scenario([m.Booking(id="B002", station="NRV", start_tt=t("2027-01-12T22:00:00Z"),
+                                  end_tt=t("2027-01-13T02:00:00Z"), services=["telemetry", "ranging", "doppler"])],
+                       activities=[BURN])
+    assert rules_of(check_plan(sc, PASSES), "downlink-in-keepout") == []
+    sc.bookings[0].services.append("playback")
+    assert len(rules_of(check_plan(sc, PASSES), "downlink-in-keepout")) == 1
 
 
 def test_downlink_in_keepout_ignores_non_downlink_and_clear_bookings():
@@ -177,8 +227,8 @@ BURN = m.Activity(id="SK-07", kind="burn", start_tt=t("2027-01-13T00:00:00Z"), d
 def test_burn_unmonitored_counts_uncovered_minutes():
     # monitor span 23:30 to 00:50; commanding booking at KAL (no setup) ends 00:30 -> 20 min uncovered,
     # but KAL is not in view before 04:00, so use NRV whose setup (45 min) does not count.
-    sc = make_scenario([booking("B001", "NRV", "2027-01-12T23:00:00Z", "2027-01-13T00:30:00Z", ("commanding",))],
-                       activities=[BURN])
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T23:00:00Z", "2027-01-13T00:30:00Z",
+                                ("downlink", "ranging"))], activities=[BURN])
     f = rules_of(check_plan(sc, PASSES), "burn-unmonitored")
     assert len(f) == 1 and f[0].subjects == ["SK-07"]
     # tracked: 23:45 to 00:15 (setup to 23:45, teardown from 00:15): uncovered 23:30-23:45 and 00:15-00:50
@@ -187,8 +237,8 @@ def test_burn_unmonitored_counts_uncovered_minutes():
 
 
 def test_burn_monitored_by_union_of_two_bookings():
-    sc = make_scenario([booking("B001", "NRV", "2027-01-12T22:00:00Z", "2027-01-13T00:15:00Z", ("ranging",)),
-                        booking("B002", "NRV", "2027-01-12T23:50:00Z", "2027-01-13T02:00:00Z", ("commanding",))],
+    sc = make_scenario([booking("B001", "NRV", "2027-01-12T22:00:00Z", "2027-01-13T00:15:00Z", ("downlink", "ranging")),
+                        booking("B002", "NRV", "2027-01-12T23:50:00Z", "2027-01-13T02:00:00Z", ("downlink", "ranging"))],
                        activities=[BURN])
     # B001 tracks 22:45-00:00, B002 tracks 00:35-01:45: a gap 00:00-00:35 remains
     f = rules_of(check_plan(sc, PASSES), "burn-unmonitored")
@@ -323,16 +373,18 @@ def test_clean_plan_has_no_findings():
     sc = make_scenario([booking("B001", "NRV", "2027-01-12T16:00:00Z", "2027-01-13T02:00:00Z",
                                 ("downlink", "ranging", "commanding"))], activities=[SLEW, BURN])
     sc.activities = [BURN]  # burn at 00:00 with keep-out 23:50-00:30: move downlink out of it
-    sc.bookings = [booking("B001", "NRV", "2027-01-12T22:00:00Z", "2027-01-13T02:00:00Z", ("ranging", "commanding"))]
+    sc.bookings = [m.Booking(id="B001", station="NRV", start_tt=t("2027-01-12T22:00:00Z"),
+                             end_tt=t("2027-01-13T02:00:00Z"),
+                             services=["telemetry", "commanding", "ranging", "doppler"])]
     assert check_plan(sc, PASSES, recorder=recorder([10, 20, 30])) == []
 
 
 def test_findings_sorted_by_start_then_severity():
-    sc = make_scenario([booking("B002", "NRV", "2027-01-13T06:00:00Z", "2027-01-13T06:30:00Z"),
+    sc = make_scenario([booking("B002", "NRV", "2027-01-13T06:00:00Z", "2027-01-13T08:00:00Z"),
                         booking("B001", "NRV", "2027-01-12T17:00:00Z", "2027-01-12T17:30:00Z")])
     found = check_plan(sc, PASSES)
     assert [(f.subjects[0], f.severity) for f in found] == [
-        ("B001", WARNING), ("B002", ERROR), ("B002", WARNING)]
+        ("B001", WARNING), ("B002", ERROR)]
     keys = [(f.start_tt, f.severity != ERROR) for f in found]
     assert keys == sorted(keys)
 
@@ -353,7 +405,7 @@ def test_every_rule_is_registered_once_and_documented():
 def test_json_times_use_pass_table_form():
     sc = make_scenario([booking("B001", "NRV", "2027-01-12T15:00:00Z", "2027-01-12T20:00:00Z")])
     j = rules_of(check_plan(sc, PASSES), "outside-pass")[0].to_json()
-    assert j["start"] == "2027-01-12T15:00:00.000Z" and j["end"] == "2027-01-12T20:00:00.000Z"
+    assert j["start"] == "2027-01-12T15:45:00.000Z" and j["end"] == "2027-01-12T19:45:00.000Z"  # the track
     assert set(j) == {"rule", "severity", "subjects", "start", "end", "message"}
 
 
@@ -376,8 +428,9 @@ def test_downlink_split_avoids_every_keepout_it_touches():
                        activities=[SLEW, dump])
     f = rules_of(check_plan(sc, PASSES), "downlink-in-keepout")
     assert [x.subjects for x in f] == [["B001", "SLEW-A"], ["B001", "DUMP-1"]]
-    expected = ("split it into 2027-01-12T17:00:00Z to 2027-01-12T21:50:00Z, 2027-01-12T22:30:00Z to "
-                "2027-01-13T01:00:00Z and 2027-01-13T01:10:00Z to 2027-01-13T04:00:00Z")
+    # tracks 17:45-21:50, 22:30-01:00, 01:10-03:45; each pre-pass starts where the previous post-pass ends
+    expected = ("split it into 2027-01-12T17:00:00Z to 2027-01-12T22:05:00Z, 2027-01-12T22:05:00Z to "
+                "2027-01-13T01:15:00Z and 2027-01-13T01:15:00Z to 2027-01-13T04:00:00Z")
     assert all(expected in x.message for x in f)
     assert "keep-out of activity DUMP-1" in f[1].message
 
@@ -388,7 +441,7 @@ def test_fix_spans_for_the_app():
                         booking("B002", "NRV", "2027-01-12T19:00:00Z", "2027-01-12T23:00:00Z")], outages=[o])
     found = check_plan(sc, PASSES)
     by_rule = {f.rule: f for f in found}
-    assert by_rule["outside-pass"].fix == [(t("2027-01-12T16:00:00Z"), t("2027-01-12T18:00:00Z"))]
+    assert by_rule["outside-pass"].fix == [(t("2027-01-12T15:15:00Z"), t("2027-01-12T18:00:00Z"))]
     assert by_rule["station-outage"].fix == [(t("2027-01-12T19:00:00Z"), o.start_tt),
                                              (o.end_tt, t("2027-01-12T23:00:00Z"))]
     assert "fix" not in by_rule["station-outage"].to_json()

@@ -84,10 +84,21 @@ def test_rules_never_crash_and_stay_in_window(bl, acts, rec, outs, clipped):
 @given(bookings())
 def test_double_booking_matches_pairwise_overlap(bl):
     sc = make_scenario(bl)
-    found = [f for f in check_plan(sc, PASSES) if f.rule == "double-booking"]
+    # format 2: double-booking is about tracks (start + pre-pass to end - post-pass) that overlap;
+    # bookings overlapping only in pre-pass or post-pass are prepass-conflict
+    found = check_plan(sc, PASSES)
+
+    def track(b):
+        return sc.track_span_tt(b)
+
     expected = sum(1 for i, a in enumerate(bl) for b in bl[i + 1:]
-                   if a.station == b.station and a.start_tt < b.end_tt and b.start_tt < a.end_tt)
-    assert len(found) == expected
+                   if a.station == b.station and track(a)[1] > track(a)[0] and track(b)[1] > track(b)[0]
+                   and track(a)[0] < track(b)[1] and track(b)[0] < track(a)[1])
+    assert len([f for f in found if f.rule == "double-booking"]) == expected
+    pre_only = sum(1 for i, a in enumerate(bl) for b in bl[i + 1:]
+                   if a.station == b.station and a.start_tt < b.end_tt and b.start_tt < a.end_tt
+                   and not max(track(a)[0], track(b)[0]) < min(track(a)[1], track(b)[1]))
+    assert len([f for f in found if f.rule == "prepass-conflict" and len(f.subjects) == 3]) == pre_only
 
 
 @settings(max_examples=100, deadline=None)

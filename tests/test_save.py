@@ -17,6 +17,7 @@ from contactplan.errors import InputError
 from contactplan.fileio import WriteError, atomic_write
 from contactplan.scenario import load_scenario, parse_text, save_scenario
 from contactplan.scenario import model as m
+from contactplan.scenario.load import upgrade_1_to_2
 from contactplan.scenario.save import dumps
 from contactplan.timescale import parse_utc
 
@@ -69,7 +70,8 @@ def test_saving_twice_gives_identical_bytes(copy_minimal):
 
 def test_unchanged_save_keeps_every_value_unknown_keys_and_doy_text(copy_minimal, minimal_path):
     save_scenario(load_scenario(copy_minimal))
-    before = tomllib.loads(minimal_path.read_text(encoding="utf-8"))
+    # the file is format 1: its first save writes the version-2 upgrade of it and nothing else
+    before = upgrade_1_to_2(tomllib.loads(minimal_path.read_text(encoding="utf-8")))
     after = doc_of(copy_minimal)
     assert after == before  # parsed documents identical: nothing but comments and layout changed
     text = copy_minimal.read_text(encoding="utf-8")
@@ -166,7 +168,7 @@ def test_record_order_of_the_file_is_kept(tmp_path):
 
 def test_file_without_format_version_loads_as_version_1_and_is_upgraded_on_save(tmp_path):
     # Upgrade path: a plan written before format_version existed (the only older form) is read as
-    # version 1; its first save writes format_version = 1 and changes nothing else.
+    # version 1; its first save writes format 2: the upgrade of that file and nothing else.
     old = MINI.replace("format_version = 1\n", "")
     assert "format_version" not in old
     p = tmp_path / "old.toml"
@@ -175,8 +177,8 @@ def test_file_without_format_version_loads_as_version_1_and_is_upgraded_on_save(
     assert sc.format_version == 1
     save_scenario(sc)
     before, after = tomllib.loads(old), doc_of(p)
-    assert after.pop("format_version") == m.FORMAT_VERSION
-    assert after == before
+    assert after["format_version"] == m.FORMAT_VERSION == 2
+    assert after == upgrade_1_to_2(before)
     assert as_data(load_scenario(p)) == as_data(sc)
 
 
@@ -276,7 +278,8 @@ def test_dumps_of_unsaved_scenario_round_trips():
     sc = parse_text(MINI)
     sc.path = None
     again = parse_text(dumps(sc))
-    assert as_data(again) == as_data(sc)
+    assert again.format_version == m.FORMAT_VERSION and sc.format_version == 1  # MINI is format 1
+    assert as_data(again) | {"format_version": 1} == as_data(sc)
 
 
 def test_docs_example_loads_and_documents_every_key():
@@ -303,7 +306,7 @@ def test_demo_scenario_round_trips(tmp_path):
     sc = load_scenario(demo)
     out = save_scenario(sc, tmp_path / "week.toml")
     assert as_data(load_scenario(out)) == as_data(sc)
-    assert doc_of(out) | {"format_version": 1} == tomllib.loads(demo.read_text(encoding="utf-8")) | {"format_version": 1}
+    assert doc_of(out) == tomllib.loads(demo.read_text(encoding="utf-8"))
 
 
 def test_a_scenario_that_would_not_load_again_is_not_saved(copy_minimal):

@@ -55,7 +55,7 @@ def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris
         warn(f"the ephemeris covers only part of the window ({', '.join(format_utc(a, 0) + ' to ' + format_utc(b, 0) for a, b in spans)}); "
              "passes at the coverage edges are clipped")
     passes = find_passes(scenario, eph, start_tt, end_tt, stations=stations)
-    if scenario.spacecraft.link is not None and passes:
+    if passes and any(lk.has_budget for lk in scenario.spacecraft.links):
         from contactplan.plan.pipeline import link_profiles
 
         link_profiles(scenario, passes, eph)

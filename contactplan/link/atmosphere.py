@@ -220,6 +220,20 @@ def station_zenith_attenuation_db(station, frequency_mhz: float) -> float:
         raise exc.at(where=f"stations[{station.id}].zenith_attenuation_db") from None
 
 
+def service_zenith_attenuation_db(station, service, link) -> float:
+    """Zenith attenuation (dB) of a station on one link: the service's own ``zenith_attenuation_db`` if
+    given, else the P.676 value at the link frequency for the station's height."""
+    given = getattr(service, "zenith_attenuation_db", None) if service is not None else None
+    if given is None and service is None:
+        given = getattr(station, "zenith_attenuation_db", None)
+    if given is not None:
+        return float(given)
+    try:
+        return zenith_attenuation_db(link.frequency_mhz, getattr(station, "height_m", 0.0) or 0.0)
+    except InputError as exc:
+        raise exc.at(where=f"stations[{station.id}].services[{link.id}].zenith_attenuation_db") from None
+
+
 def _shell_path(elevation_deg, layer_km: float = LOW_ELEVATION_LAYER_KM):
     """Path length (km) through a spherical shell of thickness ``layer_km`` from its base, at elevation (deg)."""
     e = np.radians(elevation_deg)

@@ -23,6 +23,15 @@ class PassProfile:
     rate_kbps: np.ndarray
     ebn0_db: np.ndarray | None = None
     range_km: np.ndarray | None = None  # slant range at the samples, km
+    link_id: str = ""  # the scenario link this profile is for
+    # achieved minus required at the samples (dB): down, Eb/N0 at the rate in use (or the lowest rate)
+    # minus required_ebn0_db; up, Pt/N0 minus required_pt_dbhz. The link closes where it is >= margin_db.
+    margin_db: np.ndarray | None = None
+    closes: np.ndarray | None = None  # bool at the samples: the link closes with its margin
+    culmination_margin_db: float | None = None  # margin_db at the sample of highest elevation
+    # the time-tagged rate plan (at most max_rate_changes_per_pass changes; without a limit, the profile)
+    plan_edges_tt: np.ndarray | None = None
+    plan_rates_kbps: np.ndarray | None = None
 
     def segment_rates_kbps(self) -> np.ndarray:
         """Rate (kbit/s) held over each span [t_tt[i], t_tt[i+1]] (length len(t_tt) - 1)."""
@@ -40,27 +49,55 @@ class PassProfile:
         Returns (edges_tt, rates_kbps) with len(edges) = len(rates) + 1; neighbouring spans
         of equal rate are merged. Empty arrays when the window misses the pass.
         """
-        t = np.asarray(self.t_tt, dtype=float)
-        seg = self.segment_rates_kbps()
-        if seg.size == 0:
-            return np.zeros(0), np.zeros(0)
-        lo = t[0] if start_tt is None else max(float(start_tt), t[0])
-        hi = t[-1] if end_tt is None else min(float(end_tt), t[-1])
-        if not hi > lo:
-            return np.zeros(0), np.zeros(0)
-        inner = t[(t > lo) & (t < hi)]
-        edges = np.concatenate(([lo], inner, [hi]))
-        idx = np.clip(np.searchsorted(t, edges[:-1], side="right") - 1, 0, seg.size - 1)
-        rates = seg[idx]
+        if self.plan_rates_kbps is not None:
+            return _clip_steps(self.plan_edges_tt, self.plan_rates_kbps, start_tt, end_tt)
+        return self.profile_steps(start_tt, end_tt)
+
+    def profile_steps(self, start_tt: float | None = None, end_tt: float | None = None):
+        """Like :meth:`rate_steps` but of the profile itself (what the link could hold), not the plan."""
+        edges, rates = _clip_steps(self.t_tt, self.segment_rates_kbps(), start_tt, end_tt)
+        if rates.size == 0:
+            return edges, rates
         keep = np.concatenate(([True], rates[1:] != rates[:-1]))
-        return np.concatenate((edges[:-1][keep], [hi])), rates[keep]
+        return np.concatenate((edges[:-1][keep], edges[-1:])), rates[keep]
+
+    @property
+    def plan_volume_gbit(self) -> float:
+        """Gigabits the rate plan brings down over the whole pass."""
+        return self.volume_gbit()
+
+    def closed_spans(self) -> list:
+        """[(start_tt, end_tt)] where the link closes at both ends of a sample span (merged)."""
+        t = np.asarray(self.t_tt, dtype=float)
+        c = np.asarray(self.closes if self.closes is not None else np.asarray(self.rate_kbps) > 0, dtype=bool)
+        if t.size < 2:
+            return []
+        seg = c[:-1] & c[1:]
+        d = np.diff(np.concatenate(([0], seg.astype(np.int8), [0])))
+        return [(float(t[a]), float(t[b])) for a, b in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1))]
 
     def volume_gbit(self, start_tt: float | None = None, end_tt: float | None = None) -> float:
-        """Gigabits (1e9 bit) the link can return over [start_tt, end_tt] (default the whole pass)."""
+        """Gigabits (1e9 bit) the link returns over [start_tt, end_tt] (default the whole pass) on its plan."""
         edges, rates = self.rate_steps(start_tt, end_tt)
         if rates.size == 0:
             return 0.0
         return float(np.sum(rates * np.diff(edges)) * 1e-6)
+
+
+def _clip_steps(edges, rates, start_tt, end_tt):
+    """Steps (edges, rates) clipped to [start_tt, end_tt]; empty arrays when the window misses them."""
+    e = np.asarray(edges, dtype=float)
+    r = np.asarray(rates, dtype=float)
+    if r.size == 0:
+        return np.zeros(0), np.zeros(0)
+    lo = e[0] if start_tt is None else max(float(start_tt), e[0])
+    hi = e[-1] if end_tt is None else min(float(end_tt), e[-1])
+    if not hi > lo:
+        return np.zeros(0), np.zeros(0)
+    inner = e[(e > lo) & (e < hi)]
+    out_e = np.concatenate(([lo], inner, [hi]))
+    idx = np.clip(np.searchsorted(e, out_e[:-1], side="right") - 1, 0, r.size - 1)
+    return out_e, r[idx]
 
 
 @dataclass(eq=False)

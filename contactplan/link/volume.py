@@ -1,9 +1,10 @@
-"""Per-pass rate profiles and data volumes.
+"""Per-pass, per-link rate profiles, margins, rate plans and data volumes.
 
-Each pass of a station that takes downlink (``g_over_t_dbk`` set) is sampled from
+Each pass of a station is sampled, for every link with a budget the station offers, from
 AOS to LOS every ``step_s`` seconds (AOS and LOS included); at each sample the
-link budget (:mod:`contactplan.link.budget`) gives the highest rate that closes
-with the demanded margin. Between two samples the lower of the two rates is held
+link budget (:mod:`contactplan.link.budget`) gives the level (C/N0 down, Pt/N0 up), the
+margin and, down, the highest rate that closes with the demanded margin. A link with
+``max_rate_changes_per_pass`` gets a rate plan (:mod:`contactplan.link.rateplan`). Between two samples the lower of the two rates is held
 (see :class:`~contactplan.link.profiles.PassProfile`). The volume of a pass is
 the integral of that step function from AOS to LOS.
 
@@ -39,42 +40,97 @@ def sample_times(passes, step_s: float = 60.0):
     return t, offsets
 
 
+def _service_values(link, station):
+    """(station G/T for a down link or EIRP for an up link, the service record) of a station on ``link``."""
+    sv = station.service(link.id) if hasattr(station, "service") else None
+    if link.direction == "down":
+        gt = sv.g_over_t_dbk if sv is not None else None
+        if gt is None and sv is None:
+            gt = station.g_over_t_dbk
+        return gt, sv
+    return (sv.eirp_dbw if sv is not None else None), sv
+
+
+def link_level_db(link, station_value, zenith_attenuation_db, range_km, elevation_deg):
+    """C/N0 at the station (down) or Pt/N0 at the spacecraft (up), dB-Hz, along the samples."""
+    from contactplan.link.atmosphere import slant_attenuation_db
+    from contactplan.link.budget import cn0_dbhz
+
+    atm = slant_attenuation_db(zenith_attenuation_db, elevation_deg)
+    if link.direction == "down":
+        return cn0_dbhz(link.eirp_dbw, station_value, link.frequency_mhz, range_km, atm, link.other_losses_db)
+    return cn0_dbhz(station_value, link.spacecraft_g_over_t_dbk, link.frequency_mhz, range_km, atm,
+                    link.other_losses_db)
+
+
+def rates_and_margins(link, level_db):
+    """(rate_kbps, ebn0_db or None, margin_db, closes) from the level along the samples.
+
+    Down: the highest rate whose Eb/N0 is at least required + margin (:func:`choose_rates`); margin is
+    Eb/N0 at that rate (or at the lowest) minus required. Up: the link closes where Pt/N0 is at least
+    ``required_pt_dbhz + margin_db``; the rate there is the top command rate (0 without rates)."""
+    from contactplan.link.budget import choose_rates
+
+    level = np.asarray(level_db, dtype=float)
+    if link.direction == "down":
+        rate, ebn0 = choose_rates(level, link.rates_kbps, link.required_ebn0_db, link.margin_db)
+        margin = ebn0 - link.required_ebn0_db
+        return rate, ebn0, margin, rate > 0
+    margin = level - link.required_pt_dbhz
+    closes = margin >= link.margin_db - 1e-9
+    top = max(link.rates_kbps) if link.rates_kbps else 0.0
+    return np.where(closes, top, 0.0), None, margin, closes
+
+
 def profiles_from_samples(link, station, passes, t_tt, offsets, range_km, elevation_deg,
                           zenith_attenuation_db: float | None = None, set_fields: bool = True):
-    """Rate profiles of ``passes`` (one station) from sampled range (km) and elevation (deg).
+    """Profiles of ``passes`` (one station) on ``link`` from sampled range (km) and elevation (deg).
 
     ``t_tt``/``offsets`` as returned by :func:`sample_times`. Sets ``max_rate_kbps`` and
     ``volume_gbit`` on each pass when ``set_fields``; returns ``{id(pass): PassProfile}``.
     """
-    from contactplan.link.atmosphere import station_zenith_attenuation_db
-    from contactplan.link.budget import link_rates
+    from contactplan.link.atmosphere import service_zenith_attenuation_db
 
+    value, sv = _service_values(link, station)
     if zenith_attenuation_db is None:
-        zenith_attenuation_db = station_zenith_attenuation_db(station, link.frequency_mhz)
+        zenith_attenuation_db = service_zenith_attenuation_db(station, sv, link)
     t = np.asarray(t_tt, dtype=float)
     rng = np.asarray(range_km, dtype=float)
     el = np.asarray(elevation_deg, dtype=float)
-    rate, ebn0, _ = link_rates(link, station.g_over_t_dbk, zenith_attenuation_db, rng, el)
-    return _build(station, passes, t, offsets, el, rng, rate, ebn0, set_fields)
+    level = link_level_db(link, value, zenith_attenuation_db, rng, el)
+    return _build(station, passes, t, offsets, el, rng, link, level, set_fields)
 
 
-def _build(station, passes, t, offsets, el, rng, rate, ebn0, set_fields=True):
-    """PassProfiles, volumes and best rates of all passes of one station at once."""
+def _build(station, passes, t, offsets, el, rng, link, level, set_fields=True):
+    """PassProfiles, rate plans, volumes and best rates of all passes of one station on one link at once."""
+    from contactplan.link.rateplan import best_rate_plan
+
+    rate, ebn0, margin, closes = rates_and_margins(link, level)
     seg_rate = np.minimum(rate[:-1], rate[1:])
     cross = offsets[1:-1] - 1  # spans joining one pass to the next
     seg_rate[cross] = 0.0
     cum = np.concatenate(([0.0], np.cumsum(seg_rate * np.diff(t))))  # kbit
     volume_gbit = (cum[offsets[1:] - 1] - cum[offsets[:-1]]) * 1e-6
     max_rate = np.maximum.reduceat(seg_rate, offsets[:-1]) if seg_rate.size else np.zeros(len(passes))
+    limit = getattr(link, "max_rate_changes_per_pass", None)
 
     out = {}
     for i, p in enumerate(passes):
         a, b = offsets[i], offsets[i + 1]
-        out[id(p)] = PassProfile(station=station.id, t_tt=t[a:b], elevation_deg=el[a:b], rate_kbps=rate[a:b],
-                                 ebn0_db=ebn0[a:b], range_km=rng[a:b])
+        peak = a + int(np.argmax(el[a:b])) if b > a else a
+        prof = PassProfile(station=station.id, t_tt=t[a:b], elevation_deg=el[a:b], rate_kbps=rate[a:b],
+                           ebn0_db=None if ebn0 is None else ebn0[a:b], range_km=rng[a:b],
+                           link_id=getattr(link, "id", ""), margin_db=margin[a:b], closes=closes[a:b],
+                           culmination_margin_db=float(margin[peak]) if b > a else None)
+        vol = float(volume_gbit[i])
+        if limit is not None:
+            edges, steps = prof.profile_steps()
+            prof.plan_edges_tt, prof.plan_rates_kbps, kbit = best_rate_plan(edges, steps, limit)
+            vol = kbit * 1e-6
+        out[id(p)] = prof
         if set_fields:
             p.max_rate_kbps = float(max_rate[i])
-            p.volume_gbit = float(volume_gbit[i])
+            p.volume_gbit = vol
     return out
 
 
@@ -100,32 +156,59 @@ def geometry_nodes(passes, ref_tt: float, node_step_s: float):
 
 def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_step_s: float = 900.0,
                     max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1) -> dict:
-    """Rate profiles and volumes for every pass of a station that takes downlink.
+    """Rate profiles and volumes of every pass on its station's playback link (the data link).
 
-    Sets ``pass.max_rate_kbps`` (kbit/s, 0 when no rate closes) and ``pass.volume_gbit``
-    (AOS to LOS at the best rate moment by moment, ``step_s`` samples); passes of
-    stations without G/T, or a scenario without ``[spacecraft.link]``, keep None.
-    Returns ``{id(pass): PassProfile}``.
+    Sets ``pass.max_rate_kbps`` (kbit/s, 0 when no rate closes) and ``pass.volume_gbit`` (AOS to LOS on
+    the link's rate plan; without ``max_rate_changes_per_pass``, the best rate moment by moment, ``step_s``
+    samples); passes of stations without a playback link with a budget keep None.
+    Returns ``{id(pass): PassProfile}``; :func:`annotate_links` gives every link.
+    """
+    return playback_profiles(scenario, passes, annotate_links(
+        scenario, passes, ephemeris, step_s, geometry_step_s, max_interp_error_deg, max_interp_error_db))
+
+
+def playback_profiles(scenario, passes, link_profiles: dict) -> dict:
+    """``{id(pass): PassProfile}`` on each pass's station playback link, from :func:`annotate_links`."""
+    from contactplan.link.services import playback_link
+
+    out = {}
+    by_station = {}
+    for p in passes:
+        if p.station not in by_station:
+            try:
+                lk = playback_link(scenario, scenario.station(p.station))
+            except KeyError:
+                lk = None
+            by_station[p.station] = None if lk is None else link_profiles.get(lk.id, {})
+        got = by_station[p.station]
+        if got is not None and id(p) in got:
+            out[id(p)] = got[id(p)]
+    return out
+
+
+def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_step_s: float = 900.0,
+                   max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1) -> dict:
+    """Profiles of every pass on every budgeted link its station offers: ``{link_id: {id(pass): PassProfile}}``.
+
+    The pass fields ``max_rate_kbps`` / ``volume_gbit`` are set from the station's playback link.
 
     Speed: the look angles are computed every ``geometry_step_s`` (and at AOS and LOS),
-    on a time grid shared by all stations, and C/N0, elevation and range are
+    on a time grid shared by all stations and links, and the link level, elevation and range are
     interpolated linearly to the ``step_s`` samples. From a libration-point orbit the
     geometry follows Earth rotation, so at 900 s the interpolation error stays near
     0.05 deg in elevation and 0.03 dB in C/N0 (low elevations, Ka band), which moves pass
-    volumes by under 0.2 %. Passes where the sampled
-    curvature predicts more than ``max_interp_error_deg`` or ``max_interp_error_db``
-    (fast near-Earth geometry) are evaluated exactly at every sample instead.
-    ``geometry_step_s=None`` evaluates every sample exactly.
+    volumes by under 0.2 %. Passes where the sampled curvature predicts more than
+    ``max_interp_error_deg`` or ``max_interp_error_db`` (fast near-Earth geometry) are evaluated
+    exactly at every sample instead. ``geometry_step_s=None`` evaluates every sample exactly.
     """
-    link = scenario.spacecraft.link
-    if link is None or not passes:
+    if not passes:
         return {}
     from contactplan.geometry.topo import Site, Track, look_angles, view
-    from contactplan.link.atmosphere import slant_attenuation_db, station_zenith_attenuation_db
-    from contactplan.link.budget import choose_rates, cn0_dbhz
+    from contactplan.link.atmosphere import service_zenith_attenuation_db
+    from contactplan.link.services import playback_link, station_links
 
     refraction = bool(getattr(getattr(scenario, "geometry", None), "refraction", False))
-    groups = []
+    groups = []  # (station, passes, [(link, value, zenith, data link?)])
     by_station: dict[str, list] = {}
     for p in passes:
         by_station.setdefault(p.station, []).append(p)
@@ -134,46 +217,57 @@ def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_
             station = scenario.station(sid)
         except KeyError:
             continue
-        if station.takes_downlink:
-            groups.append((station, sorted(plist, key=lambda p: p.aos_tt)))
+        data = playback_link(scenario, station)
+        todo = []
+        for lk, sv in station_links(scenario, station):
+            value = sv.g_over_t_dbk if lk.direction == "down" else sv.eirp_dbw
+            if lk.has_budget and value is not None:
+                todo.append((lk, value, service_zenith_attenuation_db(station, sv, lk), lk is data))
+        if todo:
+            groups.append((station, sorted(plist, key=lambda p: p.aos_tt), todo))
+    out: dict = {}
     if not groups:
-        return {}
-
-    out = {}
-    if not geometry_step_s or geometry_step_s <= step_s:
-        for station, plist in groups:
-            t, offsets = sample_times(plist, step_s)
-            la = look_angles(station, ephemeris, t, refraction=refraction)
-            out.update(profiles_from_samples(link, station, plist, t, offsets, la.range_km, la.elevation_deg))
         return out
 
-    ref = min(p.aos_tt for _, plist in groups for p in plist)
-    nodes = [geometry_nodes(plist, ref, geometry_step_s) for _, plist in groups]
+    def put(lk, got):
+        out.setdefault(lk.id, {}).update(got)
+
+    if not geometry_step_s or geometry_step_s <= step_s:
+        for station, plist, todo in groups:
+            t, offsets = sample_times(plist, step_s)
+            la = look_angles(station, ephemeris, t, refraction=refraction)
+            for lk, value, zen, data in todo:
+                level = link_level_db(lk, value, zen, la.range_km, la.elevation_deg)
+                put(lk, _build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
+        return out
+
+    ref = min(p.aos_tt for _, plist, _ in groups for p in plist)
+    nodes = [geometry_nodes(plist, ref, geometry_step_s) for _, plist, _ in groups]
     all_t, inverse = np.unique(np.concatenate([n[0] for n in nodes]), return_inverse=True)
     track = Track(ephemeris, all_t)
     start = 0
-    for (station, plist), (nt, noff) in zip(groups, nodes):
+    for (station, plist, todo), (nt, noff) in zip(groups, nodes):
         idx = inverse[start:start + nt.size]
         start += nt.size
         la = view(Site(station), track, index=idx, refraction=refraction)
-        zen = station_zenith_attenuation_db(station, link.frequency_mhz)
-        node_cn0 = cn0_dbhz(link.eirp_dbw, station.g_over_t_dbk, link.frequency_mhz, la.range_km,
-                            slant_attenuation_db(zen, la.elevation_deg), link.other_losses_db)
         t, offsets = sample_times(plist, step_s)
         el = np.interp(t, nt, la.elevation_deg)
         rng = np.interp(t, nt, la.range_km)
-        cn0 = np.interp(t, nt, node_cn0)
-        rough = _rough_passes(nt, noff, la.elevation_deg, node_cn0, geometry_step_s,
-                              max_interp_error_deg, max_interp_error_db)
-        if rough.size:
-            rows = np.concatenate([np.arange(offsets[i], offsets[i + 1]) for i in rough])
+        node_levels = [link_level_db(lk, value, zen, la.range_km, la.elevation_deg) for lk, value, zen, _ in todo]
+        rough = np.unique(np.concatenate([_rough_passes(nt, noff, la.elevation_deg, lv, geometry_step_s,
+                                                        max_interp_error_deg, max_interp_error_db)
+                                          for lv in node_levels]))
+        rows = (np.concatenate([np.arange(offsets[i], offsets[i + 1]) for i in rough]) if rough.size
+                else np.zeros(0, dtype=np.int64))
+        if rows.size:
             exact = look_angles(station, ephemeris, t[rows], refraction=refraction)
             el[rows] = exact.elevation_deg
             rng[rows] = exact.range_km
-            cn0[rows] = cn0_dbhz(link.eirp_dbw, station.g_over_t_dbk, link.frequency_mhz, exact.range_km,
-                                 slant_attenuation_db(zen, exact.elevation_deg), link.other_losses_db)
-        rate, ebn0 = choose_rates(cn0, link.rates_kbps, link.required_ebn0_db, link.margin_db)
-        out.update(_build(station, plist, t, offsets, el, rng, rate, ebn0))
+        for (lk, value, zen, data), lv in zip(todo, node_levels):
+            level = np.interp(t, nt, lv)
+            if rows.size:
+                level[rows] = link_level_db(lk, value, zen, exact.range_km, exact.elevation_deg)
+            put(lk, _build(station, plist, t, offsets, el, rng, lk, level, data))
     return out
 
 

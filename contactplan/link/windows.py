@@ -1,9 +1,10 @@
-"""Booked downlink time: when a booking can actually return data.
+"""Booked playback time: when a booking can actually empty the recorder.
 
-A booking returns data only if ``"downlink"`` is among its purposes and its station
-has a G/T. Its downlink time is the booking after the station's setup and before
-its teardown, inside the passes of that station, outside every activity's downlink
-keep-out (:attr:`Activity.keepout_span_tt`) and outside the station's outages.
+A booking returns recorded data only if ``"playback"`` is among its services and its
+station takes playback (a down link carrying playback). Its playback time is its track
+(after the station's pre-pass, before its post-pass), inside the passes of that station,
+outside every activity's downlink keep-out (:attr:`Activity.keepout_span_tt`) and outside
+the station's outages. Telemetry is real-time and empties nothing.
 """
 
 from __future__ import annotations
@@ -22,7 +23,7 @@ def subtract_spans(spans, cuts):
 
 def downlink_pieces(scenario, booking, passes):
     """Like :func:`downlink_windows` but each piece is ``(start_tt, end_tt, pass)`` it lies in."""
-    if "downlink" not in (booking.purposes or []):
+    if "playback" not in (booking.services or []):
         return []
     try:
         station = scenario.station(booking.station)
@@ -30,8 +31,8 @@ def downlink_pieces(scenario, booking, passes):
         return []
     if not station.takes_downlink:
         return []
-    start = booking.start_tt + (station.setup_min or 0.0) * 60.0
-    end = booking.end_tt - (station.teardown_min or 0.0) * 60.0
+    start = booking.start_tt + (station.pre_pass_min or 0.0) * 60.0
+    end = booking.end_tt - (station.post_pass_min or 0.0) * 60.0
     if not end > start:
         return []
     cuts = [a.keepout_span_tt for a in scenario.activities]

@@ -16,7 +16,8 @@ class PlanResult:
     scenario: object
     ephemeris: object
     passes: list = field(default_factory=list)  # [Pass], sorted by AOS, link columns filled
-    profiles: dict = field(default_factory=dict)  # id(Pass) -> PassProfile
+    profiles: dict = field(default_factory=dict)  # id(Pass) -> PassProfile on the station's playback link
+    link_profiles: dict = field(default_factory=dict)  # link id -> {id(Pass): PassProfile}, budgeted links
     recorder: object | None = None  # RecorderResult for the scenario's bookings
     findings: list = field(default_factory=list)  # [Finding]
     shadows: list = field(default_factory=list)  # [(start_tt, end_tt, body, kind)]
@@ -54,29 +55,34 @@ def _check_cancel(cancel) -> None:
 
 
 def link_profiles(scenario, passes, ephemeris) -> dict:
-    """Fill the link columns of ``passes`` and return their rate profiles (``id(pass) -> PassProfile``).
+    """Fill the link columns of ``passes`` and return their playback-link profiles (``id(pass) -> PassProfile``).
 
     Gaps between OEM segments need no care here: the look angles keep each emission instant inside
     the covered piece of its receive instant (:func:`contactplan.ephemeris.base.clamp_to_cover`)."""
-    from contactplan.link.volume import annotate_passes
-
-    if not passes:
-        return {}
-    return dict(annotate_passes(scenario, passes, ephemeris) or {})
+    return all_link_profiles(scenario, passes, ephemeris)[0]
 
 
-def _annotate(scenario, ephemeris, passes, progress, cancel) -> dict:
-    """Link columns on the passes and their rate profiles (empty without a link model)."""
+def all_link_profiles(scenario, passes, ephemeris) -> tuple[dict, dict]:
+    """(``{id(pass): PassProfile}`` on each station's playback link, ``{link id: {id(pass): PassProfile}}``)
+    for every link with a budget; fills the pass link columns from the playback link."""
+    from contactplan.link.volume import annotate_links, playback_profiles
+
+    if not passes or not any(lk.has_budget for lk in scenario.spacecraft.links):
+        return {}, {}
+    per_link = annotate_links(scenario, passes, ephemeris)
+    return playback_profiles(scenario, passes, per_link), per_link
+
+
+def _annotate(scenario, ephemeris, passes, progress, cancel) -> tuple[dict, dict]:
+    """Link columns on the passes, playback profiles and every link's profiles (empty without a link model)."""
     try:
         import contactplan.link.volume  # noqa: F401
     except ImportError:  # link stage not installed in this build
-        return {}
-    if scenario.spacecraft.link is None:
-        return {}
-    out = link_profiles(scenario, passes, ephemeris)
+        return {}, {}
+    out = all_link_profiles(scenario, passes, ephemeris)
     if progress is not None:
         progress(1.0)
-    return dict(out or {})
+    return out
 
 
 def _recorder(scenario, passes, profiles):
@@ -114,12 +120,12 @@ def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanRe
     passes = find_passes(scenario, eph, progress=_stage(progress, 0.0, 0.7), cancel=cancel)
     passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
     _check_cancel(cancel)
-    profiles = _annotate(scenario, eph, passes, _stage(progress, 0.7, 0.9), cancel)
+    profiles, per_link = _annotate(scenario, eph, passes, _stage(progress, 0.7, 0.9), cancel)
     _check_cancel(cancel)
     shadows = _shadows(scenario, eph)
     _check_cancel(cancel)
     result = PlanResult(scenario=scenario, ephemeris=eph, passes=passes, profiles=profiles, shadows=shadows,
-                        coverage=coverage)
+                        coverage=coverage, link_profiles=per_link)
     check(result)
     if progress is not None:
         progress(1.0)
@@ -135,8 +141,10 @@ def check(result: PlanResult) -> PlanResult:
     from contactplan.plan.tracking import navigation_for
 
     sc = result.scenario
+    sc.bind()
     result.recorder = _recorder(sc, result.passes, result.profiles)
-    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage)
+    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
+                            link_profiles=result.link_profiles)
     ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
     result.findings = run_rules(ctx)
     return result

@@ -11,10 +11,15 @@ Terms used by several rules (all times TT seconds since J2000):
 - *visibility* of a station: its passes, with two passes joined when the gap
   between them is covered by one of the station's outages (so a booking across
   an outage is reported once, as ``station-outage``).
-- *tracked time* of a booking: ``[start + setup, end - teardown]`` of its
-  station, intersected with the station's passes and minus its outages. Setup
-  and teardown carry no data, so they neither monitor a burn nor count as
-  contact.
+- *track* of a booking (BOT to EOT): ``[start + pre_pass_min, end - post_pass_min]``
+  of its station. Only the track must lie inside a pass; the pre-pass and post-pass
+  may lie below the mask but must not meet an outage or another booking.
+- *tracked time* of a booking: its track intersected with the station's passes and
+  minus its outages. Pre-pass and post-pass carry no data, so they neither monitor a
+  burn nor count as contact.
+- *service spans* of a station: where a link of the station carrying a service closes
+  (:meth:`RuleContext.service_spans`); two-way services (ranging, doppler) need an up
+  and a down link both closed.
 - *keep-out* of an activity: ``[start - downlink_keepout, end + downlink_keepout]``
   for every activity (burns, slews and others), the same spans the recorder model
   (:mod:`contactplan.link.windows`) takes out of booked downlink time.
@@ -22,6 +27,7 @@ Terms used by several rules (all times TT seconds since J2000):
 
 from __future__ import annotations
 
+from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 from functools import lru_cache
 
@@ -85,12 +91,21 @@ class RuleContext:
     outages: dict = field(default_factory=dict)  # id -> [(start, end, Outage)]
     stations: dict = field(default_factory=dict)  # id -> Station
     uncovered: list = field(default_factory=list)  # [(start, end)] of the window the ephemeris does not answer
+    link_profiles: dict = field(default_factory=dict)  # link id -> {id(Pass): PassProfile}
+    pass_aos: dict = field(default_factory=dict)  # id -> np.array of AOS (sorted), for bisection
+    pass_los_max: dict = field(default_factory=dict)  # id -> running maximum of LOS in AOS order
+    _cache: dict = field(default_factory=dict, repr=False)
 
     @classmethod
-    def build(cls, scenario, passes, profiles=None, recorder=None, coverage=None) -> "RuleContext":
-        """``coverage``: the parts [(start_tt, end_tt)] of the window the ephemeris answers (None: all of it)."""
+    def build(cls, scenario, passes, profiles=None, recorder=None, coverage=None,
+              link_profiles=None) -> "RuleContext":
+        """``coverage``: the parts [(start_tt, end_tt)] of the window the ephemeris answers (None: all of it).
+        ``link_profiles``: ``{link id: {id(pass): PassProfile}}`` (absent links close whenever tracked)."""
+        if hasattr(scenario, "bind"):
+            scenario.bind()
         ctx = cls(scenario=scenario, passes=list(passes), profiles=dict(profiles or {}), recorder=recorder,
-                  start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt))
+                  start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt),
+                  link_profiles=dict(link_profiles or {}))
         if coverage is not None:
             ctx.uncovered = [(a, b) for a, b in subtract([(ctx.start_tt, ctx.end_tt)], coverage)
                              if b - a > EDGE_TOLERANCE_S]
@@ -122,7 +137,85 @@ class RuleContext:
                         continue
                 merged.append([a, b])
             ctx.visibility[sid] = [(a, b) for a, b in merged]
+            ctx.pass_aos[sid] = np.array([p.aos_tt for p in plist], dtype=float)
+            ctx.pass_los_max[sid] = np.maximum.accumulate(np.array([p.los_tt for p in plist], dtype=float)) \
+                if plist else np.zeros(0)
         return ctx
+
+    # ---- time-indexed look-ups (bisection on per-station sorted arrays)
+    def passes_overlapping(self, sid: str, a: float, b: float) -> list:
+        """Passes of station ``sid`` overlapping (a, b), by bisection on AOS (sorted) and the running LOS max."""
+        plist = self.passes_by_station.get(sid, [])
+        if not plist:
+            return []
+        hi = bisect_left(self.pass_aos[sid], b)  # passes with AOS < b
+        lo = int(np.searchsorted(self.pass_los_max[sid], a, side="right"))  # before lo every LOS <= a
+        return [p for p in plist[lo:hi] if p.los_tt > a]
+
+    def track(self, booking) -> tuple[float, float]:
+        """(BOT, EOT) of a booking (see module doc); EOT may precede BOT for a very short booking."""
+        return booking.start_tt + self.setup_s(booking), booking.end_tt - self.teardown_s(booking)
+
+    def bookings_at(self, sid: str) -> list:
+        """Bookings of a station sorted by start (cached for this check)."""
+        key = ("bookings", sid)
+        if key not in self._cache:
+            by = {}
+            for b in self.scenario.bookings:
+                by.setdefault(b.station, []).append(b)
+            for k, bl in by.items():
+                self._cache[("bookings", k)] = sorted(bl, key=lambda b: (b.start_tt, b.id))
+            self._cache.setdefault(key, [])
+        return self._cache[key]
+
+    def link_spans(self, sid: str, link) -> list:
+        """Sorted, merged spans where ``link`` closes at station ``sid``: from its profiles when computed,
+        else (no budget, or profiles not computed) the station's passes."""
+        key = ("link", sid, link.id)
+        if key not in self._cache:
+            profs = self.link_profiles.get(link.id)
+            spans = []
+            for p in self.passes_by_station.get(sid, []):
+                prof = profs.get(id(p)) if profs else None
+                if prof is None:
+                    if link.has_budget and profs:
+                        continue  # computed for this link but not for this pass (station has no budget)
+                    spans.append((p.aos_tt, p.los_tt))
+                else:
+                    spans.extend(prof.closed_spans())
+            self._cache[key] = union(spans)
+        return self._cache[key]
+
+    def service_spans(self, sid: str, service: str) -> list:
+        """Where the station gives ``service``: union over its links carrying it (two-way: up and down both)."""
+        key = ("service", sid, service)
+        if key not in self._cache:
+            from contactplan.link.services import links_for
+            from contactplan.scenario.model import TWO_WAY_SERVICES
+
+            st = self.stations.get(sid)
+            if st is None:
+                self._cache[key] = []
+            elif service in TWO_WAY_SERVICES:
+                up = union([s for lk in links_for(self.scenario, st, service, "up") for s in self.link_spans(sid, lk)])
+                dn = union([s for lk in links_for(self.scenario, st, service, "down")
+                            for s in self.link_spans(sid, lk)])
+                self._cache[key] = intersect(up, dn)
+            else:
+                self._cache[key] = union([s for lk in links_for(self.scenario, st, service)
+                                          for s in self.link_spans(sid, lk)])
+        return self._cache[key]
+
+    def offers(self, sid: str, service: str) -> bool:
+        from contactplan.link.services import offers
+
+        st = self.stations.get(sid)
+        return st is not None and offers(self.scenario, st, service)
+
+    @property
+    def links_modelled(self) -> bool:
+        """True when the scenario gives links (a version-1 file always gets them from the upgrade)."""
+        return bool(getattr(self.scenario.spacecraft, "links", None))
 
     def station(self, sid):
         return self.stations.get(sid)
@@ -136,26 +229,33 @@ class RuleContext:
         return 0.0 if st is None else st.teardown_min * 60.0
 
     def tracked(self, booking) -> list[tuple[float, float]]:
-        """Spans of a booking where its station can actually hear the spacecraft (see module doc)."""
-        a = booking.start_tt + self.setup_s(booking)
-        b = booking.end_tt - self.teardown_s(booking)
+        """Spans of a booking's track where its station can actually hear the spacecraft (see module doc)."""
+        a, b = self.track(booking)
         if b <= a:
             return []
-        inside = intersect([(a, b)], [(p.aos_tt, p.los_tt) for p in self.passes_by_station.get(booking.station, [])])
+        inside = intersect([(a, b)], [(p.aos_tt, p.los_tt) for p in self.passes_overlapping(booking.station, a, b)])
         return subtract(inside, [(o0, o1) for o0, o1, _ in self.outages.get(booking.station, [])])
 
-    def tracked_union(self, purposes=None) -> list[tuple[float, float]]:
+    def tracked_union(self, purposes=None, services_all=None) -> list[tuple[float, float]]:
+        """Tracked time of all bookings having any of ``purposes`` (v1 words) / all of ``services_all``."""
         spans = []
         for b in self.scenario.bookings:
-            if purposes is None or any(p in b.purposes for p in purposes):
-                spans.extend(self.tracked(b))
+            if purposes is not None and not any(p in b.purposes for p in purposes):
+                continue
+            if services_all is not None and not all(s in b.services for s in services_all):
+                continue
+            spans.extend(self.tracked(b))
         return union(spans)
 
-    def pass_holding(self, booking):
-        """The pass of the booking's station that overlaps it most (None if none overlaps)."""
+    def pass_holding(self, booking, a: float | None = None, b: float | None = None):
+        """The pass of the booking's station that overlaps its track (or (a, b)) most (None if none does)."""
+        if a is None:
+            a, b = self.track(booking)
+            if b <= a:
+                a, b = booking.start_tt, booking.end_tt
         best, best_s = None, 0.0
-        for p in self.passes_by_station.get(booking.station, []):
-            ov = min(p.los_tt, booking.end_tt) - max(p.aos_tt, booking.start_tt)
+        for p in self.passes_overlapping(booking.station, a, b):
+            ov = min(p.los_tt, b) - max(p.aos_tt, a)
             if ov > best_s:
                 best, best_s = p, ov
         return best
@@ -168,112 +268,197 @@ def _finding(rule, severity, subjects, a, b, message, fix=()) -> Finding:
 
 # ---------------------------------------------------------------- rules
 def rule_outside_pass(ctx: RuleContext) -> list[Finding]:
-    """``outside-pass`` (error): a booking, setup and teardown included, not inside one pass of its station."""
+    """``outside-pass`` (error): a booking's track (BOT to EOT) not inside one pass of its station.
+
+    Pre-pass and post-pass may lie below the mask (the station configures before the spacecraft rises)."""
     out = []
     tol = EDGE_TOLERANCE_S
     for b in ctx.scenario.bookings:
+        t0, t1 = ctx.track(b)
+        if t1 <= t0:
+            continue  # nothing to track: short-booking says so
         vis = ctx.visibility.get(b.station, [])
-        if any(v0 - tol <= b.start_tt and b.end_tt <= v1 + tol for v0, v1 in vis):
+        key = ("vis-starts", b.station)
+        if key not in ctx._cache:
+            ctx._cache[key] = [v[0] for v in vis]
+        i = bisect_right(ctx._cache[key], t0 + tol) - 1 if vis else -1
+        if i >= 0 and vis[i][0] - tol <= t0 and t1 <= vis[i][1] + tol:
             continue
         plist = ctx.passes_by_station.get(b.station, [])
         if not plist:
             msg = (f"{b.id} books {b.station} but {b.station} has no pass in the window: "
                    f"move it to another station or delete it")
-            out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg))
+            out.append(_finding("outside-pass", ERROR, [b.id, b.station], t0, t1, msg))
             continue
-        p = ctx.pass_holding(b)
+        pre, post = ctx.setup_s(b), ctx.teardown_s(b)
+        p = ctx.pass_holding(b, t0, t1)
         if p is not None:
-            lo, hi = max(b.start_tt, p.aos_tt), min(b.end_tt, p.los_tt)
-            msg = (f"{b.id} at {b.station} runs outside the pass {p.key} ({span_text(p.aos_tt, p.los_tt)}); "
-                   f"setup included it must lie inside the pass: change it to {span_text(lo, hi)}")
-            out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg, [(lo, hi)]))
+            lo, hi = max(t0, p.aos_tt), min(t1, p.los_tt)
+            msg = (f"{b.id} at {b.station} tracks outside the pass {p.key} ({span_text(p.aos_tt, p.los_tt)}); "
+                   f"the track ({span_text(t0, t1)}) must lie inside the pass: change the booking to "
+                   f"{span_text(lo - pre, hi + post)} (pre-pass and post-pass included)")
+            out.append(_finding("outside-pass", ERROR, [b.id, b.station], t0, t1, msg, [(lo - pre, hi + post)]))
             continue
-        mid = 0.5 * (b.start_tt + b.end_tt)
-        p = min(plist, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
-        msg = (f"{b.id} at {b.station} lies in no pass of {b.station}; the nearest pass is {p.key} "
-               f"({span_text(p.aos_tt, p.los_tt)}): move the booking into it")
-        out.append(_finding("outside-pass", ERROR, [b.id, b.station], b.start_tt, b.end_tt, msg))
+        mid = 0.5 * (t0 + t1)
+        k = bisect_left(ctx.pass_aos[b.station], mid)
+        near = [q for q in plist[max(k - 1, 0):k + 1]]
+        p = min(near, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
+        msg = (f"{b.id} at {b.station} tracks in no pass of {b.station}; the nearest pass is {p.key} "
+               f"({span_text(p.aos_tt, p.los_tt)}): move the booking's track into it")
+        out.append(_finding("outside-pass", ERROR, [b.id, b.station], t0, t1, msg))
     return out
 
 
+def _outages_overlapping(ctx: RuleContext, sid: str, a: float, b: float) -> list:
+    """Outages of a station overlapping (a, b) (sorted by start; bisection on the starts)."""
+    outs = ctx.outages.get(sid, [])
+    if not outs:
+        return []
+    key = ("outage-starts", sid)
+    if key not in ctx._cache:
+        ctx._cache[key] = [o[0] for o in outs]
+        ctx._cache[("outage-longest", sid)] = max(o[1] - o[0] for o in outs)
+    starts = ctx._cache[key]
+    lo = bisect_left(starts, a - ctx._cache[("outage-longest", sid)])
+    hi = bisect_left(starts, b)
+    return [o for o in outs[lo:hi] if o[1] > a]
+
+
 def rule_station_outage(ctx: RuleContext) -> list[Finding]:
-    """``station-outage`` (error): a booking overlapping an outage of its station."""
+    """``station-outage`` (error): a booking's track overlapping an outage of its station
+    (pre-pass or post-pass on an outage: ``prepass-conflict``)."""
     out = []
     for b in ctx.scenario.bookings:
-        for o0, o1, o in ctx.outages.get(b.station, []):
-            if o0 < b.end_tt and b.start_tt < o1:
-                why = f" ({o.reason})" if getattr(o, "reason", "") else ""
-                msg = (f"{b.id} overlaps the outage of {b.station} {span_text(o0, o1)}{why}: "
-                       f"end it by {t_text(o0)} or start it after {t_text(o1)}")
-                fix = subtract([(b.start_tt, b.end_tt)], [(o0, o1)])
-                out.append(_finding("station-outage", ERROR, [b.id, b.station], max(o0, b.start_tt),
-                                    min(o1, b.end_tt), msg, fix))
+        t0, t1 = ctx.track(b)
+        if t1 <= t0:
+            continue
+        for o0, o1, o in _outages_overlapping(ctx, b.station, t0, t1):
+            why = f" ({o.reason})" if getattr(o, "reason", "") else ""
+            # pre-pass and post-pass must stay off the outage too: the booking itself ends by / starts after it
+            msg = (f"{b.id} tracks through the outage of {b.station} {span_text(o0, o1)}{why}: "
+                   f"end it by {t_text(o0)} or start it after {t_text(o1)}")
+            fix = subtract([(b.start_tt, b.end_tt)], [(o0, o1)])
+            out.append(_finding("station-outage", ERROR, [b.id, b.station], max(o0, t0), min(o1, t1), msg, fix))
     return out
 
 
 def rule_double_booking(ctx: RuleContext) -> list[Finding]:
-    """``double-booking`` (error): two bookings of the same station overlap."""
+    """``double-booking`` (error): the tracks of two bookings of the same station overlap
+    (only pre-pass or post-pass overlapping: ``prepass-conflict``)."""
     out = []
-    by_station: dict = {}
-    for b in ctx.scenario.bookings:
-        by_station.setdefault(b.station, []).append(b)
-    for sid, bl in by_station.items():
-        bl = sorted(bl, key=lambda b: (b.start_tt, b.id))
+    for sid in ctx.stations:
+        bl = sorted(ctx.bookings_at(sid), key=lambda b: (ctx.track(b)[0], b.id))
         for i, b1 in enumerate(bl):
+            a1, e1 = ctx.track(b1)
+            if e1 <= a1:
+                continue
             for b2 in bl[i + 1:]:
-                if b2.start_tt >= b1.end_tt:
+                a2, e2 = ctx.track(b2)
+                if a2 >= e1:
                     break
-                lo, hi = b2.start_tt, min(b1.end_tt, b2.end_tt)
-                msg = (f"{b1.id} and {b2.id} both book {sid} from {span_text(lo, hi)}: "
-                       f"end {b1.id} by {t_text(b2.start_tt)}, move {b2.id}, or merge them")
-                fix = [(b1.start_tt, b2.start_tt)] if b2.start_tt > b1.start_tt else []
+                if e2 <= a2:
+                    continue
+                lo, hi = a2, min(e1, e2)
+                msg = (f"{b1.id} and {b2.id} both track at {sid} from {span_text(lo, hi)}: "
+                       f"end {b1.id}'s track by {t_text(a2)}, move {b2.id}, or merge them")
+                fix = [(b1.start_tt, a2 - ctx.setup_s(b2))] if a2 - ctx.setup_s(b2) > b1.start_tt else []
                 out.append(_finding("double-booking", ERROR, [b1.id, b2.id, sid], lo, hi, msg, fix))
     return out
 
 
-def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
-    """``downlink-in-keepout`` (error): a downlink booking overlapping an activity's keep-out (burn, slew...).
+def receives(ctx: RuleContext, sid: str) -> bool:
+    """The station takes a down link carrying telemetry or playback (or, links not modelled, has a G/T)."""
+    st = ctx.stations.get(sid)
+    if st is None:
+        return False
+    if not ctx.links_modelled:
+        return st.takes_downlink
+    from contactplan.link.services import links_for
 
-    The proposed split is the booking minus every keep-out it touches, keeping the
-    pieces longer than the station's setup plus teardown.
-    """
+    return bool(links_for(ctx.scenario, st, "telemetry", "down") or links_for(ctx.scenario, st, "playback", "down"))
+
+
+DATA_SERVICES = ("telemetry", "playback")
+
+
+def rule_downlink_in_keepout(ctx: RuleContext) -> list[Finding]:
+    """``downlink-in-keepout`` (error): the track of a booking with playback overlapping an activity's
+    keep-out (burn, slew...), or one with telemetry overlapping the keep-out of a slew or other activity
+    (a burn or momentum dump is monitored by telemetry), at a station that can receive.
+
+    The proposed split is the booking whose tracks are the track minus every keep-out it touches."""
     out = []
     keepouts = downlink_keepouts(ctx.scenario)
+    if not keepouts:
+        return out
+    starts = [k[0] for k in keepouts]
+    longest = max(k[1] - k[0] for k in keepouts)
     for b in ctx.scenario.bookings:
-        if "downlink" not in b.purposes:
+        data = [s for s in DATA_SERVICES if s in b.services]
+        if not data or not receives(ctx, b.station):
             continue
-        hits = [(k0, k1, act) for k0, k1, act in keepouts if k0 < b.end_tt and b.start_tt < k1]
+        t0, t1 = ctx.track(b)
+        if t1 <= t0:
+            continue
+        lo_i, hi_i = bisect_left(starts, t0 - longest), bisect_left(starts, t1)
+        # playback never in a keep-out; real-time telemetry not in a slew's or other activity's keep-out
+        # (in a burn's or momentum dump's, telemetry is the monitoring itself)
+        hits = [(k0, k1, act) for k0, k1, act in keepouts[lo_i:hi_i] if k1 > t0
+                and ("playback" in data or act.kind not in ("burn", "momentum-dump"))]
         if not hits:
             continue
-        need = ctx.setup_s(b) + ctx.teardown_s(b)
-        pieces = [(a, c) for a, c in subtract([(b.start_tt, b.end_tt)], [(k0, k1) for k0, k1, _ in hits])
-                  if c - a > need]
+        pieces = _split_around(ctx, b, subtract([(t0, t1)], [(k0, k1) for k0, k1, _ in hits]))
         parts = [span_text(a, c) for a, c in pieces]
         if len(parts) >= 2:
             fix = f"split it into {', '.join(parts[:-1])} and {parts[-1]}"
         elif parts:
             fix = f"cut it to {parts[0]}"
         else:
-            fix = "move it (no piece outside the keep-outs is longer than setup and teardown)"
-        others = [p for p in b.purposes if p != "downlink"]
+            fix = "move it (no part of its track lies outside the keep-outs)"
+        others = [s for s in b.services if s not in DATA_SERVICES]
         alt = f", or keep it for {' and '.join(others)} only" if others else ""
         for k0, k1, act in hits:
-            what = act.kind if act.kind in ("burn", "slew") else "activity"
-            msg = (f"downlink booking {b.id} ({b.station}) overlaps the keep-out of {what} {act.id} "
-                   f"({span_text(k0, k1)}): {fix}{alt}")
-            out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, b.start_tt),
-                                min(k1, b.end_tt), msg, pieces))
+            what = act.kind if act.kind in ("burn", "slew", "momentum-dump") else "activity"
+            msg = (f"{' and '.join(data)} booking {b.id} ({b.station}) tracks through the keep-out of {what} "
+                   f"{act.id} ({span_text(k0, k1)}): {fix}{alt}")
+            out.append(_finding("downlink-in-keepout", ERROR, [b.id, act.id], max(k0, t0), min(k1, t1), msg,
+                                pieces))
     return out
 
 
-def rule_burn_unmonitored(ctx: RuleContext) -> list[Finding]:
-    """``burn-unmonitored`` (error): a burn's monitor span not covered by tracked commanding/ranging time."""
+def _split_around(ctx: RuleContext, b, track_pieces) -> list:
+    """Bookings (start, end) whose tracks are ``track_pieces`` (in order), pre-pass and post-pass added, each
+    starting no earlier than the one before ends (a piece left with no track is dropped)."""
+    pre, post = ctx.setup_s(b), ctx.teardown_s(b)
     out = []
-    burns = [a for a in ctx.scenario.activities if a.kind == "burn"]
-    if not burns:
+    last = b.start_tt
+    for a, c in track_pieces:
+        start = max(a - pre, last)
+        if c - (start + pre) <= EDGE_TOLERANCE_S:
+            continue
+        out.append((start, c + post))
+        last = c + post
+    return out
+
+
+#: services whose tracked time monitors a burn or momentum dump (real-time telemetry and two-way Doppler)
+MONITOR_SERVICES = ("telemetry", "doppler")
+
+
+def rule_burn_unmonitored(ctx: RuleContext) -> list[Finding]:
+    """``burn-unmonitored`` (error): part of a burn's or momentum dump's monitor span has no tracked time
+    of a booking with both telemetry and doppler at a station giving both."""
+    out = []
+    acts = [a for a in ctx.scenario.activities if a.kind in ("burn", "momentum-dump")]
+    if not acts:
         return out
-    cover = ctx.tracked_union(("commanding", "ranging"))
-    for a in burns:
+    spans = []
+    for b in ctx.scenario.bookings:
+        if all(s in b.services for s in MONITOR_SERVICES) and (
+                not ctx.links_modelled or all(ctx.offers(b.station, s) for s in MONITOR_SERVICES)):
+            spans.extend(ctx.tracked(b))
+    cover = union(spans)
+    for a in acts:
         m0, m1 = a.monitor_span_tt
         m0, m1 = max(m0, ctx.start_tt), min(m1, ctx.end_tt)
         if m1 <= m0:
@@ -283,10 +468,11 @@ def rule_burn_unmonitored(ctx: RuleContext) -> list[Finding]:
         if not gaps:
             continue
         lost = total_s(gaps)
+        what = "burn" if a.kind == "burn" else "momentum dump"
         where = "; ".join(span_text(g0, g1) for g0, g1 in gaps[:3]) + (" ..." if len(gaps) > 3 else "")
-        msg = (f"burn {a.id} is not monitored for {minutes(lost)} of its monitor span {span_text(m0, m1)} "
-               f"(uncovered: {where}): book commanding or ranging contact over these times "
-               f"(setup and teardown do not count)")
+        msg = (f"{what} {a.id} is not monitored for {minutes(lost)} of its monitor span {span_text(m0, m1)} "
+               f"(uncovered: {where}): book telemetry and doppler tracking over these times "
+               f"(pre-pass and post-pass do not count)")
         out.append(_finding("burn-unmonitored", ERROR, [a.id], gaps[0][0], gaps[-1][1], msg))
     return out
 
@@ -464,8 +650,12 @@ def rule_station_hours(ctx: RuleContext) -> list[Finding]:
 
 
 def rule_no_downlink_station(ctx: RuleContext) -> list[Finding]:
-    """``no-downlink-station`` (warning): downlink booked at a station that takes no downlink (no G/T)."""
+    """``no-downlink-station`` (warning): downlink booked at a station that takes no downlink (no G/T).
+
+    Only without links (a hand-built scenario): with links, ``service-unavailable`` says it."""
     out = []
+    if ctx.links_modelled:
+        return out
     for b in ctx.scenario.bookings:
         st = ctx.stations.get(b.station)
         if st is not None and "downlink" in b.purposes and not st.takes_downlink:
@@ -481,12 +671,11 @@ def rule_body_in_beam(ctx: RuleContext) -> list[Finding]:
     geo = ctx.scenario.geometry
     out = []
     for b in ctx.scenario.bookings:
-        if "downlink" not in b.purposes:
+        if not any(s in b.services for s in DATA_SERVICES):
             continue
-        for p in ctx.passes_by_station.get(b.station, []):
-            if not (p.aos_tt < b.end_tt and b.start_tt < p.los_tt):
-                continue
-            lo, hi = max(p.aos_tt, b.start_tt), min(p.los_tt, b.end_tt)
+        t0, t1 = ctx.track(b)
+        for p in ctx.passes_overlapping(b.station, t0, t1):
+            lo, hi = max(p.aos_tt, t0), min(p.los_tt, t1)
             if p.moon_flag or p.moon_separation_min_deg < geo.moon_separation_min_deg:
                 out.append(_finding("moon-in-beam", WARNING, [b.id, b.station], lo, hi,
                                     f"the Moon comes within {p.moon_separation_min_deg:.1f} deg of the line of "
@@ -521,13 +710,15 @@ def rule_no_link(ctx: RuleContext) -> list[Finding]:
     ``[spacecraft.link]``, so no booking brings any data down and the recorder findings cannot be fixed
     by booking more."""
     sc = ctx.scenario
-    if sc.spacecraft.link is not None or sc.spacecraft.recorder is None:
+    if sc.spacecraft.recorder is None or any(lk.has_budget and lk.direction == "down" and "playback" in lk.carries
+                                             for lk in sc.spacecraft.links):
         return []
-    ids = [b.id for b in sorted(sc.bookings, key=lambda b: b.start_tt) if "downlink" in b.purposes]
+    ids = [b.id for b in sorted(sc.bookings, key=lambda b: b.start_tt) if "playback" in b.services]
     if not ids:
         return []
-    msg = ("the scenario has no [spacecraft.link] section, so the downlink bookings bring no data down and "
-           "the recorder only fills: add the link (frequency, EIRP, rates) to get volumes and a true recorder")
+    msg = ("no down link carrying playback has a budget (frequency, EIRP, required Eb/N0, rates in "
+           "[[spacecraft.links]]; version 1: [spacecraft.link]), so the playback bookings bring no data down and "
+           "the recorder only fills: give that link's budget to get volumes and a true recorder")
     return [_finding("no-link", WARNING, ["spacecraft"] + ids, ctx.start_tt, ctx.end_tt, msg)]
 
 
@@ -535,8 +726,13 @@ def rule_no_link(ctx: RuleContext) -> list[Finding]:
 NO_EPHEMERIS = "no-ephemeris"
 #: rules whose findings mean nothing where the ephemeris is missing (no pass is known there)
 NEEDS_EPHEMERIS = frozenset({"outside-pass", "burn-unmonitored", "no-ranging", "contact-per-day",
-                             "recorder-overflow", "recorder-high", "recorder-end"})
+                             "recorder-overflow", "recorder-high", "recorder-end", "service-unavailable",
+                             "command-load"})
 
+
+from contactplan.plan.rules_services import (  # noqa: E402  (they use the helpers above)
+    rule_command_load, rule_handover_gap, rule_prepass_conflict, rule_service_unavailable,
+)
 
 #: every rule, in the order they run; a new rule is one function added here
 RULES = [
@@ -544,8 +740,12 @@ RULES = [
     rule_outside_pass,
     rule_station_outage,
     rule_double_booking,
+    rule_prepass_conflict,
+    rule_service_unavailable,
     rule_downlink_in_keepout,
     rule_burn_unmonitored,
+    rule_command_load,
+    rule_handover_gap,
     rule_recorder_overflow,
     rule_recorder_high,
     rule_recorder_end,
@@ -597,6 +797,6 @@ def run_rules(ctx: RuleContext, rules=None) -> list[Finding]:
     return found
 
 
-def check_plan(scenario, passes, profiles=None, recorder=None) -> list[Finding]:
+def check_plan(scenario, passes, profiles=None, recorder=None, link_profiles=None) -> list[Finding]:
     """Findings for a scenario's bookings given computed passes, profiles and recorder result."""
-    return run_rules(RuleContext.build(scenario, passes, profiles, recorder))
+    return run_rules(RuleContext.build(scenario, passes, profiles, recorder, link_profiles=link_profiles))

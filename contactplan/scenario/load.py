@@ -145,7 +145,34 @@ class Table:
 
 
 # ---------------------------------------------------------------- sections
-def _station(t: Table) -> m.Station:
+def _service(t: Table, links: dict, seen: set) -> m.StationService:
+    lid = t.str("link")
+    lk = links.get(lid)
+    if lk is None:
+        t.fail("link", f"no spacecraft link with id {lid!r} (known: {', '.join(links) or 'none'})")
+    if lid in seen:
+        t.fail("link", f"link {lid!r} is given twice for this station")
+    seen.add(lid)
+    sv = m.StationService(
+        link=lid,
+        g_over_t_dbk=t.num("g_over_t_dbk", None, lo=-40, hi=80),
+        eirp_dbw=t.num("eirp_dbw", None, lo=-50, hi=150),
+        zenith_attenuation_db=t.num("zenith_attenuation_db", None, lo=0, hi=50),
+    )
+    if lk.direction == "down":
+        if sv.eirp_dbw is not None:
+            t.fail("eirp_dbw", f"{lid} is a down link: give the station's g_over_t_dbk, not eirp_dbw")
+        if sv.g_over_t_dbk is None:
+            t.fail("g_over_t_dbk", f"missing (required: the station's G/T on down link {lid})")
+    else:
+        if sv.g_over_t_dbk is not None:
+            t.fail("g_over_t_dbk", f"{lid} is an up link: give the station's eirp_dbw, not g_over_t_dbk")
+        if sv.eirp_dbw is None and lk.has_budget:
+            t.fail("eirp_dbw", f"missing (required: the station's EIRP on up link {lid})")
+    return t.keep(sv)
+
+
+def _station(t: Table, links: dict) -> m.Station:
     sid = t.str("id", pattern=_ID_RE)
     st = m.Station(
         id=sid,
@@ -154,13 +181,13 @@ def _station(t: Table) -> m.Station:
         longitude_deg=t.num("longitude_deg", lo=-180, hi=360),
         height_m=t.num("height_m", 0.0, lo=-500, hi=9000),
         min_elevation_deg=t.num("min_elevation_deg", 0.0, lo=-5, hi=89),
-        g_over_t_dbk=t.num("g_over_t_dbk", None, lo=-40, hi=80),
-        zenith_attenuation_db=t.num("zenith_attenuation_db", None, lo=0, hi=50),
-        setup_min=t.num("setup_min", 0.0, lo=0, hi=600),
-        teardown_min=t.num("teardown_min", 0.0, lo=0, hi=600),
+        pre_pass_min=t.num("pre_pass_min", 0.0, lo=0, hi=600),
+        post_pass_min=t.num("post_pass_min", 0.0, lo=0, hi=600),
         cost_per_hour=t.num("cost_per_hour", 1.0, lo=0),
         max_hours_per_week=t.num("max_hours_per_week", None, lo=0, hi=168),
     )
+    seen: set = set()
+    st.services = [_service(sv, links, seen) for sv in t.records("services")]
     mask = t.list("horizon_mask", [])
     points = []
     for i, p in enumerate(mask):
@@ -211,22 +238,59 @@ def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
     return t.keep(m.EphemerisSpec(kind="libration", libration=lib))
 
 
-def _link(t: Table) -> m.Link:
-    rates = t.list("rates_kbps")
-    if not rates:
+def _rates(t: Table, required: bool) -> list:
+    rates = t.list("rates_kbps", _MISSING if required else [])
+    if required and not rates:
         t.fail("rates_kbps", "give at least one rate")
     for i, r in enumerate(rates):
         if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(_as_float(r)) or r <= 0:
             t.fail(f"rates_kbps[{i + 1}]", f"expected a positive rate in kbit/s, got {r!r}")
-    t.loaded["rates_kbps"] = sorted(float(r) for r in rates)
-    return t.keep(m.Link(
-        frequency_mhz=t.num("frequency_mhz", lo=100.0, hi=100000.0),
-        eirp_dbw=t.num("eirp_dbw", lo=-50, hi=120),
-        required_ebn0_db=t.num("required_ebn0_db", lo=-10, hi=40),
+    out = sorted(float(r) for r in rates)
+    t.loaded["rates_kbps"] = list(out)
+    return out
+
+
+def _link(t: Table) -> m.Link:
+    """One ``[[spacecraft.links]]`` entry (docs/scenario.md)."""
+    lid = t.str("id", pattern=_ID_RE)
+    direction = t.str("direction", choices=m.DIRECTIONS)
+    down = direction == "down"
+    budget_keys = ("eirp_dbw", "required_ebn0_db", "rates_kbps")
+    need = _MISSING if down and any(k in t.data for k in budget_keys) else None
+    lk = m.Link(
+        id=lid, direction=direction, band=t.str("band", ""),
+        frequency_mhz=t.num("frequency_mhz", need, lo=100.0, hi=100000.0),
+        eirp_dbw=t.num("eirp_dbw", need, lo=-50, hi=120) if down else None,
+        required_ebn0_db=t.num("required_ebn0_db", need, lo=-10, hi=40) if down else None,
         margin_db=t.num("margin_db", 3.0, lo=0, hi=40),
         other_losses_db=t.num("other_losses_db", 0.0, lo=0, hi=60),
-        rates_kbps=sorted(float(r) for r in rates),
-    ))
+        rates_kbps=_rates(t, required=need is _MISSING),
+        max_rate_changes_per_pass=t.num("max_rate_changes_per_pass", None, lo=0, hi=1000, integer=True),
+        required_pt_dbhz=None if down else t.num("required_pt_dbhz", None, lo=-20, hi=100),
+        spacecraft_g_over_t_dbk=None if down else t.num("spacecraft_g_over_t_dbk", None, lo=-80, hi=60),
+    )
+    for key in ("eirp_dbw", "required_ebn0_db") if not down else ("required_pt_dbhz", "spacecraft_g_over_t_dbk"):
+        if key in t.data:
+            t.fail(key, f"belongs to a {'down' if key in ('eirp_dbw', 'required_ebn0_db') else 'up'} link; "
+                        f"this one is direction = {direction!r}")
+    if not down and lk.required_pt_dbhz is not None:
+        if lk.frequency_mhz is None:
+            t.fail("frequency_mhz", "missing (required with required_pt_dbhz)")
+        if lk.spacecraft_g_over_t_dbk is None:
+            t.fail("spacecraft_g_over_t_dbk", "missing (required with required_pt_dbhz)")
+    carries = t.list("carries", [])
+    allowed = m.DOWN_SERVICES if down else m.UP_SERVICES
+    for i, c in enumerate(carries):
+        if c not in allowed:
+            t.fail(f"carries[{i + 1}]", f"{c!r} is not a service a {direction} link carries "
+                                        f"({', '.join(allowed)})")
+    if "carries" in t.data and not carries:
+        t.fail("carries", "give at least one service")
+    lk.carries = [c for c in m.SERVICES if c in carries] if carries else list(allowed)
+    t.loaded["carries"] = list(carries) if carries else list(allowed)
+    if not carries:
+        t.loaded["carries"] = list(lk.carries)
+    return t.keep(lk)
 
 
 def _recorder(t: Table) -> m.Recorder:
@@ -246,7 +310,15 @@ def _margins(t: Table, kind: str) -> dict:
         "downlink_keepout_min": t.num("downlink_keepout_min", 0.0, lo=0, hi=1440),
         "monitor_before_min": t.num("monitor_before_min", 0.0, lo=0, hi=1440),
         "monitor_after_min": t.num("monitor_after_min", 0.0, lo=0, hi=1440),
+        "command_lead_h": t.num("command_lead_h", None, lo=0, hi=720),
+        "command_backup": t.bool("command_backup", False),
     }
+    if kind not in m.VELOCITY_KINDS:
+        for key in ("command_lead_h", "command_backup"):
+            if key in t.data:
+                t.fail(key, f"only burns and momentum dumps are commanded this way (kind is {kind!r})")
+    if out["command_backup"] and out["command_lead_h"] is None:
+        t.fail("command_backup", "needs command_lead_h (how long before the start the load must be sent)")
     return out
 
 
@@ -270,19 +342,29 @@ def _booking(t: Table, station_ids: set) -> m.Booking:
         start_tt=t.time("start"),
         end_tt=t.time("end"),
         locked=t.bool("locked", False),
+        handover_from=t.str("handover_from", None, pattern=_ID_RE),
     )
     if b.station not in station_ids:
         t.fail("station", f"no station with id {b.station!r} (known: {', '.join(sorted(station_ids)) or 'none'})")
     if b.end_tt <= b.start_tt:
         t.fail("end", "booking ends before it starts")
-    purposes = t.list("purposes", ["downlink"])
-    for i, p in enumerate(purposes):
-        if p not in m.PURPOSES:
-            t.fail(f"purposes[{i + 1}]", f"{p!r} is not one of {', '.join(m.PURPOSES)}")
-    if not purposes:
-        t.fail("purposes", "give at least one purpose")
-    b.purposes = list(purposes)
-    t.loaded["purposes"] = list(purposes)
+    if b.handover_from == b.id:
+        t.fail("handover_from", "a booking cannot continue itself")
+    if "purposes" in t.data:  # a version-1 list the upgrade could not turn into services
+        purposes = t.list("purposes")
+        for i, p in enumerate(purposes):
+            if p not in m.PURPOSES:
+                t.fail(f"purposes[{i + 1}]", f"{p!r} is not one of {', '.join(m.PURPOSES)}")
+        t.fail("purposes", "give at least one purpose" if not purposes else
+               "format 2 books services (services = [...]), not purposes")
+    services = t.list("services", list(m.DEFAULT_SERVICES))
+    for i, p in enumerate(services):
+        if p not in m.SERVICES:
+            t.fail(f"services[{i + 1}]", f"{p!r} is not one of {', '.join(m.SERVICES)}")
+    if not services:
+        t.fail("services", "give at least one service")
+    b.services = list(dict.fromkeys(services))
+    t.loaded["services"] = list(b.services)
     return t.keep(b)
 
 
@@ -294,11 +376,67 @@ def _unique(items, kind: str, path, where: str):
         seen.add(it.id)
 
 
+def upgrade_1_to_2(doc: dict) -> dict:
+    """Version 1 -> 2 (the table in docs/scenario.md). Works on a copy; keys it does not know are kept.
+
+    - ``[spacecraft.link]`` becomes the down link ``DN`` of ``[[spacecraft.links]]`` carrying telemetry,
+      playback, ranging and doppler (without a ``[spacecraft.link]``, ``DN`` has no budget: no rates or
+      volumes, as before), and an up link ``UP`` without budget (closes whenever a station offering it
+      tracks) carrying commanding, ranging and doppler.
+    - a station's ``setup_min`` / ``teardown_min`` become ``pre_pass_min`` / ``post_pass_min``; every
+      station gets ``{ link = "UP" }`` and, with ``g_over_t_dbk``, ``{ link = "DN", g_over_t_dbk = ... }``
+      (with its ``zenith_attenuation_db``).
+    - a booking's ``purposes`` become ``services``: downlink -> telemetry + playback, ranging -> ranging +
+      doppler, commanding -> commanding.
+    """
+    doc = copy.deepcopy(doc)
+    doc["format_version"] = 2
+    sp = doc.get("spacecraft")
+    has_link = isinstance(sp, dict)
+    if has_link:
+        old = sp.pop("link", None)
+        down = {"id": m.MAIN_DOWNLINK_ID, "direction": "down"}
+        if isinstance(old, dict):
+            down.update(old)
+        elif old is not None:
+            down["link"] = old  # not a table: left for the loader to refuse
+        down["carries"] = list(m.DOWN_SERVICES)
+        up = {"id": m.UPLINK_ID, "direction": "up", "carries": list(m.UP_SERVICES)}
+        sp["links"] = [down, up]
+    for st in doc.get("stations", []) if isinstance(doc.get("stations"), list) else []:
+        if not isinstance(st, dict):
+            continue
+        for a, b in (("setup_min", "pre_pass_min"), ("teardown_min", "post_pass_min")):
+            if a in st:
+                st[b] = st.pop(a)
+        if has_link:
+            services = []
+            if "g_over_t_dbk" in st:
+                sv = {"link": m.MAIN_DOWNLINK_ID, "g_over_t_dbk": st.pop("g_over_t_dbk")}
+                if "zenith_attenuation_db" in st:
+                    sv["zenith_attenuation_db"] = st.pop("zenith_attenuation_db")
+                services.append(sv)
+            services.append({"link": m.UPLINK_ID})
+            st["services"] = services
+    for bk in doc.get("bookings", []) if isinstance(doc.get("bookings"), list) else []:
+        if isinstance(bk, dict) and "purposes" in bk:
+            purposes = bk.pop("purposes")
+            if isinstance(purposes, list):
+                bad = [p for p in purposes if p not in m.PURPOSES]
+                if bad or not purposes:  # left for the loader to refuse, under the old name
+                    bk["purposes"] = purposes
+                    continue
+                bk["services"] = m.services_from_purposes(purposes)
+            else:
+                bk["purposes"] = purposes
+    return doc
+
+
 #: Upgrades from an older ``format_version`` to the next one: version -> function(doc) -> doc.
 #: A file written before ``format_version`` existed counts as version 1. When the format
 #: changes, bump ``model.FORMAT_VERSION`` and add the step from the old version here, so
 #: every older plan still loads (the saved file then carries the new version).
-UPGRADES: dict = {}
+UPGRADES: dict = {1: upgrade_1_to_2}
 
 
 def upgrade_document(doc: dict, path: Path | None = None) -> tuple[dict, int]:
@@ -330,13 +468,16 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     sp = root.sub("spacecraft")
     et = sp.sub("ephemeris")
     spacecraft = m.Spacecraft(name=sp.str("name"), ephemeris=_ephemeris(et, base))
-    lt = sp.sub("link", required=False)
-    spacecraft.link = _link(lt) if lt is not None else None
+    if "link" in sp.data:
+        sp.fail("link", "format 2 gives [[spacecraft.links]] (one per band and direction), not [spacecraft.link]")
+    spacecraft.links = [_link(lt) for lt in sp.records("links")]
+    _unique(spacecraft.links, "link", path, "spacecraft.links")
     rt = sp.sub("recorder", required=False)
     spacecraft.recorder = _recorder(rt) if rt is not None else None
     sp.keep(spacecraft)
 
-    stations = [_station(t) for t in root.records("stations")]
+    links = {lk.id: lk for lk in spacecraft.links}
+    stations = [_station(t, links) for t in root.records("stations")]
     _unique(stations, "station", path, "stations")
     series = [_series(t) for t in root.records("activity_series")]
     _unique(series, "activity series", path, "activity_series")
@@ -356,6 +497,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         booking_min_h=rq.num("booking_min_h", None, lo=0, hi=24),
         booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
         recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
+        handover_min=rq.num("handover_min", None, lo=0, hi=600),
     ))
     read_tracking_requirements(rq, req)
     gt = root.sub("geometry", required=False) or Table({}, path, "geometry")

@@ -8,13 +8,38 @@ save rewrites only what was edited and keeps keys this version does not know.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import InitVar, dataclass, field
 from pathlib import Path
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
 
-ACTIVITY_KINDS = ("burn", "slew", "other")
+ACTIVITY_KINDS = ("burn", "momentum-dump", "slew", "other")
+#: activity kinds that change the velocity: monitored (``burn-unmonitored``) and commanded (``command-load``)
+VELOCITY_KINDS = ("burn", "momentum-dump")
+#: the services a booking asks for (docs/scenario.md); ranging and doppler are two-way
+SERVICES = ("telemetry", "playback", "commanding", "ranging", "doppler")
+TWO_WAY_SERVICES = ("ranging", "doppler")
+DOWN_SERVICES = ("telemetry", "playback", "ranging", "doppler")
+UP_SERVICES = ("commanding", "ranging", "doppler")
+DIRECTIONS = ("down", "up")
+#: version-1 purposes, kept for code that still speaks them (read-only view of the services)
 PURPOSES = ("downlink", "ranging", "commanding")
+#: version-1 purpose -> version-2 services (the upgrade table in docs/scenario.md)
+PURPOSE_SERVICES = {"downlink": ("telemetry", "playback"), "ranging": ("ranging", "doppler"),
+                    "commanding": ("commanding",)}
+DEFAULT_SERVICES = ("telemetry", "playback")
+
+
+def services_from_purposes(purposes) -> list:
+    """Version-1 purposes as version-2 services (order of :data:`SERVICES`)."""
+    want = {s for p in purposes or () for s in PURPOSE_SERVICES.get(p, ())}
+    return [s for s in SERVICES if s in want]
+
+
+def purposes_from_services(services) -> list:
+    """The version-1 purposes a list of services amounts to (order of :data:`PURPOSES`)."""
+    have = set(services or ())
+    return [p for p in PURPOSES if have & set(PURPOSE_SERVICES[p])]
 
 
 @dataclass(eq=False)
@@ -33,7 +58,25 @@ class Outage(Record):
 
 
 @dataclass(eq=False)
+class StationService(Record):
+    """What a station does on one spacecraft link: receive a down link (G/T) or send an up link (EIRP)."""
+
+    link: str  # id of a [[spacecraft.links]] entry
+    g_over_t_dbk: float | None = None  # down links: receive G/T
+    eirp_dbw: float | None = None  # up links: station EIRP
+    zenith_attenuation_db: float | None = None  # None: from ITU-R P.676 for the link frequency and height
+
+
+@dataclass(eq=False)
 class Station(Record):
+    """A ground station. ``services`` say which spacecraft links it receives or sends.
+
+    Version-1 names are kept as aliases for code not yet ported: ``setup_min`` / ``teardown_min``
+    (= ``pre_pass_min`` / ``post_pass_min``), ``g_over_t_dbk`` and ``zenith_attenuation_db``
+    (its values on the spacecraft's main downlink, :attr:`Spacecraft.link`). The constructor
+    accepts those names too.
+    """
+
     id: str
     name: str
     latitude_deg: float
@@ -42,16 +85,110 @@ class Station(Record):
     min_elevation_deg: float = 0.0
     horizon_mask: list = field(default_factory=list)  # [[azimuth_deg, elevation_deg], ...] sorted by azimuth
     outages: list = field(default_factory=list)  # [Outage]
-    g_over_t_dbk: float | None = None  # None: tracks and commands, takes no downlink
-    zenith_attenuation_db: float | None = None  # None: from ITU-R P.676 for frequency and height
-    setup_min: float = 0.0
-    teardown_min: float = 0.0
+    services: list = field(default_factory=list)  # [StationService], one per link at most
+    pre_pass_min: float = 0.0  # configuration before the track (may lie below the mask)
+    post_pass_min: float = 0.0  # release after the track
     cost_per_hour: float = 1.0
     max_hours_per_week: float | None = None
+    g_over_t_dbk: InitVar[float | None] = None
+    zenith_attenuation_db: InitVar[float | None] = None
+    setup_min: InitVar[float | None] = None
+    teardown_min: InitVar[float | None] = None
+
+    def __post_init__(self, g_over_t_dbk, zenith_attenuation_db, setup_min, teardown_min):
+        if setup_min is not None:
+            self.pre_pass_min = float(setup_min)
+        if teardown_min is not None:
+            self.post_pass_min = float(teardown_min)
+        # (dataclasses.replace passes the aliases back in: they then match and change nothing)
+        if g_over_t_dbk is not None:
+            sv = self._main_service()
+            if sv is None:
+                self.services = [StationService(link=MAIN_DOWNLINK_ID)] + list(self.services)
+                sv = self.services[0]
+            sv.g_over_t_dbk = float(g_over_t_dbk)
+            if zenith_attenuation_db is not None:
+                sv.zenith_attenuation_db = float(zenith_attenuation_db)
+        elif zenith_attenuation_db is not None:
+            self.__dict__["_zenith_db"] = float(zenith_attenuation_db)
+
+    # ---- services
+    def service(self, link_id: str) -> StationService | None:
+        for sv in self.services:
+            if sv.link == link_id:
+                return sv
+        return None
+
+    def _links(self) -> list:
+        """The spacecraft links this station was bound to (:meth:`Scenario.bind`), else []."""
+        return self.__dict__.get("_links_ref") or []
+
+    def _main_service(self) -> StationService | None:
+        links = self._links()
+        main = main_downlink(links) if links else None
+        if main is not None:
+            return self.service(main.id)
+        down = [sv for sv in self.services if sv.g_over_t_dbk is not None]
+        return down[0] if down else None
 
     @property
     def takes_downlink(self) -> bool:
-        return self.g_over_t_dbk is not None
+        """True when the station receives a down link that carries playback (the recorder's data)."""
+        links = {lk.id: lk for lk in self._links()}
+        if not links:
+            return any(sv.g_over_t_dbk is not None for sv in self.services)
+        return any(sv.g_over_t_dbk is not None and sv.link in links and links[sv.link].direction == "down"
+                   and "playback" in links[sv.link].carries for sv in self.services)
+
+
+def _station_alias(name, attr):
+    def get(self):
+        return getattr(self, attr)
+
+    def put(self, value):
+        setattr(self, attr, 0.0 if value is None else float(value))
+
+    return property(get, put, doc=f"Version-1 name of ``{attr}``.")
+
+
+def _main_gt_get(self):
+    sv = self._main_service()
+    return None if sv is None else sv.g_over_t_dbk
+
+
+def _main_gt_put(self, value):
+    sv = self._main_service()
+    if value is None:
+        if sv is not None:
+            self.services.remove(sv)
+        return
+    if sv is None:
+        links = self._links()
+        main = main_downlink(links) if links else None
+        sv = StationService(link=main.id if main is not None else MAIN_DOWNLINK_ID)
+        self.services.insert(0, sv)
+    sv.g_over_t_dbk = float(value)
+
+
+def _main_zen_get(self):
+    sv = self._main_service()
+    return self.__dict__.get("_zenith_db") if sv is None else sv.zenith_attenuation_db
+
+
+def _main_zen_put(self, value):
+    sv = self._main_service()
+    if sv is None:
+        self.__dict__["_zenith_db"] = value
+    else:
+        sv.zenith_attenuation_db = None if value is None else float(value)
+
+
+Station.setup_min = _station_alias("setup_min", "pre_pass_min")
+Station.teardown_min = _station_alias("teardown_min", "post_pass_min")
+Station.g_over_t_dbk = property(_main_gt_get, _main_gt_put,
+                                doc="G/T (dB/K) on the main downlink (:attr:`Spacecraft.link`); None: none.")
+Station.zenith_attenuation_db = property(_main_zen_get, _main_zen_put,
+                                         doc="Zenith attenuation (dB) given for the main downlink, or None.")
 
 
 @dataclass(eq=False)
@@ -71,14 +208,59 @@ class EphemerisSpec(Record):
     libration: LibrationSpec | None = None
 
 
+#: id the version-1 upgrade gives the single downlink (and the default of a Link built in code)
+MAIN_DOWNLINK_ID = "DN"
+#: id the version-1 upgrade gives the uplink it adds (no budget: closes whenever the station tracks)
+UPLINK_ID = "UP"
+
+
 @dataclass(eq=False)
 class Link(Record):
-    frequency_mhz: float
-    eirp_dbw: float
-    required_ebn0_db: float
+    """One spacecraft link, one band and one direction.
+
+    Down: spacecraft ``eirp_dbw``, ``required_ebn0_db`` (+ ``margin_db``), ``rates_kbps``; the
+    station gives G/T (a down link without them has no budget: no rates or volumes). Up: ``required_pt_dbhz`` (+ ``margin_db``) and ``spacecraft_g_over_t_dbk``;
+    the station gives EIRP. An up link without ``required_pt_dbhz`` has no budget: it is taken to
+    close whenever a station offering it tracks the spacecraft.
+    """
+
+    frequency_mhz: float | None = None
+    eirp_dbw: float | None = None  # down: spacecraft EIRP
+    required_ebn0_db: float | None = None  # down
     margin_db: float = 3.0
     other_losses_db: float = 0.0
     rates_kbps: list = field(default_factory=list)  # ascending
+    id: str = MAIN_DOWNLINK_ID
+    direction: str = "down"  # down | up
+    band: str = ""  # display text (S, X, K, Ka...)
+    carries: list = field(default_factory=list)  # services; empty: all services of the direction
+    max_rate_changes_per_pass: int | None = None  # None: no limit (rate follows the profile)
+    required_pt_dbhz: float | None = None  # up: carrier-to-noise density the spacecraft needs
+    spacecraft_g_over_t_dbk: float | None = None  # up: spacecraft receive G/T
+
+    def __post_init__(self):
+        if not self.carries:
+            self.carries = list(DOWN_SERVICES if self.direction == "down" else UP_SERVICES)
+
+    @property
+    def has_budget(self) -> bool:
+        """True when the budget can be computed (down: frequency, EIRP and required Eb/N0; up: frequency,
+        required Pt/N0 and spacecraft G/T)."""
+        if self.frequency_mhz is None:
+            return False
+        if self.direction == "down":
+            return self.eirp_dbw is not None and self.required_ebn0_db is not None
+        return self.required_pt_dbhz is not None and self.spacecraft_g_over_t_dbk is not None
+
+
+def main_downlink(links) -> Link | None:
+    """The main downlink: the down link carrying ``playback`` with the highest top rate (file order on a
+    tie); without one, the first down link; None without down links."""
+    down = [lk for lk in links if lk.direction == "down"]
+    play = [lk for lk in down if "playback" in lk.carries]
+    if play:
+        return max(play, key=lambda lk: max(lk.rates_kbps, default=0.0))  # max keeps the first on a tie
+    return down[0] if down else None
 
 
 @dataclass(eq=False)
@@ -90,10 +272,48 @@ class Recorder(Record):
 
 @dataclass(eq=False)
 class Spacecraft(Record):
+    """``links``: every link, one per band and direction. ``link`` (read and write) is the main
+    downlink (:func:`main_downlink`), kept for code written for version 1; the constructor takes it too."""
+
     name: str
     ephemeris: EphemerisSpec
-    link: Link | None = None
+    links: list = field(default_factory=list)  # [Link]
     recorder: Recorder | None = None
+    link: InitVar[Link | None] = None
+
+    def __post_init__(self, link):
+        if link is not None and not any(lk is link for lk in self.links):  # (replace passes it back in)
+            self.links = [link] + list(self.links)
+
+    def link_by_id(self, link_id: str) -> Link | None:
+        for lk in self.links:
+            if lk.id == link_id:
+                return lk
+        return None
+
+
+def _main_link_get(self):
+    lk = main_downlink(self.links)
+    return lk if lk is not None and lk.has_budget else None
+
+
+def _main_link_put(self, value):
+    old = main_downlink(self.links)
+    if value is None:
+        if old is not None:
+            self.links.remove(old)
+        return
+    if old is None:
+        self.links.insert(0, value)
+    else:
+        value.id = old.id
+        if not value.raw:
+            value.carries = list(old.carries)
+        self.links[self.links.index(old)] = value
+
+
+Spacecraft.link = property(_main_link_get, _main_link_put,
+                           doc="The main downlink (:func:`main_downlink`) when it has a budget, else None.")
 
 
 @dataclass(eq=False)
@@ -102,10 +322,16 @@ class Activity(Record):
     kind: str  # burn | slew | other
     start_tt: float
     duration_min: float
-    monitor_before_min: float = 0.0  # burns: contact required from start - before to end + after
+    monitor_before_min: float = 0.0  # burns, dumps: telemetry + doppler from start - before to end + after
     monitor_after_min: float = 0.0
     downlink_keepout_min: float = 0.0  # no downlink from start - keepout to end + keepout
     series: str | None = None  # id of the [[activity_series]] it was expanded from
+    command_lead_h: float | None = None  # burns, dumps: a commanding track must end this long before start
+    command_backup: bool = False  # ... and a second one at another station or on another pass
+
+    @property
+    def changes_velocity(self) -> bool:
+        return self.kind in VELOCITY_KINDS
 
     @property
     def end_tt(self) -> float:
@@ -131,6 +357,8 @@ class ActivitySeries(Record):
     monitor_before_min: float = 0.0
     monitor_after_min: float = 0.0
     downlink_keepout_min: float = 0.0
+    command_lead_h: float | None = None
+    command_backup: bool = False
 
     def expand(self) -> list[Activity]:
         """The activities of the series, ids ``<series id>-01``, ``-02``..."""
@@ -145,6 +373,8 @@ class ActivitySeries(Record):
                 monitor_after_min=self.monitor_after_min,
                 downlink_keepout_min=self.downlink_keepout_min,
                 series=self.id,
+                command_lead_h=self.command_lead_h,
+                command_backup=self.command_backup,
             )
             for i in range(self.count)
         ]
@@ -152,16 +382,41 @@ class ActivitySeries(Record):
 
 @dataclass(eq=False)
 class Booking(Record):
+    """Antenna time at a station: ``start``/``end`` include the station's pre-pass and post-pass.
+
+    ``purposes`` (read and write, and accepted by the constructor) is the version-1 view of
+    ``services`` (:data:`PURPOSE_SERVICES`). ``handover_from``: id of the booking at another
+    station this one continues (``handover-gap``).
+    """
+
     id: str
     station: str
     start_tt: float
     end_tt: float
-    purposes: list = field(default_factory=lambda: ["downlink"])
+    services: list = field(default_factory=lambda: list(DEFAULT_SERVICES))
     locked: bool = False
+    handover_from: str | None = None
+    purposes: InitVar[list | None] = None
+
+    def __post_init__(self, purposes):
+        # dataclasses.replace passes the derived purposes back in: apply them only when they say more
+        if purposes is not None and list(purposes) != purposes_from_services(self.services):
+            self.services = services_from_purposes(purposes)
 
     @property
     def duration_s(self) -> float:
         return self.end_tt - self.start_tt
+
+
+def _purposes_get(self):
+    return purposes_from_services(self.services)
+
+
+def _purposes_put(self, value):
+    self.services = services_from_purposes(value)
+
+
+Booking.purposes = property(_purposes_get, _purposes_put, doc="Version-1 purposes derived from ``services``.")
 
 
 @dataclass(eq=False)
@@ -181,6 +436,7 @@ class Requirements(Record):
     cutoff_arc_min_h: float | None = None
     cutoff_before_burn_h: float | None = None
     cutoff_lookback_h: float | None = None
+    handover_min: float | None = None  # minutes two bookings meant to be continuous must overlap (None: 0)
 
 
 @dataclass(eq=False)
@@ -208,11 +464,30 @@ class Scenario(Record):
     path: Path | None = field(default=None, compare=False)
     document: dict = field(default_factory=dict, repr=False, compare=False)  # whole TOML as read
 
+    def __post_init__(self):
+        self.bind()
+
+    def bind(self) -> "Scenario":
+        """Let every station see the spacecraft's links (for the version-1 aliases). Cheap; idempotent."""
+        links = self.spacecraft.links
+        for st in self.stations:
+            st.__dict__["_links_ref"] = links
+        return self
+
     def station(self, station_id: str) -> Station:
         for s in self.stations:
             if s.id == station_id:
                 return s
         raise KeyError(station_id)
+
+    def track_span_tt(self, booking: Booking) -> tuple[float, float]:
+        """The booking's track (BOT, EOT): ``start + pre_pass_min`` to ``end - post_pass_min`` of its station
+        (EOT may come before BOT for a booking shorter than its pre- and post-pass)."""
+        try:
+            st = self.station(booking.station)
+        except KeyError:
+            return booking.start_tt, booking.end_tt
+        return booking.start_tt + st.pre_pass_min * 60.0, booking.end_tt - st.post_pass_min * 60.0
 
     def activity(self, activity_id: str) -> Activity:
         for a in self.activities:

@@ -24,7 +24,7 @@ from contactplan.timescale import format_utc
 _TIME_KEYS = {"start_tt": "start", "end_tt": "end", "first_start_tt": "first_start", "epoch_tt": "epoch"}
 _SKIP = {"raw", "loaded", "outages", "path", "document", "series", "ephemeris", "link", "recorder",
          "libration", "oem_path", "kind_", "spacecraft", "stations", "activities", "bookings",
-         "requirements", "geometry", "format_version"}
+         "requirements", "geometry", "format_version", "links"}
 
 
 def format_time(tt: float) -> str:
@@ -90,7 +90,8 @@ def _series_intact(series: m.ActivitySeries, members: list) -> bool:
     got = {a.id: a for a in members}
     for e in expected:
         a = got.get(e.id)
-        if a is None or a.kind != e.kind:
+        if a is None or a.kind != e.kind or a.command_lead_h != e.command_lead_h \
+                or a.command_backup != e.command_backup:
             return False
         for f in ("start_tt", "duration_min", "monitor_before_min", "monitor_after_min", "downlink_keepout_min"):
             if not math.isclose(getattr(a, f), getattr(e, f), rel_tol=0, abs_tol=5e-4):
@@ -136,16 +137,26 @@ def dump_document(sc: m.Scenario) -> dict:
         e = {k: v for k, v in eph.raw.items() if k != "oem"}
         e["libration"] = encode(eph.libration)
         sp["ephemeris"] = e
-    for key, rec in (("link", craft.link), ("recorder", craft.recorder)):
-        if rec is None:
-            sp.pop(key, None)
-        else:
-            sp[key] = encode(rec)
+    sp.pop("link", None)  # a version-1 table: the links replace it
+    if craft.links:
+        sp["links"] = [encode(lk) for lk in _in_file_order(craft.links, eph_doc(src), "links")]
+    else:
+        sp.pop("links", None)
+    if craft.recorder is None:
+        sp.pop("recorder", None)
+    else:
+        sp["recorder"] = encode(craft.recorder)
     doc["spacecraft"] = sp
 
     stations = []
     for st in _in_file_order(sc.stations, src, "stations"):
-        t = encode(st)
+        t = encode(st, skip={"services"})
+        raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
+        if st.services:
+            t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services},
+                                                                  "services")]
+        else:
+            t.pop("services", None)
         if st.outages:
             t["outages"] = [encode(o) for o in st.outages]
         else:
@@ -177,6 +188,12 @@ def dump_document(sc: m.Scenario) -> dict:
         else:
             doc.pop(key, None)
     return doc
+
+
+def eph_doc(src: dict) -> dict:
+    """The loaded ``[spacecraft]`` table (for the file order of its links)."""
+    sp = src.get("spacecraft") if isinstance(src, dict) else None
+    return sp if isinstance(sp, dict) else {}
 
 
 def _put_list(doc: dict, key: str, items: list) -> None:
