@@ -31,14 +31,17 @@ ephemeris = { libration = { point = "L2", epoch = "2027-01-01T00:00:00Z" } }
 id = "NRV"
 latitude_deg = 47.0
 longitude_deg = 8.0
+g_over_t_dbk = 40.0  # receives: can range two-way
 [[stations]]
 id = "KAL"
 latitude_deg = -33.0
 longitude_deg = 151.0
+g_over_t_dbk = 40.0  # receives: can range two-way
 [[stations]]
 id = "HWK"
 latitude_deg = 40.0
 longitude_deg = -104.0
+g_over_t_dbk = 40.0  # receives: can range two-way
 [[activities]]
 id = "BURN1"
 kind = "burn"
