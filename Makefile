@@ -16,6 +16,7 @@ $(STAMP): pyproject.toml
 venv: $(STAMP)
 
 run: $(STAMP)
+	@$(PY) packaging/qt_libs.py
 	$(PY) -m contactplan $(DEMO)
 
 test: $(STAMP)

@@ -18,6 +18,8 @@ import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from _timing import CPUS  # noqa: E402
 
 TARGET_S = 10.0
 
@@ -130,7 +132,7 @@ def main() -> int:
     for line in summary_lines(sc, dr):
         print(line)
     gap = "n/a" if dr.gap is None else f"{100 * dr.gap:.2f} %"
-    print(f"draft time: {t_draft:.2f} s (target under {TARGET_S:.0f} s)   gap: {gap}   "
+    print(f"draft time: {t_draft:.2f} s wall {CPUS} (target under {TARGET_S:.0f} s)   gap: {gap}   "
           f"candidates: {dr.n_candidates}   status: {dr.status}")
     ok = t_draft < TARGET_S and dr.check_errors == 0
     print("PASS" if ok else "MISS")

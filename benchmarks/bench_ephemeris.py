@@ -22,7 +22,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from _timing import best_of  # noqa: E402
+from _timing import CPUS, best_of  # noqa: E402
 
 import numpy as np  # noqa: E402
 
@@ -60,14 +60,14 @@ def main() -> int:
         t_write, _ = _best(lambda: write_oem(path, nodes, pos, vel, "INVENTED PROBE", "2026-901A",
                                              creation_tt=epoch), repeat=1)
         size_mb = path.stat().st_size / 1e6
-        print(f"write OEM, {nodes.size} nodes at 600 s ({size_mb:.1f} MB): {t_write:.2f} s (no target)")
+        print(f"write OEM, {nodes.size} nodes at 600 s ({size_mb:.1f} MB): {t_write:.2f} s CPU {CPUS} (no target)")
         t_read, oem = _best(lambda: read_oem(path), repeat=2)
-        print(f"read OEM: {t_read:.2f} s (no target)")
+        print(f"read OEM: {t_read:.2f} s CPU {CPUS} (no target)")
         eph = OemEphemeris(oem)
         t_eval, (p, _) = _best(lambda: eph.state(t))
         xt = w * (t - epoch)
         err = np.abs(p - np.stack([1.5e6 + 2.5e5 * np.cos(xt), 7.5e5 * np.sin(xt), 3.0e5 * np.cos(xt + 0.3)], 1))
-        print(f"one year at 60 s ({t.size} epochs) from the OEM: {t_eval:.3f} s   target < {TARGET_S} s  "
+        print(f"one year at 60 s ({t.size} epochs) from the OEM: {t_eval:.3f} s CPU {CPUS}   target < {TARGET_S} s  "
               f"{_verdict(t_eval)}")
         print(f"  (largest interpolation error on the analytic orbit: {err.max() * 1e6:.3f} mm)")
 
@@ -78,7 +78,7 @@ def main() -> int:
         spec = LibrationSpec(point="L2", vertical_amplitude_km=300000.0, branch="north", epoch_tt=epoch)
         halo = HaloEphemeris.from_spec(spec, t[0], t[-1])
         t_halo, _ = _best(lambda: halo.state(t))
-        print(f"one year at 60 s ({t.size} epochs) from the built-in orbit: {t_halo:.3f} s   "
+        print(f"one year at 60 s ({t.size} epochs) from the built-in orbit: {t_halo:.3f} s CPU {CPUS}   "
               f"target < {TARGET_S} s  {_verdict(t_halo)}")
     else:
         print("built-in orbit: contactplan.ephemeris.libration not present, skipped")

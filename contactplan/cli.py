@@ -35,8 +35,18 @@ examples:
   contactplan COMMAND --help                 options and examples of one command"""
 
 
+class _OneLineParser(argparse.ArgumentParser):
+    """argparse whose errors are one line, like every other error: ``contactplan: error: ...`` (exit 2)."""
+
+    def error(self, message):
+        from contactplan.errors import escape_text
+
+        hint = f" (see {self.prog} --help)"
+        self.exit(2, f"contactplan: error: {escape_text(' '.join(message.split()))}{hint}\n")
+
+
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+    p = _OneLineParser(
         prog="contactplan",
         usage="contactplan [FILE]\n       contactplan [-h] [--version] COMMAND ...",
         description="Ground contact and downlink planner for libration-point missions. "
@@ -45,9 +55,9 @@ def _parser() -> argparse.ArgumentParser:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("--version", action="version", version=f"contactplan {__version__}")
-    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_OneLineParser)
     for name, (module, help_text) in COMMANDS.items():
-        sp = sub.add_parser(name, help=help_text, description=help_text,
+        sp = sub.add_parser(name, prog=f"contactplan {name}", help=help_text, description=help_text,
                             formatter_class=argparse.RawDescriptionHelpFormatter)
         sp.set_defaults(_module=module)
         try:

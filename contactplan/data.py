@@ -77,14 +77,40 @@ def leap_second_expiry_mjd() -> float | None:
     return float((day - _dt.date(1858, 11, 17)).days)
 
 
+_EOP_COLUMNS = ("mjd_utc", "ut1_minus_utc_s", "xp_arcsec", "yp_arcsec")
+EOP_CACHE_FORMAT = "contactplan-eop-1"  # bump when the parse or the layout changes
+
+
 @functools.lru_cache(maxsize=1)
 def eop_table() -> dict[str, np.ndarray]:
     """Earth-orientation parameters from the packaged IERS ``finals2000A.all``.
 
     Returns a dict of arrays: ``mjd_utc``, ``ut1_minus_utc_s``, ``xp_arcsec``,
     ``yp_arcsec`` (Bulletin A values, observed then predicted), daily at 0h UTC.
+
+    Parsing the 3.5 MB text costs about 0.1 s, so the four columns are kept as a
+    compact binary file in the user cache folder (:func:`contactplan.paths.user_cache_dir`)
+    and read back in about a millisecond. That file is used only when its header
+    names the same source file (path, size, modification time) and cache format,
+    and its data match the SHA-256 in the header; anything else is parsed again
+    and the file rewritten (quietly skipped when the folder cannot be written).
     """
     path = _iers_dir() / "finals2000A.all"
+    try:
+        st = path.stat()
+        key = {"format": EOP_CACHE_FORMAT, "source": str(path), "size": st.st_size, "mtime_ns": st.st_mtime_ns}
+    except OSError:
+        key = None
+    cached = _eop_cache_load(key) if key else None
+    if cached is not None:
+        return cached
+    tab = _parse_finals(path)
+    if key:
+        _eop_cache_store(key, tab)
+    return tab
+
+
+def _parse_finals(path: Path) -> dict[str, np.ndarray]:
     mjd, dut1, xp, yp = [], [], [], []
     with open(path, "r") as fh:
         for line in fh:
@@ -98,15 +124,53 @@ def eop_table() -> dict[str, np.ndarray]:
             xp.append(float(line[18:27]) if line[18:27].strip() else 0.0)
             yp.append(float(line[37:46]) if line[37:46].strip() else 0.0)
             dut1.append(float(s_dut1))
-    return {
-        "mjd_utc": np.array(mjd),
-        "ut1_minus_utc_s": np.array(dut1),
-        "xp_arcsec": np.array(xp),
-        "yp_arcsec": np.array(yp),
-    }
+    return dict(zip(_EOP_COLUMNS, (np.array(mjd), np.array(dut1), np.array(xp), np.array(yp))))
+
+
+def _eop_cache_path() -> Path:
+    from contactplan.cachefile import path_for
+
+    return path_for("eop", "finals2000A.bin")
+
+
+def _eop_cache_load(key: dict) -> dict[str, np.ndarray] | None:
+    """The cached table when its header matches ``key`` and its checksum holds, else None."""
+    from contactplan.cachefile import load
+
+    cols = load(_eop_cache_path(), key)
+    if cols is None or cols.ndim != 2 or cols.shape[0] != len(_EOP_COLUMNS) or cols.shape[1] < 2:
+        return None
+    if not np.all(np.isfinite(cols)) or np.any(np.diff(cols[0]) <= 0):
+        return None
+    return {name: cols[i].copy() for i, name in enumerate(_EOP_COLUMNS)}
+
+
+def _eop_cache_store(key: dict, tab: dict[str, np.ndarray]) -> bool:
+    from contactplan.cachefile import store
+
+    return store(_eop_cache_path(), key, np.stack([np.asarray(tab[c], dtype=float) for c in _EOP_COLUMNS]))
+
+
+def eop_source_key() -> dict | None:
+    """What identifies the packaged Earth-orientation and leap-second files (for caches built from them)."""
+    try:
+        out = {"format": EOP_CACHE_FORMAT}
+        for name in ("finals2000A.all", "Leap_Second.dat"):
+            st = (_iers_dir() / name).stat()
+            out[name] = [str(_iers_dir() / name), st.st_size, st.st_mtime_ns]
+        return out
+    except OSError:
+        return None
 
 
 _warned_eop = False
+
+
+def _mjd_date(mjd: float) -> str:
+    """The calendar date (YYYY-MM-DD) of a modified Julian day."""
+    import datetime as dt
+
+    return (dt.date(1858, 11, 17) + dt.timedelta(days=int(mjd))).isoformat()
 
 
 def _warn_eop_once(last_mjd: float) -> None:
@@ -114,7 +178,8 @@ def _warn_eop_once(last_mjd: float) -> None:
     if not _warned_eop:
         _warned_eop = True
         warnings.warn(
-            f"Earth-orientation predictions end at MJD {last_mjd:.0f}; later times use the last "
+            f"Earth-orientation predictions end on {_mjd_date(last_mjd)} (MJD {last_mjd:.0f}); later times "
+            "use the last "
             "values (UT1 error grows by about 1 ms a day). Update the astropy-iers-data package.",
             EOPWarning,
             stacklevel=3,
@@ -165,9 +230,13 @@ def earth_orientation(mjd_utc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.n
 @functools.lru_cache(maxsize=1)
 def planetary_ephemeris():
     """The packaged JPL DE421 kernel, opened with skyfield (never downloaded)."""
+    import atexit
+
     from skyfield.api import load_file
 
-    return load_file(str(skyfield_data_dir() / "de421.bsp"))
+    kernel = load_file(str(skyfield_data_dir() / "de421.bsp"))
+    atexit.register(kernel.close)  # no "unclosed file de421.bsp" at exit
+    return kernel
 
 
 @functools.lru_cache(maxsize=1)

@@ -9,6 +9,31 @@ from __future__ import annotations
 
 from pathlib import Path
 
+#: ids and names echoed in messages are cut to this many characters
+ID_SHOWN_MAX = 40
+
+
+def escape_text(text) -> str:
+    """``text`` with control characters, terminal escapes, line breaks and bidirectional
+    overrides written as escapes (``\\n``, ``\\x1b``, ``\\u202e``): safe to print on one line."""
+    out = []
+    for ch in str(text):
+        if ch.isprintable():
+            out.append(ch)
+        else:
+            code = ord(ch)
+            out.append({"\n": "\\n", "\r": "\\r", "\t": "\\t"}.get(ch)
+                       or (f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}" if code < 0x10000
+                           else f"\\U{code:08x}"))
+    return "".join(out)
+
+
+def show_id(value, limit: int = ID_SHOWN_MAX) -> str:
+    """An id or name as it may appear in a message: escaped (:func:`escape_text`) and cut to
+    ``limit`` characters with an ellipsis."""
+    shown = escape_text(value)
+    return shown if len(shown) <= limit else shown[: max(limit - 1, 1)] + "\u2026"
+
 
 class InputError(Exception):
     """Bad input: names the file, the line (or TOML field path) and what is wrong.
@@ -18,15 +43,14 @@ class InputError(Exception):
     """
 
     def __init__(self, message: str, path: str | Path | None = None, where: int | str | None = None):
-        self.message = " ".join(str(message).split())  # always one line
+        self.message = escape_text(" ".join(str(message).split()))  # always one line, no terminal escapes
         self.path = None if path is None else str(path)
         self.where = where
         super().__init__(str(self))
 
     def __str__(self) -> str:
-        head = ":".join(
-            p for p in (self.path or "", "" if self.where is None else str(self.where)) if p
-        )
+        where = "" if self.where is None else show_id(self.where, 120)
+        head = ":".join(p for p in (show_id(self.path or "", 400), where) if p)
         return f"{head}: {self.message}" if head else self.message
 
     def at(self, path: str | Path | None = None, where: int | str | None = None) -> "InputError":

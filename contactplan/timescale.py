@@ -271,22 +271,36 @@ def _fields(tt, decimals: int):
 def format_utc(tt, decimals: int = 3, doy: bool = False):
     """UTC text with ``Z``: ``2027-01-12T00:00:00.000Z`` (or ``2027-012T...`` with ``doy``).
 
-    Scalar in, str out; array in, list of str out.
+    Scalar in, str out; array in, list of str out. The array path builds every
+    string at once from a matrix of ASCII digits (no Python loop per time).
     """
     if np.ndim(tt) == 0:
         return _format_one(float(tt), decimals, doy)
-    y, mo, d, hh, mm, ss, fr, mjd_day = _fields(np.atleast_1d(tt), decimals)
+    arr = np.atleast_1d(np.asarray(tt, dtype=float)).ravel()
+    if arr.size == 0:
+        return []
+    y, mo, d, hh, mm, ss, fr, mjd_day = _fields(arr, decimals)
+    dash, colon = ord("-"), ord(":")
     if doy:
         jan1 = _days_from_civil(y, 1, 1) + _MJD_UNIX
-        dn = mjd_day - jan1 + 1
-    out = []
-    for i in range(len(y)):
-        date = f"{y[i]:04d}-{dn[i]:03d}" if doy else f"{y[i]:04d}-{mo[i]:02d}-{d[i]:02d}"
-        t = f"{hh[i]:02d}:{mm[i]:02d}:{ss[i]:02d}"
-        if decimals:
-            t += f".{fr[i]:0{decimals}d}"
-        out.append(f"{date}T{t}Z")
-    return out
+        parts = [_digits(y, 4), dash, _digits(mjd_day - jan1 + 1, 3)]
+    else:
+        parts = [_digits(y, 4), dash, _digits(mo, 2), dash, _digits(d, 2)]
+    parts += [ord("T"), _digits(hh, 2), colon, _digits(mm, 2), colon, _digits(ss, 2)]
+    if decimals:
+        parts += [ord("."), _digits(fr, decimals)]
+    parts.append(ord("Z"))
+    n = arr.size
+    cols = [np.full((n, 1), p, dtype=np.uint8) if isinstance(p, int) else p for p in parts]
+    text = np.ascontiguousarray(np.concatenate(cols, axis=1))
+    return text.view(f"S{text.shape[1]}").ravel().astype(str).tolist()
+
+
+def _digits(values, width: int) -> np.ndarray:
+    """(N, width) ASCII digits of non-negative integers, zero padded (vectorised)."""
+    v = np.asarray(values, dtype=np.int64).reshape(-1, 1)
+    scale = 10 ** np.arange(width - 1, -1, -1, dtype=np.int64)
+    return ((v // scale) % 10 + 48).astype(np.uint8)
 
 
 @functools.lru_cache(maxsize=1)

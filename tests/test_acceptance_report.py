@@ -39,7 +39,7 @@ def test_cover_says_when_the_ephemeris_misses_part_of_the_window(minimal_path, t
     from pypdf import PdfReader
 
     from contactplan.ephemeris import ephemeris_for
-    from contactplan.io.exporting import write_ephemeris
+    from contactplan.commands.export import write_ephemeris
     from contactplan.ephemeris import open_oem
     from contactplan.timescale import parse_utc
 

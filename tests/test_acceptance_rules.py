@@ -101,7 +101,7 @@ def test_revalidation_says_nothing_about_bookings_outside_the_new_ephemeris(mini
     """A delivery covering 14-19 Jan: B001 (12-13 Jan) is listed as not checked, and no finding of the
     new plan names it (it used to get a false outside-pass: no pass is known there)."""
     from contactplan.ephemeris import open_oem
-    from contactplan.io.exporting import write_ephemeris
+    from contactplan.commands.export import write_ephemeris
     from contactplan.plan.revalidate import revalidate
     from contactplan.scenario.load import load_scenario
 

@@ -9,8 +9,10 @@ from __future__ import annotations
 
 import copy
 import json
+import time
 import os
 import shutil
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -64,6 +66,17 @@ def win(qtbot, tmp_path, monkeypatch):
         return w.answers.pop(0) if w.answers else B.Discard
 
     w.ask = ask
+    w.recovery_answers = []  # what the test answers to the recovery list: (action, indices); keep when empty
+    w.recovery_offers = []
+
+    def choose_recovery(snaps, requested=None):
+        w.recovery_offers.append(([s.name for s in snaps], requested))
+        if not w.recovery_answers:
+            return "keep", []
+        action, rows = w.recovery_answers.pop(0)
+        return action, [snaps[r] for r in rows]
+
+    w.choose_recovery = choose_recovery
     qtbot.addWidget(w)
     w.resize(1400, 900)
     w.show()
@@ -334,6 +347,7 @@ def test_save_reopen_compare(win, demo_copy, demo_plan, tmp_path):
     assert _bookings(again) == _bookings(sc)
     assert again.name == sc.name and [s.id for s in again.stations] == [s.id for s in sc.stations]
     # the save also left a snapshot in the autosave folder
+    win.autosaver.wait()
     assert (win.autosaver.folder / f"{win.autosaver.stem}.toml").exists()
     # reopening in the window shows the same bookings
     _open_with(win, out, demo_plan)
@@ -372,32 +386,129 @@ def test_closing_with_unsaved_edits_asks(win, demo_copy, demo_plan):
     assert win.close() is True
 
 
+def _crash(saver):
+    """What a crashed planner leaves: its snapshot, and its lock no longer held."""
+    saver.wait()
+    saver.release()
+
+
 def test_autosave_and_recovery_after_a_crash(win, demo_copy, demo_plan, tmp_path):
-    from contactplan.app.autosave import orphans
+    from contactplan.app.autosave import Autosaver, orphans
     from contactplan.app.main import offer_recovery
 
     sc = _open_with(win, demo_copy, demo_plan)
     win.doc.edit_booking("B003", purposes=["ranging"])
-    win.autosave()
+    win.autosave(wait=True)
     folder = win.autosaver.folder
     meta = folder / f"{win.autosaver.stem}.json"
     assert meta.exists()
-    # pretend the process that wrote it died: a pid that cannot be running
-    data = json.loads(meta.read_text())
-    data["pid"] = 2 ** 22 + 12345
-    meta.write_text(json.dumps(data))
+    assert orphans(folder) == []  # this run holds its lock: not an orphan, whatever its process id
+    # the planner that wrote it "crashes"; a new one starts (same process id, as in a container)
+    old = win.autosaver
+    _crash(old)
+    win.autosaver = Autosaver(folder)
+    assert win.autosaver.stem != old.stem
     snaps = orphans(folder)
-    assert len(snaps) == 1 and snaps[0].original == str(demo_copy)
+    assert len(snaps) == 1 and snaps[0].original == str(demo_copy.resolve())
     win.doc.undo_stack.setClean()
     win.set_scenario(load_scenario(demo_copy), compute=False)
-    win.answers = [B.Yes]
+    win.recovery_answers = [("recover", [0])]
     assert offer_recovery(win)
     rec = win.doc.scenario
     assert rec.booking("B003").purposes == ["ranging"]
-    assert rec.path == demo_copy
+    assert rec.path == demo_copy.resolve()
     assert win.doc.dirty  # recovered edits are not saved
+    win.autosaver.wait()
     assert orphans(folder) == []
     assert _bookings(rec) == _bookings(sc)
+
+
+def test_every_orphaned_snapshot_is_offered_and_none_deleted_unasked(win, demo_copy, demo_plan, tmp_path):
+    from contactplan.app.autosave import Autosaver, orphans
+    from contactplan.app.main import offer_recovery
+    from contactplan.scenario import dumps
+
+    sc = _open_with(win, demo_copy, demo_plan)
+    folder = tmp_path / "crashes"
+    for i, name in enumerate(("First crash", "Second crash")):
+        crashed = Autosaver(folder)
+        sc.name = name
+        crashed.write(dumps(sc), demo_copy, name)
+        _crash(crashed)
+        time.sleep(0.01)
+    win.autosaver = Autosaver(folder)
+    assert offer_recovery(win, requested=demo_copy) is False  # the user keeps them for later
+    assert win.recovery_offers == [(["Second crash", "First crash"], demo_copy)]
+    assert len(orphans(folder)) == 2  # nothing deleted
+    win.recovery_answers = [("discard", [0]), ("keep", [])]
+    assert offer_recovery(win) is False
+    assert [s.name for s in orphans(folder)] == ["First crash"]
+    assert win.recovery_offers[-1][0] == ["First crash"]  # asked again about what is left
+
+
+def test_opening_a_file_with_a_pending_recovery_asks_and_opens_the_choice(win, demo_copy, tmp_path,
+                                                                          monkeypatch):
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.main import start
+    from contactplan.scenario import dumps
+
+    other = tmp_path / "other.toml"
+    shutil.copy(demo_copy, other)
+    sc = load_scenario(other)
+    sc.name = "Crashed edits"
+    crashed = Autosaver(tmp_path / "pending")
+    crashed.write(dumps(sc), other, sc.name)
+    _crash(crashed)
+    win.autosaver = Autosaver(tmp_path / "pending")
+    monkeypatch.setattr(win, "compute", lambda *a, **k: None)
+    start(win, str(demo_copy))  # the user answers: open the file asked for
+    assert win.recovery_offers == [(["Crashed edits"], demo_copy)]
+    assert win.doc.scenario.path == demo_copy and win.doc.scenario.name != "Crashed edits"
+    win.recovery_answers = [("recover", [0])]
+    start(win, str(demo_copy))  # still pending: now recovered instead
+    assert win.doc.scenario.name == "Crashed edits" and win.doc.scenario.path == other
+
+
+def test_snapshot_paths_are_absolute_so_recovery_works_from_another_folder(win, demo_copy, tmp_path,
+                                                                           monkeypatch):
+    from contactplan.app.autosave import Autosaver, orphans
+
+    monkeypatch.chdir(demo_copy.parent)
+    saver = Autosaver(tmp_path / "snaps")
+    saver.write("x = 1\n", "week.toml", "week")  # the path as typed
+    _crash(saver)
+    monkeypatch.chdir(tmp_path.parent)
+    snap = orphans(tmp_path / "snaps")[0]
+    assert snap.original == str(demo_copy) and Path(snap.original).is_absolute()
+
+
+def test_a_snapshot_follows_the_last_edit_within_seconds(win, demo_copy, demo_plan, qtbot):
+    from contactplan.app.window import AUTOSAVE_MS
+
+    assert AUTOSAVE_MS <= 5000
+    _open_with(win, demo_copy, demo_plan)
+    snap = win.autosaver.folder / f"{win.autosaver.stem}.toml"
+    win.autosave_timer.setInterval(300)
+    win.doc.edit_booking("B003", purposes=["ranging"])
+    assert win.autosave_timer.isActive() and win.autosave_timer.isSingleShot()
+    qtbot.waitUntil(lambda: snap.exists() and "ranging" in snap.read_text(encoding="utf-8"), timeout=5000)
+    assert win.autosaver._thread is not None  # written off the event loop
+
+
+def test_planner_starts_without_a_user_data_folder(qtbot, tmp_path):
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+
+    blocker = tmp_path / "a-file"
+    blocker.write_text("not a folder")
+    saver = Autosaver(blocker / "autosave")
+    assert not saver.enabled and "cannot be used" in saver.error
+    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
+    w = MainWindow(settings=settings, autosaver=saver)
+    qtbot.addWidget(w)
+    assert "Autosave off" in w.autosave_off.text()
+    w.autosave(force=True, wait=True)  # nothing to write, nothing raised
+    saver.clear()
 
 
 def test_new_week_follows_the_open_one(win, demo_copy, demo_plan, qtbot):
@@ -535,12 +646,43 @@ def test_opening_an_oem_offers_a_new_scenario_around_it(win, demo_copy, demo_pla
     _wait_job(win, qtbot)
     win.doc.undo_stack.setClean()
     win.answers = [B.Yes]
-    assert win.open_path(oem)
+    assert win.open_path(oem)  # read in the worker: the window only asks, then builds the scenario
+    _wait_job(win, qtbot)
+    assert win.asked[-1][0] == "New scenario from an ephemeris"
     sc = win.doc.scenario
     assert sc.spacecraft.ephemeris.kind == "oem" and sc.path is None
     assert sc.bookings == [] and len(sc.stations) == len(load_scenario(demo_copy).stations)
     _wait_job(win, qtbot)
     assert len(win.doc.result.passes) > 0
+
+
+def test_opening_an_oem_parses_it_once_in_the_worker_and_a_fifo_never_hangs(win, demo_copy, demo_plan, qtbot,
+                                                                            tmp_path, monkeypatch):
+    import threading
+
+    from contactplan.io import oem as oem_io
+
+    _open_with(win, demo_copy, demo_plan)
+    oem = tmp_path / "once.oem"
+    win.export_to(oem, "ephemeris")
+    _wait_job(win, qtbot)
+    win.doc.undo_stack.setClean()
+    reads = []
+    real = oem_io.read_oem
+    monkeypatch.setattr(oem_io, "read_oem", lambda p: (reads.append(threading.current_thread().name), real(p))[1])
+    win.answers = [B.Yes]
+    win.open_path(oem)
+    _wait_job(win, qtbot)
+    _wait_job(win, qtbot)  # the passes on it
+    assert len(win.doc.result.passes) > 0
+    assert len(reads) == 1 and reads[0] != threading.main_thread().name  # parsed once, not on the GUI thread
+    if hasattr(os, "mkfifo"):
+        fifo = tmp_path / "pipe.oem"
+        os.mkfifo(fifo)
+        win.last_error = None
+        assert win.open_path(fifo) is not None
+        _wait_job(win, qtbot, timeout=10_000)
+        assert "FIFO" in win.last_error and "pipe.oem" in win.last_error
 
 
 def test_sky_track_agrees_with_the_pass(win, demo_copy, demo_plan):
@@ -693,22 +835,21 @@ def test_run_app_on_a_broken_file_shows_the_error_and_keeps_running(tmp_path):
 
 
 def test_recovery_skips_a_snapshot_equal_to_the_file(win, demo_copy, demo_plan):
-    from contactplan.app.autosave import orphans
+    from contactplan.app.autosave import Autosaver, orphans
     from contactplan.app.main import offer_recovery
     from contactplan.scenario import dumps
 
     sc = _open_with(win, demo_copy, demo_plan)
     win.save_to(demo_copy)  # the file now holds exactly what a snapshot would
-    meta = win.autosaver.folder / f"{win.autosaver.stem}.json"
-    data = json.loads(meta.read_text())
-    data["pid"] = 2 ** 22 + 54321
-    meta.write_text(json.dumps(data))
-    assert (win.autosaver.folder / f"{win.autosaver.stem}.toml").read_text() == dumps(sc)
-    assert len(orphans(win.autosaver.folder)) == 1
-    win.asked.clear()
+    win.autosaver.wait()
+    folder = win.autosaver.folder
+    assert (folder / f"{win.autosaver.stem}.toml").read_text() == dumps(sc)
+    _crash(win.autosaver)
+    win.autosaver = Autosaver(folder)
+    assert len(orphans(folder)) == 1
     assert offer_recovery(win) is False
-    assert win.asked == []  # nothing to ask about
-    assert orphans(win.autosaver.folder) == []
+    assert win.recovery_offers == []  # nothing to ask about
+    assert orphans(folder) == []
 
 
 def test_double_click_on_a_booking_edits_its_purposes(win, demo_copy, demo_plan, qtbot, monkeypatch):
@@ -915,8 +1056,9 @@ def test_a_bad_oem_opens_a_one_line_error_dialog(win, demo_copy, demo_plan, qtbo
         for how in ("open", "import"):
             win.last_error = None
             win.error_box = None
-            ok = win.open_path(bad) if how == "open" else win.import_ephemeris_path(bad)
-            assert ok is False, (bad.name, how)
+            job = win.open_path(bad) if how == "open" else win.import_ephemeris_path(bad)
+            assert job is not None, (bad.name, how)  # read in the worker, never on the event loop
+            _wait_job(win, qtbot)
             assert win.last_error and "\n" not in win.last_error, (bad.name, how, win.last_error)
             assert bad.name in win.last_error, (bad.name, win.last_error)
             assert win.error_box is not None and win.error_box.text() == win.last_error

@@ -32,3 +32,25 @@ def test_cli_start_path_is_light():
     loaded = _modules_loaded_after("import contactplan.cli\ncontactplan.cli._parser()")
     heavy = sorted({m.split(".")[0] for m in loaded} & set(HEAVY))
     assert heavy == [], f"heavy packages imported on the CLI start path: {heavy}"
+
+
+def test_io_layer_only_reads_and_writes():
+    """io/ never runs the pipeline or the commands, and io/exporting.py and io/xlsx.py do not import each other
+    both ways (the orchestration of an export lives in commands/export.py)."""
+    import ast
+    from pathlib import Path
+
+    io_dir = Path(contactplan.__file__).parent / "io"
+    imports = {}
+    for f in io_dir.glob("*.py"):
+        names = set()
+        for node in ast.walk(ast.parse(f.read_text("utf-8"))):
+            if isinstance(node, ast.ImportFrom) and node.module:
+                names.add(node.module)
+            elif isinstance(node, ast.Import):
+                names.update(a.name for a in node.names)
+        imports[f.stem] = names
+        upward = sorted(n for n in names if n.startswith(("contactplan.plan", "contactplan.commands",
+                                                            "contactplan.app")))
+        assert upward == [], f"io/{f.name} imports {upward}"
+    assert not ("contactplan.io.xlsx" in imports["exporting"] and "contactplan.io.exporting" in imports["xlsx"])

@@ -57,10 +57,26 @@ SCENARIO_EXPECT = {
     "stations_not_a_list.toml": ("stations", "array of tables"),
     "tracking_window_zero.toml": ("requirements.tracking_spread_window_h", "0 is out of range (must be > 0)"),
     "wrong_type.toml": ("stations[NRV].latitude_deg", "expected a number"),
+    "window_end_2927.toml": ("scenario.end", "2927-01-19T00:00:00Z is after 2050-01-01, past what the packaged "
+                             "DE421 planetary ephemeris (de421.bsp) and time tables cover"),
+    "window_end_9999.toml": ("scenario.end", "9999-01-19T00:00:00Z is after 2050-01-01"),
+    "window_too_long.toml": ("scenario.end", "more than the 3653 days (ten years) a plan may span"),
+    "series_id_too_long.toml": ("activity_series[STATIONKEEPING-MANOEUVRE-WEEK03].id",
+                                "its activities get ids such as 'STATIONKEEPING-MANOEUVRE-WEEK03-03' "
+                                "(more than 32 characters); use at most 29 characters"),
+    "id_with_newline.toml": ("stations[KAL\\n\\x1b[31mEVIL].id", "'KAL\\n\\x1b[31mEVIL' is not a valid id"),
 }
 
 OEM_EXPECT = {
     "binary_garbage.oem": (1, "binary content"),
+    "absurd_position_1e200.oem": (18, "state is not physically meaningful: position 1e+200 km from earth is "
+                                      "beyond 1e+13 km"),
+    "outlier_position_1e9.oem": (18, "the state does not follow from the one at line 17: the position moves "
+                                     "9.985e+08 km in 3600 s where the velocities say 2000.16 km"),
+    "all_zero_states.oem": (16, "position 0 km from the Earth's centre is below its surface "
+                                "(states must be at least 6356 km from it)"),
+    "state_inside_the_earth.oem": (16, "position 100 km from the Earth's centre is below its surface"),
+    "faster_than_light.oem": (21, "speed 400000 km/s is not below the speed of light"),
     "covariance_bad_row.oem": (29, "covariance row 2 must hold 2 numbers"),
     "covariance_never_closes.oem": (26, "COVARIANCE_STOP missing"),
     "date_does_not_exist.oem": (19, "date does not exist"),

@@ -22,7 +22,7 @@ def _events(path):
 
 
 def test_calendar_parses_with_one_event_per_booking(data_dir, tmp_path):
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     plan = make_plan(data_dir)
     out = tmp_path / "week.ics"

@@ -50,7 +50,7 @@ def _read_back(path):
 
 
 def test_oem_read_back_to_the_metre(data_dir, tmp_path):
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     plan = make_plan(data_dir)
     plan.ephemeris = Kepler()
@@ -74,7 +74,7 @@ def test_oem_read_back_to_the_metre(data_dir, tmp_path):
 
 def test_oem_outside_the_source_span(data_dir, tmp_path):
     """A scenario whose source is an OEM file: exporting past its end is refused, naming the span."""
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
     from contactplan.io.oem import write_oem
     from contactplan.scenario.model import EphemerisSpec
 
@@ -102,7 +102,7 @@ def test_oem_outside_the_source_span(data_dir, tmp_path):
 @pytest.mark.parametrize("step, words", [(0.0, "positive"), (-5.0, "positive"), (float("nan"), "positive"),
                                          (1e-3, "larger step")])
 def test_oem_bad_step(data_dir, tmp_path, step, words):
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     plan = make_plan(data_dir)
     plan.ephemeris = Kepler()

@@ -127,7 +127,7 @@ def test_pass_table_sorted_and_starts_with_contract_columns(plan):
 
 
 def test_export_messages(plan, tmp_path):
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     assert export(plan.scenario, tmp_path / "p.csv", plan=plan) == f"wrote 14 passes to {tmp_path / 'p.csv'}"
     assert export(plan.scenario, tmp_path / "b.ics", plan=plan, now_tt=NOW_TT) == f"wrote 3 bookings to {tmp_path / 'b.ics'}"

@@ -40,7 +40,9 @@ def test_booking_list_round_trips(minimal_path, name, bid, minutes):
     rows = list(csv.reader(io.StringIO(bookings_csv(sc), newline="")))
     assert rows[0] == list(BOOKING_COLUMNS) and len(rows) == 3
     rec = {r[0]: dict(zip(rows[0], r)) for r in rows[1:]}[want]
-    assert rec["station_name"] == name and rec["purposes"] == "downlink;ranging"
+    # text a spreadsheet would run as a formula carries a leading quote (OWASP CSV injection guidance)
+    shown = "'" + name if name.startswith(("=", "+", "-", "@", "\t", "\r")) else name
+    assert rec["station_name"] == shown and rec["purposes"] == "downlink;ranging"
     assert parse_utc(rec["end_utc"]) - parse_utc(rec["start_utc"]) == minutes * 60.0
     doc = json.loads(bookings_json(sc, now_tt=0.0))  # stdlib JSON reader
     assert doc["scenario"] == name and {b["id"] for b in doc["bookings"]} == {"B001", want}

@@ -28,7 +28,8 @@ def _read_csv(path):
 
 
 def test_pass_csv_round_trip(plan, tmp_path):
-    from contactplan.io.exporting import export, pass_table
+    from contactplan.commands.export import export
+    from contactplan.io.exporting import pass_table
 
     out = tmp_path / "passes.csv"
     export(plan.scenario, out, plan=plan)
@@ -56,7 +57,7 @@ def test_pass_csv_round_trip(plan, tmp_path):
 
 def test_booking_csv_round_trip_with_quotes(plan, tmp_path):
     from contactplan.io.bookings import BOOKING_COLUMNS
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     out = tmp_path / "bookings.csv"
     export(plan.scenario, out, "bookings", plan=plan)
@@ -79,7 +80,8 @@ def test_booking_csv_round_trip_with_quotes(plan, tmp_path):
 
 
 def test_json_exports(plan, tmp_path):
-    from contactplan.io.exporting import export, pass_table
+    from contactplan.commands.export import export
+    from contactplan.io.exporting import pass_table
 
     export(plan.scenario, tmp_path / "p.json", plan=plan, now_tt=NOW_TT)
     doc = json.loads((tmp_path / "p.json").read_text(encoding="utf-8"))  # stdlib json reader
@@ -131,7 +133,8 @@ def test_sheet_names_are_legal_and_unique():
 def test_pass_workbook_read_back(plan, tmp_path):
     import openpyxl  # independent reader of the workbook we wrote
 
-    from contactplan.io.exporting import export, pass_table
+    from contactplan.commands.export import export
+    from contactplan.io.exporting import pass_table
 
     out = tmp_path / "passes.xlsx"
     msg = export(plan.scenario, out, plan=plan, now_tt=NOW_TT)
@@ -170,7 +173,7 @@ def test_pass_workbook_read_back(plan, tmp_path):
 def test_booking_workbook_read_back(plan, tmp_path):
     import openpyxl  # independent reader
 
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     out = tmp_path / "bookings.xlsx"
     assert export(plan.scenario, out, "bookings", plan=plan) == f"wrote 3 bookings to {out}"

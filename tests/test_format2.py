@@ -60,6 +60,9 @@ NEW_ON_PURPOSE = {
     ("week_v1.toml", "service-unavailable", ("B005", "TBC", "ranging")),
     ("week_v1.toml", "service-unavailable", ("B005", "TBC", "doppler")),
     ("week_v1.toml", "burn-unmonitored", ("SK-01",)),
+    # minimal.toml carries two keys no version knows (custom_top, scenario.owner), kept for the save
+    # round trip; since the loader warns of unknown keys they are findings too (one set, same subjects)
+    ("minimal.toml", "unknown-key", ()),
 }
 
 

@@ -8,6 +8,8 @@ through astropy/ERFA time scales.
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pytest
 
@@ -220,7 +222,7 @@ def test_write_read_round_trip_to_the_last_digit(tmp_path, scale):
 def test_write_round_trip_across_a_leap_second(tmp_path):
     t0 = parse_utc("2016-12-31T23:59:58Z")
     t = t0 + np.arange(8) * 0.5
-    p = np.ones((8, 3)) * np.arange(8)[:, None]
+    p = np.ones((8, 3)) * np.arange(8)[:, None] + [0.0, 1.5e6, 0.0]  # far from the geocentre, as a probe is
     path = write_oem(tmp_path / "leap.oem", t, p, p * 0.0 + 1.0, "INVENTED PROBE", "2026-901A", creation_tt=t0)
     assert "2016-12-31T23:59:60.500" in path.read_text()
     np.testing.assert_array_equal(read_oem(path).segments[0].t_tt, t)
@@ -295,7 +297,7 @@ def _two_segment_text(first, second):
         out += ["META_START", "OBJECT_NAME = INVENTED PROBE", "OBJECT_ID = 2026-901A", "CENTER_NAME = EARTH",
                 "REF_FRAME = ICRF", "TIME_SYSTEM = UTC", f"START_TIME = 2027-01-12T{hours[0]:02d}:00:00",
                 f"STOP_TIME = 2027-01-12T{hours[-1]:02d}:00:00", "INTERPOLATION_DEGREE = 3", "META_STOP"]
-        out += [f"2027-01-12T{h:02d}:00:00 {offset_km + h} 0 0 {1 / 3600} 0 0" for h in hours]
+        out += [f"2027-01-12T{h:02d}:00:00 {offset_km + h} 1500000 0 {1 / 3600} 0 0" for h in hours]
     return ("\n".join(out) + "\n").encode()
 
 
@@ -432,7 +434,8 @@ def test_out_of_span_error_names_the_file(data_dir, tmp_path, oem_scenario):
     oem_scenario("part.oem")
     proc = subprocess.run([sys.executable, "-m", "contactplan", "export", str(tmp_path / "week.toml"),
                            "--out", str(tmp_path / "x.oem"), "--start", "2027-01-12T00:00:00Z",
-                           "--end", "2027-01-12T02:00:00Z"], capture_output=True, text=True)
+                           "--end", "2027-01-12T02:00:00Z"], capture_output=True, text=True,
+                          env=dict(os.environ, PYTHONWARNINGS="ignore::UserWarning"))  # the scenario's unknown keys
     assert proc.returncode == 2
     assert proc.stderr.startswith(f"contactplan: error: {path}: asked for 2027-01-12T00:00:00Z, outside the "
                                   "covered span "), proc.stderr

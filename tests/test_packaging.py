@@ -62,3 +62,23 @@ def test_pyinstaller_spec_bundles_the_offline_data():
     for needed in ("skyfield_data", "astropy_iers_data", "resources"):
         assert needed in spec
     compile(spec, "contactplan.spec", "exec")
+
+
+def test_make_run_names_the_debian_packages_of_missing_qt_libraries():
+    """The Qt platform check reads ldd's output (format of glibc's ldd) and names every package."""
+    import importlib.util
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    spec = importlib.util.spec_from_file_location("qt_libs", root / "packaging" / "qt_libs.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    ldd = ("\tlibxcb-cursor.so.0 => /lib/x86_64-linux-gnu/libxcb-cursor.so.0 (0x00007f7e0bc09000)\n"
+           "\tlibxcb-icccm.so.4 => not found\n\tlibxcb-keysyms.so.1 => not found\n"
+           "\tlibxcb-icccm.so.4 => not found\n\tlibweird.so.9 => not found\n")
+    missing = mod.missing_in(ldd)
+    assert missing == ["libxcb-icccm.so.4", "libxcb-keysyms.so.1", "libweird.so.9"]
+    assert mod.packages_for(missing) == (["libxcb-icccm4", "libxcb-keysyms1"], ["libweird.so.9"])
+    readme = (root / "README.md").read_text("utf-8")
+    assert all(p in readme for p in ("libxcb-icccm4", "libxcb-keysyms1", "libxcb-cursor0"))
+    assert "packaging/qt_libs.py" in (root / "Makefile").read_text("utf-8")

@@ -24,7 +24,7 @@ def _text(path):
 
 @pytest.mark.parametrize("paper, size", [("a4", A4_PT), ("letter", LETTER_PT)])
 def test_report_pages_text_and_size(data_dir, tmp_path, paper, size):
-    from contactplan.io.exporting import export
+    from contactplan.commands.export import export
 
     plan = make_plan(data_dir)
     out = tmp_path / f"week-{paper}.pdf"

@@ -6,6 +6,7 @@ Invented mission and stations only.
 from __future__ import annotations
 
 import os
+import subprocess
 import stat
 import sys
 from dataclasses import fields, is_dataclass
@@ -254,15 +255,28 @@ def test_permissions_and_symlinks(tmp_path):
     assert (tmp_path / "real.toml~").read_text() == "a = 2\n"
 
 
-def test_stale_temp_files_are_removed(tmp_path):
+def test_stale_temp_files_are_removed_whatever_their_age(tmp_path):
+    """A killed save's leftovers go on the next save even when fresh; a running process's stay."""
     p = tmp_path / "x.toml"
-    stray = tmp_path / ".x.toml.abc123.tmp"
+    stray = tmp_path / ".x.toml.abc123.tmp"  # an older version's name, just written
     stray.write_text("half a file")
-    os.utime(stray, (1, 1))
-    fresh = tmp_path / ".x.toml.def456.tmp"
-    fresh.write_text("another save in progress")
-    atomic_write(p, "a = 1\n")
-    assert not stray.exists() and fresh.exists()
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    killed = tmp_path / f".x.toml.{int(dead.stdout)}.q1w2e3r4.tmp"
+    killed.write_text("half a file")
+    bak = tmp_path / ".x.toml~.tmp"
+    bak.write_text("half a backup")
+    other = tmp_path / ".x.toml.other.5.abcdefgh.tmp"  # another file's (x.toml.other) temporary name
+    other.write_text("not ours")
+    live = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(30)"])
+    try:
+        running = tmp_path / f".x.toml.{live.pid}.zxcvbnm1.tmp"
+        running.write_text("another save in progress")
+        atomic_write(p, "a = 1\n")
+        assert not stray.exists() and not killed.exists() and not bak.exists()
+        assert running.exists() and other.exists()
+    finally:
+        live.kill()
+        live.wait()
 
 
 def test_write_failures_are_one_line_errors(tmp_path):

@@ -46,15 +46,18 @@ def application():
     return app
 
 
-def offer_recovery(window) -> bool:
-    """After a crash: offer the newest snapshot left behind; True when one was recovered."""
-    from PySide6.QtWidgets import QMessageBox
+def offer_recovery(window, requested=None) -> bool:
+    """After a crash: offer every snapshot left behind (a list); True when one was recovered.
 
+    ``requested`` is the file asked for on the command line: the user may open it
+    instead. A snapshot is deleted only when the user says so (or it is recovered, or
+    it equals the file on disk, so holds nothing that was lost)."""
     from contactplan.app.autosave import orphans
     from contactplan.errors import InputError
     from contactplan.scenario import parse_text
-    from contactplan.timescale import format_utc, from_datetime
 
+    if not window.autosaver.enabled:
+        return False
     snaps = []
     for snap in orphans(window.autosaver.folder):
         try:  # a snapshot equal to the file on disk holds nothing that was lost
@@ -65,32 +68,49 @@ def offer_recovery(window) -> bool:
             snap.discard()
         else:
             snaps.append(snap)
-    if not snaps:
-        return False
-    snap = snaps[0]
-    import datetime as dt
-
-    when = format_utc(from_datetime(dt.datetime.fromtimestamp(snap.saved_at, dt.timezone.utc)), 0)
-    B = QMessageBox.StandardButton
-    ans = window.ask("Recover unsaved edits?",
-                     f"contactplan did not close cleanly last time.\nRecover the unsaved edits of "
-                     f"{snap.name!r} ({snap.original or 'never saved'}), autosaved at {when}?",
-                     B.Yes | B.No, B.Yes)
-    recovered = False
-    if ans == B.Yes:
+    while snaps:
+        action, chosen = window.choose_recovery(snaps, requested)
+        if action == "discard":
+            for s in chosen:
+                s.discard()
+            snaps = [s for s in snaps if s not in chosen]
+            continue
+        if action != "recover" or not chosen:
+            return False  # kept for the next start
+        snap = chosen[0]
         try:
             original = Path(snap.original) if snap.original else None
             sc = parse_text(snap.text(), original)
             sc.path = original
-            window.set_scenario(sc)
-            window.doc.undo_stack.resetClean()  # recovered edits are not saved yet
-            window._update_title()
-            recovered = True
         except (InputError, OSError) as exc:
             window.show_error(f"the snapshot cannot be read: {exc}", "Recovery failed")
-    for s in snaps:
-        s.discard()
-    return recovered
+            return False
+        window.set_scenario(sc)
+        window.doc.undo_stack.resetClean()  # recovered edits are not saved yet
+        window._update_title()
+        window.autosave(force=True)  # now this run's own snapshot
+        snap.discard()
+        return True
+    return False
+
+
+def recovery_label(snap) -> str:
+    """One line naming a snapshot: scenario name, file, when it was written."""
+    import datetime as dt
+
+    from contactplan.errors import show_id
+    from contactplan.timescale import format_utc, from_datetime
+
+    when = format_utc(from_datetime(dt.datetime.fromtimestamp(snap.saved_at, dt.timezone.utc)), 0)
+    return f"{show_id(snap.name)!s} ({snap.original or 'never saved'}), autosaved at {when}"
+
+
+def start(window, path=None) -> None:
+    """Offer what a crash left (the user may open ``path`` instead), else open ``path`` or the demo."""
+    from contactplan.paths import demo_scenario
+
+    if not offer_recovery(window, Path(path) if path else None):
+        window.open_path(Path(path) if path else demo_scenario())
 
 
 def install_excepthook(window) -> None:
@@ -102,7 +122,7 @@ def install_excepthook(window) -> None:
             return previous(kind, value, tb)
         log.error("unexpected error", exc_info=(kind, value, tb))
         try:
-            window.autosave(force=True)
+            window.autosave(force=True, wait=True)
             window.show_error(f"unexpected error: {kind.__name__}: {value}. Your edits are kept in the "
                               "autosave; details are in the log.", "contactplan")
         except Exception:  # never raise from the hook itself
@@ -120,7 +140,6 @@ def run_app(path: str | None = None) -> int:
     app = application()
     from contactplan.app import icons, theme
     from contactplan.app.window import MainWindow
-    from contactplan.paths import demo_scenario
 
     theme.current(refresh=True)
     from PySide6.QtGui import QIcon
@@ -132,10 +151,7 @@ def run_app(path: str | None = None) -> int:
     win = MainWindow()
     install_excepthook(win)
     win.show()
-    recovered = offer_recovery(win)
-    if not recovered:
-        target = Path(path) if path else demo_scenario()
-        win.open_path(target)
+    start(win, path)
     log.info("started on %s", path or "the demo")
     return app.exec()
 

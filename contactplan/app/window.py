@@ -36,7 +36,7 @@ from contactplan.timescale import DAY_S, format_utc, parse_utc
 log = logging.getLogger("contactplan.app")
 
 APP_NAME = "contactplan"
-AUTOSAVE_MS = 3 * 60 * 1000  # every three minutes while there are unsaved edits
+AUTOSAVE_MS = 2000  # a snapshot this long after the last edit (debounced; written in a background thread)
 MAX_RECENT = 8
 
 #: export menu: (what, format, label, extension filter)
@@ -226,9 +226,17 @@ class MainWindow(QMainWindow):
             QGuiApplication.styleHints().colorSchemeChanged.connect(self.refresh_theme)
         except AttributeError:  # pragma: no cover
             pass
-        self.autosave_timer = QTimer(self)
+        self.autosave_timer = QTimer(self)  # restarted by every edit: fires once the edits pause
+        self.autosave_timer.setSingleShot(True)
+        self.autosave_timer.setInterval(int(self.settings.value("autosave_ms", AUTOSAVE_MS)))
         self.autosave_timer.timeout.connect(self.autosave)
-        self.autosave_timer.start(int(self.settings.value("autosave_ms", AUTOSAVE_MS)))
+        self.doc.undo_stack.indexChanged.connect(self.autosave_timer.start)
+        if self.autosaver.error:  # the planner starts anyway; the status bar says so
+            log.warning("%s", self.autosaver.error)
+            self.autosave_off = QLabel(f"Autosave off: {self.autosaver.error.removeprefix('autosave is off: ')}")
+            self.autosave_off.setObjectName("autosave_off")
+            self.autosave_off.setToolTip(self.autosaver.error)
+            self.statusBar().insertPermanentWidget(0, self.autosave_off)
         self.resize(1400, 880)
         geo = self.settings.value("window/geometry")
         if geo is not None:
@@ -506,6 +514,49 @@ class MainWindow(QMainWindow):
 
     def ask(self, title: str, text: str, buttons, default):
         return QMessageBox.question(self, title, text, buttons, default)
+
+    def choose_recovery(self, snaps, requested=None):
+        """Ask what to do with the snapshots left by planners that did not close cleanly.
+
+        Returns ``("recover", [snap])``, ``("discard", [snaps...])`` or ``("keep", [])`` (open
+        ``requested`` or the demo, and offer the snapshots again at the next start)."""
+        from PySide6.QtWidgets import QDialog, QDialogButtonBox, QListWidget, QVBoxLayout
+
+        from contactplan.app.main import recovery_label
+
+        dlg = QDialog(self)
+        dlg.setWindowTitle("Recover unsaved edits?")
+        lay = QVBoxLayout(dlg)
+        n = len(snaps)
+        lay.addWidget(QLabel(f"contactplan did not close cleanly: {n} autosaved plan{'s' if n != 1 else ''} "
+                             "with unsaved edits. Choose one to recover, discard the ones you do not need, "
+                             "or keep them for later."))
+        lst = QListWidget()
+        lst.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
+        for snap in snaps:
+            lst.addItem(recovery_label(snap))
+        lst.setCurrentRow(0)
+        lay.addWidget(lst)
+        box = QDialogButtonBox()
+        recover = box.addButton("Recover selected", QDialogButtonBox.ButtonRole.AcceptRole)
+        discard = box.addButton("Discard selected", QDialogButtonBox.ButtonRole.DestructiveRole)
+        later = box.addButton(f"Open {Path(requested).name} instead" if requested else "Keep for later",
+                              QDialogButtonBox.ButtonRole.RejectRole)
+        lay.addWidget(box)
+        clicked = []
+        box.clicked.connect(lambda b: (clicked.append(b), dlg.accept()))
+        dlg.exec()
+        rows = sorted(i.row() for i in lst.selectedIndexes())
+        chosen = [snaps[r] for r in rows]
+        b = clicked[0] if clicked else later
+        if b is recover and chosen:
+            return "recover", chosen[:1]
+        if b is discard and chosen:
+            ans = self.ask("Discard autosaved edits?", f"Discard {len(chosen)} autosaved plan(s)? "
+                           "Their unsaved edits are lost.", QMessageBox.StandardButton.Yes
+                           | QMessageBox.StandardButton.No, QMessageBox.StandardButton.No)
+            return ("discard", chosen) if ans == QMessageBox.StandardButton.Yes else ("keep", [])
+        return "keep", []
 
     def info(self, title: str, text: str) -> None:
         box = QMessageBox(QMessageBox.Icon.Information, title, text, QMessageBox.StandardButton.Ok, self)
@@ -805,15 +856,23 @@ class MainWindow(QMainWindow):
         self.autosave(force=True)
         return True
 
-    def autosave(self, force: bool = False) -> None:
-        """Snapshot the scenario to the user data folder (when edited, or ``force``)."""
+    def autosave(self, force: bool = False, wait: bool = False) -> None:
+        """Snapshot the scenario to the user data folder (when edited, or ``force``).
+
+        The text is made here; the file is written in a background thread (``wait``: here and now)."""
         sc = self.doc.scenario
-        if sc is None or not (force or self.doc.dirty):
+        if sc is None or not (force or self.doc.dirty) or not self.autosaver.enabled:
             return
         try:
             from contactplan.scenario import dumps
 
-            self.autosaver.write(dumps(sc), sc.path, sc.name)
+            text = dumps(sc)
+            if wait:
+                self.autosaver.wait()
+                self.autosaver.write(text, sc.path, sc.name)
+            else:
+                self.autosaver.write_async(text, sc.path, sc.name,
+                                           on_error=lambda exc: log.error("autosave failed: %s", exc))
         except Exception:  # an autosave failing must never disturb the user
             log.exception("autosave failed")
 
@@ -848,18 +907,18 @@ class MainWindow(QMainWindow):
         new.path = None
         self.set_scenario(new)
 
-    def new_around_oem(self, oem_path: Path) -> bool:
-        """Offer a new scenario that flies the given OEM, with the stations of the open scenario or the demo."""
+    def new_around_oem(self, oem_path: Path) -> Job | None:
+        """Read the OEM in the worker (parsed once: the plan reuses it), then offer a new scenario that
+        flies it, with the stations of the open scenario or the demo. A bad file: a one-line dialog."""
         from contactplan.ephemeris import open_oem
 
-        try:
-            eph = open_oem(oem_path)
-        except InputError as exc:
-            self.show_error(str(exc), "Cannot read the ephemeris")
-            return False
-        except Exception as exc:
-            self.show_error(f"{oem_path}: {exc}", "Cannot read the ephemeris")
-            return False
+        oem_path = Path(oem_path)
+        self._stop_passes()
+        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(oem_path),
+                            lambda eph: self._offer_around_oem(oem_path, eph),
+                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
+
+    def _offer_around_oem(self, oem_path: Path, eph) -> bool:
         base = self.doc.scenario
         source = "the open scenario"
         if base is None:
@@ -906,13 +965,24 @@ class MainWindow(QMainWindow):
         if path:
             self.import_ephemeris_path(path)
 
-    def import_ephemeris_path(self, path) -> bool:
+    def import_ephemeris_path(self, path) -> Job | None:
+        """Read the OEM in the worker, then fly it (one undo step); a bad file: a one-line dialog."""
         from contactplan.ephemeris import open_oem
+
+        self._stop_passes()
+        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(path),
+                            lambda eph: self._fly_ephemeris(path, eph),
+                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
+
+    def _stop_passes(self) -> None:
+        """A pass computation under way gives way to reading a new ephemeris (it is redone after)."""
+        if self.job is not None and self.job.running and self.job.title == "Passes":
+            self.job.cancel()
+            self.job.wait()
+
+    def _fly_ephemeris(self, path, eph) -> bool:
         from contactplan.scenario.model import EphemerisSpec
 
-        eph = self._read_or_say(open_oem, path, "Cannot read the ephemeris")
-        if eph is None:
-            return False
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
             self.statusBar().showMessage(
@@ -1079,7 +1149,7 @@ class MainWindow(QMainWindow):
 
     def export_to(self, path, what: str | None = None) -> Job | None:
         """Write one export in the background; the status bar says what was written."""
-        from contactplan.io.exporting import export
+        from contactplan.commands.export import export
 
         sc = copy.copy(self.doc.scenario)
         sc.bookings = [copy.copy(b) for b in self.doc.scenario.bookings]
@@ -1152,6 +1222,7 @@ class MainWindow(QMainWindow):
         self.cancel_job(wait=True)
         self.settings.setValue("window/geometry", self.saveGeometry())
         self.settings.setValue("window/state", self.saveState())
+        self.autosave_timer.stop()
         self.autosaver.clear()
         ev.accept()
 
@@ -1176,8 +1247,20 @@ def revalidation_lines(rv, name: str, limit: int = 14) -> list:
 
 
 def _looks_oem(path: Path) -> bool:
+    """True when the first bytes of a regular file name a CCSDS OEM (never blocks on a FIFO)."""
+    import os
+    import stat
+
     try:
-        head = path.read_text(encoding="utf-8", errors="replace")[:400]
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except OSError:
         return False
+    try:
+        if not stat.S_ISREG(os.fstat(fd).st_mode):
+            return False
+        head = os.read(fd, 400).decode("utf-8", errors="replace")
+    except OSError:
+        return False
+    finally:
+        os.close(fd)
     return "CCSDS_OEM_VERS" in head

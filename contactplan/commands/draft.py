@@ -48,8 +48,10 @@ def run(args) -> int:
     from contactplan.scenario import load_scenario, save_scenario
     from contactplan.timescale import parse_utc
 
-    if not (args.time_limit > 0):
-        raise InputError(f"--time-limit {args.time_limit:g}: give a positive number of seconds")
+    import math
+
+    if not (args.time_limit > 0 and math.isfinite(args.time_limit)):
+        raise InputError(f"--time-limit {args.time_limit:g}: give a positive, finite number of seconds")
     if not (5.0 <= args.grid <= 15.0):
         raise InputError(f"--grid {args.grid:g}: give 5 to 15 minutes")
     if not (50.0 <= args.recorder_limit <= 100.0):

@@ -41,12 +41,15 @@ def _time(text, opt):
         raise exc.at(None, f"--{opt}") from None
 
 
-def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris=False):
+def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris=False, executor=None):
     """Passes of the scenario over the window, with link columns when the scenario has a link.
 
-    With ``with_ephemeris`` returns (passes, ephemeris)."""
+    Large windows run on every core (:mod:`contactplan.plan.parallel`; ``executor``: any
+    ``concurrent.futures`` executor instead of a process pool). With ``with_ephemeris``
+    returns (passes, ephemeris)."""
     from contactplan.ephemeris import ephemeris_for
-    from contactplan.geometry.passes import coverage_spans, find_passes
+    from contactplan.geometry.passes import coverage_spans
+    from contactplan.plan import parallel
     from contactplan.timescale import format_utc
 
     eph = ephemeris_for(scenario, start_tt, end_tt)
@@ -54,11 +57,9 @@ def compute(scenario, start_tt, end_tt, stations=None, warn=None, with_ephemeris
     if warn is not None and spans and (spans[0][0] > start_tt or spans[-1][1] < end_tt or len(spans) > 1):
         warn(f"the ephemeris covers only part of the window ({', '.join(format_utc(a, 0) + ' to ' + format_utc(b, 0) for a, b in spans)}); "
              "passes at the coverage edges are clipped")
-    passes = find_passes(scenario, eph, start_tt, end_tt, stations=stations)
+    passes = parallel.find_passes(scenario, eph, start_tt, end_tt, stations=stations, executor=executor)
     if passes and any(lk.has_budget for lk in scenario.spacecraft.links):
-        from contactplan.plan.pipeline import link_profiles
-
-        link_profiles(scenario, passes, eph)
+        parallel.link_profiles(scenario, passes, eph, executor=executor)
     return (passes, eph) if with_ephemeris else passes
 
 
@@ -98,7 +99,13 @@ def run(args) -> int:
                              f"use .csv, .json, .xlsx or .txt", args.out)
     start = _time(args.start, "start") if args.start else None
     end = _time(args.end, "end") if args.end else None
+    from contactplan.commands.export import guard_output
+
+    if args.out:
+        guard_output(args.out, None, [args.scenario])
     scenario = load_scenario(args.scenario)
+    if args.out:
+        guard_output(args.out, scenario)
     if args.station:
         known = [s.id for s in scenario.stations]
         for sid in args.station:
@@ -109,6 +116,11 @@ def run(args) -> int:
     end = scenario.end_tt if end is None else end
     if not end > start:
         raise InputError("the window must end after it starts (check --start and --end)")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)
+    if bad is not None:
+        raise InputError(bad[1], None, f"--{bad[0]}")
 
     def warn(msg):
         print(f"contactplan: warning: {' '.join(str(msg).split())}", file=sys.stderr)
@@ -137,7 +149,10 @@ def run(args) -> int:
             print(line)
         print(f"{len(passes)} pass{'es' if len(passes) != 1 else ''}. {CAUTION}")
         return 0
+    from contactplan.fileio import backup
+
     try:
+        backup(args.out)  # a replaced file is kept as name~, as saves do
         if fmt == "xlsx":
             from contactplan.io.xlsx import write_passes_xlsx
 

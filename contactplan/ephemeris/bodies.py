@@ -21,9 +21,13 @@ _SSB, _SUN, _EMB, _EARTH, _MOON = 0, 10, 3, 399, 301
 
 @functools.lru_cache(maxsize=1)
 def _kernel():
+    import atexit
+
     from jplephem.spk import SPK
 
-    return SPK.open(str(skyfield_data_dir() / "de421.bsp"))
+    kernel = SPK.open(str(skyfield_data_dir() / "de421.bsp"))
+    atexit.register(kernel.close)  # no "unclosed file de421.bsp" at exit
+    return kernel
 
 
 @functools.lru_cache(maxsize=1)
@@ -37,12 +41,26 @@ def _jd_tdb(t_tt):
     return 2451545.0, (t + tdb_minus_tt(t)) / DAY_S
 
 
+def _jd_date(jd: float) -> str:
+    """Calendar date of a Julian day (JD 2451545.0 = 2000-01-01 12:00)."""
+    import datetime as dt
+
+    return (dt.datetime(2000, 1, 1, 12) + dt.timedelta(days=float(jd) - 2451545.0)).date().isoformat()
+
+
 def _seg(center: int, target: int, t_tt, velocity: bool):
     seg = _kernel()[center, target]
     jd0, frac = _jd_tdb(t_tt)
     jd = jd0 + frac
     if np.any(jd < seg.start_jd) or np.any(jd > seg.end_jd):
-        raise OutOfSpanError("time outside the DE421 planetary ephemeris (1900-2050)")
+        from contactplan.timescale import format_utc
+
+        bad = np.asarray(jd, dtype=float).ravel()
+        worst = bad[(bad < seg.start_jd) | (bad > seg.end_jd)][0]
+        to_tt = lambda j: (j - 2451545.0) * DAY_S  # noqa: E731 - TDB ~ TT at this resolution
+        raise OutOfSpanError(f"time {format_utc(to_tt(worst), 0)} is outside the DE421 planetary ephemeris, "
+                             f"which covers {_jd_date(seg.start_jd)} to {_jd_date(seg.end_jd)} (TDB)",
+                             skyfield_data_dir() / "de421.bsp")
     if velocity:
         p, v = seg.compute_and_differentiate(jd0, frac)
         return p.T, v.T / DAY_S

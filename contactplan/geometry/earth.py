@@ -8,7 +8,9 @@ The rotation follows the IERS 2010 Conventions (CIO based, IAU 2006/2000A):
   It is computed with ERFA (``c2i06a``) on a fixed grid of nodes every
   :data:`NODE_STEP_S` seconds of TT and interpolated linearly element by
   element. The largest short-period nutation term (13.66 d, 0.23") then
-  leaves an error under 0.01" (about 3e-6 degree).
+  leaves an error under 0.01" (about 3e-6 degree). Nodes are computed 32 days
+  at a time and kept per user (:mod:`contactplan.cachefile`, checked against
+  the packaged tables and the ERFA version), so a process does not redo them.
 * ``W`` (polar motion, ERFA ``pom00`` with ``sp00``) uses the packaged IERS
   values, interpolated the same way.
 * The Earth rotation angle is evaluated exactly at every instant from UT1
@@ -34,6 +36,8 @@ WGS84_F = 1.0 / 298.257223563
 EARTH_ROTATION_RAD_S = 2.0 * math.pi * 1.00273781191135448 / DAY_S
 
 NODE_STEP_S = 43200.0  # 12 h between bias-precession-nutation nodes
+NODE_BLOCK = 64  # nodes computed (and cached per user) together: 32 days
+NODE_CACHE_FORMAT = 1  # bump when the node computation changes
 _ARCSEC = math.pi / (180.0 * 3600.0)
 
 
@@ -103,12 +107,41 @@ class _NodeCache:
         ut1_tt = dut1 - dat - TT_MINUS_TAI_S
         return np.stack([c, w], axis=1), ut1_tt
 
+    def _blocks(self, missing: np.ndarray):
+        """Matrices and UT1-TT of the ``missing`` node keys, whole blocks of :data:`NODE_BLOCK` at a time,
+        each read from the user cache when a checked copy for the same packaged tables and ERFA
+        exists (:mod:`contactplan.cachefile`), else computed and stored."""
+        from contactplan import cachefile
+        from contactplan.data import eop_source_key
+
+        import erfa
+
+        src = eop_source_key()
+        mats, ut1, keys = [], [], []
+        for b in np.unique(np.floor_divide(missing, NODE_BLOCK)):
+            k = np.arange(b * NODE_BLOCK, (b + 1) * NODE_BLOCK, dtype=np.int64)
+            key = None if src is None else {"nodes": NODE_CACHE_FORMAT, "step_s": NODE_STEP_S, "block": int(b),
+                                            "erfa": getattr(erfa, "__version__", "?"), "tables": src}
+            path = cachefile.path_for("earth", f"nodes-{int(b)}.bin")
+            table = cachefile.load(path, key) if key else None
+            if table is None or table.shape != (NODE_BLOCK, 19) or not np.all(np.isfinite(table)):
+                m, u = self._compute(k)
+                table = np.concatenate([m.reshape(NODE_BLOCK, 18), u[:, None]], axis=1)
+                if key:
+                    cachefile.store(path, key, table)
+            mats.append(table[:, :18].reshape(NODE_BLOCK, 2, 3, 3))
+            ut1.append(table[:, 18])
+            keys.append(k)
+        return np.concatenate(keys), np.concatenate(mats), np.concatenate(ut1)
+
     def rows(self, keys_needed: np.ndarray) -> np.ndarray:
         """Row numbers in the cache of the given node keys (computing missing ones)."""
         with self._lock:
             missing = np.setdiff1d(keys_needed, self.keys, assume_unique=False)
             if missing.size:
-                mats, ut1 = self._compute(missing)
+                missing, mats, ut1 = self._blocks(missing)
+                new = ~np.isin(missing, self.keys)  # a block may hold nodes already in memory
+                missing, mats, ut1 = missing[new], mats[new], ut1[new]
                 keys = np.concatenate([self.keys, missing])
                 order = np.argsort(keys, kind="stable")
                 self.keys = keys[order]

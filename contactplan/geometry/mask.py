@@ -43,3 +43,22 @@ def flat_limit_deg(station) -> float:
     if not station.horizon_mask:
         return float(station.min_elevation_deg)
     return max(float(station.min_elevation_deg), max(p[1] for p in station.horizon_mask))
+
+
+def limit_corner_azimuths_deg(station) -> np.ndarray:
+    """Azimuths (deg) of every corner of max(minimum elevation, mask): the mask's vertices and the
+    points where a mask ramp crosses the minimum elevation (the limit has a kink there too)."""
+    if not station.horizon_mask:
+        return np.zeros(0)
+    pts = np.asarray(station.horizon_mask, dtype=float).reshape(-1, 2)
+    if len(pts) == 1:
+        return pts[:, 0].copy()
+    m = float(station.min_elevation_deg)
+    a0, e0 = pts[:, 0], pts[:, 1]
+    a1 = np.append(pts[1:, 0], pts[0, 0] + 360.0)  # the wrap-round segment through 360
+    e1 = np.append(pts[1:, 1], pts[0, 1])
+    cross = (e0 - m) * (e1 - m) < 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        f = (m - e0[cross]) / (e1[cross] - e0[cross])
+    corners = np.mod(a0[cross] + f * (a1[cross] - a0[cross]), 360.0)
+    return np.concatenate([a0, corners])

@@ -94,19 +94,25 @@ def refine_extrema(func, a, b, tol_s: float = 0.05, sign=1.0, index=None):
         return np.asarray(func(x, idx2 if twice else np.asarray(index)), dtype=float)
 
     a0, b0 = a.copy(), b.copy()
-    n_iter = int(np.ceil(np.log(max(float(np.max(b - a)), tol_s) / tol_s) / -np.log(_GOLD))) + 1
+    # Iterations per interval from its own width, so a result never depends on the rest of the batch
+    # (a split run, e.g. one process per station, gives the same numbers as the whole batch).
+    width = np.maximum(b - a, tol_s)
+    n_own = (np.ceil(np.log(width / tol_s) / -np.log(_GOLD)) + 1).astype(np.int64)
     c = b - _GOLD * (b - a)
     d = a + _GOLD * (b - a)
     both = f(np.concatenate([c, d]), True) * np.concatenate([sign, sign])
     fc, fd = both[:n], both[n:]
-    for _ in range(n_iter):
-        left = fc >= fd  # keep [a, d]
-        b = np.where(left, d, b)
-        a = np.where(left, a, c)
-        new_x = np.where(left, b - _GOLD * (b - a), a + _GOLD * (b - a))
-        fx = f(new_x) * sign
-        c, d, fc, fd = (np.where(left, new_x, d), np.where(left, c, new_x),
-                        np.where(left, fx, fd), np.where(left, fc, fx))
+    for it in range(int(n_own.max())):
+        go = np.flatnonzero(n_own > it)
+        left = fc[go] >= fd[go]  # keep [a, d]
+        ag, bg, cg, dg = a[go], b[go], c[go], d[go]
+        bg = np.where(left, dg, bg)
+        ag = np.where(left, ag, cg)
+        new_x = np.where(left, bg - _GOLD * (bg - ag), ag + _GOLD * (bg - ag))
+        fx = (np.asarray(func(new_x), dtype=float) if index is None else _sub(func, new_x, index, go)) * sign[go]
+        a[go], b[go] = ag, bg
+        c[go], d[go], fc[go], fd[go] = (np.where(left, new_x, dg), np.where(left, cg, new_x),
+                                        np.where(left, fx, fd[go]), np.where(left, fc[go], fx))
     tm = np.where(fc >= fd, c, d)
     fm = np.maximum(fc, fd)
     ends = f(np.concatenate([a0, b0]), True) * np.concatenate([sign, sign])
@@ -116,6 +122,10 @@ def refine_extrema(func, a, b, tol_s: float = 0.05, sign=1.0, index=None):
     tm = np.where(fb0 > fm, b0, tm)
     fm = np.maximum(fm, fb0)
     return tm, fm * sign
+
+
+def _sub(func, x, index, rows):
+    return np.asarray(func(x, np.asarray(index)[rows]), dtype=float)
 
 
 def sign_change_brackets(t, g):
@@ -143,7 +153,14 @@ def extremum_candidates(t, g):
     pr = np.concatenate([pos[1:], [pos[-1]]])
     dl = np.where(np.isnan(gl), 0.0, np.abs(g - gl))
     dr = np.where(np.isnan(gr), 0.0, np.abs(gr - g))
-    slack = np.maximum(dl, dr)
+    # Unequal spacing (extra samples at mask corners): the slope seen over one side, carried over
+    # the other (wider) side, bounds how far the function may reach between the samples.
+    hl = np.concatenate([[0.0], np.diff(t)])
+    hr = np.concatenate([np.diff(t), [0.0]])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        carry_l = np.where(hl > 0, dl * hr / hl, 0.0)
+        carry_r = np.where(hr > 0, dr * hl / hr, 0.0)
+    slack = np.maximum(np.maximum(dl, dr), np.maximum(carry_l, carry_r))
     with np.errstate(invalid="ignore"):
         up_l = np.isnan(gl) | (g > gl)
         up_r = np.isnan(gr) | (g >= gr)

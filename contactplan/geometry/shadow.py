@@ -48,20 +48,21 @@ class BodyTrack:
         n1 = np.ceil(end_tt / self.STEP_S) + 1
         self.t0 = n0 * self.STEP_S
         self.nodes = np.arange(n0, n1 + 1) * self.STEP_S
-        self._sun = bodies.sun_km(self.nodes, velocity=True)
-        self._moon = bodies.moon_km(self.nodes, velocity=True)
+        self._sun = self._cubic(*bodies.sun_km(self.nodes, velocity=True))
+        self._moon = self._cubic(*bodies.moon_km(self.nodes, velocity=True))
 
-    def _interp(self, pv, t):
-        p, v = pv
-        h = self.STEP_S
-        x = (np.asarray(t, dtype=float) - self.t0) / h
+    def _cubic(self, p, v):
+        """Per-interval coefficients (4, N-1, 3) of the cubic Hermite piece p0 + s (c1 + s (c2 + s c3))."""
+        m0, m1 = v[:-1] * self.STEP_S, v[1:] * self.STEP_S
+        d = p[1:] - p[:-1]
+        return np.stack([p[:-1], m0, 3.0 * d - 2.0 * m0 - m1, m0 + m1 - 2.0 * d])
+
+    def _interp(self, coef, t):
+        x = (np.asarray(t, dtype=float) - self.t0) / self.STEP_S
         k = np.clip(np.floor(x).astype(np.int64), 0, len(self.nodes) - 2)
         s = (x - k)[:, None]
-        h00 = 2 * s**3 - 3 * s**2 + 1
-        h10 = s**3 - 2 * s**2 + s
-        h01 = -2 * s**3 + 3 * s**2
-        h11 = s**3 - s**2
-        return h00 * p[k] + h10 * h * v[k] + h01 * p[k + 1] + h11 * h * v[k + 1]
+        c = coef[:, k]
+        return c[0] + s * (c[1] + s * (c[2] + s * c[3]))
 
     def sun(self, t_tt) -> np.ndarray:
         return self._interp(self._sun, np.atleast_1d(t_tt))

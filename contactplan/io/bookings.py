@@ -91,9 +91,13 @@ def _cell(value) -> str:
         return ""
     if isinstance(value, bool):
         return "true" if value else "false"
+    from contactplan.io.cells import csv_text
+
     if isinstance(value, (list, tuple)):
-        return ";".join(str(v) for v in value)
-    return str(value)
+        return csv_text(";".join(str(v) for v in value))
+    if isinstance(value, (int, float)) or hasattr(value, "dtype"):
+        return str(value)  # numbers stay numbers
+    return csv_text(str(value))  # text that a spreadsheet would run as a formula gets a leading quote
 
 
 def table_csv(columns, rows) -> str:

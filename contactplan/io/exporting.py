@@ -1,7 +1,8 @@
 """One door for every export: what + file extension -> writer -> one line saying what was written.
 
-``export(...)`` is what the CLI (``contactplan export``) and the app call. It
-picks the format from the extension where that is unambiguous (``.xlsx`` and
+The formats and tables live here; the orchestration (compute the plan, then call
+a writer) is ``contactplan.commands.export.export(...)``, which the CLI and the app
+call, so this layer only reads and writes. It picks the format from the extension where that is unambiguous (``.xlsx`` and
 ``.json``/``.csv`` default to the pass table, ``.ics`` is the booking calendar,
 ``.oem`` the ephemeris, ``.pdf`` the weekly report; ``.txt`` needs ``what``: the aligned
 pass table or the ephemeris as OEM text) and returns a line such as
@@ -14,7 +15,6 @@ import json
 import math
 from pathlib import Path
 
-from contactplan import CAUTION, __version__
 from contactplan.errors import InputError
 
 WHATS = ("passes", "bookings", "ephemeris", "report")
@@ -185,101 +185,6 @@ def passes_json(scenario, passes, now_tt: float | None = None) -> str:
     return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
 
 
-# ------------------------------------------------------------ dispatcher
-def _plural(n: int, word: str, plural: str | None = None) -> str:
-    return f"{n} {word}" if n == 1 else f"{n} {plural or word + 's'}"
-
-
-def _plan_for(scenario, plan, progress=None, cancel=None):
-    if plan is not None:
-        return plan
-    from contactplan.plan.pipeline import compute_plan
-
-    return compute_plan(scenario, progress=progress, cancel=cancel)
-
-
-def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
-           end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
-           now_tt: float | None = None, progress=None, cancel=None) -> str:
-    """Write one export and return the line that says what was written.
-
-    ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
-    (computed here when needed and not given). ``start_tt``/``end_tt`` (default: the
-    scenario window) are the sampled span of the ephemeris; for passes and the report
-    they replace the planning window (the plan is recomputed), for bookings they keep
-    those that overlap. ``step_s`` is the ephemeris spacing.
-    ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
-    """
-    what, fmt = resolve(out, what)
-    out = Path(out)
-    folder = out.parent if str(out.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"folder {folder} does not exist", out)
-    if what != "ephemeris" and (start_tt is not None or end_tt is not None):
-        windowed = with_window(scenario, start_tt, end_tt)
-        if (windowed.start_tt, windowed.end_tt) != (scenario.start_tt, scenario.end_tt):
-            if what == "bookings":
-                windowed.bookings = [b for b in scenario.bookings
-                                     if b.end_tt > windowed.start_tt and b.start_tt < windowed.end_tt]
-            else:
-                plan = None  # a plan for another window
-            scenario = windowed
-    if what == "passes":
-        plan = _plan_for(scenario, plan, progress, cancel)
-        passes = plan.passes
-        if fmt == "csv":
-            from contactplan.fileio import atomic_write
-
-            atomic_write(out, passes_csv(passes))
-        elif fmt == "json":
-            from contactplan.fileio import atomic_write
-
-            atomic_write(out, passes_json(scenario, passes, now_tt))
-        elif fmt == "text":
-            from contactplan.io.passtable import write_passes
-
-            write_passes(out, passes, "text", scenario, scenario.start_tt, scenario.end_tt, footer=[CAUTION])
-        else:
-            from contactplan.io.xlsx import write_passes_xlsx
-
-            write_passes_xlsx(scenario, passes, out, now_tt=now_tt)
-        return f"wrote {_plural(len(passes), 'pass', 'passes')} to {out}"
-    if what == "bookings":
-        note = ""
-        if plan is None:  # the list carries each booking's downlinked volume and open findings
-            try:
-                plan = _plan_for(scenario, None, progress, cancel)
-            except InputError as exc:  # e.g. the ephemeris cannot be read: the list is still useful
-                note = f" (no downlink volumes or findings: {exc})"
-        if fmt == "ics":
-            from contactplan.io.ical import write_ical
-
-            n = write_ical(scenario, out, plan=plan, now_tt=now_tt)
-        elif fmt == "xlsx":
-            from contactplan.io.xlsx import write_bookings_xlsx
-
-            n = write_bookings_xlsx(scenario, out, plan=plan, now_tt=now_tt)
-        else:
-            from contactplan.io.bookings import write_bookings
-
-            n = write_bookings(scenario, out, fmt, plan=plan, now_tt=now_tt)
-        return f"wrote {_plural(n, 'booking')} to {out}{note}"
-    if what == "ephemeris":
-        n, t0, t1, segs = write_ephemeris(scenario, out, start_tt, end_tt, step_s,
-                                         ephemeris=getattr(plan, "ephemeris", None), creation_tt=now_tt)
-        from contactplan.timescale import format_utc
-
-        parts = f" in {segs} segments around the source's gaps" if segs > 1 else ""
-        return (f"wrote {_plural(n, 'ephemeris point')} ({format_utc(t0, 0)} to {format_utc(t1, 0)}, "
-                f"every {step_s:g} s){parts} to {out}")
-    # report
-    plan = _plan_for(scenario, plan, progress, cancel)
-    from contactplan.io.report import write_report
-
-    pages = write_report(plan, out, paper=paper, now_tt=now_tt)
-    return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
-
-
 def with_window(scenario, start_tt: float | None = None, end_tt: float | None = None):
     """A shallow copy of the scenario with its planning window replaced (None keeps that edge)."""
     import dataclasses
@@ -289,6 +194,8 @@ def with_window(scenario, start_tt: float | None = None, end_tt: float | None = 
     if not end > start:
         raise InputError("the export window ends before it starts")
     return dataclasses.replace(scenario, start_tt=start, end_tt=end, bookings=list(scenario.bookings))
+
+
 
 
 def paper_name(paper: str) -> str:
@@ -331,28 +238,3 @@ def _around_gaps(eph, t):
     return t, starts
 
 
-def write_ephemeris(scenario, out, start_tt=None, end_tt=None, step_s: float = 600.0, ephemeris=None,
-                    creation_tt: float | None = None):
-    """Sample the scenario's ephemeris and write CCSDS OEM KVN; returns (points, first_tt, last_tt, segments).
-
-    A gap in the source between its segments gives one OEM segment per part on each side."""
-    from contactplan.ephemeris import ephemeris_for
-
-    start = scenario.start_tt if start_tt is None else float(start_tt)
-    end = scenario.end_tt if end_tt is None else float(end_tt)
-    t = ephemeris_epochs(start, end, float(step_s))
-    eph = ephemeris
-    if eph is None or not bool(eph.covers(t).all()):
-        eph = ephemeris_for(scenario, start, end)
-    t, starts = _around_gaps(eph, t)
-    pos, vel = eph.state(t)  # raises OutOfSpanError naming the covered span
-    from contactplan.io.oem import write_oem
-
-    sc_raw = getattr(scenario.spacecraft, "raw", {}) or {}
-    write_oem(out, t, pos, vel, object_name=scenario.spacecraft.name, segment_starts=starts,
-              object_id=str(sc_raw.get("object_id") or "UNKNOWN"), center="EARTH", frame="ICRF",
-              time_system="UTC", creation_tt=creation_tt,
-              comments=[f"Sampled by contactplan {__version__} from scenario {scenario.name!r}, "
-                        f"revision {scenario.revision}, every {step_s:g} s",
-                        f"Source: {getattr(eph, 'name', 'ephemeris')}", CAUTION])
-    return len(t), float(t[0]), float(t[-1]), len(starts) + 1

@@ -15,6 +15,8 @@ import csv
 import io
 import json
 
+from contactplan.io.cells import csv_text
+
 FIXED_COLUMNS = (
     "station", "aos_utc", "los_utc", "duration_s", "max_elevation_deg", "max_elevation_utc",
     "aos_azimuth_deg", "los_azimuth_deg", "min_range_km", "max_range_km",
@@ -46,23 +48,32 @@ def pass_rows(passes) -> list[dict]:
     millisecond, angles to 0.001 deg, ranges to the metre, light time to the
     microsecond), flags are bools, link values None when not computed.
     """
+    import numpy as np
+
     from contactplan.timescale import format_doy, format_utc
 
+    ordered = sorted(passes, key=lambda p: (p.aos_tt, p.station))
+    aos = np.array([p.aos_tt for p in ordered], dtype=float)
+    los = np.array([p.los_tt for p in ordered], dtype=float)
+    # every time column formatted at once (the array path), then picked row by row
+    aos_utc, los_utc = format_utc(aos), format_utc(los)
+    culm_utc = format_utc(np.array([p.max_elevation_tt for p in ordered], dtype=float))
+    aos_doy, los_doy = format_doy(aos), format_doy(los)
     rows = []
-    for p in sorted(passes, key=lambda p: (p.aos_tt, p.station)):
+    for i, p in enumerate(ordered):
         rows.append({
             "station": p.station,
-            "aos_utc": format_utc(p.aos_tt),
-            "los_utc": format_utc(p.los_tt),
+            "aos_utc": aos_utc[i],
+            "los_utc": los_utc[i],
             "duration_s": round(p.los_tt - p.aos_tt, 3),
             "max_elevation_deg": round(p.max_elevation_deg, 3),
-            "max_elevation_utc": format_utc(p.max_elevation_tt),
+            "max_elevation_utc": culm_utc[i],
             "aos_azimuth_deg": round(p.aos_azimuth_deg, 3),
             "los_azimuth_deg": round(p.los_azimuth_deg, 3),
             "min_range_km": round(p.min_range_km, 3),
             "max_range_km": round(p.max_range_km, 3),
-            "aos_doy": format_doy(p.aos_tt),
-            "los_doy": format_doy(p.los_tt),
+            "aos_doy": aos_doy[i],
+            "los_doy": los_doy[i],
             "clipped_start": bool(p.clipped_start),
             "clipped_end": bool(p.clipped_end),
             "light_time_s": round(p.light_time_s, 6),
@@ -89,7 +100,7 @@ def _csv_cell(v):
         return ""
     if isinstance(v, bool):
         return "true" if v else "false"
-    return v
+    return csv_text(v)  # text that a spreadsheet would run as a formula gets a leading quote
 
 
 def passes_csv_text(passes, columns=None) -> str:

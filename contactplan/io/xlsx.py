@@ -112,7 +112,10 @@ def _fill_sheet(ws, labels, rows, dt_idx, widths=None):
     from openpyxl.styles import Alignment, Font, PatternFill
     from openpyxl.utils import get_column_letter
 
+    from contactplan.io.cells import keep_text
+
     ws.append(labels)
+    keep_text(ws[1])
     bold = Font(bold=True)
     fill = PatternFill("solid", fgColor="DDE6F0")
     for cell in ws[1]:
@@ -123,6 +126,7 @@ def _fill_sheet(ws, labels, rows, dt_idx, widths=None):
 
     for r in rows:  # control characters cannot be stored in a workbook: drop them
         ws.append([ILLEGAL_CHARACTERS_RE.sub("", v) if isinstance(v, str) else v for v in r])
+        keep_text(ws[ws.max_row])  # "=..." text stays a string cell, never a live formula
     for j in dt_idx:
         letter = get_column_letter(j + 1)
         for cell in ws[letter][1:]:
@@ -139,6 +143,7 @@ def _fill_sheet(ws, labels, rows, dt_idx, widths=None):
 
 def _notes_sheet(wb, scenario, what: str, count: int, now_tt):
     from contactplan.io.bookings import header
+    from contactplan.io.cells import keep_text
 
     h = header(scenario, now_tt)
     ws = wb.create_sheet("Notes")
@@ -147,6 +152,7 @@ def _notes_sheet(wb, scenario, what: str, count: int, now_tt):
                  ("Window end (UTC)", h["window"]["end"]), ("Generated (UTC)", h["generated"]),
                  ("Generator", h["generator"]), ("Caution", CAUTION)):
         ws.append([k, v])
+        keep_text(ws[ws.max_row])
     ws.column_dimensions["A"].width = 20
     ws.column_dimensions["B"].width = 100
 

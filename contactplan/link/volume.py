@@ -155,7 +155,8 @@ def geometry_nodes(passes, ref_tt: float, node_step_s: float):
 
 
 def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_step_s: float = 900.0,
-                    max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1) -> dict:
+                    max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1,
+                    ref_tt: float | None = None) -> dict:
     """Rate profiles and volumes of every pass on its station's playback link (the data link).
 
     Sets ``pass.max_rate_kbps`` (kbit/s, 0 when no rate closes) and ``pass.volume_gbit`` (AOS to LOS on
@@ -164,7 +165,7 @@ def annotate_passes(scenario, passes, ephemeris, step_s: float = 60.0, geometry_
     Returns ``{id(pass): PassProfile}``; :func:`annotate_links` gives every link.
     """
     return playback_profiles(scenario, passes, annotate_links(
-        scenario, passes, ephemeris, step_s, geometry_step_s, max_interp_error_deg, max_interp_error_db))
+        scenario, passes, ephemeris, step_s, geometry_step_s, max_interp_error_deg, max_interp_error_db, ref_tt))
 
 
 def playback_profiles(scenario, passes, link_profiles: dict) -> dict:
@@ -187,7 +188,8 @@ def playback_profiles(scenario, passes, link_profiles: dict) -> dict:
 
 
 def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_step_s: float = 900.0,
-                   max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1) -> dict:
+                   max_interp_error_deg: float = 0.2, max_interp_error_db: float = 0.1,
+                   ref_tt: float | None = None) -> dict:
     """Profiles of every pass on every budgeted link its station offers: ``{link_id: {id(pass): PassProfile}}``.
 
     The pass fields ``max_rate_kbps`` / ``volume_gbit`` are set from the station's playback link.
@@ -200,6 +202,7 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     volumes by under 0.2 %. Passes where the sampled curvature predicts more than
     ``max_interp_error_deg`` or ``max_interp_error_db`` (fast near-Earth geometry) are evaluated
     exactly at every sample instead. ``geometry_step_s=None`` evaluates every sample exactly.
+    ``ref_tt`` anchors that grid (default: the first AOS; a split run passes the first AOS of the whole set).
     """
     if not passes:
         return {}
@@ -241,7 +244,7 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
                 put(lk, _build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
         return out
 
-    ref = min(p.aos_tt for _, plist, _ in groups for p in plist)
+    ref = min(p.aos_tt for _, plist, _ in groups for p in plist) if ref_tt is None else float(ref_tt)
     nodes = [geometry_nodes(plist, ref, geometry_step_s) for _, plist, _ in groups]
     all_t, inverse = np.unique(np.concatenate([n[0] for n in nodes]), return_inverse=True)
     track = Track(ephemeris, all_t)

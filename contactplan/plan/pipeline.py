@@ -79,7 +79,9 @@ def _annotate(scenario, ephemeris, passes, progress, cancel) -> tuple[dict, dict
         import contactplan.link.volume  # noqa: F401
     except ImportError:  # link stage not installed in this build
         return {}, {}
-    out = all_link_profiles(scenario, passes, ephemeris)
+    from contactplan.plan import parallel
+
+    out = parallel.all_link_profiles(scenario, passes, ephemeris)  # on every core when the passes are many
     if progress is not None:
         progress(1.0)
     return out
@@ -112,7 +114,8 @@ def compute_plan(scenario, ephemeris=None, progress=None, cancel=None) -> PlanRe
     :class:`~contactplan.errors.Cancelled`.
     """
     from contactplan.ephemeris import ephemeris_for
-    from contactplan.geometry.passes import coverage_spans, find_passes
+    from contactplan.geometry.passes import coverage_spans
+    from contactplan.plan.parallel import find_passes  # on every core when the work is large
 
     _check_cancel(cancel)
     eph = ephemeris if ephemeris is not None else ephemeris_for(scenario)
@@ -146,5 +149,16 @@ def check(result: PlanResult) -> PlanResult:
     ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
                             link_profiles=result.link_profiles)
     ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
-    result.findings = run_rules(ctx)
+    # unknown keys first: they are dated at the window start, so the list stays in time order
+    result.findings = unknown_key_findings(sc) + run_rules(ctx)
     return result
+
+
+def unknown_key_findings(scenario) -> list:
+    """One warning finding (rule ``unknown-key``) per key of the scenario file the loader did not know."""
+    from contactplan.plan.findings import WARNING, Finding
+    from contactplan.scenario.load import unknown_key_message
+
+    return [Finding(rule="unknown-key", severity=WARNING, subjects=[], start_tt=scenario.start_tt,
+                    end_tt=scenario.start_tt, message=f"{field}: {unknown_key_message(field, key, close)}")
+            for field, key, close in (getattr(scenario, "unknown_keys", None) or [])]

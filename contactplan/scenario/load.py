@@ -11,7 +11,7 @@ import math
 import re
 from pathlib import Path
 
-from contactplan.errors import InputError
+from contactplan.errors import InputError, show_id
 from contactplan.fileio import read_input
 from contactplan.scenario import model as m
 from contactplan.scenario.orbit_determination import read_orbit_determination, read_tracking_requirements
@@ -37,13 +37,20 @@ def _as_float(x) -> float:
 class Table:
     """A TOML table with typed, validated getters that name the field on error."""
 
-    def __init__(self, data, path: Path | None, where: str):
+    def __init__(self, data, path: Path | None, where: str, registry: list | None = None):
         if not isinstance(data, dict):
             raise InputError(f"expected a table, got {type(data).__name__}", path, where)
         self.data = data
         self.path = path
         self.where = where
         self.loaded: dict = {}
+        self.read: set = set()  # every key the loader asked for (known keys, present or not)
+        self.registry = registry
+        if registry is not None:
+            registry.append(self)
+
+    def child(self, data, where: str) -> "Table":
+        return Table(data, self.path, where, self.registry)
 
     def _field(self, key: str) -> str:
         return f"{self.where}.{key}" if self.where else key
@@ -52,6 +59,7 @@ class Table:
         raise InputError(message, self.path, self._field(key) if key else self.where)
 
     def _get(self, key, default):
+        self.read.add(key)
         if key in self.data:
             return self.data[key]
         if default is _MISSING:
@@ -59,12 +67,13 @@ class Table:
         return default
 
     def sub(self, key: str, required: bool = True) -> "Table | None":
+        self.read.add(key)
         v = self.data.get(key, _MISSING)
         if v is _MISSING:
             if required:
                 self.fail(key, "missing section (required)")
             return None
-        return Table(v, self.path, self._field(key))
+        return self.child(v, self._field(key))
 
     def str(self, key, default=_MISSING, choices=None, pattern=None):
         v = self._get(key, default)
@@ -76,7 +85,7 @@ class Table:
         if choices and v not in choices:
             self.fail(key, f"{v!r} is not one of {', '.join(choices)}")
         if pattern is not None and not pattern.match(v):
-            self.fail(key, f"{v!r} is not a valid id (letters, digits, _ . : -, at most 32)")
+            self.fail(key, f"'{show_id(v)}' is not a valid id (letters, digits, _ . : -, at most 32)")
         self.loaded[key] = v
         return v
 
@@ -129,13 +138,26 @@ class Table:
         return v
 
     def records(self, key) -> list["Table"]:
+        self.read.add(key)
         v = self.data.get(key, [])
         if not isinstance(v, list):
             self.fail(key, "expected an array of tables ([[" + key + "]])")
         out = []
         for i, item in enumerate(v):
-            label = item.get("id") if isinstance(item, dict) and isinstance(item.get("id"), str) else f"#{i + 1}"
-            out.append(Table(item, self.path, f"{self._field(key)}[{label}]"))
+            label = (show_id(item["id"]) if isinstance(item, dict) and isinstance(item.get("id"), str)
+                     else f"#{i + 1}")  # escaped and cut: an id may hold line breaks or terminal escapes
+            out.append(self.child(item, f"{self._field(key)}[{label}]"))
+        return out
+
+    def unknown(self) -> list[tuple[str, str, str | None]]:
+        """(field, key, the known key it may mean or None) for each key the loader did not read."""
+        import difflib
+
+        out = []
+        for key in self.data:
+            if key not in self.read:
+                close = difflib.get_close_matches(str(key), sorted(self.read), n=1, cutoff=0.75)
+                out.append((self._field(key), str(key), close[0] if close else None))
         return out
 
     def keep(self, rec):
@@ -329,10 +351,16 @@ def _activity(t: Table) -> m.Activity:
 
 def _series(t: Table) -> m.ActivitySeries:
     kind = t.str("kind", choices=m.ACTIVITY_KINDS)
-    return t.keep(m.ActivitySeries(
+    s = t.keep(m.ActivitySeries(
         id=t.str("id", pattern=_ID_RE), kind=kind, first_start_tt=t.time("first_start"),
         every_days=t.num("every_days", lo=0, lo_open=True, hi=3650),
         count=t.num("count", lo=1, hi=1000, integer=True), **_margins(t, kind)))
+    longest = s.expand()[-1].id  # member ids must be valid ids too, or a plan that loads could not save
+    if not _ID_RE.match(longest):
+        room = 32 - (len(longest) - len(s.id))
+        t.fail("id", f"series id {s.id!r} is too long: its activities get ids such as {longest!r} "
+                     f"(more than 32 characters); use at most {room} characters")
+    return s
 
 
 def _booking(t: Table, station_ids: set) -> m.Booking:
@@ -456,16 +484,24 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     """Build a :class:`Scenario` from an already parsed TOML document (older formats upgraded first)."""
     base = path.parent if path is not None else None
     doc, fv = upgrade_document(doc, path)
-    root = Table(doc, path, "")
+    tables: list = []
+    root = Table(doc, path, "", tables)
+    root.read.add("format_version")
     sc = root.sub("scenario")
     name = sc.str("name")
     start = sc.time("start")
     end = sc.time("end")
     if end <= start:
         sc.fail("end", "planning window ends before it starts")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)  # a typo such as 2927 must not stall the planner for minutes
+    if bad is not None:
+        sc.fail(bad[0], bad[1])
     revision = sc.num("revision", 0, lo=0, integer=True)
 
     sp = root.sub("spacecraft")
+    sp.read.add("object_id")  # read by the ephemeris export (OEM OBJECT_ID)
     et = sp.sub("ephemeris")
     spacecraft = m.Spacecraft(name=sp.str("name"), ephemeris=_ephemeris(et, base))
     if "link" in sp.data:
@@ -513,7 +549,29 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         orbit_determination=read_orbit_determination(root),
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table
+    scen.unknown_keys = unknown_keys(tables, path)
     return scen
+
+
+class UnknownKeyWarning(UserWarning):
+    """A key the loader does not know: kept on save, but it changes nothing (often a misspelling)."""
+
+
+def unknown_key_message(field: str, key: str, close: str | None) -> str:
+    hint = f"; did you mean {close}?" if close else ""
+    return f"unknown key {show_id(key)!r} (kept on save, but it has no effect{hint})"
+
+
+def unknown_keys(tables, path) -> list[tuple[str, str, str | None]]:
+    """Every unknown key of the document as (field, key, close known key or None); each is also warned
+    (:class:`UnknownKeyWarning`, one line naming the file and field)."""
+    import warnings
+
+    found = [u for t in tables for u in t.unknown()]
+    for field, key, close in found:
+        warnings.warn(str(InputError(unknown_key_message(field, key, close), path, field)), UnknownKeyWarning,
+                      stacklevel=3)
+    return found
 
 
 def parse_text(text: str, path: Path | None = None) -> m.Scenario:
