@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import io
 import json
 
 import pytest
@@ -81,14 +82,18 @@ def test_report_section_reads_back(plan, tmp_path):
     from reportlab.lib.styles import getSampleStyleSheet
     from reportlab.platypus import Image, Paragraph, SimpleDocTemplate, Table
 
-    from contactplan.io.report import _png
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
     from contactplan.io.report_navigation import navigation_story
 
     ss = getSampleStyleSheet()
 
     def figure(fig):
+        buf = io.BytesIO()
+        FigureCanvasAgg(fig).print_png(buf)
+        buf.seek(0)
         w, h = fig.get_size_inches()
-        return Image(_png(fig), width=400, height=400 * h / w)
+        return Image(buf, width=400, height=400 * h / w)
 
     story = navigation_story(plan, lambda t, st=ss["BodyText"]: Paragraph(str(t), st), figure,
                              lambda rows, widths: Table(rows, colWidths=widths), ss["BodyText"], ss["Heading2"],
