@@ -44,7 +44,7 @@ def test_cli_exports_every_format(minimal_path, tmp_path, capsys):
     code, out, _ = _run(capsys, minimal_path, "--out", tmp_path / "week.ics")
     assert code == 0 and out == f"wrote 1 booking to {tmp_path / 'week.ics'}"
     ev = Calendar.from_ical((tmp_path / "week.ics").read_bytes()).walk("VEVENT")
-    assert [str(e["summary"]) for e in ev] == ["B001 NRV: downlink, ranging, commanding"]
+    assert [str(e["summary"]) for e in ev] == ["B001 NRV: telemetry, playback, commanding, ranging, doppler"]
 
     code, out, _ = _run(capsys, minimal_path, "--out", tmp_path / "b.json", "--what", "bookings")
     doc = json.loads((tmp_path / "b.json").read_text(encoding="utf-8"))

@@ -37,13 +37,21 @@ def test_calendar_parses_with_one_event_per_booking(data_dir, tmp_path):
     assert b1["dtstart"].dt == dt.datetime(2027, 1, 12, 19, 0, tzinfo=UTC)
     assert b1["dtend"].dt == dt.datetime(2027, 1, 13, 3, 0, tzinfo=UTC)
     assert b"DTSTART:20270112T190000Z" in raw  # UTC form (RFC 5545 3.3.5 form #2)
-    assert str(b1["summary"]) == "B001 NRV: downlink, ranging, commanding"
-    assert str(ev["B002"]["summary"]) == "B002 KAL: downlink"
+    assert str(b1["summary"]) == "B001 NRV: telemetry, playback, commanding, ranging, doppler"
+    assert str(ev["B002"]["summary"]) == "B002 KAL: telemetry, playback"
+    assert [str(c) for c in b1["categories"].cats] == ["telemetry", "playback", "commanding", "ranging", "doppler"]
     assert b1["dtstamp"].dt == dt.datetime(2027, 1, 11, 9, 30, tzinfo=UTC)
     assert int(b1["sequence"]) == 4
     desc = " ".join(str(b1["description"]).split())
-    assert "Setup: 45 min, 2027-01-12T19:00:00.000Z to 2027-01-12T19:45:00.000Z" in desc
-    assert "Teardown: 15 min, 2027-01-13T02:45:00.000Z to 2027-01-13T03:00:00.000Z" in desc
+    # NRV: 45 min pre-pass, 15 min post-pass (tests/data/minimal.toml, setup/teardown upgraded)
+    assert "Pre-pass: 45 min, 2027-01-12T19:00:00.000Z to 2027-01-12T19:45:00.000Z" in desc
+    assert "Track: BOT 2027-01-12T19:45:00.000Z to EOT 2027-01-13T02:45:00.000Z" in desc
+    assert "Post-pass: 15 min, 2027-01-13T02:45:00.000Z to 2027-01-13T03:00:00.000Z" in desc
+    # the DN profile steps 1000 -> 16000 at sample 5 and back at sample 19 of 25 over 10.5 h (26.25 min apart)
+    assert ("Rate plan on DN (kbit/s): 2027-01-12T19:45:00Z to 2027-01-12T20:26:15Z: 1000 "
+            "2027-01-12T20:26:15Z to 2027-01-13T02:33:45Z: 16000 2027-01-13T02:33:45Z to 2027-01-13T02:45:00Z: 1000"
+            in desc)
+    assert "Rate plan volume: 355.950 Gbit" in desc  # 41.25 min x 1 + 367.5 min x 16 + 11.25 min x 1 Mbit/s
     assert "Planned downlink: 101.250 Gbit" in desc
     assert CAUTION in desc
     assert "outside-pass" in str(ev["B002"]["description"])

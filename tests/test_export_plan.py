@@ -42,7 +42,8 @@ def make_plan(data_dir, revision: int = 4) -> PlanResult:
             passes.append(p)
             t = np.linspace(aos, los, 25)
             profiles[id(p)] = PassProfile(station=sid, t_tt=t, elevation_deg=np.full(25, 30.0),
-                                          rate_kbps=np.where(np.abs(np.arange(25) - 12) < 8, p.max_rate_kbps, 1000.0))
+                                          rate_kbps=np.where(np.abs(np.arange(25) - 12) < 8, p.max_rate_kbps, 1000.0),
+                                          link_id="DN", culmination_margin_db=4.567 if sid == "NRV" else None)
     passes.sort(key=lambda p: p.aos_tt)
     t = np.arange(sc.start_tt, sc.end_tt + 1, 600.0)
     fill = np.clip(120 + 0.002 * (t - t[0]) - 150 * ((t - t[0]) > 3 * 86400), 0, 500)
@@ -56,7 +57,10 @@ def make_plan(data_dir, revision: int = 4) -> PlanResult:
         Finding("no-ranging", "warning", [], parse_utc("2027-01-16T00:00:00Z"), parse_utc("2027-01-17T00:00:00Z"),
                 "no ranging booked on 2027-01-16 (DOY 016): add one"),
     ]
-    return PlanResult(scenario=sc, ephemeris=None, passes=passes, profiles=profiles, recorder=rec, findings=findings)
+    # KAL (a v1 station without G/T) takes no down link: its passes have no DN profile
+    per_link = {"DN": {k: v for k, v in profiles.items() if v.station == "NRV"}}
+    return PlanResult(scenario=sc, ephemeris=None, passes=passes, profiles=profiles, recorder=rec, findings=findings,
+                      link_profiles=per_link)
 
 
 @pytest.fixture

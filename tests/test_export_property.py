@@ -42,7 +42,7 @@ def test_booking_list_round_trips(minimal_path, name, bid, minutes):
     rec = {r[0]: dict(zip(rows[0], r)) for r in rows[1:]}[want]
     # text a spreadsheet would run as a formula carries a leading quote (OWASP CSV injection guidance)
     shown = "'" + name if name.startswith(("=", "+", "-", "@", "\t", "\r")) else name
-    assert rec["station_name"] == shown and rec["purposes"] == "downlink;ranging"
+    assert rec["station_name"] == shown and rec["services"] == "telemetry;playback;ranging;doppler"
     assert parse_utc(rec["end_utc"]) - parse_utc(rec["start_utc"]) == minutes * 60.0
     doc = json.loads(bookings_json(sc, now_tt=0.0))  # stdlib JSON reader
     assert doc["scenario"] == name and {b["id"] for b in doc["bookings"]} == {"B001", want}
@@ -61,7 +61,7 @@ def test_calendar_round_trips(minimal_path, name, bid, minutes):
     events = {str(e["uid"]): e for e in Calendar.from_ical(raw).walk("VEVENT")}
     want = sc.bookings[-1]
     ev = events[booking_uid(name, want.id)]
-    assert str(ev["summary"]) == f"{want.id} KAL: downlink, ranging"
+    assert str(ev["summary"]) == f"{want.id} KAL: telemetry, playback, ranging, doppler"
     assert str(ev["location"]) == " ".join(f"{name} (KAL)".split())  # one-line field: line breaks folded
     assert (ev["dtend"].dt - ev["dtstart"].dt).total_seconds() == minutes * 60.0
     assert len(events) == 2

@@ -34,8 +34,14 @@ def test_pass_csv_round_trip(plan, tmp_path):
     out = tmp_path / "passes.csv"
     export(plan.scenario, out, plan=plan)
     rows = _read_csv(out)
-    cols, table = pass_table(plan.passes)
+    cols, table = pass_table(plan.passes, plan.link_profiles)
     assert rows[0] == cols
+    # the first ten columns as ever (passes contract), then the culmination margin per link (dB)
+    assert cols[:10] == ["station", "aos_utc", "los_utc", "duration_s", "max_elevation_deg", "max_elevation_utc",
+                         "aos_azimuth_deg", "los_azimuth_deg", "min_range_km", "max_range_km"]
+    assert cols[-1] == "margin_DN_db"
+    margins = {r[0]: r[-1] for r in rows[1:]}
+    assert margins == {"NRV": "4.57", "KAL": ""}  # make_plan: 4.567 dB at NRV, KAL takes no down link
     assert len(rows) == 1 + len(plan.passes)
     for got, want in zip(rows[1:], table):
         assert len(got) == len(cols)
@@ -71,9 +77,18 @@ def test_booking_csv_round_trip_with_quotes(plan, tmp_path):
     assert b1["start_utc"] == "2027-01-12T19:00:00.000Z" and b1["end_utc"] == "2027-01-13T03:00:00.000Z"
     assert b1["start_doy"] == "2027-012T19:00:00Z"
     assert b1["duration_min"] == "480.0"
-    # NRV: 45 min setup, 15 min teardown (tests/data/minimal.toml)
-    assert b1["data_start_utc"] == "2027-01-12T19:45:00.000Z" and b1["data_end_utc"] == "2027-01-13T02:45:00.000Z"
-    assert b1["purposes"] == "downlink;ranging;commanding"
+    # NRV: 45 min pre-pass, 15 min post-pass (tests/data/minimal.toml): the track runs between
+    assert b1["pre_pass_min"] == "45.0" and b1["post_pass_min"] == "15.0"
+    assert b1["bot_utc"] == "2027-01-12T19:45:00.000Z" and b1["eot_utc"] == "2027-01-13T02:45:00.000Z"
+    assert b1["services"] == "telemetry;playback;commanding;ranging;doppler"
+    assert b3["services"] == "commanding;ranging;doppler" and b1["handover_from"] == ""
+    # the DN profile (test_export_plan.make_plan) steps at samples 5 and 19, 26.25 min apart from AOS 18:15:00.4567
+    assert b1["rate_plan_link"] == "DN" and b1["rate_plan_kbps"] == (
+        "2027-01-12T19:45:00Z/2027-01-12T20:26:15Z 1000; 2027-01-12T20:26:15Z/2027-01-13T02:33:45Z 16000; "
+        "2027-01-13T02:33:45Z/2027-01-13T02:45:00Z 1000")
+    assert float(b1["plan_volume_gbit"]) == pytest.approx(2.475 + 352.8 + 0.675)  # kbit/s x s / 1e6
+    # KAL takes no down link (a v1 station without G/T), B003 books no down service: no rate plan
+    assert b2["rate_plan_link"] == "" and b3["rate_plan_kbps"] == "" and b3["plan_volume_gbit"] == ""
     assert b1["downlinked_gbit"] == "101.25" and b3["downlinked_gbit"] == ""
     assert b2["findings"] == "outside-pass" and b1["findings"] == ""
     assert b3["locked"] == "true" and b1["locked"] == "false"
@@ -87,7 +102,7 @@ def test_json_exports(plan, tmp_path):
     doc = json.loads((tmp_path / "p.json").read_text(encoding="utf-8"))  # stdlib json reader
     assert doc["caution"] == CAUTION and doc["revision"] == 4 and doc["scenario"] == "Week 03"
     assert doc["generated"] == "2027-01-11T09:30:00Z"
-    cols, rows = pass_table(plan.passes)
+    cols, rows = pass_table(plan.passes, plan.link_profiles)
     assert doc["columns"] == cols and len(doc["passes"]) == 14
     assert doc["passes"][0] == dict(zip(cols, rows[0]))
     assert isinstance(doc["passes"][0]["max_elevation_deg"], float)
@@ -95,7 +110,10 @@ def test_json_exports(plan, tmp_path):
     export(plan.scenario, tmp_path / "b.json", "bookings", plan=plan, now_tt=NOW_TT)
     doc = json.loads((tmp_path / "b.json").read_text(encoding="utf-8"))
     b = {r["id"]: r for r in doc["bookings"]}
-    assert b["B001"]["purposes"] == ["downlink", "ranging", "commanding"]
+    assert b["B001"]["services"] == ["telemetry", "playback", "commanding", "ranging", "doppler"]
+    assert b["B001"]["rate_plan_kbps"][1] == {"start_utc": "2027-01-12T20:26:15Z", "end_utc": "2027-01-13T02:33:45Z",
+                                               "rate_kbps": 16000.0}
+    assert b["B001"]["plan_volume_gbit"] == pytest.approx(355.95) and b["B002"]["plan_volume_gbit"] is None
     assert b["B002"]["downlinked_gbit"] == 48.75 and b["B003"]["locked"] is True
     assert b["B002"]["findings"] == ["outside-pass"]
     assert doc["window"] == {"start": "2027-01-12T00:00:00.000Z", "end": "2027-01-19T00:00:00.000Z"}
@@ -119,6 +137,7 @@ def test_header_labels_carry_units():
     assert header_label("volume_gbit") == "Volume (Gbit)"
     assert header_label("aos_doy") == "AOS (DOY, UTC)"
     assert header_label("station") == "Station"
+    assert header_label("margin_X-DN_db") == "Margin at culmination, X-DN (dB)"
 
 
 def test_sheet_names_are_legal_and_unique():
@@ -141,7 +160,7 @@ def test_pass_workbook_read_back(plan, tmp_path):
     assert msg == f"wrote 14 passes to {out}"
     wb = openpyxl.load_workbook(out)
     assert wb.sheetnames == ["All stations", "NRV", "KAL", "Notes"]
-    cols, rows = pass_table(plan.passes)
+    cols, rows = pass_table(plan.passes, plan.link_profiles)
     ws = wb["All stations"]
     assert ws.freeze_panes == "B2"
     head = [c.value for c in ws[1]]
@@ -158,6 +177,7 @@ def test_pass_workbook_read_back(plan, tmp_path):
             assert v == w, c
             assert isinstance(v, bool) == isinstance(w, bool) and isinstance(v, str) == isinstance(w, str), c
         assert isinstance(rec["Duration (s)"], (int, float)) and isinstance(rec["Max elevation (deg)"], float)
+        assert rec["Margin at culmination, DN (dB)"] == (4.57 if rec["Station"] == "NRV" else None)
         # the Excel date-time is the same instant as the UTC text, to the millisecond
         aos = to_datetime(parse_utc(rec["AOS (UTC)"])).replace(tzinfo=None)
         assert isinstance(rec["AOS (date-time, UTC)"], dt.datetime)
@@ -181,7 +201,12 @@ def test_booking_workbook_read_back(plan, tmp_path):
     head = [c.value for c in ws[1]]
     recs = [dict(zip(head, [c.value for c in r])) for r in ws.iter_rows(min_row=2)]
     assert [r["Id"] for r in recs] == ["B001", "B002", "B003"]
-    assert recs[0]["Purposes"] == "downlink;ranging;commanding"
+    assert recs[0]["Services"] == "telemetry;playback;commanding;ranging;doppler"
+    assert recs[0]["Track start, BOT (date-time, UTC)"] == dt.datetime(2027, 1, 12, 19, 45)
+    assert recs[0]["Track end, EOT (DOY, UTC)"] == "2027-013T02:45:00Z"
+    assert recs[0]["Pre-pass (min)"] == 45 and recs[0]["Post-pass (min)"] == 15
+    assert recs[0]["Rate plan (UTC start/end, kbit/s)"].split("; ")[1] == "2027-01-12T20:26:15Z/2027-01-13T02:33:45Z 16000"
+    assert recs[0]["Rate plan volume (Gbit)"] == pytest.approx(355.95)
     assert recs[0]["Start (date-time, UTC)"] == dt.datetime(2027, 1, 12, 19, 0)
     assert recs[0]["Downlinked (Gbit)"] == 101.25 and recs[2]["Locked"] is True
 

@@ -127,3 +127,18 @@ def test_report_first_page_renders_with_pdfium(data_dir, tmp_path):
         assert lo < 100 and hi > 200
     finally:
         doc.close()
+
+
+def test_report_shows_services_rate_plan_and_links(data_dir, tmp_path):
+    from contactplan.io.report import write_report
+
+    plan = make_plan(data_dir)
+    out = tmp_path / "week.pdf"
+    write_report(plan, out, now_tt=NOW_TT)
+    _reader, text = _text(out)
+    # B001's services, its track and its rate plan on DN (make_plan: steps at 20:26:15 and 02:33:45 UTC)
+    for words in ("telemetry, playback, commanding, ranging, doppler", "19:45 to 02:45",
+                  "DN: 19:45-20:26 1000; 20:26-02:33 16000; 02:33-02:45 1000", "355.95 / 101.25",
+                  "Links and station services", "DN margin (dB)", "4.6"):
+        assert words in text, words
+    assert "purposes" not in text.lower() and "setup" not in text.lower()

@@ -144,11 +144,13 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     if what == "passes":
         plan = _plan_for(scenario, plan, progress, cancel)
         passes = plan.passes
+        per_link = getattr(plan, "link_profiles", None)  # margin per link columns
         if fmt in ("csv", "json"):
             from contactplan.fileio import atomic_write
             from contactplan.io.exporting import passes_csv, passes_json
 
-            atomic_write(out, passes_csv(passes) if fmt == "csv" else passes_json(scenario, passes, now_tt))
+            atomic_write(out, passes_csv(passes, per_link) if fmt == "csv"
+                         else passes_json(scenario, passes, now_tt, per_link))
         elif fmt == "text":
             from contactplan.io.passtable import write_passes
 
@@ -156,7 +158,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
         else:
             from contactplan.io.xlsx import write_passes_xlsx
 
-            write_passes_xlsx(scenario, passes, out, now_tt=now_tt)
+            write_passes_xlsx(scenario, passes, out, now_tt=now_tt, link_profiles=per_link)
         return f"wrote {_plural(len(passes), 'pass', 'passes')} to {out}"
     if what == "bookings":
         note = ""

@@ -1,10 +1,15 @@
 """Booking list: rows for tables, CSV (RFC 4180) and JSON.
 
-A booking runs from ``start`` to ``end`` (UTC), setup and teardown included:
-the station configures for ``setup_min`` after the start and releases for
-``teardown_min`` before the end; data flows in between (``data_start`` to
-``data_end``). Downlinked volume comes from the recorder result when a plan is
-given; the rule codes of the findings that name the booking are listed too.
+A booking runs from ``start`` to ``end`` (UTC), pre-pass and post-pass included:
+the station configures for ``pre_pass_min`` after the start and releases for
+``post_pass_min`` before the end; the track runs in between (BOT ``bot_utc`` to
+EOT ``eot_utc``). ``services`` are the booked services (telemetry, playback,
+commanding, ranging, doppler). With a plan, the rate plan of the booking's down
+link (the station's playback link when playback is booked, else its telemetry
+link) over the track is listed as time-tagged steps (``rate_plan_kbps``: start,
+end, rate) with the volume of that plan (``plan_volume_gbit``), the volume the
+recorder actually gives up (``downlinked_gbit``) and the rule codes of the findings
+that name the booking.
 """
 
 from __future__ import annotations
@@ -25,12 +30,16 @@ BOOKING_COLUMNS = (
     "start_doy",
     "end_doy",
     "duration_min",
-    "setup_min",
-    "teardown_min",
-    "data_start_utc",
-    "data_end_utc",
-    "purposes",
+    "pre_pass_min",
+    "post_pass_min",
+    "bot_utc",
+    "eot_utc",
+    "services",
+    "handover_from",
     "locked",
+    "rate_plan_link",
+    "rate_plan_kbps",
+    "plan_volume_gbit",
     "downlinked_gbit",
     "findings",
 )
@@ -41,26 +50,98 @@ def sorted_bookings(scenario) -> list:
     return sorted(scenario.bookings, key=lambda b: (b.start_tt, b.station, b.id))
 
 
-def booking_record(scenario, booking, plan=None) -> dict:
-    """One booking as a dict of typed values (times as UTC text, lists kept as lists)."""
+class _PlanIndex:
+    """What the booking rows need from a plan, indexed once: passes per station sorted by AOS (bisection
+    by LOS: one station's passes never overlap) and findings per subject."""
+
+    def __init__(self, plan):
+        import numpy as np
+
+        self.plan = plan
+        self.passes: dict = {}
+        for p in sorted(getattr(plan, "passes", None) or [], key=lambda p: p.aos_tt):
+            self.passes.setdefault(p.station, []).append(p)
+        self.los = {k: np.array([p.los_tt for p in v]) for k, v in self.passes.items()}
+        self.findings: dict = {}
+        for f in getattr(plan, "findings", []) or []:
+            for s in f.subjects:
+                rules = self.findings.setdefault(s, [])
+                if f.rule not in rules:
+                    rules.append(f.rule)
+
+    def passes_over(self, station: str, t0: float, t1: float) -> list:
+        import numpy as np
+
+        ps = self.passes.get(station, [])
+        i = int(np.searchsorted(self.los.get(station, np.zeros(0)), t0, side="right"))
+        out = []
+        while i < len(ps) and ps[i].aos_tt < t1:
+            out.append(ps[i])
+            i += 1
+        return out
+
+
+def rate_plan_link(scenario, station, services):
+    """The down link whose rate plan a booking of ``services`` follows (None: no down service there)."""
+    from contactplan.link.services import links_for, playback_link
+
+    if "playback" in services:
+        lk = playback_link(scenario, station)
+        if lk is not None:
+            return lk
+    if "telemetry" in services:
+        down = links_for(scenario, station, "telemetry", "down")
+        return down[0] if down else None
+    return None
+
+
+def booking_rate_plan(scenario, booking, index, bot_tt, eot_tt):
+    """(link id, [(start_tt, end_tt, rate_kbps)] nonzero steps over the track, plan volume Gbit) of a booking."""
+    from contactplan.link.services import playback_link
+
+    try:
+        st = scenario.station(booking.station)
+    except KeyError:
+        return None, [], None
+    lk = rate_plan_link(scenario, st, booking.services)
+    profiles = (getattr(index.plan, "link_profiles", None) or {}).get(lk.id) if lk is not None else None
+    if not profiles and lk is not None and lk is playback_link(scenario, st):
+        profiles = getattr(index.plan, "profiles", None)  # a result holding only the playback profiles
+    if not profiles:
+        return (None if lk is None else lk.id), [], None
+    steps, volume = [], 0.0
+    for p in index.passes_over(booking.station, bot_tt, eot_tt):
+        prof = profiles.get(id(p))
+        if prof is None:
+            continue
+        edges, rates = prof.rate_steps(bot_tt, eot_tt)
+        steps += [(float(a), float(b), float(r)) for a, b, r in zip(edges[:-1], edges[1:], rates) if r > 0]
+        volume += prof.volume_gbit(bot_tt, eot_tt)
+    return lk.id, steps, round(float(volume), 6)
+
+
+def booking_record(scenario, booking, plan=None, index=None) -> dict:
+    """One booking as a dict of typed values (times as UTC text, lists kept as lists; each rate-plan step a
+    dict ``{start_utc, end_utc, rate_kbps}``). ``index``: a shared ``_PlanIndex`` of ``plan``."""
     from contactplan.timescale import format_doy, format_utc
 
     try:
         st = scenario.station(booking.station)
-        name, setup_min, teardown_min = st.name, float(st.setup_min), float(st.teardown_min)
+        name, pre_min, post_min = st.name, float(st.pre_pass_min), float(st.post_pass_min)
     except KeyError:
-        name, setup_min, teardown_min = "", 0.0, 0.0
-    data_start = min(booking.start_tt + setup_min * 60.0, booking.end_tt)
-    data_end = max(booking.end_tt - teardown_min * 60.0, data_start)
+        name, pre_min, post_min = "", 0.0, 0.0
+    bot = min(booking.start_tt + pre_min * 60.0, booking.end_tt)
+    eot = max(booking.end_tt - post_min * 60.0, bot)
     down = None
     rules = []
+    link_id, steps, plan_gbit = None, [], None
     if plan is not None:
+        index = index or _PlanIndex(plan)
         rec = getattr(plan, "recorder", None)
         if rec is not None and booking.id in (rec.downlinked_by_booking_gbit or {}):
             down = round(float(rec.downlinked_by_booking_gbit[booking.id]), 6)
-        for f in getattr(plan, "findings", []) or []:
-            if booking.id in f.subjects and f.rule not in rules:
-                rules.append(f.rule)
+        rules = list(index.findings.get(booking.id, []))
+        link_id, steps, plan_gbit = booking_rate_plan(scenario, booking, index, bot, eot)
     return {
         "id": booking.id,
         "station": booking.station,
@@ -70,19 +151,30 @@ def booking_record(scenario, booking, plan=None) -> dict:
         "start_doy": format_doy(booking.start_tt),
         "end_doy": format_doy(booking.end_tt),
         "duration_min": round(booking.duration_s / 60.0, 3),
-        "setup_min": setup_min,
-        "teardown_min": teardown_min,
-        "data_start_utc": format_utc(data_start),
-        "data_end_utc": format_utc(data_end),
-        "purposes": list(booking.purposes),
+        "pre_pass_min": pre_min,
+        "post_pass_min": post_min,
+        "bot_utc": format_utc(bot),
+        "eot_utc": format_utc(eot),
+        "services": list(booking.services),
+        "handover_from": booking.handover_from,
         "locked": bool(booking.locked),
+        "rate_plan_link": link_id,
+        "rate_plan_kbps": [{"start_utc": format_utc(a, 0), "end_utc": format_utc(b, 0), "rate_kbps": r}
+                           for a, b, r in steps],
+        "plan_volume_gbit": plan_gbit,
         "downlinked_gbit": down,
         "findings": rules,
     }
 
 
+def rate_plan_text(steps) -> str:
+    """Rate-plan steps as one cell: ``START/END RATE`` (UTC, kbit/s) joined by ``; ``."""
+    return "; ".join(f"{s['start_utc']}/{s['end_utc']} {s['rate_kbps']:g}" for s in steps)
+
+
 def booking_records(scenario, plan=None) -> list[dict]:
-    return [booking_record(scenario, b, plan) for b in sorted_bookings(scenario)]
+    index = None if plan is None else _PlanIndex(plan)
+    return [booking_record(scenario, b, plan, index) for b in sorted_bookings(scenario)]
 
 
 def _cell(value) -> str:
@@ -94,6 +186,8 @@ def _cell(value) -> str:
     from contactplan.io.cells import csv_text
 
     if isinstance(value, (list, tuple)):
+        if value and all(isinstance(v, dict) and "rate_kbps" in v for v in value):
+            return csv_text(rate_plan_text(value))
         return csv_text(";".join(str(v) for v in value))
     if isinstance(value, (int, float)) or hasattr(value, "dtype"):
         return str(value)  # numbers stay numbers

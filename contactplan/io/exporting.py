@@ -141,11 +141,12 @@ def _numeric(s: str) -> bool:
     return math.isfinite(v)
 
 
-def pass_table(passes) -> tuple[list[str], list[list]]:
+def pass_table(passes, link_profiles=None) -> tuple[list[str], list[list]]:
     """Columns and typed rows of the pass table, sorted by AOS.
 
     Uses ``contactplan.io.passtable`` (PASS_COLUMNS, pass_rows) so every export
-    shows exactly the columns of ``contactplan passes``.
+    shows the columns of ``contactplan passes``, then, given ``link_profiles``
+    (``PlanResult.link_profiles``), the culmination margin per link.
     """
     passes = sorted(passes, key=lambda p: (p.aos_tt, p.station))
     try:
@@ -153,7 +154,7 @@ def pass_table(passes) -> tuple[list[str], list[list]]:
     except ImportError:  # pragma: no cover - only while the pass table module is missing
         cols = list(FALLBACK_PASS_COLUMNS)
         return cols, [[typed_cell(v, c) for v, c in zip(r, cols)] for r in _fallback_rows(passes)]
-    raw = pass_rows(passes)
+    raw = pass_rows(passes, link_profiles)
     try:  # the same columns as ``contactplan passes`` (link columns only once computed)
         from contactplan.io.passtable import columns_for
 
@@ -168,17 +169,17 @@ def pass_table(passes) -> tuple[list[str], list[list]]:
     return columns, rows
 
 
-def passes_csv(passes) -> str:
+def passes_csv(passes, link_profiles=None) -> str:
     from contactplan.io.bookings import table_csv
 
-    columns, rows = pass_table(passes)
+    columns, rows = pass_table(passes, link_profiles)
     return table_csv(columns, rows)
 
 
-def passes_json(scenario, passes, now_tt: float | None = None) -> str:
+def passes_json(scenario, passes, now_tt: float | None = None, link_profiles=None) -> str:
     from contactplan.io.bookings import header
 
-    columns, rows = pass_table(passes)
+    columns, rows = pass_table(passes, link_profiles)
     doc = header(scenario, now_tt)
     doc["columns"] = columns
     doc["passes"] = [dict(zip(columns, r)) for r in rows]

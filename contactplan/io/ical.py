@@ -4,7 +4,8 @@ One VEVENT per booking, times in UTC. The UID is derived from the scenario name
 and the booking id only, so re-exporting an edited plan updates the events
 already in a calendar instead of duplicating them; SEQUENCE is the plan
 revision, so a later revision wins. SUMMARY carries booking, station and
-purposes; DESCRIPTION the setup, data and teardown times and the caution.
+services; CATEGORIES the services; DESCRIPTION the pre-pass, track (BOT to EOT)
+and post-pass times, the rate plan and its volume, and the caution.
 """
 
 from __future__ import annotations
@@ -33,12 +34,19 @@ def _line(text: str) -> str:
 def _describe(rec: dict, station) -> str:
     lines = [
         f"Booking {rec['id']} on {rec['station']}" + (f" ({rec['station_name']})" if rec["station_name"] else ""),
-        f"Purposes: {', '.join(rec['purposes']) or 'none'}",
+        f"Services: {', '.join(rec['services']) or 'none'}",
         f"Booked: {rec['start_utc']} to {rec['end_utc']} ({rec['start_doy']} to {rec['end_doy']})",
-        f"Setup: {rec['setup_min']:g} min, {rec['start_utc']} to {rec['data_start_utc']}",
-        f"Data: {rec['data_start_utc']} to {rec['data_end_utc']}",
-        f"Teardown: {rec['teardown_min']:g} min, {rec['data_end_utc']} to {rec['end_utc']}",
+        f"Pre-pass: {rec['pre_pass_min']:g} min, {rec['start_utc']} to {rec['bot_utc']}",
+        f"Track: BOT {rec['bot_utc']} to EOT {rec['eot_utc']}",
+        f"Post-pass: {rec['post_pass_min']:g} min, {rec['eot_utc']} to {rec['end_utc']}",
     ]
+    if rec["handover_from"]:
+        lines.append(f"Continues {rec['handover_from']} (handover)")
+    if rec["rate_plan_kbps"]:
+        lines.append(f"Rate plan on {rec['rate_plan_link']} (kbit/s):")
+        lines += [f"  {s['start_utc']} to {s['end_utc']}: {s['rate_kbps']:g}" for s in rec["rate_plan_kbps"]]
+    if rec["plan_volume_gbit"] is not None:
+        lines.append(f"Rate plan volume: {rec['plan_volume_gbit']:.3f} Gbit")
     if rec["downlinked_gbit"] is not None:
         lines.append(f"Planned downlink: {rec['downlinked_gbit']:.3f} Gbit")
     if rec["findings"]:
@@ -78,13 +86,13 @@ def calendar(scenario, plan=None, now_tt: float | None = None):
         ev.add("sequence", int(scenario.revision))
         ev.add("dtstart", to_datetime(b.start_tt))
         ev.add("dtend", to_datetime(b.end_tt))
-        ev.add("summary", _line(f"{b.id} {b.station}: {', '.join(b.purposes) or 'contact'}"))
+        ev.add("summary", _line(f"{b.id} {b.station}: {', '.join(b.services) or 'contact'}"))
         ev.add("description", _describe(rec, st))
         if st is not None:
             ev.add("location", _line(f"{st.name} ({st.id})"))
             ev.add("geo", (float(st.latitude_deg), float(st.longitude_deg)))
-        if b.purposes:
-            ev.add("categories", list(b.purposes))
+        if b.services:
+            ev.add("categories", list(b.services))
         ev.add("status", "CONFIRMED" if b.locked else "TENTATIVE")
         ev.add("transp", "OPAQUE")
         cal.add_component(ev)

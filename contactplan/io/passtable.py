@@ -6,7 +6,10 @@ aos_azimuth_deg, los_azimuth_deg, min_range_km, max_range_km``. Times are UTC
 ``YYYY-MM-DDTHH:MM:SS.sssZ``; ``aos_doy``/``los_doy`` repeat AOS and LOS as day of
 year (``YYYY-DDDTHH:MM:SSZ``, rounded to the second) for operations logs.
 Link columns (``max_rate_kbps``, ``volume_gbit``) are empty until the link budget
-has been computed.
+has been computed. Given the per-link profiles (``PlanResult.link_profiles``), one
+``margin_<LINK>_db`` column follows per link with a budget: the margin at culmination
+(down: Eb/N0 at the rate in use minus the required Eb/N0; up: Pt/N0 minus the required
+Pt/N0, dB), empty where the pass's station does not offer that link.
 """
 
 from __future__ import annotations
@@ -29,6 +32,11 @@ PASS_COLUMNS = FIXED_COLUMNS + (
 LINK_COLUMNS = ("max_rate_kbps", "volume_gbit")
 
 
+def margin_column(link_id: str) -> str:
+    """Pass-table column of one link's culmination margin (dB)."""
+    return f"margin_{link_id}_db"
+
+
 def _outage_text(outages) -> str:
     from contactplan.timescale import format_utc
 
@@ -41,12 +49,14 @@ def _outage_text(outages) -> str:
     return "; ".join(parts)
 
 
-def pass_rows(passes) -> list[dict]:
+def pass_rows(passes, link_profiles=None) -> list[dict]:
     """Rows (dicts keyed by :data:`PASS_COLUMNS`) of the passes sorted by AOS.
 
     Times are text, numbers are rounded Python floats (durations to the
     millisecond, angles to 0.001 deg, ranges to the metre, light time to the
     microsecond), flags are bools, link values None when not computed.
+    ``link_profiles`` (``{link id: {id(pass): PassProfile}}``) adds one
+    ``margin_<LINK>_db`` key per link (0.01 dB; None where the station lacks the link).
     """
     import numpy as np
 
@@ -86,13 +96,18 @@ def pass_rows(passes) -> list[dict]:
             "max_rate_kbps": None if p.max_rate_kbps is None else round(float(p.max_rate_kbps), 3),
             "volume_gbit": None if p.volume_gbit is None else round(float(p.volume_gbit), 6),
         })
+        for link_id, per_pass in (link_profiles or {}).items():
+            prof = per_pass.get(id(p))
+            m = None if prof is None else prof.culmination_margin_db
+            rows[-1][margin_column(link_id)] = None if m is None or not np.isfinite(m) else round(float(m), 2)
     return rows
 
 
 def columns_for(rows) -> list[str]:
-    """PASS_COLUMNS, without the link columns when no row has a value in them."""
+    """PASS_COLUMNS, without the link columns when no row has a value in them, then the margin columns."""
     has_link = any(r.get(c) is not None for r in rows for c in LINK_COLUMNS)
-    return [c for c in PASS_COLUMNS if has_link or c not in LINK_COLUMNS]
+    margins = [k for k in (rows[0] if rows else {}) if k.startswith("margin_") and k.endswith("_db")]
+    return [c for c in PASS_COLUMNS if has_link or c not in LINK_COLUMNS] + margins
 
 
 def _csv_cell(v):
@@ -103,9 +118,9 @@ def _csv_cell(v):
     return csv_text(v)  # text that a spreadsheet would run as a formula gets a leading quote
 
 
-def passes_csv_text(passes, columns=None) -> str:
+def passes_csv_text(passes, columns=None, link_profiles=None) -> str:
     """RFC 4180 CSV (CRLF line ends, header first)."""
-    rows = pass_rows(passes)
+    rows = pass_rows(passes, link_profiles)
     cols = list(columns or columns_for(rows))
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")

@@ -3,8 +3,10 @@
 Pages: a cover (mission, window in UTC and day of year, plan revision,
 generation time, a summary and the caution); the week as a timeline (one lane
 per station with passes, outages and bookings, a spacecraft lane with burns,
-slews and their monitor spans and keep-outs); the booking table; the findings;
-the recorder fill against capacity; achievable rate and volume per pass.
+slews and their monitor spans and keep-outs); the booking table (services, track,
+rate plan and its volume); the spacecraft's links per band and which station gives
+which; the findings; the recorder fill against capacity; achievable rate and volume
+per pass with the culmination margin on every link.
 
 Text uses the PDF base-14 Helvetica family (present in every PDF reader, nothing
 embedded) while every name in the plan fits its Latin-1 style encoding; a name
@@ -29,7 +31,7 @@ from contactplan import CAUTION, __version__
 COLOURS = {
     "pass": "#56B4E9",  # sky blue, light fill
     "booking": "#0072B2",  # blue
-    "setup": "#9CC3E0",  # lighter blue: setup and teardown inside a booking
+    "setup": "#9CC3E0",  # lighter blue: pre-pass and post-pass inside a booking
     "burn": "#D55E00",  # vermillion
     "slew": "#E69F00",  # orange
     "other": "#CC79A7",  # reddish purple
@@ -148,7 +150,7 @@ def timeline_figure(plan, width_in: float):
         try:
             st = sc.station(sid)
             outs = [(o.start_tt, o.end_tt) for o in st.outages]
-            setup_s, tear_s = st.setup_min * 60.0, st.teardown_min * 60.0
+            setup_s, tear_s = st.pre_pass_min * 60.0, st.post_pass_min * 60.0
         except KeyError:
             outs, setup_s, tear_s = [], 0.0, 0.0
         bars(sid, outs, 0.8, facecolors="none", edgecolors=COLOURS["outage"], hatch="xxx", lw=0.5, zorder=2)
@@ -165,10 +167,10 @@ def timeline_figure(plan, width_in: float):
             if s and s[1] > 0.12:
                 ax.text(s[0] + s[1] / 2, y[sid], b.id, ha="center", va="center", fontsize=6, color="white",
                         zorder=4, clip_on=True)
-    kinds = {"burn": ("////", COLOURS["burn"]), "slew": ("\\\\\\\\", COLOURS["slew"]), "other": ("..", COLOURS["other"])}
+    kinds = {"burn": ("////", COLOURS["burn"]), "momentum-dump": ("xx", COLOURS["burn"]), "slew": ("\\\\\\\\", COLOURS["slew"]), "other": ("..", COLOURS["other"])}
     for act in sc.activities:
         hatch, colour = kinds.get(act.kind, kinds["other"])
-        if act.kind == "burn" and (act.monitor_before_min or act.monitor_after_min):
+        if act.changes_velocity and (act.monitor_before_min or act.monitor_after_min):
             bars("Spacecraft", [act.monitor_span_tt], 0.75, facecolors="none", edgecolors=COLOURS["monitor"],
                  lw=1.0, zorder=2)
         # drawn at least 1/300 of the window wide so a short slew stays visible at week scale
@@ -183,12 +185,13 @@ def timeline_figure(plan, width_in: float):
     ax.tick_params(axis="y", length=0)
     legend = [
         Patch(facecolor=COLOURS["pass"], alpha=0.45, label="pass"),
-        Patch(facecolor=COLOURS["booking"], edgecolor=COLOURS["booking"], label="booking (data)"),
-        Patch(facecolor=COLOURS["setup"], edgecolor=COLOURS["booking"], label="setup / teardown"),
+        Patch(facecolor=COLOURS["booking"], edgecolor=COLOURS["booking"], label="booking track (BOT-EOT)"),
+        Patch(facecolor=COLOURS["setup"], edgecolor=COLOURS["booking"], label="pre-pass / post-pass"),
         Patch(facecolor="none", edgecolor=COLOURS["error"], lw=1.4, label="booking with an error"),
         Patch(facecolor="none", edgecolor=COLOURS["outage"], hatch="xxx", label="station outage"),
         Patch(facecolor=COLOURS["burn"], edgecolor="black", hatch="////", label="burn"),
-        Patch(facecolor="none", edgecolor=COLOURS["monitor"], label="burn monitor span"),
+        Patch(facecolor=COLOURS["burn"], edgecolor="black", hatch="xx", label="momentum dump"),
+        Patch(facecolor="none", edgecolor=COLOURS["monitor"], label="monitor span"),
         Patch(facecolor=COLOURS["slew"], edgecolor="black", hatch="\\\\\\\\", label="slew"),
         Patch(facecolor=COLOURS["keepout"], alpha=0.25, label="downlink keep-out"),
     ]
@@ -214,7 +217,7 @@ def recorder_figure(plan, width_in: float):
         ax.axvspan((a - t0) / 86400.0, (b - t0) / 86400.0, color=COLOURS["error"], alpha=0.25, hatch="//",
                    lw=0, label="overflow (data lost)" if k == 0 else None)
     for b in sc.bookings:
-        if "downlink" in b.purposes:
+        if "playback" in b.services:
             ax.axvspan((b.start_tt - t0) / 86400.0, (b.end_tt - t0) / 86400.0, ymin=0, ymax=0.04,
                        color=COLOURS["booking"], lw=0)
     ax.set_ylim(0, max(rec.capacity_gbit * 1.12, float(max(rec.fill_gbit, default=0.0)) * 1.05, 1.0))
@@ -297,6 +300,15 @@ def _count(n: int, word: str) -> str:
     return f"{n} {word}" if n == 1 else f"{n} {word}s"
 
 
+def _rate_plan_cell(rec: dict) -> str:
+    """A booking's rate plan in a table cell: ``X-DN: 11:45-13:10 256; ...`` (UTC hours, kbit/s)."""
+    steps = rec.get("rate_plan_kbps") or []
+    if not steps:
+        return "-"
+    return f"{rec['rate_plan_link']}: " + "; ".join(
+        f"{s['start_utc'][11:16]}-{s['end_utc'][11:16]} {s['rate_kbps']:g}" for s in steps)
+
+
 def _hours(seconds: float) -> str:
     return f"{seconds / 3600.0:.2f}"
 
@@ -351,7 +363,8 @@ def _plan_texts(plan) -> list:
         texts += [st.id, st.name] + [getattr(o, "reason", "") for o in st.outages]
     texts += [a.id for a in sc.activities]
     for b in sc.bookings:
-        texts += [b.id, b.station] + list(b.purposes)
+        texts += [b.id, b.station] + list(b.services)
+    texts += [f"{lk.id} {lk.band}" for lk in sc.spacecraft.links]
     texts += [f.message for f in plan.findings] + [str(x) for f in plan.findings for x in f.subjects]
     return texts
 
@@ -445,8 +458,9 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         ["Passes", str(len(plan.passes))],
         ["Bookings", f"{len(sc.bookings)} ({booked_s / 3600.0:.1f} station hours)"],
         ["Activities in the window", f"{_count(sum(a.kind == 'burn' for a in acts), 'burn')}, "
+                                     f"{_count(sum(a.kind == 'momentum-dump' for a in acts), 'momentum dump')}, "
                                      f"{_count(sum(a.kind == 'slew' for a in acts), 'slew')}, "
-                                     f"{sum(a.kind not in ('burn', 'slew') for a in acts)} other"],
+                                     f"{sum(a.kind not in ('burn', 'momentum-dump', 'slew') for a in acts)} other"],
         ["Findings", findings_text],
     ]
     if rec is not None:
@@ -479,31 +493,51 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     # ---- timeline, on a landscape page
     span_name = "week" if sc.end_tt - sc.start_tt <= 8 * 86400.0 else "window"
     story += [P(f"The {span_name} at a glance", h2),
-              P("One lane per station: light bands are passes, dark blocks bookings (lighter ends: setup and "
-                "teardown), cross-hatched boxes outages; bookings outlined in vermillion have an error. The top "
-                "lane holds the spacecraft's burns, slews and burn monitor spans; grey columns across all lanes "
-                "are downlink keep-outs.", small),
+              P("One lane per station: light bands are passes, dark blocks booking tracks (BOT to EOT; lighter "
+                "ends: pre-pass and post-pass), cross-hatched boxes outages; bookings outlined in vermillion have "
+                "an error. The top lane holds the spacecraft's burns, momentum dumps, slews and monitor spans; "
+                "grey columns across all lanes are downlink keep-outs.", small),
               Spacer(1, 3 * mm), figure(timeline_figure(plan, wide_w / inch), wide_w, wide_h - 20 * mm),
               NextPageTemplate("tall"), PageBreak()]
 
     # ---- bookings
     story.append(P(f"Bookings ({len(records)})", h2))
     if records:
-        head = ["Id", "Station", "Start (UTC)", "End (UTC)", "Hours", "Purposes", "Down (Gbit)", "Findings"]
+        head = ["Id", "Station", "Start (UTC)", "End (UTC)", "Track (UTC)", "Services", "Rate plan (kbit/s)",
+                "Plan / down (Gbit)", "Findings"]
         rows = [head]
         for r in records:
-            b = sc.booking(r["id"])
-            rows.append([P(r["id"] + (" (locked)" if r["locked"] else ""), small), r["station"],
-                         P(f"{r['start_utc'][:19]}Z {r['start_doy'][5:8]}", small),
-                         P(f"{r['end_utc'][:19]}Z {r['end_doy'][5:8]}", small),
-                         _hours(b.duration_s), P(", ".join(r["purposes"]), small),
-                         _num(r["downlinked_gbit"]), P(", ".join(r["findings"]) or "-", small)])
+            rows.append([P(r["id"] + (" (locked)" if r["locked"] else "")
+                           + (f", after {r['handover_from']}" if r["handover_from"] else ""), small), r["station"],
+                         P(f"{r['start_utc'][:16]}Z {r['start_doy'][5:8]}", small),
+                         P(f"{r['end_utc'][:16]}Z {r['end_doy'][5:8]}", small),
+                         P(f"{r['bot_utc'][11:16]} to {r['eot_utc'][11:16]}", small),
+                         P(", ".join(r["services"]) or "-", small), P(_rate_plan_cell(r), small),
+                         f"{_num(r['plan_volume_gbit'])} / {_num(r['downlinked_gbit'])}",
+                         P(", ".join(r["findings"]) or "-", small)])
         w = frame_w
-        story.append(table(rows, [0.1 * w, 0.08 * w, 0.17 * w, 0.17 * w, 0.07 * w, 0.16 * w, 0.09 * w, 0.16 * w]))
-        story.append(P("Start and end include setup and teardown; the three digits after the time are the day of "
-                       "year.", small))
+        story.append(table(rows, [0.08 * w, 0.065 * w, 0.13 * w, 0.13 * w, 0.1 * w, 0.15 * w, 0.16 * w, 0.085 * w,
+                                  0.1 * w]))
+        story.append(P("Start and end include the station's pre-pass and post-pass; the track (BOT to EOT) lies "
+                       "between; the three digits after the time are the day of year. Rate plan: the time-tagged "
+                       "rate steps of the booking's down link over its track (start-end UTC: rate); plan: the "
+                       "volume of that plan; down: what the recorder gives up (playback only).", small))
     else:
         story.append(P("No bookings in this plan yet."))
+    story.append(Spacer(1, 6 * mm))
+
+    # ---- links per band and station services
+    links = list(sc.spacecraft.links)
+    if links:
+        story.append(P("Links and station services", h2))
+        rows = [["Link", "Band", "Direction", "Frequency (MHz)", "Carries", "Rates (kbit/s)", "Stations"]]
+        for lk in links:
+            at = [st.id for st in sc.stations if st.service(lk.id) is not None]
+            rows.append([lk.id, lk.band, lk.direction, _num(lk.frequency_mhz, "{:.1f}"),
+                         P(", ".join(lk.carries) or "-", small),
+                         P(", ".join(f"{r:g}" for r in lk.rates_kbps) or "-", small), P(", ".join(at) or "-", small)])
+        w = frame_w
+        story.append(table(rows, [0.1 * w, 0.07 * w, 0.1 * w, 0.13 * w, 0.25 * w, 0.15 * w, 0.2 * w]))
     story.append(Spacer(1, 6 * mm))
 
     # ---- findings
@@ -552,13 +586,23 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
                     "(not what is booked), drawn at the pass's culmination.", small), Spacer(1, 2 * mm), figure(rate_volume_figure(plan, fig_w_in))]
     story.append(KeepTogether(block))
     if plan.passes:
-        rows = [["Station", "AOS (UTC)", "LOS (UTC)", "Hours", "Max el. (deg)", "Max rate (kbit/s)", "Volume (Gbit)"]]
+        per_link = getattr(plan, "link_profiles", None) or {}
+        rows = [["Station", "AOS (UTC)", "LOS (UTC)", "Hours", "Max el. (deg)", "Max rate (kbit/s)", "Volume (Gbit)"]
+                + [P(f"{k} margin (dB)", small) for k in per_link]]
         for p in sorted(plan.passes, key=lambda p: (p.aos_tt, p.station)):
             mark = " *" if (p.clipped_start or p.clipped_end) else ""
-            rows.append([p.station, _fmt(p.aos_tt), _fmt(p.los_tt), _hours(p.duration_s) + mark,
-                         f"{p.max_elevation_deg:.1f}", _num(p.max_rate_kbps, "{:g}"), _num(p.volume_gbit)])
+            margins = [getattr(per_link[k].get(id(p)), "culmination_margin_db", None) for k in per_link]
+            rows.append([p.station, _fmt(p.aos_tt)[:16] + "Z", _fmt(p.los_tt)[:16] + "Z", _hours(p.duration_s) + mark,
+                         f"{p.max_elevation_deg:.1f}", _num(p.max_rate_kbps, "{:g}"), _num(p.volume_gbit)]
+                        + [_num(m, "{:.1f}") for m in margins])
         w = frame_w
-        story += [Spacer(1, 3 * mm), table(rows, [0.1 * w, 0.21 * w, 0.21 * w, 0.1 * w, 0.12 * w, 0.14 * w, 0.12 * w])]
+        fixed = [0.09, 0.17, 0.17, 0.08, 0.09, 0.11, 0.1]
+        rest = (1.0 - sum(fixed)) / max(len(per_link), 1)
+        story += [Spacer(1, 3 * mm), table(rows, [f * w for f in fixed] + [rest * w] * len(per_link))]
+        if per_link:
+            story.append(P("Margin: at culmination, dB above what the link needs (down: Eb/N0 at the rate in use "
+                           "minus the required Eb/N0; up: Pt/N0 minus the required Pt/N0); '-' where the station "
+                           "does not offer that link.", small))
         if any(p.clipped_start or p.clipped_end for p in plan.passes):
             partial = cover is not None and [(float(a), float(b)) for a, b in cover] != \
                 [(float(sc.start_tt), float(sc.end_tt))]

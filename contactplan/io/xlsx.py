@@ -31,6 +31,16 @@ _LABELS = {
     "moon_flag": "Moon near beam",
     "light_time_s": "One-way light time (s)",
     "downlinked_gbit": "Downlinked (Gbit)",
+    "pre_pass_min": "Pre-pass (min)",
+    "post_pass_min": "Post-pass (min)",
+    "bot": "Track start, BOT",
+    "eot": "Track end, EOT",
+    "bot_utc": "Track start, BOT (UTC)",
+    "bot_doy": "Track start, BOT (DOY, UTC)",
+    "eot_utc": "Track end, EOT (UTC)",
+    "eot_doy": "Track end, EOT (DOY, UTC)",
+    "rate_plan_kbps": "Rate plan (UTC start/end, kbit/s)",
+    "plan_volume_gbit": "Rate plan volume (Gbit)",
 }
 
 
@@ -38,6 +48,8 @@ def header_label(column: str) -> str:
     """A readable header with its unit: ``max_elevation_deg`` -> ``Max elevation (deg)``."""
     if column in _LABELS:
         return _LABELS[column]
+    if column.startswith("margin_") and column.endswith("_db"):  # one per link, see io.passtable
+        return f"Margin at culmination, {column[len('margin_'):-len('_db')]} (dB)"
     unit = None
     base = column
     for suffix in sorted(_UNITS, key=len, reverse=True):
@@ -165,13 +177,13 @@ def _save(wb, path) -> None:
     atomic_write(path, buf.getvalue())
 
 
-def passes_workbook(scenario, passes, now_tt=None):
+def passes_workbook(scenario, passes, now_tt=None, link_profiles=None):
     """The pass workbook (openpyxl Workbook): all stations, one sheet per station, notes."""
     from openpyxl import Workbook
 
     from contactplan.io.exporting import pass_table
 
-    columns, rows = pass_table(passes)
+    columns, rows = pass_table(passes, link_profiles)
     keys, labels, rows_x, dt_idx = _expand(columns, rows)
     wb = Workbook()
     ws = wb.active
@@ -188,22 +200,24 @@ def passes_workbook(scenario, passes, now_tt=None):
     return wb
 
 
-def write_passes_xlsx(scenario, passes, path, now_tt=None) -> int:
+def write_passes_xlsx(scenario, passes, path, now_tt=None, link_profiles=None) -> int:
     """Write the pass workbook atomically; returns the number of passes."""
-    _save(passes_workbook(scenario, passes, now_tt), path)
+    _save(passes_workbook(scenario, passes, now_tt, link_profiles), path)
     return len(passes)
 
 
 def write_bookings_xlsx(scenario, path, plan=None, now_tt=None) -> int:
-    """The booking list as one sheet (purposes and findings joined by ';') plus notes."""
+    """The booking list as one sheet (services and findings joined by ';', the rate plan as
+    ``START/END RATE`` steps joined by '; ') plus notes."""
     from openpyxl import Workbook
 
-    from contactplan.io.bookings import BOOKING_COLUMNS, booking_records
+    from contactplan.io.bookings import BOOKING_COLUMNS, booking_records, rate_plan_text
 
     cols = [c for c in BOOKING_COLUMNS if not c.endswith("_doy")]  # DOY added by _expand
     rows = []
     for rec in booking_records(scenario, plan):
-        rows.append([";".join(rec[c]) if isinstance(rec[c], list) else rec[c] for c in cols])
+        rows.append([(rate_plan_text(rec[c]) if c == "rate_plan_kbps" else ";".join(rec[c]))
+                     if isinstance(rec[c], list) else rec[c] for c in cols])
     keys, labels, rows_x, dt_idx = _expand(cols, rows)
     wb = Workbook()
     ws = wb.active

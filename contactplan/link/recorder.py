@@ -24,7 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from contactplan.link.profiles import RecorderResult
-from contactplan.link.windows import downlink_pieces
+from contactplan.link.windows import DownlinkIndex, downlink_pieces
 
 #: spacing (s) of the extra regular samples added to the result for plotting the age
 SAMPLE_S = 600.0
@@ -36,30 +36,39 @@ def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, e
     Returns (edges_tt, rate_kbps, booking_index) with len(edges) = len(rates) + 1;
     booking_index is -1 where nothing is downlinked.
     """
-    steps = []  # (e0, e1, rate, booking index)
-    for bi, booking in enumerate(bookings):
+    parts = []  # per piece: (step starts, step ends, rates, booking index), steps of rate > 0 only
+    index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once for all bookings
+    for k, booking in enumerate(bookings):
         if booking.end_tt <= start_tt or booking.start_tt >= end_tt:
             continue
-        for s0, s1, p in downlink_pieces(scenario, booking, passes):
+        for s0, s1, p in downlink_pieces(scenario, booking, passes, index):
             prof = profiles.get(id(p))
             if prof is None:
                 continue
             edges, rates = prof.rate_steps(max(s0, start_tt), min(s1, end_tt))
-            for k in range(rates.size):
-                if rates[k] > 0:
-                    steps.append((edges[k], edges[k + 1], rates[k], bi))
-    if not steps:
+            on = rates > 0
+            if on.any():
+                parts.append((edges[:-1][on], edges[1:][on], rates[on], np.full(int(on.sum()), k)))
+    if not parts:
         return np.array([start_tt, end_tt]), np.zeros(1), np.full(1, -1)
-    grid = np.unique(np.concatenate(([start_tt, end_tt], [s[0] for s in steps], [s[1] for s in steps])))
+    e0, e1, r, bi = (np.concatenate([x[j] for x in parts]) for j in range(4))
+    r = r.astype(float)
+    n_steps = e0.size
+    grid = np.unique(np.concatenate(([start_tt, end_tt], e0, e1)))
+    i0 = np.searchsorted(grid, e0)
+    i1 = np.searchsorted(grid, e1)
+    # every (cell, step) covering it; per cell the highest rate wins, the first step in order on a tie
+    n = np.maximum(i1 - i0, 0)
+    order = np.repeat(np.arange(n_steps), n)
+    cell = np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n) + np.repeat(i0, n)
+    pick = np.lexsort((order, -r[order], cell))
+    cell, order = cell[pick], order[pick]
+    first = np.ones(cell.size, dtype=bool)
+    first[1:] = cell[1:] != cell[:-1]
     rate = np.zeros(grid.size - 1)
     owner = np.full(grid.size - 1, -1)
-    i0 = np.searchsorted(grid, [s[0] for s in steps])
-    i1 = np.searchsorted(grid, [s[1] for s in steps])
-    for (e0, e1, r, bi), a, b in zip(steps, i0, i1):
-        sl = slice(a, b)
-        better = r > rate[sl]
-        rate[sl] = np.where(better, r, rate[sl])
-        owner[sl] = np.where(better, bi, owner[sl])
+    rate[cell[first]] = r[order[first]]
+    owner[cell[first]] = bi[order[first]]
     keep = np.concatenate(([True], (rate[1:] != rate[:-1]) | (owner[1:] != owner[:-1])))
     return np.concatenate((grid[:-1][keep], [grid[-1]])), rate[keep], owner[keep]
 

@@ -27,13 +27,14 @@ Terms used by several rules (all times TT seconds since J2000):
 
 from __future__ import annotations
 
+import weakref
 from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
 
-from contactplan.intervals import intersect, subtract, total_s, union  # noqa: F401  (also imported from here)
+from contactplan.intervals import SpanIndex, intersect, subtract, total_s, union  # noqa: F401  (also imported here)
 from contactplan.plan.findings import ERROR, WARNING, Finding
 from contactplan.timescale import format_utc, utc_day_start, utc_days
 
@@ -127,11 +128,15 @@ class RuleContext:
                     s[1] = np.inf
             merged: list[list[float]] = []
             outs = ctx.outages.get(sid, [])
+            # an outage covering a gap: one of those starting by its start whose end reaches its end
+            # (bisection on the outage starts, running maximum of their ends)
+            out_starts = [o[0] for o in outs]
+            out_reach = np.maximum.accumulate([o[1] for o in outs]).tolist() if outs else []
             for a, b in sorted(spans):
                 if merged:
                     gap0, gap1 = merged[-1][1], a
-                    joined = gap1 <= gap0 or any(o0 <= gap0 + EDGE_TOLERANCE_S and o1 >= gap1 - EDGE_TOLERANCE_S
-                                                 for o0, o1, _ in outs)
+                    k = bisect_right(out_starts, gap0 + EDGE_TOLERANCE_S)
+                    joined = gap1 <= gap0 or (k > 0 and out_reach[k - 1] >= gap1 - EDGE_TOLERANCE_S)
                     if joined:
                         merged[-1][1] = max(merged[-1][1], b)
                         continue
@@ -154,7 +159,8 @@ class RuleContext:
 
     def track(self, booking) -> tuple[float, float]:
         """(BOT, EOT) of a booking (see module doc); EOT may precede BOT for a very short booking."""
-        return booking.start_tt + self.setup_s(booking), booking.end_tt - self.teardown_s(booking)
+        pre, post = self._pre_post_s(booking.station)
+        return booking.start_tt + pre, booking.end_tt - post
 
     def bookings_at(self, sid: str) -> list:
         """Bookings of a station sorted by start (cached for this check)."""
@@ -174,7 +180,7 @@ class RuleContext:
         key = ("link", sid, link.id)
         if key not in self._cache:
             profs = self.link_profiles.get(link.id)
-            spans = []
+            spans, computed = [], []
             for p in self.passes_by_station.get(sid, []):
                 prof = profs.get(id(p)) if profs else None
                 if prof is None:
@@ -182,8 +188,8 @@ class RuleContext:
                         continue  # computed for this link but not for this pass (station has no budget)
                     spans.append((p.aos_tt, p.los_tt))
                 else:
-                    spans.extend(prof.closed_spans())
-            self._cache[key] = union(spans)
+                    computed.append(prof)
+            self._cache[key] = union(spans + closed_spans_of(computed))
         return self._cache[key]
 
     def service_spans(self, sid: str, service: str) -> list:
@@ -206,11 +212,21 @@ class RuleContext:
                                           for s in self.link_spans(sid, lk)])
         return self._cache[key]
 
-    def offers(self, sid: str, service: str) -> bool:
-        from contactplan.link.services import offers
+    def service_index(self, sid: str, service: str) -> SpanIndex:
+        """:meth:`service_spans` indexed for look-ups by time (cached for this check)."""
+        key = ("service-index", sid, service)
+        if key not in self._cache:
+            self._cache[key] = SpanIndex(self.service_spans(sid, service))
+        return self._cache[key]
 
-        st = self.stations.get(sid)
-        return st is not None and offers(self.scenario, st, service)
+    def offers(self, sid: str, service: str) -> bool:
+        key = ("offers", sid, service)
+        if key not in self._cache:
+            from contactplan.link.services import offers
+
+            st = self.stations.get(sid)
+            self._cache[key] = st is not None and offers(self.scenario, st, service)
+        return self._cache[key]
 
     @property
     def links_modelled(self) -> bool:
@@ -220,21 +236,38 @@ class RuleContext:
     def station(self, sid):
         return self.stations.get(sid)
 
+    def _pre_post_s(self, sid: str) -> tuple[float, float]:
+        got = self._cache.get(("pre-post", sid))
+        if got is None:
+            st = self.stations.get(sid)
+            got = (0.0, 0.0) if st is None else (st.setup_min * 60.0, st.teardown_min * 60.0)
+            self._cache[("pre-post", sid)] = got
+        return got
+
     def setup_s(self, booking) -> float:
-        st = self.stations.get(booking.station)
-        return 0.0 if st is None else st.setup_min * 60.0
+        return self._pre_post_s(booking.station)[0]
 
     def teardown_s(self, booking) -> float:
-        st = self.stations.get(booking.station)
-        return 0.0 if st is None else st.teardown_min * 60.0
+        return self._pre_post_s(booking.station)[1]
 
     def tracked(self, booking) -> list[tuple[float, float]]:
-        """Spans of a booking's track where its station can actually hear the spacecraft (see module doc)."""
+        """Spans of a booking's track where its station can actually hear the spacecraft (see module doc).
+
+        Cached per booking for this check (do not change the list returned)."""
+        key = ("tracked", id(booking))
+        got = self._cache.get(key)
+        if got is not None and got[0] is booking:
+            return got[1]
         a, b = self.track(booking)
         if b <= a:
-            return []
-        inside = intersect([(a, b)], [(p.aos_tt, p.los_tt) for p in self.passes_overlapping(booking.station, a, b)])
-        return subtract(inside, [(o0, o1) for o0, o1, _ in self.outages.get(booking.station, [])])
+            spans = []
+        else:
+            inside = intersect([(a, b)], [(p.aos_tt, p.los_tt)
+                                          for p in self.passes_overlapping(booking.station, a, b)])
+            # only the outages overlapping the track can cut it (bisection)
+            spans = subtract(inside, [(o0, o1) for o0, o1, _ in _outages_overlapping(self, booking.station, a, b)])
+        self._cache[key] = (booking, spans)
+        return spans
 
     def tracked_union(self, purposes=None, services_all=None) -> list[tuple[float, float]]:
         """Tracked time of all bookings having any of ``purposes`` (v1 words) / all of ``services_all``."""
@@ -259,6 +292,52 @@ class RuleContext:
             if ov > best_s:
                 best, best_s = p, ov
         return best
+
+
+#: closed spans of each profile already seen: {PassProfile: (t_tt, closes, rate_kbps, spans)}. A profile is
+#: never changed once computed; the arrays are compared by identity all the same. Passes and profiles stay
+#: the same from one check to the next (only bookings change), so each check reuses them.
+_CLOSED: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def closed_spans_of(profiles) -> list[tuple[float, float]]:
+    """``[s for prof in profiles for s in prof.closed_spans()]``; the profiles not seen before in one
+    vectorised pass over all their samples, the others from :data:`_CLOSED`."""
+    out: list = []
+    todo = []
+    for prof in profiles:
+        got = _CLOSED.get(prof)
+        if got is not None and got[0] is prof.t_tt and got[1] is prof.closes and got[2] is prof.rate_kbps:
+            out.extend(got[3])
+        else:
+            todo.append(prof)
+    if not todo:
+        return out
+    ts, cs, own, kept = [], [], [], []
+    for prof in todo:
+        t = np.asarray(prof.t_tt, dtype=float)
+        if t.size < 2:
+            _CLOSED[prof] = (prof.t_tt, prof.closes, prof.rate_kbps, [])
+            continue
+        c = prof.closes if prof.closes is not None else np.asarray(prof.rate_kbps) > 0
+        ts.append(t)
+        cs.append(np.asarray(c, dtype=bool))
+        own.append(np.full(t.size, len(kept)))
+        kept.append(prof)
+    if not ts:
+        return out
+    t, c, owner = np.concatenate(ts), np.concatenate(cs), np.concatenate(own)
+    seg = c[:-1] & c[1:] & (owner[:-1] == owner[1:])  # a sample span inside one profile, closed at both ends
+    d = np.diff(np.concatenate(([0], seg.astype(np.int8), [0])))
+    first, last = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+    spans = list(zip(t[first].tolist(), t[last].tolist()))
+    per = [[] for _ in kept]
+    for k, sp in zip(owner[first].tolist(), spans):
+        per[k].append(sp)
+    for prof, sp in zip(kept, per):
+        _CLOSED[prof] = (prof.t_tt, prof.closes, prof.rate_kbps, sp)
+        out.extend(sp)
+    return out
 
 
 def _finding(rule, severity, subjects, a, b, message, fix=()) -> Finding:
@@ -348,12 +427,14 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
     out = []
     for sid in ctx.stations:
         bl = sorted(ctx.bookings_at(sid), key=lambda b: (ctx.track(b)[0], b.id))
+        tracks = [ctx.track(b) for b in bl]
         for i, b1 in enumerate(bl):
-            a1, e1 = ctx.track(b1)
+            a1, e1 = tracks[i]
             if e1 <= a1:
                 continue
-            for b2 in bl[i + 1:]:
-                a2, e2 = ctx.track(b2)
+            for j in range(i + 1, len(bl)):  # sorted by BOT: stop at the first track starting after EOT
+                b2 = bl[j]
+                a2, e2 = tracks[j]
                 if a2 >= e1:
                     break
                 if e2 <= a2:
@@ -368,14 +449,19 @@ def rule_double_booking(ctx: RuleContext) -> list[Finding]:
 
 def receives(ctx: RuleContext, sid: str) -> bool:
     """The station takes a down link carrying telemetry or playback (or, links not modelled, has a G/T)."""
-    st = ctx.stations.get(sid)
-    if st is None:
-        return False
-    if not ctx.links_modelled:
-        return st.takes_downlink
-    from contactplan.link.services import links_for
+    key = ("receives", sid)
+    if key not in ctx._cache:
+        st = ctx.stations.get(sid)
+        if st is None:
+            ctx._cache[key] = False
+        elif not ctx.links_modelled:
+            ctx._cache[key] = st.takes_downlink
+        else:
+            from contactplan.link.services import links_for
 
-    return bool(links_for(ctx.scenario, st, "telemetry", "down") or links_for(ctx.scenario, st, "playback", "down"))
+            ctx._cache[key] = bool(links_for(ctx.scenario, st, "telemetry", "down")
+                                   or links_for(ctx.scenario, st, "playback", "down"))
+    return ctx._cache[key]
 
 
 DATA_SERVICES = ("telemetry", "playback")
@@ -457,13 +543,13 @@ def rule_burn_unmonitored(ctx: RuleContext) -> list[Finding]:
         if all(s in b.services for s in MONITOR_SERVICES) and (
                 not ctx.links_modelled or all(ctx.offers(b.station, s) for s in MONITOR_SERVICES)):
             spans.extend(ctx.tracked(b))
-    cover = union(spans)
+    cover = SpanIndex(spans)
     for a in acts:
         m0, m1 = a.monitor_span_tt
         m0, m1 = max(m0, ctx.start_tt), min(m1, ctx.end_tt)
         if m1 <= m0:
             continue
-        gaps = subtract([(m0, m1)], cover)
+        gaps = subtract([(m0, m1)], cover.overlapping(m0, m1))
         gaps = [(g0, g1) for g0, g1 in gaps if g1 - g0 > EDGE_TOLERANCE_S]
         if not gaps:
             continue
@@ -573,6 +659,26 @@ def _whole_days(ctx: RuleContext):
     return out
 
 
+def _bookings_per_day(tracked: list, days: list) -> list[int]:
+    """For each day (d0, d1) (sorted, not overlapping), how many of the bookings, given by their tracked
+    spans, have a span overlapping it. One sweep: each span finds its days by bisection."""
+    if not days:
+        return []
+    n_days = len(days)
+    d0 = np.array([d[0] for d in days], dtype=float)
+    d1 = np.array([d[1] for d in days], dtype=float)
+    rows = [(k, a, b) for k, spans in enumerate(tracked) for a, b in spans]
+    if not rows:
+        return [0] * n_days
+    arr = np.array(rows, dtype=float)
+    lo = np.searchsorted(d1, arr[:, 1], side="right")  # days ending after the span starts
+    hi = np.searchsorted(d0, arr[:, 2], side="left")  # days starting before the span ends
+    n = np.maximum(hi - lo, 0)
+    day = np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n) + np.repeat(lo, n)
+    pairs = np.unique(np.repeat(arr[:, 0].astype(np.int64), n) * n_days + day)  # each booking once a day
+    return np.bincount(pairs % n_days, minlength=n_days).tolist()
+
+
 def rule_no_ranging(ctx: RuleContext) -> list[Finding]:
     """``no-ranging`` (warning): a whole UTC day with fewer ranging bookings than ``ranging_per_day_min``.
 
@@ -581,10 +687,10 @@ def rule_no_ranging(ctx: RuleContext) -> list[Finding]:
     need = ctx.scenario.requirements.ranging_per_day_min
     if not need:
         return []
-    tracked = [(b, ctx.tracked(b)) for b in ctx.scenario.bookings if "ranging" in b.purposes]
+    days = _whole_days(ctx)
+    counts = _bookings_per_day([ctx.tracked(b) for b in ctx.scenario.bookings if "ranging" in b.purposes], days)
     out = []
-    for d0, d1 in _whole_days(ctx):
-        n = sum(1 for _, spans in tracked if intersect(spans, [(d0, d1)]))
+    for (d0, d1), n in zip(days, counts):
         if n < need:
             day = format_utc(d0, 0)[:10]
             msg = (f"{day} has {n} ranging booking{'s' if n != 1 else ''}, {need} required: "
@@ -598,10 +704,10 @@ def rule_contact_per_day(ctx: RuleContext) -> list[Finding]:
     need_h = ctx.scenario.requirements.contact_per_day_min_h
     if not need_h:
         return []
-    cover = ctx.tracked_union()
+    cover = SpanIndex(ctx.tracked_union())
     out = []
     for d0, d1 in _whole_days(ctx):
-        have_h = total_s(intersect(cover, [(d0, d1)])) / 3600.0
+        have_h = total_s(cover.clip(d0, d1)) / 3600.0
         if have_h + 1e-9 < need_h:
             day = format_utc(d0, 0)[:10]
             msg = (f"{day} has {have_h:.2f} h of contact (tracked, all stations together), {need_h:g} h required: "
@@ -635,11 +741,11 @@ def rule_station_hours(ctx: RuleContext) -> list[Finding]:
     for sid, st in ctx.stations.items():
         if st.max_hours_per_week is None:
             continue
-        spans = union((b.start_tt, b.end_tt) for b in ctx.scenario.bookings if b.station == sid)
+        spans = SpanIndex((b.start_tt, b.end_tt) for b in ctx.bookings_at(sid))
         w0 = ctx.start_tt
         while w0 < ctx.end_tt:
             w1 = min(w0 + week, ctx.end_tt)
-            h = total_s(intersect(spans, [(w0, w1)])) / 3600.0
+            h = total_s(spans.clip(w0, w1)) / 3600.0
             if h > st.max_hours_per_week + 1e-9:
                 out.append(_finding("station-hours", WARNING, [sid], w0, w1,
                                     f"{sid} is booked {h:.1f} h from {span_text(w0, w1)}, more than its "

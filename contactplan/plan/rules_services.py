@@ -35,7 +35,7 @@ def rule_prepass_conflict(ctx: RuleContext) -> list[Finding]:
     ``double-booking``, a track on an outage ``station-outage``)."""
     out = []
     for sid in ctx.stations:
-        bl = ctx.bookings_at(sid)
+        bl = ctx.bookings_at(sid)  # sorted by start
         for i, b1 in enumerate(bl):
             t0, t1 = ctx.track(b1)
             edges = [(b1.start_tt, min(t0, b1.end_tt), "pre-pass"), (max(t1, b1.start_tt), b1.end_tt, "post-pass")]
@@ -50,7 +50,8 @@ def rule_prepass_conflict(ctx: RuleContext) -> list[Finding]:
                            f"{span_text(o0, o1)}{why}: the station cannot configure then; move {b1.id} or "
                            f"shorten its {what}")
                     out.append(_finding("prepass-conflict", ERROR, [b1.id, sid], max(e0, o0), min(e1, o1), msg))
-            for b2 in bl[i + 1:]:
+            for j in range(i + 1, len(bl)):
+                b2 = bl[j]
                 if b2.start_tt >= b1.end_tt:
                     break
                 a2, e2 = ctx.track(b2)
@@ -96,8 +97,12 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
                 tracked = ctx.tracked(b)
             if not tracked:
                 continue
-            gaps = [(g0, g1) for g0, g1 in subtract(tracked, ctx.service_spans(b.station, svc))
-                    if g1 - g0 > EDGE_TOLERANCE_S]
+            # only the service spans overlapping the tracked time matter (bisection)
+            index = ctx.service_index(b.station, svc)
+            if all(index.covers(t0, t1) for t0, t1 in tracked):
+                continue  # closes all the time (the common case): no gap
+            closes = index.overlapping(tracked[0][0], tracked[-1][1])
+            gaps = [(g0, g1) for g0, g1 in subtract(tracked, closes) if g1 - g0 > EDGE_TOLERANCE_S]
             lost = total_s(gaps)
             if lost <= SERVICE_TOLERANCE_S:
                 continue
@@ -120,10 +125,11 @@ def _command_opportunities(ctx: RuleContext) -> tuple[list, list]:
             if ctx.links_modelled and not ctx.offers(b.station, "commanding"):
                 continue
             spans = ctx.tracked(b)
-            if ctx.links_modelled:
+            if ctx.links_modelled and spans:
                 from contactplan.intervals import intersect
 
-                spans = intersect(spans, ctx.service_spans(b.station, "commanding"))
+                spans = intersect(spans, ctx.service_index(b.station, "commanding").overlapping(spans[0][0],
+                                                                                               spans[-1][1]))
             for s0, s1 in spans:
                 p = ctx.pass_holding(b, s0, s1)
                 ops.append((s0, s1, b.id, b.station, p.key if p is not None else f"{b.station}@{t_text(s0)}"))
