@@ -51,8 +51,11 @@ SCENARIO_EXPECT = {
     "nan_longitude.toml": ("stations[NRV].longitude_deg", "not a finite number"),
     "newer_format.toml": ("format_version", "newer than this program reads"),
     "not_utf8.toml": (15, "not UTF-8 text"),
+    "od_negative_sigma.toml": ("orbit_determination.range_sigma_m", "-2.0 is out of range (must be > 0)"),
+    "od_not_a_table.toml": ("orbit_determination", "expected a table, got int"),
     "offset_time.toml": ("scenario.start", "non-zero offset"),
     "stations_not_a_list.toml": ("stations", "array of tables"),
+    "tracking_window_zero.toml": ("requirements.tracking_spread_window_h", "0 is out of range (must be > 0)"),
     "wrong_type.toml": ("stations[NRV].latitude_deg", "expected a number"),
     "window_end_2927.toml": ("scenario.end", "2927-01-19T00:00:00Z is after 2050-01-01, past what the packaged "
                              "DE421 planetary ephemeris (de421.bsp) and time tables cover"),

@@ -24,6 +24,7 @@ from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
 from contactplan.app.document import PlanDocument, Selection
 from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel, PassTable
+from contactplan.app.navstrip import NavigationStrip
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
 from contactplan.app.timeline import Timeline
@@ -220,6 +221,7 @@ class MainWindow(QMainWindow):
         self.setDockNestingEnabled(True)
 
         self.timeline = Timeline(self.doc)
+        self.nav_strip = NavigationStrip(self.timeline, self.doc)  # predicted OD accuracy, in the background
         self.setCentralWidget(self.timeline)
         self.timeline.editPurposesRequested.connect(self.edit_purposes)
         self._build_docks()
@@ -1087,6 +1089,8 @@ class MainWindow(QMainWindow):
             self.job.cancel()
             if wait:
                 self.job.wait()
+        if wait:
+            self.nav_strip.wait()
 
     def compute(self) -> Job | None:
         """Predict passes, link and recorder for the open scenario in the background."""

@@ -111,6 +111,8 @@ def run(args) -> int:
         doc = {"findings": [f.to_json() for f in findings], "errors": errors, "warnings": warnings}
         if rv is not None:
             doc["revalidation"] = rv.to_json()
+        if getattr(result, "navigation", None) is not None:
+            doc["orbit_determination"] = result.navigation.to_json(samples=200)
         sys.stdout.write(json.dumps(doc, indent=2) + "\n")
     else:
         from contactplan.timescale import format_utc
@@ -122,6 +124,10 @@ def run(args) -> int:
             out += format_revalidation(rv, Path(args.ephemeris).name)
             out.append("Findings with the new ephemeris:")
         out += format_findings(findings)
+        if getattr(result, "navigation", None) is not None:
+            from contactplan.navigation import navigation_lines
+
+            out += navigation_lines(result.navigation)
         out.append(_summary(errors, warnings) if findings else "no findings: the plan keeps every rule")
         out.append(CAUTION)
         sys.stdout.write("\n".join(out) + "\n")

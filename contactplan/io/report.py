@@ -574,6 +574,10 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
         story.append(P("The scenario has no recorder."))
     story.append(Spacer(1, 6 * mm))
 
+    from contactplan.io.report_navigation import navigation_story
+
+    story += navigation_story(plan, P, figure, table, small, h2, frame_w, fig_w_in)
+
     # ---- rate and volume per pass
     block = [P("Rate and volume per pass", h2)]
     has_link = any(p.volume_gbit is not None for p in plan.passes)

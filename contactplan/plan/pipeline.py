@@ -23,6 +23,7 @@ class PlanResult:
     shadows: list = field(default_factory=list)  # [(start_tt, end_tt, body, kind)]
     # parts of the planning window the ephemeris answers [(start_tt, end_tt)]; None: the whole window
     coverage: list | None = None
+    navigation: object | None = None  # NavigationResult (plan/tracking.py navigation_for), None without [orbit_determination]
 
     @property
     def errors(self) -> int:
@@ -140,14 +141,16 @@ def check(result: PlanResult) -> PlanResult:
     Updates ``result.recorder`` and ``result.findings`` in place and returns ``result``.
     """
     from contactplan.plan.rules import RuleContext, run_rules
+    from contactplan.plan.tracking import navigation_for
 
     sc = result.scenario
     sc.bind()
     result.recorder = _recorder(sc, result.passes, result.profiles)
+    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
+                            link_profiles=result.link_profiles)
+    ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
     # unknown keys first: they are dated at the window start, so the list stays in time order
-    result.findings = unknown_key_findings(sc) + run_rules(RuleContext.build(
-        sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
-        link_profiles=result.link_profiles))
+    result.findings = unknown_key_findings(sc) + run_rules(ctx)
     return result
 
 

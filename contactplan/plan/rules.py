@@ -723,6 +723,9 @@ RULES = [
     rule_body_in_beam,
     rule_no_link,
 ]
+from contactplan.plan.tracking import TRACKING_NEEDS_EPHEMERIS, TRACKING_RULES  # noqa: E402  (imports this module)
+RULES.extend(TRACKING_RULES)
+NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | TRACKING_NEEDS_EPHEMERIS
 
 
 def sort_key(f: Finding):

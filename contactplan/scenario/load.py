@@ -14,6 +14,7 @@ from pathlib import Path
 from contactplan.errors import InputError, show_id
 from contactplan.fileio import read_input
 from contactplan.scenario import model as m
+from contactplan.scenario.orbit_determination import read_orbit_determination, read_tracking_requirements
 from contactplan.timescale import parse_time_value
 
 try:  # Python 3.11+
@@ -537,6 +538,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
         handover_min=rq.num("handover_min", None, lo=0, hi=600),
     ))
+    read_tracking_requirements(rq, req)
     gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
     geo = gt.keep(m.GeometryOptions(
         refraction=gt.bool("refraction", False),
@@ -547,6 +549,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
         activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
         format_version=fv, revision=revision, path=path, document=doc,
+        orbit_determination=read_orbit_determination(root),
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table
     scen.unknown_keys = unknown_keys(tables, path)

@@ -426,6 +426,16 @@ class Requirements(Record):
     booking_min_h: float | None = None
     booking_max_h: float | None = None
     recorder_end_max_gbit: float | None = None
+    # tracking for orbit determination (contactplan.scenario.orbit_determination, plan/tracking.py)
+    tracking_per_day_min_h: float | None = None
+    tracking_stations_per_window_min: int | None = None
+    tracking_spread_window_h: float | None = None
+    tracking_latitude_spread_min_deg: float | None = None
+    post_manoeuvre_tracking_h: float | None = None
+    post_manoeuvre_window_h: float | None = None
+    cutoff_arc_min_h: float | None = None
+    cutoff_before_burn_h: float | None = None
+    cutoff_lookback_h: float | None = None
     handover_min: float | None = None  # minutes two bookings meant to be continuous must overlap (None: 0)
 
 
@@ -448,6 +458,7 @@ class Scenario(Record):
     bookings: list = field(default_factory=list)  # [Booking]
     requirements: Requirements = field(default_factory=Requirements)
     geometry: GeometryOptions = field(default_factory=GeometryOptions)
+    orbit_determination: object | None = None  # OrbitDetermination (scenario/orbit_determination.py)
     format_version: int = FORMAT_VERSION
     revision: int = 0
     path: Path | None = field(default=None, compare=False)

@@ -1,0 +1,63 @@
+"""The planner's navigation strip: drawn from the computed plan, updated in the background after an edit."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from PySide6.QtCore import QSettings, QStandardPaths
+
+from conftest import DATA
+
+pytest.importorskip("pytestqt")
+
+
+@pytest.fixture
+def od_path(tmp_path):
+    text = (DATA / "minimal.toml").read_text("utf-8")
+    path = tmp_path / "week.toml"
+    path.write_text(text + "\n[orbit_determination]\nrequired_position_km = 0.5\n", "utf-8")
+    return path
+
+
+@pytest.fixture
+def win(qtbot, tmp_path):
+    QStandardPaths.setTestModeEnabled(True)
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+
+    w = MainWindow(settings=QSettings(str(tmp_path / "s.ini"), QSettings.Format.IniFormat),
+                   autosaver=Autosaver(tmp_path / "autosave"))
+    w.ask = lambda *a: None
+    qtbot.addWidget(w)
+    w.resize(1200, 800)
+    w.show()
+    yield w
+    w.cancel_job(wait=True)
+
+
+def test_strip_follows_an_edit_off_the_event_loop(win, od_path, qtbot):
+    assert win.open_path(od_path)
+    qtbot.waitUntil(lambda: win.job is not None and not win.job.running and bool(win.doc.result.passes), timeout=60000)
+    strip = win.nav_strip
+    assert strip.plot.isVisible()
+    x, y = strip.curve.getData()  # y in log10 km (the strip's log scale)
+    nav = win.doc.result.navigation
+    assert len(x) == len(nav.t_tt) > 100
+    np.testing.assert_allclose(10 ** y, nav.position_sigma_km, rtol=1e-9)
+    before = win.doc.result.navigation.checks[-1].position_sigma_km
+    assert any(f.rule == "od-accuracy" for f in win.doc.findings)
+    # shorten the one ranging booking: the document's check does not predict (no stall), the strip does
+    b = win.doc.scenario.bookings[0]
+    win.doc.edit_booking(b.id, end_tt=b.end_tt - 4 * 3600.0)
+    assert win.doc.last_check_s < 0.2
+    done = strip.computed
+    qtbot.waitUntil(lambda: strip.computed > done and not strip.job.running, timeout=30000)
+    nav = win.doc.result.navigation
+    assert nav.checks[-1].position_sigma_km > before  # less tracking, worse orbit
+    assert 10 ** strip.curve.getData()[1][-1] == pytest.approx(nav.position_sigma_km[-1])
+    assert any(f.rule == "od-accuracy" for f in win.doc.findings)
+
+
+def test_strip_hidden_without_orbit_determination(win, qtbot):
+    assert win.open_path(DATA / "minimal.toml")
+    assert not win.nav_strip.plot.isVisible()
