@@ -36,7 +36,11 @@ def snapshot(result):
     (or its error) is dropped. The own lists keep adds and removals from moving under
     the worker's loops. Passes, profiles and coverage are shared read-only.
     """
-    return dataclasses.replace(result, scenario=snapshot_scenario(result.scenario))
+    snap = dataclasses.replace(result, scenario=snapshot_scenario(result.scenario))
+    for key, value in vars(result).items():  # plain attributes a stage keeps on the result (navigation...)
+        if key not in vars(snap):
+            setattr(snap, key, value)
+    return snap
 
 
 def snapshot_scenario(sc):

@@ -178,8 +178,9 @@ class PlanDocument(QObject):
             return  # the result was replaced meanwhile (a new scenario or a fresh computation)
         if error is None and out is not None:
             out, index = out
-            self.result.recorder = out.recorder
-            self.result.findings = out.findings
+            for key, value in vars(out).items():  # recorder, findings and whatever else the check keeps
+                if key != "scenario":
+                    setattr(self.result, key, value)
             self._index = index
             self.check_error = None
         elif error is not None and error != "cancelled":

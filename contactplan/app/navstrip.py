@@ -180,6 +180,7 @@ class NavigationStrip(QObject):
         if self.doc.result is not res:
             return
         res.navigation = nav
+        self.draw(nav)  # at once: the check that follows may run in the worker
         self.doc.recheck()  # the check now finds the prediction current: od-accuracy follows
 
     def _finished(self) -> None:
