@@ -19,6 +19,8 @@ from dataclasses import dataclass
 from PySide6.QtCore import QObject, Signal
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
+from contactplan.app.checking import index_findings
+
 log = logging.getLogger("contactplan.app")
 
 #: station fields whose change moves the passes (needs a new pass computation)
@@ -193,8 +195,6 @@ class PlanDocument(QObject):
     def findings_index(self):
         """The :class:`~contactplan.app.checking.FindingsIndex` of the current findings (made in the
         worker after a check; here, once per list, when they came another way)."""
-        from contactplan.app.checking import index_findings
-
         found = None if self.result is None else self.result.findings
         idx = self._index
         if idx is None or idx.found is not found or len(idx.found) != len(found or []):

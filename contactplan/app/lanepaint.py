@@ -18,6 +18,9 @@ from contactplan.app.servicemarks import paint_marks
 from contactplan.app.spans import DETAIL_MAX, paint_runs
 from contactplan.timescale import DAY_S, format_utc, utc_days
 
+#: activity kind -> code in the dense lane's colour arrays (0: any other kind)
+ACTIVITY_KINDS = {"burn": 1, "slew": 2}
+
 
 class LanePainter:
     """The paint half of the lanes canvas (geometry, hit tests and gestures are in lanes.py)."""
@@ -101,8 +104,10 @@ class LanePainter:
         for d in utc_days(t_lo, t_hi):
             x = tr.map(QPointF(self.x_of(d), 0)).x()
             painter.drawLine(QPointF(x, tr.map(QPointF(0, 0)).y()), QPointF(x, tr.map(QPointF(0, n)).y()))
-        acts = self._activity_index.visible(sc.activities, self.doc.revision, t_lo, t_hi)
-        dense_acts = len(acts) > DETAIL_MAX  # more than the lane can show one by one: merged runs
+        act_index = self._activity_index
+        act_ix = act_index.visible_index(sc.activities, self.records_revision, t_lo, t_hi)
+        dense_acts = act_ix.size > DETAIL_MAX  # more than the lane can show one by one: merged runs
+        acts = [] if dense_acts else act_index.take(act_ix)
         # outages, hatched
         hatch = QBrush(th.outage, Qt.BrushStyle.BDiagPattern)
         for i, st in enumerate(self.stations, start=1):
@@ -140,10 +145,13 @@ class LanePainter:
                     painter.drawRect(r.adjusted(-2, -2, 2, 2))
         # keep-outs: faint over every lane (passes included), edges dashed
         ko_pen = QPen(th.burn, 1, Qt.PenStyle.DashLine)
-        if dense_acts:
-            paint_runs(painter, tr, origin, [a.keepout_span_tt for a in acts
-                                             if a.downlink_keepout_min > 0 or a.kind == "burn"], 0, n, th.keepout)
-        for a in ([] if dense_acts else acts):
+        if dense_acts:  # from arrays kept with the index: no per-item work in a paint
+            k0 = act_index.column("keepout_start", lambda a: a.keepout_span_tt[0])
+            k1 = act_index.column("keepout_end", lambda a: a.keepout_span_tt[1])
+            on = act_index.column("keepout_shown", lambda a: a.downlink_keepout_min > 0 or a.kind == "burn")
+            kx = act_ix[on[act_ix] > 0]
+            paint_runs(painter, tr, origin, np.column_stack((k0[kx], k1[kx])), 0, n, th.keepout)
+        for a in acts:
             k0, k1 = a.keepout_span_tt
             if a.downlink_keepout_min > 0 or a.kind == "burn":
                 r = rect(k0, k1, 0, n)
@@ -166,8 +174,10 @@ class LanePainter:
         # spacecraft lane
         label_until = -1e9
         if dense_acts:
-            self._paint_dense(painter, tr, acts, 0, th, {"burn": th.burn, "slew": th.slew}, th.other, 0.2, 0.8)
-        for a in ([] if dense_acts else sorted(acts, key=lambda a: a.start_tt)):
+            kind = act_index.column("kind", lambda a: ACTIVITY_KINDS.get(a.kind, 0))
+            self._paint_dense(painter, tr, act_index, act_ix, kind[act_ix], 0, th,
+                              {1: th.burn, 2: th.slew}, th.other, 0.2, 0.8)
+        for a in sorted(acts, key=lambda a: a.start_tt):
             colour = {"burn": th.burn, "slew": th.slew}.get(a.kind, th.other)
             if a.kind == "burn" and (a.monitor_before_min or a.monitor_after_min):
                 m0, m1 = a.monitor_span_tt
@@ -192,14 +202,22 @@ class LanePainter:
         bold.setBold(True)
         self.marks_drawn = {}
         self._marks_until = {}  # lane -> right edge (px) of the last mark row drawn in it
-        shown = self._booking_index.visible(sc.bookings, self.doc.revision, t_lo, t_hi)
-        if len(shown) > DETAIL_MAX:  # merged runs per lane; the selected and the dragged one in full
+        bk_index = self._booking_index
+        bk_ix = bk_index.visible_index(sc.bookings, self.doc.revision, t_lo, t_hi)
+        if bk_ix.size > DETAIL_MAX:  # merged runs per lane; the selected and the dragged one in full
             lanes_of = {st.id: i for i, st in enumerate(self.stations, start=1)}
-            for sid, lane in lanes_of.items():
-                self._paint_dense(painter, tr, [b for b in shown if b.station == sid and b is not
-                                                (self.drag.booking if self.drag else None)],
-                                  lane, th, {}, th.booking, 0.28, 0.72)
-            shown = [b for b in shown if sel.kind == "booking" and sel.key == b.id]
+            lane_col = bk_index.column(("lane", tuple(lanes_of)), lambda b: lanes_of.get(b.station, -1))[bk_ix]
+            dragged = self.drag.booking if self.drag else None
+            for lane in lanes_of.values():
+                ix = bk_ix[lane_col == lane]
+                if dragged is not None:
+                    ix = np.array([k for k, b in zip(ix, bk_index.take(ix)) if b is not dragged], dtype=np.intp)
+                self._paint_dense(painter, tr, bk_index, ix, np.zeros(ix.size), lane, th, {}, th.booking,
+                                  0.28, 0.72)
+            chosen = self.doc.selected_booking() if sel.kind == "booking" else None
+            shown = [] if chosen is None else [chosen]
+        else:
+            shown = bk_index.take(bk_ix)
         for b in sorted(shown, key=lambda b: b.start_tt):
             if b.end_tt < t_lo or b.start_tt > t_hi:
                 continue
@@ -240,25 +258,24 @@ class LanePainter:
             painter.drawRect(r)
         painter.restore()
 
-    def _paint_dense(self, painter, tr, items, lane, th, colours, default, y0, y1) -> None:
-        """Many items of one lane as merged runs, coloured by kind; those with findings get a strip below."""
+    def _paint_dense(self, painter, tr, index, ix, codes, lane, th, colours, default, y0, y1) -> None:
+        """Many items of one lane as merged runs, coloured by kind code (``colours``: {code: colour});
+        those with findings get a strip below. ``index``: the lane's SpanIndex, ``ix`` the positions
+        in view, ``codes`` their kind codes (arrays: no per-item work)."""
         origin = self.tl.origin_tt
-        by_colour: dict = {}
-        for it in items:
-            by_colour.setdefault(colours.get(getattr(it, "kind", None), default).rgba(), []).append(it)
-        for rgba, group in by_colour.items():
-            paint_runs(painter, tr, origin, [(it.start_tt, it.end_tt) for it in group], lane + y0, lane + y1,
-                       QColor.fromRgba(rgba))
-        errors, warnings = [], []
-        for it in items:
-            fs = self.doc.findings_for(it.id)
-            if fs:
-                (errors if any(f.severity == "error" for f in fs) else warnings).append((it.start_tt, it.end_tt))
+        start = index.column("start", lambda r: r.start_tt)
+        end = index.column("end", lambda r: r.end_tt)
+        for code in np.unique(codes):
+            sel = ix[codes == code]
+            paint_runs(painter, tr, origin, np.column_stack((start[sel], end[sel])), lane + y0, lane + y1,
+                       colours.get(int(code), default))
+        level = index.severity(self.doc.findings_index().severity)[ix]
         fade = 90 if self.findings_stale else 255
-        for spans, colour in ((warnings, th.warning), (errors, th.error)):
+        for value, colour in ((1, th.warning), (2, th.error)):
+            sel = ix[level == value]
             c = QColor(colour)
             c.setAlpha(fade)
-            paint_runs(painter, tr, origin, spans, lane + y1, lane + y1 + 0.08, c)
+            paint_runs(painter, tr, origin, np.column_stack((start[sel], end[sel])), lane + y1, lane + y1 + 0.08, c)
 
     def _concerned(self, subject: str):
         return self.doc.findings_for(subject)

@@ -114,9 +114,17 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
         self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
                                                     max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
+        # stations and activities change far less often than bookings: their index is rebuilt only
+        # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
+        self.records_revision = 0
+        self.doc.recordsChanged.connect(self._records_edited)
+        self.doc.scenarioReplaced.connect(self._records_edited)
         self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
         self._marks_until: dict = {}
         self.setZValue(10)
+
+    def _records_edited(self) -> None:
+        self.records_revision += 1
 
     # ------------------------------------------------------------ geometry
     @property
