@@ -325,3 +325,45 @@ def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, enco
     except OSError:
         pass
     return path
+
+
+def atomic_create(path: str | Path, data: bytes | str, encoding: str = "utf-8") -> Path:
+    """Write a NEW file ``path`` atomically, never replacing one: a temporary file in the same folder,
+    flushed and fsynced, then hard-linked to ``path`` (which fails when ``path`` exists, even if
+    another process made it a moment ago). :class:`WriteError` naming the file otherwise."""
+    path = Path(path)
+    if isinstance(data, str):
+        data = data.encode(encoding)
+    folder = path.parent if str(path.parent) else Path(".")
+    if os.path.lexists(path):
+        raise WriteError("exists already: refusing to replace it", path)
+    try:
+        tmp = _mkstemp(path.name, folder)
+    except OSError as exc:
+        raise WriteError(f"cannot write: {exc.strerror or exc}", path) from None
+    try:
+        with open(tmp, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())
+        os.link(tmp, path)
+    except FileExistsError:
+        raise WriteError("exists already: refusing to replace it", path) from None
+    except OSError as exc:
+        raise WriteError(f"cannot write: {exc.strerror or exc}", path) from None
+    finally:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        _ACTIVE.discard(str(Path(tmp).resolve()))
+    try:
+        dfd = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(dfd)
+        finally:
+            os.close(dfd)
+    except OSError:
+        pass
+    return path

@@ -13,7 +13,7 @@ from pathlib import Path
 from contactplan import CAUTION, __version__
 from contactplan.errors import InputError
 
-HELP = "export passes, bookings, ephemeris or the weekly report"
+HELP = "export passes, bookings, ephemeris, the weekly report, or issue requests to the network"
 
 EXAMPLES = """\
   contactplan export week.toml --out passes.xlsx
@@ -22,18 +22,28 @@ EXAMPLES = """\
   contactplan export week.toml --out week.ics
   contactplan export week.toml --out probe.oem --start 2027-01-10T00:00:00Z --end 2027-02-10T00:00:00Z --step 300
   contactplan export week.toml --out week.pdf --paper letter
+  contactplan export week.toml --what requests --out requests.ics --station NRV
 
 The extension picks the format: .xlsx, .csv and .json hold the pass table unless
 --what bookings; .ics is the booking calendar, .oem the ephemeris (CCSDS OEM KVN),
-.pdf the weekly report; .txt needs --what passes (aligned table) or --what ephemeris."""
+.pdf the weekly report; .txt needs --what passes (aligned table) or --what ephemeris.
+
+--what requests issues the next revision to the station network: iTIP (RFC 5546)
+METHOD:REQUEST for new and changed bookings in FILE.ics and METHOD:CANCEL for those
+cancelled, declined or deleted since the last issue in FILE-cancel.ics (or one .csv
+or .json list with an action column); it raises the revision, saves the scenario
+(previous as NAME.toml~) and keeps the issued plan as NAME.rN.toml."""
 
 
 def add_arguments(p) -> None:
     p.add_argument("scenario", metavar="SCENARIO", help="scenario file (.toml)")
     p.add_argument("--out", "-o", required=True, metavar="FILE",
                    help="file to write; its extension picks the format (.csv .json .xlsx .ics .oem .pdf .txt)")
-    p.add_argument("--what", choices=("passes", "bookings", "ephemeris", "report"),
-                   help="what to export (default: from the extension; passes for .csv/.json/.xlsx)")
+    p.add_argument("--what", choices=("passes", "bookings", "ephemeris", "report", "requests"),
+                   help="what to export (default: from the extension; passes for .csv/.json/.xlsx); requests: "
+                        "issue the next revision to the station network (.ics, .csv, .json)")
+    p.add_argument("--station", action="append", metavar="ID", default=None,
+                   help="requests: send only the bookings of this station (repeat for more)")
     p.add_argument("--start", metavar="T", help="start of the span, UTC (default: the scenario window's start)")
     p.add_argument("--end", metavar="T", help="end of the span, UTC (default: the scenario window's end)")
     p.add_argument("--step", metavar="SECONDS", type=float, default=None,
@@ -52,6 +62,10 @@ def run(args) -> int:
         raise InputError(f"--step applies to the ephemeris only, not to {what}")
     if args.paper is not None and what != "report":
         raise InputError(f"--paper applies to the report only, not to {what}")
+    if getattr(args, "station", None) and what != "requests":
+        raise InputError(f"--station applies to requests only, not to {what}")
+    if what == "requests" and (args.start is not None or args.end is not None):
+        raise InputError("--start and --end do not apply to requests: every booking is compared with the last issue")
     times = {}
     for opt in ("start", "end"):
         text = getattr(args, opt)
@@ -70,7 +84,8 @@ def run(args) -> int:
             raise InputError(bad[1], None, f"--{bad[0]}")
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
-                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")
+                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4",
+                      stations=getattr(args, "station", None))
     except OutOfSpanError as exc:
         if what != "ephemeris":
             raise
@@ -111,7 +126,7 @@ def _plan_for(scenario, plan, progress=None, cancel=None):
 
 def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
            end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
-           now_tt: float | None = None, progress=None, cancel=None) -> str:
+           now_tt: float | None = None, progress=None, cancel=None, stations=None) -> str:
     """Write one export and return the line that says what was written.
 
     ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
@@ -120,6 +135,8 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     they replace the planning window (the plan is recomputed), for bookings they keep
     those that overlap. ``step_s`` is the ephemeris spacing.
     ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
+    ``what = "requests"`` issues the next revision (:func:`contactplan.commands.requests.issue`; it saves
+    the scenario), only for ``stations`` when given.
     """
     from contactplan.io.exporting import resolve, with_window
 
@@ -129,6 +146,10 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     if not folder.is_dir():
         raise InputError(f"folder {folder} does not exist", out)
     guard_output(out, scenario)
+    if what == "requests":
+        from contactplan.commands.requests import issue
+
+        return "\n".join(issue(scenario, out, fmt, stations=stations, now_tt=now_tt)[0])
     if what != "ephemeris" and (start_tt is not None or end_tt is not None):
         windowed = with_window(scenario, start_tt, end_tt)
         if (windowed.start_tt, windowed.end_tt) != (scenario.start_tt, scenario.end_tt):

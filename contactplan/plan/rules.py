@@ -109,6 +109,9 @@ class RuleContext:
         ``link_profiles``: ``{link id: {id(pass): PassProfile}}`` (absent links close whenever tracked)."""
         if hasattr(scenario, "bind"):
             scenario.bind()
+        from contactplan.plan.status import active_view
+
+        scenario = active_view(scenario)  # declined and cancelled bookings count nowhere (plan/status.py)
         ctx = cls(scenario=scenario, passes=list(passes), profiles=dict(profiles or {}), recorder=recorder,
                   start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt),
                   link_profiles=dict(link_profiles or {}))
@@ -726,6 +729,9 @@ RULES = [
 from contactplan.plan.tracking import TRACKING_NEEDS_EPHEMERIS, TRACKING_RULES  # noqa: E402  (imports this module)
 RULES.extend(TRACKING_RULES)
 NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | TRACKING_NEEDS_EPHEMERIS
+from contactplan.plan.rules_network import NETWORK_NEEDS_EPHEMERIS, NETWORK_RULES  # noqa: E402  (imports this module)
+RULES.extend(NETWORK_RULES)
+NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | NETWORK_NEEDS_EPHEMERIS
 
 
 def sort_key(f: Finding):

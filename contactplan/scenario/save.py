@@ -21,7 +21,8 @@ from contactplan.fileio import atomic_write
 from contactplan.scenario import model as m
 from contactplan.timescale import format_utc
 
-_TIME_KEYS = {"start_tt": "start", "end_tt": "end", "first_start_tt": "first_start", "epoch_tt": "epoch"}
+_TIME_KEYS = {"start_tt": "start", "end_tt": "end", "first_start_tt": "first_start", "epoch_tt": "epoch",
+              "freeze_tt": "freeze"}
 _SKIP = {"raw", "loaded", "outages", "path", "document", "series", "ephemeris", "link", "recorder",
          "libration", "oem_path", "kind_", "spacecraft", "stations", "activities", "bookings",
          "requirements", "geometry", "format_version", "links"}
@@ -120,7 +121,8 @@ def dump_document(sc: m.Scenario) -> dict:
     src = sc.document or {}
     doc = copy.deepcopy(src)
     doc["format_version"] = m.FORMAT_VERSION
-    doc["scenario"] = encode(sc, only=("name", "start_tt", "end_tt", "revision"))
+    doc["scenario"] = encode(sc, only=("name", "start_tt", "end_tt", "revision", "freeze_tt",
+                                       "freeze_before_start_h"))
 
     craft = sc.spacecraft
     sp = encode(craft, only=("name",))
@@ -180,7 +182,7 @@ def dump_document(sc: m.Scenario) -> dict:
     activities += [encode(a, skip={"series"}) for a in orphans]
     _put_list(doc, "activity_series", [encode(s) for s in kept_series])
     _put_list(doc, "activities", activities)
-    _put_list(doc, "bookings", [encode(b) for b in _in_file_order(sc.bookings, src, "bookings")])
+    _put_list(doc, "bookings", [_encode_booking(b) for b in _in_file_order(sc.bookings, src, "bookings")])
     for key, rec in (("requirements", sc.requirements), ("geometry", sc.geometry)):
         t = encode(rec)
         if t:
@@ -188,6 +190,16 @@ def dump_document(sc: m.Scenario) -> dict:
         else:
             doc.pop(key, None)
     return doc
+
+
+def _encode_booking(b: m.Booking) -> dict:
+    """A booking's table, with its ``confirmed = {...}`` slot (docs/scenario.md) when it has one."""
+    t = encode(b, skip={"confirmed"})
+    if b.confirmed is None:
+        t.pop("confirmed", None)
+    else:
+        t["confirmed"] = encode(b.confirmed)
+    return t
 
 
 def eph_doc(src: dict) -> dict:
