@@ -22,6 +22,8 @@ COMMANDS = {
     "check": ("contactplan.commands.check", "check the plan against every rule"),
     "draft": ("contactplan.commands.draft", "draft bookings for the window that meet the requirements"),
     "export": ("contactplan.commands.export", "export passes, bookings, ephemeris or the weekly report"),
+    "import-busy": ("contactplan.commands.import_busy", "add other users' busy time from an iCalendar file"),
+    "diff": ("contactplan.commands.diff", "what changed between two revisions of a scenario"),
 }
 
 

@@ -85,9 +85,10 @@ def run(args) -> int:
 
 
 def scenario_inputs(scenario) -> list:
-    """The files a scenario reads: the scenario file itself and its OEM (absolute or None)."""
+    """The files a scenario reads: the scenario file itself, its OEM and its busy-time calendars (absolute or None)."""
     eph = getattr(getattr(scenario, "spacecraft", None), "ephemeris", None)
-    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)]
+    calendars = [f.path for st in getattr(scenario, "stations", []) for f in getattr(st, "busy_files", [])]
+    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)] + calendars
 
 
 def guard_output(out, scenario=None, extra=()) -> None:
