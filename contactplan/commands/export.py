@@ -22,6 +22,7 @@ EXAMPLES = """\
   contactplan export week.toml --out week.ics
   contactplan export week.toml --out probe.oem --start 2027-01-10T00:00:00Z --end 2027-02-10T00:00:00Z --step 300
   contactplan export week.toml --out week.pdf --paper letter
+  contactplan export week.toml --out week.pdf --since week.r4.toml   # with the changes since revision 4
 
 The extension picks the format: .xlsx, .csv and .json hold the pass table unless
 --what bookings; .ics is the booking calendar, .oem the ephemeris (CCSDS OEM KVN),
@@ -39,6 +40,8 @@ def add_arguments(p) -> None:
     p.add_argument("--step", metavar="SECONDS", type=float, default=None,
                    help="ephemeris spacing in seconds (default 600)")
     p.add_argument("--paper", choices=("a4", "letter"), default=None, help="report paper size (default a4)")
+    p.add_argument("--since", metavar="OLD.toml", default=None,
+                   help="report: add a page of the changes since this earlier revision (contactplan diff)")
 
 
 def run(args) -> int:
@@ -52,6 +55,8 @@ def run(args) -> int:
         raise InputError(f"--step applies to the ephemeris only, not to {what}")
     if args.paper is not None and what != "report":
         raise InputError(f"--paper applies to the report only, not to {what}")
+    if getattr(args, "since", None) is not None and what != "report":
+        raise InputError(f"--since applies to the report only, not to {what}")
     times = {}
     for opt in ("start", "end"):
         text = getattr(args, opt)
@@ -60,8 +65,14 @@ def run(args) -> int:
                 times[opt] = parse_utc(text)
             except InputError as exc:
                 raise exc.at(None, f"--{opt}") from None
-    guard_output(args.out, None, [args.scenario])
+    since = getattr(args, "since", None)
+    guard_output(args.out, None, [args.scenario] + ([since] if since else []))
     scenario = load_scenario(args.scenario)
+    changes = None
+    if since:
+        from contactplan.plan.diff import diff_scenarios
+
+        changes = diff_scenarios(load_scenario(since), scenario)
     if times:
         from contactplan.bounds import window_problem
 
@@ -70,7 +81,8 @@ def run(args) -> int:
             raise InputError(bad[1], None, f"--{bad[0]}")
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
-                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")
+                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4",
+                      changes=changes, since_name=Path(since).name if since else None)
     except OutOfSpanError as exc:
         if what != "ephemeris":
             raise
@@ -112,7 +124,8 @@ def _plan_for(scenario, plan, progress=None, cancel=None):
 
 def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
            end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
-           now_tt: float | None = None, progress=None, cancel=None) -> str:
+           now_tt: float | None = None, progress=None, cancel=None, changes=None,
+           since_name: str | None = None) -> str:
     """Write one export and return the line that says what was written.
 
     ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
@@ -121,6 +134,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     they replace the planning window (the plan is recomputed), for bookings they keep
     those that overlap. ``step_s`` is the ephemeris spacing.
     ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
+    ``changes`` (a ``plan.diff.Diff``, named ``since_name``) adds the report's changes page.
     """
     from contactplan.io.exporting import resolve, with_window
 
@@ -194,7 +208,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     from contactplan.io.exporting import paper_name
     from contactplan.io.report import write_report
 
-    pages = write_report(plan, out, paper=paper, now_tt=now_tt)
+    pages = write_report(plan, out, paper=paper, now_tt=now_tt, changes=changes, since_name=since_name)
     return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
 
 
