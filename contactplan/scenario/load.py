@@ -249,12 +249,7 @@ def _busy(t: Table, base: Path | None) -> tuple[list, list]:
             for key in ("start", "end", "note"):
                 if key in bt.data:
                     bt.fail(key, "give either ics = \"file.ics\" or start, end and note, not both")
-            rel = bt.str("ics")
-            if not rel.strip():
-                bt.fail("ics", "give the iCalendar file name (relative to the scenario file)")
-            p = Path(rel)
-            if not p.is_absolute() and base is not None:
-                p = base / p
+            p = _path(bt, "ics", "iCalendar", base)
             from contactplan.io.freebusy import read_busy
 
             spans.extend(read_busy(p))
@@ -269,18 +264,21 @@ def _busy(t: Table, base: Path | None) -> tuple[list, list]:
     return spans, files
 
 
+def _path(t: Table, key: str, what: str, base: Path | None) -> Path:
+    """A file named by ``key``: relative to the scenario's folder ``base`` unless absolute."""
+    rel = t.str(key)
+    if not rel.strip():
+        t.fail(key, f"give the {what} file name (relative to the scenario file)")
+    p = Path(rel)
+    return base / p if not p.is_absolute() and base is not None else p
+
+
 def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
     keys = [k for k in ("oem", "libration") if k in t.data]
     if len(keys) != 1:
         t.fail(None, "give exactly one of oem = \"file.oem\" or libration = { ... }")
     if keys[0] == "oem":
-        rel = t.str("oem")
-        if not rel.strip():
-            t.fail("oem", "give the OEM file name (relative to the scenario file)")
-        p = Path(rel)
-        if not p.is_absolute() and base is not None:
-            p = base / p
-        return t.keep(m.EphemerisSpec(kind="oem", oem_path=p))
+        return t.keep(m.EphemerisSpec(kind="oem", oem_path=_path(t, "oem", "OEM", base)))
     lt = t.sub("libration")
     lib = lt.keep(m.LibrationSpec(
         system=lt.str("system", "sun-earth", choices=("sun-earth",)),
