@@ -24,6 +24,8 @@ COMMANDS = {
     "export": ("contactplan.commands.export", "export passes, bookings, ephemeris, the weekly report, or issue "
                                               "requests to the station network"),
     "reconcile": ("contactplan.commands.reconcile", "read the station network's replies into the plan"),
+    "import-busy": ("contactplan.commands.import_busy", "add other users' busy time from an iCalendar file"),
+    "diff": ("contactplan.commands.diff", "what changed between two revisions of a scenario"),
 }
 
 

@@ -23,6 +23,7 @@ EXAMPLES = """\
   contactplan export week.toml --out probe.oem --start 2027-01-10T00:00:00Z --end 2027-02-10T00:00:00Z --step 300
   contactplan export week.toml --out week.pdf --paper letter
   contactplan export week.toml --what requests --out requests.ics --station NRV
+  contactplan export week.toml --out week.pdf --since week.r4.toml   # with the changes since revision 4
 
 The extension picks the format: .xlsx, .csv and .json hold the pass table unless
 --what bookings; .ics is the booking calendar, .oem the ephemeris (CCSDS OEM KVN),
@@ -49,6 +50,8 @@ def add_arguments(p) -> None:
     p.add_argument("--step", metavar="SECONDS", type=float, default=None,
                    help="ephemeris spacing in seconds (default 600)")
     p.add_argument("--paper", choices=("a4", "letter"), default=None, help="report paper size (default a4)")
+    p.add_argument("--since", metavar="OLD.toml", default=None,
+                   help="report: add a page of the changes since this earlier revision (contactplan diff)")
 
 
 def run(args) -> int:
@@ -66,6 +69,8 @@ def run(args) -> int:
         raise InputError(f"--station applies to requests only, not to {what}")
     if what == "requests" and (args.start is not None or args.end is not None):
         raise InputError("--start and --end do not apply to requests: every booking is compared with the last issue")
+    if getattr(args, "since", None) is not None and what != "report":
+        raise InputError(f"--since applies to the report only, not to {what}")
     times = {}
     for opt in ("start", "end"):
         text = getattr(args, opt)
@@ -74,8 +79,14 @@ def run(args) -> int:
                 times[opt] = parse_utc(text)
             except InputError as exc:
                 raise exc.at(None, f"--{opt}") from None
-    guard_output(args.out, None, [args.scenario])
+    since = getattr(args, "since", None)
+    guard_output(args.out, None, [args.scenario] + ([since] if since else []))
     scenario = load_scenario(args.scenario)
+    changes = None
+    if since:
+        from contactplan.plan.diff import diff_scenarios
+
+        changes = diff_scenarios(load_scenario(since), scenario)
     if times:
         from contactplan.bounds import window_problem
 
@@ -85,7 +96,7 @@ def run(args) -> int:
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
                       step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4",
-                      stations=getattr(args, "station", None))
+                      stations=getattr(args, "station", None), changes=changes, since_name=Path(since).name if since else None)
     except OutOfSpanError as exc:
         if what != "ephemeris":
             raise
@@ -100,9 +111,10 @@ def run(args) -> int:
 
 
 def scenario_inputs(scenario) -> list:
-    """The files a scenario reads: the scenario file itself and its OEM (absolute or None)."""
+    """The files a scenario reads: the scenario file itself, its OEM and its busy-time calendars (absolute or None)."""
     eph = getattr(getattr(scenario, "spacecraft", None), "ephemeris", None)
-    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)]
+    calendars = [f.path for st in getattr(scenario, "stations", []) for f in getattr(st, "busy_files", [])]
+    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)] + calendars
 
 
 def guard_output(out, scenario=None, extra=()) -> None:
@@ -126,7 +138,8 @@ def _plan_for(scenario, plan, progress=None, cancel=None):
 
 def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
            end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
-           now_tt: float | None = None, progress=None, cancel=None, stations=None) -> str:
+           now_tt: float | None = None, progress=None, cancel=None, stations=None, changes=None,
+           since_name: str | None = None) -> str:
     """Write one export and return the line that says what was written.
 
     ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
@@ -137,6 +150,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
     ``what = "requests"`` issues the next revision (:func:`contactplan.commands.requests.issue`; it saves
     the scenario), only for ``stations`` when given.
+    ``changes`` (a ``plan.diff.Diff``, named ``since_name``) adds the report's changes page.
     """
     from contactplan.io.exporting import resolve, with_window
 
@@ -214,7 +228,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     from contactplan.io.exporting import paper_name
     from contactplan.io.report import write_report
 
-    pages = write_report(plan, out, paper=paper, now_tt=now_tt)
+    pages = write_report(plan, out, paper=paper, now_tt=now_tt, changes=changes, since_name=since_name)
     return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
 
 

@@ -700,6 +700,7 @@ from contactplan.plan.rules_daily import (  # noqa: E402  (they use the helpers 
 from contactplan.plan.rules_services import (  # noqa: E402  (they use the helpers above)
     rule_command_load, rule_handover_gap, rule_prepass_conflict, rule_service_unavailable,
 )
+from contactplan.plan.rules_busy import rule_station_busy  # noqa: E402  (uses the helpers above)
 
 #: every rule, in the order they run; a new rule is one function added here
 RULES = [
@@ -708,6 +709,7 @@ RULES = [
     rule_station_outage,
     rule_double_booking,
     rule_prepass_conflict,
+    rule_station_busy,
     rule_service_unavailable,
     rule_downlink_in_keepout,
     rule_burn_unmonitored,

@@ -197,7 +197,7 @@ def _service(t: Table, links: dict, seen: set) -> m.StationService:
     return t.keep(sv)
 
 
-def _station(t: Table, links: dict) -> m.Station:
+def _station(t: Table, links: dict, base: Path | None = None) -> m.Station:
     sid = t.str("id", pattern=_ID_RE)
     st = m.Station(
         id=sid,
@@ -236,7 +236,41 @@ def _station(t: Table, links: dict) -> m.Station:
             o.fail("end", "outage ends before it starts")
         outages.append(out)
     st.outages = outages
+    st.busy, st.busy_files = _busy(t, base)
     return t.keep(st)
+
+
+def _busy(t: Table, base: Path | None) -> tuple[list, list]:
+    """``busy = [{ ics = "file.ics" }, { start, end, note }]``: other users' time (docs/scenario.md); each
+    iCalendar file is read now (contactplan.io.freebusy). Returns (spans sorted by start, files)."""
+    spans, files = [], []
+    for bt in t.records("busy"):
+        if "ics" in bt.data:
+            for key in ("start", "end", "note"):
+                if key in bt.data:
+                    bt.fail(key, "give either ics = \"file.ics\" or start, end and note, not both")
+            p = _path(bt, "ics", "iCalendar", base)
+            from contactplan.io.freebusy import read_busy
+
+            spans.extend(read_busy(p))
+            files.append(bt.keep(m.BusyFile(path=p)))
+            continue
+        sp = m.BusySpan(start_tt=bt.time("start"), end_tt=bt.time("end"), source=bt.str("note", ""))
+        if sp.end_tt <= sp.start_tt:
+            bt.fail("end", "busy time ends before it starts")
+        bt.loaded["source"] = bt.loaded.pop("note")
+        spans.append(bt.keep(sp))
+    spans.sort(key=lambda s: (s.start_tt, s.end_tt))
+    return spans, files
+
+
+def _path(t: Table, key: str, what: str, base: Path | None) -> Path:
+    """A file named by ``key``: relative to the scenario's folder ``base`` unless absolute."""
+    rel = t.str(key)
+    if not rel.strip():
+        t.fail(key, f"give the {what} file name (relative to the scenario file)")
+    p = Path(rel)
+    return base / p if not p.is_absolute() and base is not None else p
 
 
 def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
@@ -244,13 +278,7 @@ def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
     if len(keys) != 1:
         t.fail(None, "give exactly one of oem = \"file.oem\" or libration = { ... }")
     if keys[0] == "oem":
-        rel = t.str("oem")
-        if not rel.strip():
-            t.fail("oem", "give the OEM file name (relative to the scenario file)")
-        p = Path(rel)
-        if not p.is_absolute() and base is not None:
-            p = base / p
-        return t.keep(m.EphemerisSpec(kind="oem", oem_path=p))
+        return t.keep(m.EphemerisSpec(kind="oem", oem_path=_path(t, "oem", "OEM", base)))
     lt = t.sub("libration")
     lib = lt.keep(m.LibrationSpec(
         system=lt.str("system", "sun-earth", choices=("sun-earth",)),
@@ -547,7 +575,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     sp.keep(spacecraft)
 
     links = {lk.id: lk for lk in spacecraft.links}
-    stations = [_station(t, links) for t in root.records("stations")]
+    stations = [_station(t, links, base) for t in root.records("stations")]
     _unique(stations, "station", path, "stations")
     series = [_series(t) for t in root.records("activity_series")]
     _unique(series, "activity series", path, "activity_series")

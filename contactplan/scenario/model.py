@@ -60,6 +60,23 @@ class Outage(Record):
 
 
 @dataclass(eq=False)
+class BusySpan(Record):
+    """Antenna time of a station taken by another user (``busy``): inline, or read from an iCalendar file."""
+
+    start_tt: float
+    end_tt: float
+    source: str = ""  # the note given inline, or "file.ics line N: summary"
+    file: Path | None = field(default=None, compare=False)  # the iCalendar file it was read from (None: inline)
+
+
+@dataclass(eq=False)
+class BusyFile(Record):
+    """A ``busy = [{ ics = "path.ics" }]`` entry: the file (absolute), re-read on every load."""
+
+    path: Path
+
+
+@dataclass(eq=False)
 class StationService(Record):
     """What a station does on one spacecraft link: receive a down link (G/T) or send an up link (EIRP)."""
 
@@ -92,6 +109,8 @@ class Station(Record):
     post_pass_min: float = 0.0  # release after the track
     cost_per_hour: float = 1.0
     max_hours_per_week: float | None = None
+    busy: list = field(default_factory=list)  # [BusySpan] of other users, inline and from files, sorted by start
+    busy_files: list = field(default_factory=list)  # [BusyFile] the iCalendar files busy spans were read from
     g_over_t_dbk: InitVar[float | None] = None
     zenith_attenuation_db: InitVar[float | None] = None
     setup_min: InitVar[float | None] = None

@@ -102,7 +102,12 @@ def _series_intact(series: m.ActivitySeries, members: list) -> bool:
 
 def _oem_text(eph: m.EphemerisSpec, sc: m.Scenario) -> str:
     """The ``oem`` path as written: relative to the scenario's folder when it can be."""
-    p = Path(eph.oem_path)
+    return _path_text(eph.oem_path, sc)
+
+
+def _path_text(path, sc: m.Scenario) -> str:
+    """A file path as written in the scenario: relative to the scenario's folder when it can be."""
+    p = Path(path)
     if sc.path is not None:
         try:
             p = Path(os.path.relpath(p.resolve(), sc.path.parent.resolve()))
@@ -152,7 +157,7 @@ def dump_document(sc: m.Scenario) -> dict:
 
     stations = []
     for st in _in_file_order(sc.stations, src, "stations"):
-        t = encode(st, skip={"services"})
+        t = encode(st, skip={"services", "busy", "busy_files"})
         raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
         if st.services:
             t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services},
@@ -163,6 +168,7 @@ def dump_document(sc: m.Scenario) -> dict:
             t["outages"] = [encode(o) for o in st.outages]
         else:
             t.pop("outages", None)
+        _put_list(t, "busy", _busy_tables(st, sc))
         stations.append(t)
     _put_list(doc, "stations", stations)
 
@@ -200,6 +206,33 @@ def _encode_booking(b: m.Booking) -> dict:
     else:
         t["confirmed"] = encode(b.confirmed)
     return t
+
+
+def _busy_tables(st: m.Station, sc: m.Scenario) -> list:
+    """A station's ``busy`` list: its iCalendar files (path rewritten when the scenario moves folder) and its
+    inline spans, in file order (new ones last); spans read from a file are not written (the file is re-read)."""
+    inline = [sp for sp in st.busy if getattr(sp, "file", None) is None]
+    raw = st.raw.get("busy") if isinstance(st.raw.get("busy"), list) else []
+    out = []
+    for rec in _in_file_order(list(st.busy_files) + inline, {"busy": raw}, "busy"):
+        t = dict(rec.raw)
+        if isinstance(rec, m.BusyFile):
+            written = t.get("ics") if isinstance(t.get("ics"), str) else None
+            same = (written is not None and sc.path is not None
+                    and (sc.path.parent / written).resolve() == Path(rec.path).resolve())
+            if not same:
+                t["ics"] = _path_text(rec.path, sc)
+        else:
+            for key, value in (("start", rec.start_tt), ("end", rec.end_tt)):
+                if key not in rec.loaded or not _same(rec.loaded[key], value, True):
+                    t[key] = format_time(value)
+            if rec.loaded.get("source", None) != rec.source or "source" not in rec.loaded:
+                if rec.source:
+                    t["note"] = rec.source
+                else:
+                    t.pop("note", None)
+        out.append(t)
+    return out
 
 
 def eph_doc(src: dict) -> dict:
