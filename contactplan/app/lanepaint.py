@@ -16,6 +16,8 @@ from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen
 from contactplan.app import theme
 from contactplan.app.servicemarks import paint_marks
 from contactplan.app.spans import DETAIL_MAX, paint_runs
+from contactplan.app.statusmarks import VOID, body_fill, busy_brush, faded, ghost_pen, paint_status
+from contactplan.plan.status import status_of
 from contactplan.timescale import DAY_S, format_utc, utc_days
 
 #: activity kind -> code in the dense lane's colour arrays (0: any other kind)
@@ -118,6 +120,13 @@ class LanePainter:
                 painter.fillRect(r, hatch)
                 painter.setPen(QPen(th.outage, 1, Qt.PenStyle.DashLine))
                 painter.drawRect(r)
+        # other users' time on the antenna (busy), dotted
+        busy = busy_brush(th)
+        for i, st in enumerate(self.stations, start=1):
+            for sp in getattr(st, "busy", None) or ():
+                if sp.end_tt < t_lo or sp.start_tt > t_hi:
+                    continue
+                painter.fillRect(rect(sp.start_tt, sp.end_tt, i + 0.04, i + 0.96), busy)
         # passes
         sel = self.doc.selection
         small = QFont()
@@ -230,6 +239,16 @@ class LanePainter:
                                selected=(sel.kind == "booking" and sel.key == b.id),
                                track=rect(*sc.track_span_tt(b), lane + 0.28, lane + 0.72),
                                spare=rect(b.start_tt, b.end_tt, lane + 0.73, lane + 0.99))
+        # the latest issued revision, as dashed outlines (View menu)
+        if self.ghosts:
+            painter.setPen(ghost_pen(th))
+            painter.setBrush(Qt.BrushStyle.NoBrush)
+            for station, g0, g1 in self.ghosts:
+                if g1 < t_lo or g0 > t_hi:
+                    continue
+                lane = self.lane_of_station(station)
+                if lane >= 0:
+                    painter.drawRect(rect(g0, g1, lane + 0.22, lane + 0.78))
         # drag preview
         d = self.drag
         if d is not None and d.start_tt is not None and d.end_tt is not None:
@@ -296,14 +315,13 @@ class LanePainter:
 
     def _draw_booking(self, painter, r: QRectF, b, th, font, selected: bool, track=None, spare=None) -> None:
         fill = th.booking_locked if b.locked else th.booking
+        body = body_fill(b, fill, th)  # the status: fill and pattern (statusmarks)
         if track is not None and track.width() < r.width():  # pre-pass and post-pass: lighter, dotted edge
-            bg = th.background
-            light = QColor(int(0.45 * fill.red() + 0.55 * bg.red()), int(0.45 * fill.green() + 0.55 * bg.green()),
-                           int(0.45 * fill.blue() + 0.55 * bg.blue()))  # the booking's colour, faded
-            painter.fillRect(r, light)
-            painter.fillRect(track.intersected(r), fill)
+            if status_of(b) not in VOID:
+                painter.fillRect(r, faded(fill, th.background))
+            painter.fillRect(track.intersected(r), body)
         else:
-            painter.fillRect(r, fill)
+            painter.fillRect(r, body)
         painter.setPen(QPen(th.booking_edge, 1, Qt.PenStyle.DotLine if track is not None and
                             track.width() < r.width() else Qt.PenStyle.SolidLine))
         painter.setBrush(Qt.BrushStyle.NoBrush)
@@ -311,6 +329,7 @@ class LanePainter:
         if b.locked:  # a second cue besides the darker fill: a bar across the top
             painter.fillRect(QRectF(r.left(), r.top(), r.width(), 3), th.booking_edge)
         self._outline(painter, r, b.id, selected, th)
+        paint_status(painter, r, b, th.booking_edge)
         if selected:
             painter.fillRect(QRectF(r.left() - 2, r.center().y() - 5, 4, 10), th.selection)
             painter.fillRect(QRectF(r.right() - 2, r.center().y() - 5, 4, 10), th.selection)

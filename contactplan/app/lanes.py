@@ -117,6 +117,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         # stations and activities change far less often than bookings: their index is rebuilt only
         # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
         self.records_revision = 0
+        self.ghosts: list = []  # [(station, start_tt, end_tt)] of the latest issued revision, when shown
         self.doc.recordsChanged.connect(self._records_edited)
         self.doc.scenarioReplaced.connect(self._records_edited)
         self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint

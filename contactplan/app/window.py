@@ -20,11 +20,13 @@ from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QDialog, QDockWidge
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
+from contactplan.app.cycle import NetworkCycle
 from contactplan.app.document import PlanDocument, Selection
 from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel
 from contactplan.app.navstrip import NavigationStrip
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
+from contactplan.app.statusmarks import STATUS_LOOKS
 from contactplan.app.timeline import Timeline
 from contactplan.app.widgets import (CautionLabel, ServicesDialog, StationDelegate, _marks_legend,  # noqa: F401
                                      _table)
@@ -305,6 +307,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         m = mb.addMenu("&Plan")
         m.addAction(self.act_compute)
         m.addAction(self.act_draft)
+        m.addSeparator()
+        self.cycle = NetworkCycle(self)  # status, freeze, issuing, the issued revision (app/cycle.py)
+        self.cycle.fill_menu(m)
         m = mb.addMenu("&Help")
         m.addAction(self.act_legend)
         m.addAction(self.act_about)
@@ -651,6 +656,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
             (sw(th.booking), "booking track (BOT to EOT); lighter, dotted ends: pre-pass and post-pass; "
                              "lettered boxes: its services (" + _marks_legend() + ")"),
             (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
+        ] + [("", f"{st}: {look}") for st, look in STATUS_LOOKS.items()] + [
+            (sw(th.outage), "dotted across a station lane: other users' time on the antenna (busy)"),
+            ("", "dashed outline without fill: a booking as the latest issued revision had it (Plan menu)"),
             (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
             (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
             (sw(th.burn), "burn; green bar below: span that must be watched"),
