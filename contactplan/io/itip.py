@@ -277,7 +277,6 @@ def _reply_event(ev, path, where) -> Reply:
     uid = ev.get("uid")
     if uid is None or not str(uid).strip():
         raise InputError("no UID: the reply cannot be matched to a request", path, where)
-    where = f"{where} (UID {show_id(str(uid))})"
     if ev.get("dtstamp") is None:
         raise InputError("no DTSTAMP (RFC 5546 section 3.2.3 requires it)", path, where)
     if ev.get("organizer") is None:
@@ -356,8 +355,8 @@ def read_reply_table(data: bytes, path) -> list[Reply]:
         if not bid and not ref:
             raise InputError("no id and no network_ref: the row cannot be matched to a booking", path, k)
         if decision not in DECISIONS:
-            raise InputError(f"decision {show_id(cell('decision')) or '(empty)'!s}: give accepted, declined or "
-                             "tentative", path, k)
+            shown = repr(show_id(cell("decision"))) if cell("decision") else "(empty)"
+            raise InputError(f"decision {shown} is not one of accepted, declined, tentative", path, k)
         start = end = None
         s, e = cell("start"), cell("end")
         if s or e:
