@@ -164,6 +164,8 @@ REPLY_EXPECT = {
     "no_event.ics": " the REPLY holds no VEVENT",
     "no_id_column.csv": "1: no id or network_ref column: the rows cannot be matched to bookings",
     "no_uid.ics": "VEVENT #1: no UID: the reply cannot be matched to a request",
+    "no_dtstamp.ics": "VEVENT #1: no DTSTAMP (RFC 5546 section 3.2.3 requires it)",
+    "no_organizer.ics": "VEVENT #1: no ORGANIZER (RFC 5546 section 3.2.3 requires it)",
     "not_utf8.csv": "1: not UTF-8 text",
     "only_dtstart.ics": "VEVENT #1: give both DTSTART and DTEND, or neither",
     "other_station.ics": "VEVENT #1: the reply comes from mailto:kal@stations.invalid, but B001 is booked at NRV "
