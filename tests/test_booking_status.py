@@ -16,48 +16,15 @@ from contactplan.scenario import model as m
 from contactplan.scenario.load import UnknownKeyWarning, load_scenario, parse_text
 from contactplan.scenario.save import dumps, save_scenario
 from contactplan.timescale import parse_utc
+from network_helpers import WEEK
 from test_link_helpers import booking as link_booking, flat_profile, make_pass, make_scenario as link_scenario
 from test_rules import PASSES, booking, make_scenario
 
-HEAD = """format_version = 2
-
-[scenario]
-name = "Status week"
-start = "2027-01-12T00:00:00Z"
-end = "2027-01-19T00:00:00Z"
-revision = 3
-{scenario}
-
-[spacecraft]
-name = "Invented probe"
-ephemeris = {{ libration = {{ epoch = "2027-01-01T00:00:00Z" }} }}
-
-[[stations]]
-id = "NRV"
-latitude_deg = 47.35
-longitude_deg = 8.10
-pre_pass_min = 30
-post_pass_min = 15
-
-[[stations]]
-id = "KAL"
-latitude_deg = -33.2
-longitude_deg = 151.4
-
-[[bookings]]
-id = "B001"
-station = "NRV"
-start = "2027-01-12T19:00:00Z"
-end = "2027-01-13T03:00:00Z"
-{booking}
-
-[requirements]
-{requirements}
-"""
-
-
 def text(scenario="", booking="", requirements=""):
-    return HEAD.format(scenario=scenario, booking=booking, requirements=requirements)
+    """The invented week of tests/network_helpers.py (revision 3), its booking B001 given ``booking`` keys."""
+    head = WEEK.replace('end = "2027-01-19T00:00:00Z"\n', f'end = "2027-01-19T00:00:00Z"\nrevision = 3\n{scenario}\n')
+    return (f"{head}\n[[bookings]]\nid = \"B001\"\nstation = \"NRV\"\nstart = \"2027-01-12T19:00:00Z\"\n"
+            f"end = \"2027-01-13T03:00:00Z\"\n{booking}\n\n[requirements]\n{requirements}\n")
 
 
 def test_defaults_without_the_new_keys():

@@ -125,22 +125,11 @@ def _issued_copy(stamped, issued, stations):
 
 
 def _toml_for(sc, target: Path) -> str:
-    """The scenario's TOML as it would be saved at ``target`` (paths relative to that folder), checked by
-    reading it back (a plan that could not be opened again is refused before anything is written)."""
-    from contactplan.scenario.load import parse_text
-    from contactplan.scenario.save import NotSavedError, dumps
+    """The scenario's TOML as it would be saved at ``target``, checked by reading it back (a plan that could
+    not be opened again is refused before anything is written)."""
+    from contactplan.scenario.save import text_for
 
-    old = sc.path
-    sc.path = target
-    try:
-        text = dumps(sc)
-    finally:
-        sc.path = old
-    try:
-        parse_text(text, target)
-    except InputError as exc:
-        raise NotSavedError(f"not issued: {exc.message}", target, exc.where) from None
-    return text
+    return text_for(sc, target, verb="issued")
 
 
 def _plural(n: int, word: str) -> str:
