@@ -78,6 +78,8 @@ def plan_requests(scenario, issued=None, stations=None) -> list:
                 out.append(item("add", b, scenario, seq + 1 if sent_before else 0))
             elif slot_differences(ref, slot(b)):
                 out.append(item("change", b, scenario, seq + 1))
+                if ref[0] != b.station:
+                    out[-1].previous_station = ref[0]
         elif known is not None:
             out.append(item("cancel", b, scenario, seq + 1))
     ids = {b.id for b in scenario.bookings}
@@ -170,6 +172,8 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
     _toml_for(stamped, scenario.path)  # the save below must not fail its read-back after the files exist
     adds = [it for it in items if it.action != "cancel"]
     cancels = [it for it in items if it.action == "cancel"]
+    # a booking moved to another station: the previous station is taken off the event (RFC 5546 section 3.2.5)
+    removals = [it for it in adds if it.previous_station]
     prodid = f"-//contactplan//contactplan {__version__}//EN"
     name = f"{scenario.name}: {scenario.spacecraft.name} requests, revision {n}"
     writes = []  # (path, data, items, noun)
@@ -177,9 +181,10 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
         if adds:
             writes.append((out, itip.itip_calendar(adds, "REQUEST", name, prodid, now_tt).to_ical(), adds,
                            "request"))
-        if cancels:
-            writes.append((itip.cancel_path(out), itip.itip_calendar(cancels, "CANCEL", name + " (cancelled)",
-                                                                     prodid, now_tt).to_ical(), cancels,
+        if cancels or removals:
+            gone = sorted(cancels + removals, key=lambda it: (it.start_tt, it.booking_id))
+            writes.append((itip.cancel_path(out), itip.itip_calendar(gone, "CANCEL", name + " (cancelled)",
+                                                                     prodid, now_tt).to_ical(), gone,
                            "cancellation"))
     elif fmt == "csv":
         writes.append((out, itip.requests_csv(items), items, "row"))
@@ -201,7 +206,7 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
         counted = ", ".join(f"{sum(1 for it in its if it.action == a)} {a}" for a in itip.ACTIONS
                             if any(it.action == a for it in its))
         lines.append(f"wrote {_plural(len(its), noun)} ({counted}) to {path}")
-    if fmt == "ics" and not cancels:
+    if fmt == "ics" and not (cancels or removals):
         lines.append(f"no cancellations ({itip.cancel_path(out).name} not written)")
     if fmt == "ics" and not adds:
         lines.append(f"no requests ({out.name} not written)")

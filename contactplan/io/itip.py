@@ -76,6 +76,7 @@ class RequestItem:
     sequence: int
     uid: str
     network_ref: str | None = None
+    previous_station: str | None = None  # a change of station: the station the network held it at
 
     @property
     def track_tt(self) -> tuple[float, float]:
@@ -106,7 +107,11 @@ def _description(it: RequestItem) -> str:
 
 
 def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: float | None = None):
-    """An ``icalendar.Calendar`` with ``METHOD`` REQUEST or CANCEL and one VEVENT per item."""
+    """An ``icalendar.Calendar`` with ``METHOD`` REQUEST or CANCEL and one VEVENT per item.
+
+    In a CANCEL, an item of action ``change`` is a booking moved to another station: its VEVENT
+    removes the previous station only (RFC 5546 section 3.2.5: ``ATTENDEE`` = the attendee removed,
+    no ``STATUS:CANCELLED``, which would cancel the whole event); the REQUEST names the new one."""
     from icalendar import Calendar, Event, vCalAddress, vText
 
     from contactplan.timescale import now_tt as _now, to_datetime
@@ -131,8 +136,10 @@ def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: f
         org = vCalAddress(ORGANIZER)
         org.params["CN"] = vText("Mission planning")
         ev.add("organizer", org)
-        att = vCalAddress(station_address(it.station))
-        att.params["CN"] = vText(_line(it.station_name or it.station))
+        removal = method == "CANCEL" and it.action == "change"
+        gone = it.previous_station if removal and it.previous_station else it.station
+        att = vCalAddress(station_address(gone))
+        att.params["CN"] = vText(_line(it.station_name if gone == it.station and it.station_name else gone))
         att.params["CUTYPE"] = vText("RESOURCE")
         att.params["ROLE"] = vText("REQ-PARTICIPANT")
         if method == "REQUEST":
@@ -143,7 +150,8 @@ def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: f
         ev.add("description", _description(it))
         if it.services:
             ev.add("categories", list(it.services))
-        ev.add("status", "TENTATIVE" if method == "REQUEST" else "CANCELLED")
+        if not removal:
+            ev.add("status", "TENTATIVE" if method == "REQUEST" else "CANCELLED")
         ev.add("transp", "OPAQUE")
         if it.network_ref:
             ev.add(NETWORK_REF_PROPERTY, it.network_ref)
