@@ -250,3 +250,27 @@ def test_reply_table_parser_never_crashes(data):
         assert "\n" not in str(exc) and str(exc).startswith("reply.csv")
     else:
         assert got and all(r.decision in ("accepted", "declined", "tentative") for r in got)
+
+
+def test_weekly_cycle_second_issue_holds_only_the_declined_and_their_replacements(issued, tmp_path):
+    # requested, half declined by a reply file, reconciled, replacements booked (as a re-draft would),
+    # issued again: the cancellations are exactly the declined ones, the requests exactly the replacements
+    week, req = issued
+    answers = [(req[b], "DECLINED" if b in ("B002", "B004", "B006") else "ACCEPTED", None) for b in sorted(req)]
+    (tmp_path / "reply.ics").write_bytes(reply_calendar(answers))
+    assert main(["reconcile", str(week), str(tmp_path / "reply.ics"), "--out", str(week)]) == 0
+    assert statuses(week) == {"B001": "confirmed", "B002": "declined", "B003": "confirmed", "B004": "declined",
+                              "B005": "confirmed", "B006": "declined"}
+    from contactplan.scenario.model import Booking
+    from contactplan.scenario.save import save_scenario
+
+    sc = load_scenario(week)
+    for new_id, sid, a, b in (("B007", "KAL", "2027-01-13T10:00:00Z", "2027-01-13T13:00:00Z"),
+                              ("B008", "NRV", "2027-01-15T19:00:00Z", "2027-01-16T01:00:00Z")):
+        sc.bookings.append(Booking(id=new_id, station=sid, start_tt=parse_utc(a), end_tt=parse_utc(b)))
+    save_scenario(sc)
+    export(load_scenario(week), tmp_path / "second.ics", "requests", now_tt=NOW_TT)
+    assert sorted(events(tmp_path / "second-cancel.ics")) == ["B002", "B004", "B006"]
+    assert sorted(events(tmp_path / "second.ics")) == ["B007", "B008"]
+    assert {int(e["sequence"]) for e in events(tmp_path / "second.ics").values()} == {0}
+    assert {int(e["sequence"]) for e in events(tmp_path / "second-cancel.ics").values()} == {1}
