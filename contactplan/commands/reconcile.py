@@ -26,8 +26,9 @@ EXAMPLES = """\
 
 Accepted bookings become confirmed, declined ones declined (they then count nowhere),
 tentative ones stay requested. A reply with other times is a counter-offer: listed, and
-taken only with --accept-changes. --out may be the scenario itself (the previous file is
-kept as NAME.toml~) but not a reply file. Any problem: one line each, nothing written."""
+taken only with --accept-changes. --out is usually the scenario itself (the previous file
+is kept as NAME.toml~; the issued revisions NAME.rN.toml are found by its name), never a
+reply file. Any problem: one line each, nothing written."""
 
 #: decision -> the status it gives
 STATUS_OF = {"accepted": "confirmed", "declined": "declined", "tentative": "requested"}
