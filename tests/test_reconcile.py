@@ -274,3 +274,23 @@ def test_weekly_cycle_second_issue_holds_only_the_declined_and_their_replacement
     assert sorted(events(tmp_path / "second.ics")) == ["B007", "B008"]
     assert {int(e["sequence"]) for e in events(tmp_path / "second.ics").values()} == {0}
     assert {int(e["sequence"]) for e in events(tmp_path / "second-cancel.ics").values()} == {1}
+
+
+VALID_REPLY = (CORPUS / "other_station.ics").read_bytes()
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(st.tuples(st.integers(0, len(VALID_REPLY) - 1), st.binary(min_size=0, max_size=4)), min_size=1,
+                max_size=4))
+def test_reply_calendar_parser_never_crashes(edits):
+    from contactplan.io.itip import read_reply_calendar
+
+    data = bytearray(VALID_REPLY)
+    for pos, new in edits:  # overwrite a few bytes anywhere: broken lines, names, values, times
+        data[pos:pos + len(new)] = new
+    try:
+        got = read_reply_calendar(bytes(data), "reply.ics")
+    except InputError as exc:
+        assert "\n" not in str(exc) and str(exc).startswith("reply.ics")
+    else:
+        assert all(r.decision in ("accepted", "declined", "tentative") and r.uid for r in got)

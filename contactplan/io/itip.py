@@ -241,7 +241,10 @@ def _utc_of(value, path, where, name: str) -> float:
 
     from contactplan.timescale import from_datetime
 
-    v = getattr(value, "dt", value)
+    try:
+        v = getattr(value, "dt", value)
+    except ValueError as exc:  # icalendar keeps a broken value and raises when it is read
+        raise InputError(f"{name} is not a valid date-time: {_short(exc)}", path, where) from None
     if not isinstance(v, dt.datetime):
         raise InputError(f"{name} must be a date-time in UTC, got a date", path, where)
     if v.tzinfo is None or v.utcoffset() != dt.timedelta(0):
@@ -260,7 +263,7 @@ def read_reply_calendar(data: bytes, path) -> list[Reply]:
     try:
         cals = Calendar.from_ical(text, multiple=True)
     except (ValueError, KeyError, IndexError, TypeError) as exc:
-        raise InputError(f"not a valid iCalendar file: {' '.join(str(exc).split())[:120]}", path) from None
+        raise InputError(f"not a valid iCalendar file: {_short(exc)}", path) from None
     if not cals:
         raise InputError("no VCALENDAR in the file", path)
     out = []
@@ -277,8 +280,15 @@ def read_reply_calendar(data: bytes, path) -> list[Reply]:
             raise InputError("the REPLY holds no VEVENT", path)
         for ev in events:
             n += 1
-            out.append(_reply_event(ev, path, f"VEVENT #{n}"))
+            try:
+                out.append(_reply_event(ev, path, f"VEVENT #{n}"))
+            except (ValueError, TypeError, AttributeError, KeyError, IndexError) as exc:  # (InputError passes)
+                raise InputError(f"cannot read the event: {_short(exc)}", path, f"VEVENT #{n}") from None
     return out
+
+
+def _short(exc) -> str:
+    return " ".join(str(exc).split())[:120]
 
 
 def _reply_event(ev, path, where) -> Reply:
