@@ -8,7 +8,8 @@ revision ``NAME.rN.toml`` beside the scenario (:mod:`contactplan.plan.issued`); 
 confirmed booking, with what the network confirmed:
 
 - **add**: a booking that counts (draft, requested, confirmed) and the network does not know
-  (not in the issued revision, or declined or cancelled there);
+  (not in the issued revision, or declined or cancelled there); a booking confirmed by hand
+  without a ``confirmed`` slot counts as known as it is;
 - **change**: one it knows whose station, start, end or services differ;
 - **cancel**: one it knows (requested or confirmed there) that is now cancelled, declined or
   deleted from the plan.
@@ -73,7 +74,9 @@ def plan_requests(scenario, issued=None, stations=None) -> list:
             seq = max(seq, int(getattr(old, "sequence", 0) or 0))
         sent_before = b.requested_revision is not None or old is not None
         if counts(b):
-            ref = slot(b.confirmed) if status_of(b) == "confirmed" and b.confirmed is not None else known
+            ref = known
+            if status_of(b) == "confirmed":  # what the network confirmed; marked by hand without it: as it is
+                ref = slot(b.confirmed) if b.confirmed is not None else (known or slot(b))
             if ref is None:
                 out.append(item("add", b, scenario, seq + 1 if sent_before else 0))
             elif slot_differences(ref, slot(b)):
