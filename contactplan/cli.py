@@ -36,8 +36,8 @@ examples:
   contactplan passes week.toml               passes of every station, as a table
   contactplan check week.toml                check the plan (exit status 1 when it has errors)
   contactplan export week.toml --out week.pdf
-  contactplan export week.toml --what requests --out requests.ics   issue the next revision
-  contactplan reconcile week.toml reply.ics --out week.toml        read the network's answers
+  contactplan export week.toml --what requests --out req.ics
+  contactplan reconcile week.toml reply.ics --out week.toml
   contactplan COMMAND --help                 options and examples of one command"""
 
 

@@ -134,11 +134,16 @@ def _backup(path: Path) -> None:
         _replace(tmp_bak, bak)  # the old backup stays until the new one is complete
     finally:
         # a rename between two links of one file does nothing (POSIX): the temporary name may remain
-        try:
-            os.unlink(tmp_bak)
-        except OSError:
-            pass
-        _ACTIVE.discard(str(Path(tmp_bak).resolve()))
+        _drop_tmp(tmp_bak)
+
+
+def _drop_tmp(tmp: str) -> None:
+    """Remove one of this process's temporary files (if still there) and forget it."""
+    try:
+        os.unlink(tmp)
+    except OSError:
+        pass
+    _ACTIVE.discard(str(Path(tmp).resolve()))
 
 
 def backup(path: str | Path) -> None:
@@ -316,7 +321,13 @@ def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, enco
         raise
     finally:
         _ACTIVE.discard(active)
-    try:  # make the rename durable
+    _fsync_folder(folder)  # make the rename durable
+    return path
+
+
+def _fsync_folder(folder: Path) -> None:
+    """Flush a folder's entries to disk (a rename or link made durable); quietly skipped where not possible."""
+    try:
         dfd = os.open(folder, os.O_RDONLY)
         try:
             os.fsync(dfd)
@@ -324,7 +335,6 @@ def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, enco
             os.close(dfd)
     except OSError:
         pass
-    return path
 
 
 def atomic_create(path: str | Path, data: bytes | str, encoding: str = "utf-8") -> Path:
@@ -353,17 +363,6 @@ def atomic_create(path: str | Path, data: bytes | str, encoding: str = "utf-8") 
     except OSError as exc:
         raise WriteError(f"cannot write: {exc.strerror or exc}", path) from None
     finally:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        _ACTIVE.discard(str(Path(tmp).resolve()))
-    try:
-        dfd = os.open(folder, os.O_RDONLY)
-        try:
-            os.fsync(dfd)
-        finally:
-            os.close(dfd)
-    except OSError:
-        pass
+        _drop_tmp(tmp)  # the new name is a link of its own
+    _fsync_folder(folder)
     return path

@@ -16,48 +16,15 @@ from contactplan.scenario import model as m
 from contactplan.scenario.load import UnknownKeyWarning, load_scenario, parse_text
 from contactplan.scenario.save import dumps, save_scenario
 from contactplan.timescale import parse_utc
+from network_helpers import WEEK
 from test_link_helpers import booking as link_booking, flat_profile, make_pass, make_scenario as link_scenario
 from test_rules import PASSES, booking, make_scenario
 
-HEAD = """format_version = 2
-
-[scenario]
-name = "Status week"
-start = "2027-01-12T00:00:00Z"
-end = "2027-01-19T00:00:00Z"
-revision = 3
-{scenario}
-
-[spacecraft]
-name = "Invented probe"
-ephemeris = {{ libration = {{ epoch = "2027-01-01T00:00:00Z" }} }}
-
-[[stations]]
-id = "NRV"
-latitude_deg = 47.35
-longitude_deg = 8.10
-pre_pass_min = 30
-post_pass_min = 15
-
-[[stations]]
-id = "KAL"
-latitude_deg = -33.2
-longitude_deg = 151.4
-
-[[bookings]]
-id = "B001"
-station = "NRV"
-start = "2027-01-12T19:00:00Z"
-end = "2027-01-13T03:00:00Z"
-{booking}
-
-[requirements]
-{requirements}
-"""
-
-
 def text(scenario="", booking="", requirements=""):
-    return HEAD.format(scenario=scenario, booking=booking, requirements=requirements)
+    """The invented week of tests/network_helpers.py (revision 3), its booking B001 given ``booking`` keys."""
+    head = WEEK.replace('end = "2027-01-19T00:00:00Z"\n', f'end = "2027-01-19T00:00:00Z"\nrevision = 3\n{scenario}\n')
+    return (f"{head}\n[[bookings]]\nid = \"B001\"\nstation = \"NRV\"\nstart = \"2027-01-12T19:00:00Z\"\n"
+            f"end = \"2027-01-13T03:00:00Z\"\n{booking}\n\n[requirements]\n{requirements}\n")
 
 
 def test_defaults_without_the_new_keys():
@@ -210,3 +177,34 @@ def test_declined_booking_is_kept_on_save(tmp_path):
     path = save_scenario(sc, tmp_path / "week.toml")
     back = load_scenario(path)
     assert [(b.id, b.status, b.network_ref) for b in back.bookings] == [("B001", "declined", "NET-1")]
+
+
+# ---------------------------------------------------------------- property: the filter is the only difference
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+PLAN = [("B001", "NRV", "2027-01-12T17:00:00Z", "2027-01-13T01:00:00Z", ("downlink", "ranging")),
+        ("B002", "KAL", "2027-01-13T05:00:00Z", "2027-01-13T11:00:00Z", ("commanding", "ranging")),
+        ("B003", "NRV", "2027-01-13T18:15:00Z", "2027-01-13T22:15:00Z", ("downlink", "ranging")),
+        ("B004", "NRV", "2027-01-13T21:00:00Z", "2027-01-14T02:00:00Z", ("downlink",)),
+        ("B005", "KAL", "2027-01-14T06:00:00Z", "2027-01-14T07:00:00Z", ("commanding",))]
+NETWORK = {"unconfirmed-near", "confirmed-changed", "declined-needed", "frozen-edited"}
+
+
+def _key(findings):
+    return sorted((f.rule, f.severity, tuple(f.subjects), round(f.start_tt, 3), round(f.end_tt, 3), f.message)
+                  for f in findings if f.rule not in NETWORK)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.sampled_from(m.BOOKING_STATUSES), min_size=len(PLAN), max_size=len(PLAN)))
+def test_declined_and_cancelled_count_nowhere(states):
+    burn = m.Activity(id="SK-01", kind="burn", start_tt=parse_utc("2027-01-13T21:00:00Z"), duration_min=20,
+                      monitor_before_min=30, monitor_after_min=30, command_lead_h=12, command_backup=True)
+    req = m.Requirements(ranging_per_day_min=1, contact_per_day_min_h=2.0)
+    full = [booking(bid, sid, a, b, purposes=p, status=s) for (bid, sid, a, b, p), s in zip(PLAN, states)]
+    with_all = make_scenario(full, [burn], requirements=req)
+    only = make_scenario([b for b in full if b.status in status.ACTIVE_STATUSES], [burn], requirements=req)
+    # every rule but the network ones says the same of the plan as of the plan without them
+    assert _key(check_plan(with_all, PASSES)) == _key(check_plan(only, PASSES))
+    assert [b.id for b in with_all.bookings] == [p[0] for p in PLAN]

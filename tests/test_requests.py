@@ -206,3 +206,36 @@ def test_cli_requests(tmp_path, capsys):
     (tmp_path / "link.ics").symlink_to(week)
     assert main(["export", str(week), "--what", "requests", "--out", str(tmp_path / "link.ics")]) == 2
     assert "is an input of this scenario" in capsys.readouterr().err
+
+
+def test_a_booking_moved_to_another_station(tmp_path):
+    week = write_week(tmp_path)
+    issue(week, tmp_path / "r1.ics")
+    sc = load_scenario(week)
+    sc.booking("B001").station = "KAL"
+    save_scenario(sc)
+    issue(week, tmp_path / "r2.ics")
+    req, gone = events(tmp_path / "r2.ics"), events(tmp_path / "r2-cancel.ics")
+    assert sorted(req) == ["B001"] and sorted(gone) == ["B001"]
+    assert str(req["B001"]["attendee"]) == "mailto:kal@stations.invalid" and int(req["B001"]["sequence"]) == 1
+    # RFC 5546 section 3.2.5 (from memory): a CANCEL naming some attendees removes them from the event;
+    # STATUS:CANCELLED would cancel the whole event, so it is left out
+    e = gone["B001"]
+    check = {str(e["attendee"]), int(e["sequence"]), str(e["uid"])}
+    assert check == {"mailto:nrv@stations.invalid", 1, str(req["B001"]["uid"])}
+    assert e.get("status") is None and e.get("organizer") is not None and e.get("dtstamp") is not None
+
+
+def test_a_booking_confirmed_by_hand_is_not_requested(tmp_path):
+    week = write_week(tmp_path)
+    sc = load_scenario(week)
+    sc.booking("B003").status = "confirmed"  # booked by other means: no confirmed slot, never issued
+    save_scenario(sc)
+    issue(week, tmp_path / "r.ics")
+    assert "B003" not in events(tmp_path / "r.ics") and len(events(tmp_path / "r.ics")) == 5
+    sc = load_scenario(week)
+    assert sc.booking("B003").status == "confirmed" and sc.booking("B003").requested_revision is None
+    sc.booking("B003").status = "cancelled"  # the issued revision holds it as confirmed: the cancel goes out
+    save_scenario(sc)
+    issue(week, tmp_path / "r2.ics")
+    assert sorted(events(tmp_path / "r2-cancel.ics")) == ["B003"]

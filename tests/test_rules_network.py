@@ -166,3 +166,21 @@ def test_frozen_edited_lists_edits_since_the_issued_revision(tmp_path):
     assert got["B002"] == f"B002 (NRV) differs from issued revision 1 (cancelled): {sign}"
     assert got["B003"] == f"B003 (NRV) was deleted inside the freeze since revision 1 was issued: {sign}"
     assert got["B005"] == f"B005 (NRV) was added inside the freeze after revision 1 was issued: {sign}"
+
+
+def test_frozen_edited_quiet_for_a_counter_offer_the_network_confirmed(tmp_path):
+    a = b1(status="requested")
+    sc = make_scenario([a])
+    for st in sc.stations:
+        st.services = []
+    sc.revision = 1
+    sc.freeze_tt = parse_utc("2027-01-16T00:00:00Z")
+    save_scenario(sc, tmp_path / "week.r1.toml", backup=False)
+    sc.path = tmp_path / "week.toml"
+    a.start_tt += 1800.0  # moved to the network's counter-offer, and confirmed there
+    a.status = "confirmed"
+    a.confirmed = m.ConfirmedSlot(station="NRV", start_tt=a.start_tt, end_tt=a.end_tt, services=list(a.services))
+    assert rules_of(check_plan(sc, PASSES), "frozen-edited") == []
+    a.end_tt -= 600.0  # an edit of ours on top
+    f = rules_of(check_plan(sc, PASSES), "frozen-edited")
+    assert len(f) == 1 and "(start +30 min; end -10 min)" in f[0].message

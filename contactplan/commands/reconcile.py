@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import sys
 from dataclasses import dataclass, field
+from pathlib import Path
 
 from contactplan.errors import InputError, show_id
 
@@ -25,8 +26,9 @@ EXAMPLES = """\
 
 Accepted bookings become confirmed, declined ones declined (they then count nowhere),
 tentative ones stay requested. A reply with other times is a counter-offer: listed, and
-taken only with --accept-changes. --out may be the scenario itself (the previous file is
-kept as NAME.toml~) but not a reply file. Any problem: one line each, nothing written."""
+taken only with --accept-changes. --out is usually the scenario itself (the previous file
+is kept as NAME.toml~; the issued revisions NAME.rN.toml are found by its name), never a
+reply file. Any problem: one line each, nothing written."""
 
 #: decision -> the status it gives
 STATUS_OF = {"accepted": "confirmed", "declined": "declined", "tentative": "requested"}
@@ -146,7 +148,7 @@ def reconcile(scenario, replies, accept_changes: bool = False) -> Outcome:
         offered = None if r.decision == "declined" else _offered_span(scenario, r, b)
         prev = answers.get(b.id)
         if prev is not None and (prev[0].decision, prev[2]) != (r.decision, offered):
-            out.errors.append(str(r.error(f"answers {b.id} otherwise than {prev[0].path}:{prev[0].where} "
+            out.errors.append(str(r.error(f"answers {b.id} otherwise than {Path(prev[0].path).name}:{prev[0].where} "
                                           f"({prev[0].decision}, here {r.decision}): keep one answer")))
             continue
         answers[b.id] = (r, b, offered)
@@ -205,10 +207,17 @@ def run(args) -> int:
         for e in errors:
             print(f"contactplan: error: {e}", file=sys.stderr)
         return 2
+    source = Path(scenario.path)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # unknown keys were warned when the scenario was read
         save_scenario(scenario, args.out, backup=True)
     for line in outcome.lines:
         print(line)
     print(f"wrote {args.out}: {outcome.changed} booking{'s' if outcome.changed != 1 else ''} changed")
+    from contactplan.plan.issued import latest_issued_path
+
+    last = latest_issued_path(source)
+    if last is not None and Path(args.out).stem != source.stem:
+        print(f"note: issued revisions are found by the scenario's file name ({last[1].name} beside "
+              f"{source.name}); issue the next revision from {source.name}, or {Path(args.out).name} starts afresh")
     return 0

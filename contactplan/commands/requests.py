@@ -8,7 +8,8 @@ revision ``NAME.rN.toml`` beside the scenario (:mod:`contactplan.plan.issued`); 
 confirmed booking, with what the network confirmed:
 
 - **add**: a booking that counts (draft, requested, confirmed) and the network does not know
-  (not in the issued revision, or declined or cancelled there);
+  (not in the issued revision, or declined or cancelled there); a booking confirmed by hand
+  without a ``confirmed`` slot counts as known as it is;
 - **change**: one it knows whose station, start, end or services differ;
 - **cancel**: one it knows (requested or confirmed there) that is now cancelled, declined or
   deleted from the plan.
@@ -73,11 +74,15 @@ def plan_requests(scenario, issued=None, stations=None) -> list:
             seq = max(seq, int(getattr(old, "sequence", 0) or 0))
         sent_before = b.requested_revision is not None or old is not None
         if counts(b):
-            ref = slot(b.confirmed) if status_of(b) == "confirmed" and b.confirmed is not None else known
+            ref = known
+            if status_of(b) == "confirmed":  # what the network confirmed; marked by hand without it: as it is
+                ref = slot(b.confirmed) if b.confirmed is not None else (known or slot(b))
             if ref is None:
                 out.append(item("add", b, scenario, seq + 1 if sent_before else 0))
             elif slot_differences(ref, slot(b)):
                 out.append(item("change", b, scenario, seq + 1))
+                if ref[0] != b.station:
+                    out[-1].previous_station = ref[0]
         elif known is not None:
             out.append(item("cancel", b, scenario, seq + 1))
     ids = {b.id for b in scenario.bookings}
@@ -125,22 +130,11 @@ def _issued_copy(stamped, issued, stations):
 
 
 def _toml_for(sc, target: Path) -> str:
-    """The scenario's TOML as it would be saved at ``target`` (paths relative to that folder), checked by
-    reading it back (a plan that could not be opened again is refused before anything is written)."""
-    from contactplan.scenario.load import parse_text
-    from contactplan.scenario.save import NotSavedError, dumps
+    """The scenario's TOML as it would be saved at ``target``, checked by reading it back (a plan that could
+    not be opened again is refused before anything is written)."""
+    from contactplan.scenario.save import text_for
 
-    old = sc.path
-    sc.path = target
-    try:
-        text = dumps(sc)
-    finally:
-        sc.path = old
-    try:
-        parse_text(text, target)
-    except InputError as exc:
-        raise NotSavedError(f"not issued: {exc.message}", target, exc.where) from None
-    return text
+    return text_for(sc, target, verb="issued")
 
 
 def _plural(n: int, word: str) -> str:
@@ -181,6 +175,8 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
     _toml_for(stamped, scenario.path)  # the save below must not fail its read-back after the files exist
     adds = [it for it in items if it.action != "cancel"]
     cancels = [it for it in items if it.action == "cancel"]
+    # a booking moved to another station: the previous station is taken off the event (RFC 5546 section 3.2.5)
+    removals = [it for it in adds if it.previous_station]
     prodid = f"-//contactplan//contactplan {__version__}//EN"
     name = f"{scenario.name}: {scenario.spacecraft.name} requests, revision {n}"
     writes = []  # (path, data, items, noun)
@@ -188,9 +184,10 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
         if adds:
             writes.append((out, itip.itip_calendar(adds, "REQUEST", name, prodid, now_tt).to_ical(), adds,
                            "request"))
-        if cancels:
-            writes.append((itip.cancel_path(out), itip.itip_calendar(cancels, "CANCEL", name + " (cancelled)",
-                                                                     prodid, now_tt).to_ical(), cancels,
+        if cancels or removals:
+            gone = sorted(cancels + removals, key=lambda it: (it.start_tt, it.booking_id))
+            writes.append((itip.cancel_path(out), itip.itip_calendar(gone, "CANCEL", name + " (cancelled)",
+                                                                     prodid, now_tt).to_ical(), gone,
                            "cancellation"))
     elif fmt == "csv":
         writes.append((out, itip.requests_csv(items), items, "row"))
@@ -212,7 +209,7 @@ def issue(scenario, out, fmt: str, stations=None, now_tt: float | None = None):
         counted = ", ".join(f"{sum(1 for it in its if it.action == a)} {a}" for a in itip.ACTIONS
                             if any(it.action == a for it in its))
         lines.append(f"wrote {_plural(len(its), noun)} ({counted}) to {path}")
-    if fmt == "ics" and not cancels:
+    if fmt == "ics" and not (cancels or removals):
         lines.append(f"no cancellations ({itip.cancel_path(out).name} not written)")
     if fmt == "ics" and not adds:
         lines.append(f"no requests ({out.name} not written)")

@@ -27,6 +27,8 @@ SUPPORTED = {
     ("report", "pdf"),
     ("requests", "ics"), ("requests", "csv"), ("requests", "json"),  # issuing a revision (commands/requests.py)
 }
+#: pairs that issue a revision (they save the scenario): not in the app's export menu (the planner issues on its own)
+ISSUING = {("requests", "ics"), ("requests", "csv"), ("requests", "json")}
 
 #: what the app offers in its export menu: (what, format, label, extension)
 CHOICES = (

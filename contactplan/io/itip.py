@@ -76,6 +76,7 @@ class RequestItem:
     sequence: int
     uid: str
     network_ref: str | None = None
+    previous_station: str | None = None  # a change of station: the station the network held it at
 
     @property
     def track_tt(self) -> tuple[float, float]:
@@ -106,7 +107,11 @@ def _description(it: RequestItem) -> str:
 
 
 def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: float | None = None):
-    """An ``icalendar.Calendar`` with ``METHOD`` REQUEST or CANCEL and one VEVENT per item."""
+    """An ``icalendar.Calendar`` with ``METHOD`` REQUEST or CANCEL and one VEVENT per item.
+
+    In a CANCEL, an item of action ``change`` is a booking moved to another station: its VEVENT
+    removes the previous station only (RFC 5546 section 3.2.5: ``ATTENDEE`` = the attendee removed,
+    no ``STATUS:CANCELLED``, which would cancel the whole event); the REQUEST names the new one."""
     from icalendar import Calendar, Event, vCalAddress, vText
 
     from contactplan.timescale import now_tt as _now, to_datetime
@@ -131,8 +136,10 @@ def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: f
         org = vCalAddress(ORGANIZER)
         org.params["CN"] = vText("Mission planning")
         ev.add("organizer", org)
-        att = vCalAddress(station_address(it.station))
-        att.params["CN"] = vText(_line(it.station_name or it.station))
+        removal = method == "CANCEL" and it.action == "change"
+        gone = it.previous_station if removal and it.previous_station else it.station
+        att = vCalAddress(station_address(gone))
+        att.params["CN"] = vText(_line(it.station_name if gone == it.station and it.station_name else gone))
         att.params["CUTYPE"] = vText("RESOURCE")
         att.params["ROLE"] = vText("REQ-PARTICIPANT")
         if method == "REQUEST":
@@ -143,7 +150,8 @@ def itip_calendar(items, method: str, calendar_name: str, prodid: str, now_tt: f
         ev.add("description", _description(it))
         if it.services:
             ev.add("categories", list(it.services))
-        ev.add("status", "TENTATIVE" if method == "REQUEST" else "CANCELLED")
+        if not removal:
+            ev.add("status", "TENTATIVE" if method == "REQUEST" else "CANCELLED")
         ev.add("transp", "OPAQUE")
         if it.network_ref:
             ev.add(NETWORK_REF_PROPERTY, it.network_ref)
@@ -233,7 +241,10 @@ def _utc_of(value, path, where, name: str) -> float:
 
     from contactplan.timescale import from_datetime
 
-    v = getattr(value, "dt", value)
+    try:
+        v = getattr(value, "dt", value)
+    except ValueError as exc:  # icalendar keeps a broken value and raises when it is read
+        raise InputError(f"{name} is not a valid date-time: {_short(exc)}", path, where) from None
     if not isinstance(v, dt.datetime):
         raise InputError(f"{name} must be a date-time in UTC, got a date", path, where)
     if v.tzinfo is None or v.utcoffset() != dt.timedelta(0):
@@ -252,7 +263,7 @@ def read_reply_calendar(data: bytes, path) -> list[Reply]:
     try:
         cals = Calendar.from_ical(text, multiple=True)
     except (ValueError, KeyError, IndexError, TypeError) as exc:
-        raise InputError(f"not a valid iCalendar file: {' '.join(str(exc).split())[:120]}", path) from None
+        raise InputError(f"not a valid iCalendar file: {_short(exc)}", path) from None
     if not cals:
         raise InputError("no VCALENDAR in the file", path)
     out = []
@@ -269,15 +280,21 @@ def read_reply_calendar(data: bytes, path) -> list[Reply]:
             raise InputError("the REPLY holds no VEVENT", path)
         for ev in events:
             n += 1
-            out.append(_reply_event(ev, path, f"VEVENT #{n}"))
+            try:
+                out.append(_reply_event(ev, path, f"VEVENT #{n}"))
+            except (ValueError, TypeError, AttributeError, KeyError, IndexError) as exc:  # (InputError passes)
+                raise InputError(f"cannot read the event: {_short(exc)}", path, f"VEVENT #{n}") from None
     return out
+
+
+def _short(exc) -> str:
+    return " ".join(str(exc).split())[:120]
 
 
 def _reply_event(ev, path, where) -> Reply:
     uid = ev.get("uid")
     if uid is None or not str(uid).strip():
         raise InputError("no UID: the reply cannot be matched to a request", path, where)
-    where = f"{where} (UID {show_id(str(uid))})"
     if ev.get("dtstamp") is None:
         raise InputError("no DTSTAMP (RFC 5546 section 3.2.3 requires it)", path, where)
     if ev.get("organizer") is None:
@@ -356,8 +373,8 @@ def read_reply_table(data: bytes, path) -> list[Reply]:
         if not bid and not ref:
             raise InputError("no id and no network_ref: the row cannot be matched to a booking", path, k)
         if decision not in DECISIONS:
-            raise InputError(f"decision {show_id(cell('decision')) or '(empty)'!s}: give accepted, declined or "
-                             "tentative", path, k)
+            shown = repr(show_id(cell("decision"))) if cell("decision") else "(empty)"
+            raise InputError(f"decision {shown} is not one of accepted, declined, tentative", path, k)
         start = end = None
         s, e = cell("start"), cell("end")
         if s or e:

@@ -182,6 +182,9 @@ def rule_frozen_edited(ctx: RuleContext) -> list[Finding]:
             msg = f"{b.id} ({b.station}) was added inside the freeze after revision {n} was issued: {sign}"
         else:
             diffs = slot_differences(slot(old), slot(b))
+            if diffs and status_of(b) == "confirmed" and b.confirmed is not None \
+                    and not slot_differences(slot(b.confirmed), slot(b)):
+                diffs = []  # moved to what the network offered and confirmed: no edit of ours
             if status_of(b) == "cancelled" and status_of(old) != "cancelled":
                 diffs.append("cancelled")
             if not diffs:

@@ -257,18 +257,10 @@ class NotSavedError(InputError, ValueError):
     """The scenario was refused before writing (it would not load again); the file is untouched."""
 
 
-def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
-                  validate: bool = True) -> Path:
-    """Atomically write the scenario to ``path`` (default: where it was read from).
-
-    With ``validate`` (the default) the text is read back through the loader before
-    anything is written: a scenario that could not be opened again (a booking ending
-    before it starts, an unknown station...) is refused with an :class:`InputError`
-    naming the field, and the file on disk is left as it was.
-    """
-    target = Path(path) if path is not None else sc.path
-    if target is None:
-        raise ValueError("no path to save to")
+def text_for(sc: m.Scenario, target: Path, validate: bool = True, verb: str = "saved") -> str:
+    """The TOML the scenario would be saved as at ``target`` (paths relative to that folder). With
+    ``validate`` it is read back through the loader first: a scenario that could not be opened again
+    raises :class:`NotSavedError` ("not saved: ...", or "not <verb>: ...") naming the field."""
     old_path = sc.path
     sc.path = target
     try:
@@ -281,7 +273,23 @@ def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool =
         try:
             parse_text(text, target)
         except InputError as exc:
-            raise NotSavedError(f"not saved: {exc.message}", target, exc.where) from None
+            raise NotSavedError(f"not {verb}: {exc.message}", target, exc.where) from None
+    return text
+
+
+def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
+                  validate: bool = True) -> Path:
+    """Atomically write the scenario to ``path`` (default: where it was read from).
+
+    With ``validate`` (the default) the text is read back through the loader before
+    anything is written: a scenario that could not be opened again (a booking ending
+    before it starts, an unknown station...) is refused with an :class:`InputError`
+    naming the field, and the file on disk is left as it was.
+    """
+    target = Path(path) if path is not None else sc.path
+    if target is None:
+        raise ValueError("no path to save to")
+    text = text_for(sc, target, validate)
     atomic_write(target, text, backup=backup)
     sc.path = target
     sc.format_version = m.FORMAT_VERSION  # an older file is upgraded by its first save
