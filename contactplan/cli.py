@@ -21,7 +21,11 @@ COMMANDS = {
     "passes": ("contactplan.commands.passes", "predict passes of each station over a window"),
     "check": ("contactplan.commands.check", "check the plan against every rule"),
     "draft": ("contactplan.commands.draft", "draft bookings for the window that meet the requirements"),
-    "export": ("contactplan.commands.export", "export passes, bookings, ephemeris or the weekly report"),
+    "export": ("contactplan.commands.export", "export passes, bookings, ephemeris, the weekly report, or issue "
+                                              "requests to the station network"),
+    "reconcile": ("contactplan.commands.reconcile", "read the station network's replies into the plan"),
+    "import-busy": ("contactplan.commands.import_busy", "add other users' busy time from an iCalendar file"),
+    "diff": ("contactplan.commands.diff", "what changed between two revisions of a scenario"),
 }
 
 
@@ -32,6 +36,8 @@ examples:
   contactplan passes week.toml               passes of every station, as a table
   contactplan check week.toml                check the plan (exit status 1 when it has errors)
   contactplan export week.toml --out week.pdf
+  contactplan export week.toml --what requests --out req.ics
+  contactplan reconcile week.toml reply.ics --out week.toml
   contactplan COMMAND --help                 options and examples of one command"""
 
 

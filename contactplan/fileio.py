@@ -134,11 +134,16 @@ def _backup(path: Path) -> None:
         _replace(tmp_bak, bak)  # the old backup stays until the new one is complete
     finally:
         # a rename between two links of one file does nothing (POSIX): the temporary name may remain
-        try:
-            os.unlink(tmp_bak)
-        except OSError:
-            pass
-        _ACTIVE.discard(str(Path(tmp_bak).resolve()))
+        _drop_tmp(tmp_bak)
+
+
+def _drop_tmp(tmp: str) -> None:
+    """Remove one of this process's temporary files (if still there) and forget it."""
+    try:
+        os.unlink(tmp)
+    except OSError:
+        pass
+    _ACTIVE.discard(str(Path(tmp).resolve()))
 
 
 def backup(path: str | Path) -> None:
@@ -316,7 +321,13 @@ def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, enco
         raise
     finally:
         _ACTIVE.discard(active)
-    try:  # make the rename durable
+    _fsync_folder(folder)  # make the rename durable
+    return path
+
+
+def _fsync_folder(folder: Path) -> None:
+    """Flush a folder's entries to disk (a rename or link made durable); quietly skipped where not possible."""
+    try:
         dfd = os.open(folder, os.O_RDONLY)
         try:
             os.fsync(dfd)
@@ -324,4 +335,34 @@ def atomic_write(path: str | Path, data: bytes | str, backup: bool = False, enco
             os.close(dfd)
     except OSError:
         pass
+
+
+def atomic_create(path: str | Path, data: bytes | str, encoding: str = "utf-8") -> Path:
+    """Write a NEW file ``path`` atomically, never replacing one: a temporary file in the same folder,
+    flushed and fsynced, then hard-linked to ``path`` (which fails when ``path`` exists, even if
+    another process made it a moment ago). :class:`WriteError` naming the file otherwise."""
+    path = Path(path)
+    if isinstance(data, str):
+        data = data.encode(encoding)
+    folder = path.parent if str(path.parent) else Path(".")
+    if os.path.lexists(path):
+        raise WriteError("exists already: refusing to replace it", path)
+    try:
+        tmp = _mkstemp(path.name, folder)
+    except OSError as exc:
+        raise WriteError(f"cannot write: {exc.strerror or exc}", path) from None
+    try:
+        with open(tmp, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())
+        os.link(tmp, path)
+    except FileExistsError:
+        raise WriteError("exists already: refusing to replace it", path) from None
+    except OSError as exc:
+        raise WriteError(f"cannot write: {exc.strerror or exc}", path) from None
+    finally:
+        _drop_tmp(tmp)  # the new name is a link of its own
+    _fsync_folder(folder)
     return path

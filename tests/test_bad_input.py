@@ -37,6 +37,8 @@ SCENARIO_EXPECT = {
     "booking_end_before_start.toml": ("bookings[B001].end", "ends before it starts"),
     "booking_unknown_station.toml": ("bookings[B001].station", "no station with id 'XYZ'"),
     "booking_unknown_service.toml": ("bookings[B001].services[2]", "'downlink' is not one of telemetry"),
+    "booking_unknown_status.toml": ("bookings[B001].status", "'booked' is not one of draft, requested, confirmed"),
+    "two_freezes.toml": ("scenario.freeze_before_start_h", "give one of freeze (a UTC time) or freeze_before_start_h"),
     "link_wrong_direction.toml": ("spacecraft.links[X-DN].direction", "'sideways' is not one of down, up"),
     "service_unknown_link.toml": ("stations[NRV].services[#1].link", "no spacecraft link with id 'Ka-DN'"),
     "both_ephemerides.toml": ("spacecraft.ephemeris", "exactly one of"),

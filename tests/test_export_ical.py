@@ -25,6 +25,7 @@ def test_calendar_parses_with_one_event_per_booking(data_dir, tmp_path):
     from contactplan.commands.export import export
 
     plan = make_plan(data_dir)
+    plan.scenario.booking("B003").status = "confirmed"  # STATUS follows the booking's status, not locked
     out = tmp_path / "week.ics"
     assert export(plan.scenario, out, plan=plan, now_tt=NOW_TT) == f"wrote 3 bookings to {out}"
     raw = out.read_bytes()
@@ -56,6 +57,24 @@ def test_calendar_parses_with_one_event_per_booking(data_dir, tmp_path):
     assert CAUTION in desc
     assert "outside-pass" in str(ev["B002"]["description"])
     assert str(ev["B003"]["status"]) == "CONFIRMED" and str(b1["status"]) == "TENTATIVE"
+    assert "Status: confirmed" in str(ev["B003"]["description"])
+
+
+@pytest.mark.parametrize("state, expected", [("draft", "TENTATIVE"), ("requested", "TENTATIVE"),
+                                             ("confirmed", "CONFIRMED"), ("declined", "CANCELLED"),
+                                             ("cancelled", "CANCELLED")])
+def test_event_status_follows_the_booking_status(data_dir, tmp_path, state, expected):
+    # RFC 5545 section 3.8.1.11: VEVENT STATUS is TENTATIVE, CONFIRMED or CANCELLED
+    from contactplan.io.ical import write_ical
+
+    plan = make_plan(data_dir)
+    for b in plan.scenario.bookings:
+        b.status = state
+        b.locked = True  # locked says nothing about the network's answer
+    write_ical(plan.scenario, tmp_path / "s.ics", plan=plan, now_tt=NOW_TT)
+    _, ev = _events(tmp_path / "s.ics")
+    assert sorted(ev) == ["B001", "B002", "B003"]  # declined and cancelled kept, as cancelled events
+    assert {str(e["status"]) for e in ev.values()} == {expected}
     assert str(ev["B002"]["location"]) == 'Kalvik Bay, "South" dish (KAL)'
     assert ev["B001"]["geo"].latitude == pytest.approx(47.35)
 

@@ -59,13 +59,15 @@ class FindingsIndex:
 
     ``found``: the list it was made from (its identity says whether it still holds);
     ``ordered``: errors first, then by start and rule (the findings table's order);
-    ``by_subject``: {booking, activity or station id: [Finding]}; ``errors``: how many are errors.
+    ``by_subject``: {booking, activity or station id: [Finding]}; ``errors``: how many are errors;
+    ``severity``: {subject: 2 if an error names it, else 1 (warnings only)} (what the lanes mark).
     """
 
     found: list
     ordered: list
     by_subject: dict
     errors: int
+    severity: dict = dataclasses.field(default_factory=dict)
 
 
 def index_findings(findings) -> FindingsIndex:
@@ -75,7 +77,8 @@ def index_findings(findings) -> FindingsIndex:
     for f in found:
         for s in dict.fromkeys(f.subjects or []):
             by_subject.setdefault(s, []).append(f)
-    return FindingsIndex(found, ordered, by_subject, sum(f.severity == "error" for f in found))
+    severity = {k: 2 if any(f.severity == "error" for f in fs) else 1 for k, fs in by_subject.items()}
+    return FindingsIndex(found, ordered, by_subject, sum(f.severity == "error" for f in found), severity)
 
 
 class BackgroundCheck(QObject):

@@ -19,6 +19,8 @@ from dataclasses import dataclass
 from PySide6.QtCore import QObject, Signal
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
+from contactplan.app.checking import index_findings
+
 log = logging.getLogger("contactplan.app")
 
 #: station fields whose change moves the passes (needs a new pass computation)
@@ -71,6 +73,7 @@ class PlanDocument(QObject):
         self.last_check_s = 0.0
         self.stale = False
         self.revision = 0  # counts edits; a result computed at an older revision is checked again
+        self.unfrozen: set = set()  # ids of frozen bookings the user allowed to edit (this session)
         self._index = None  # FindingsIndex of the current findings
         self.background = None
         if background:
@@ -103,6 +106,7 @@ class PlanDocument(QObject):
         if self.background is not None:
             self.background.supersede()
         self.scenario = scenario
+        self.unfrozen = set()
         self.undo_stack.clear()
         self.undo_stack.setClean()
         self.selection = NOTHING
@@ -193,8 +197,6 @@ class PlanDocument(QObject):
     def findings_index(self):
         """The :class:`~contactplan.app.checking.FindingsIndex` of the current findings (made in the
         worker after a check; here, once per list, when they came another way)."""
-        from contactplan.app.checking import index_findings
-
         found = None if self.result is None else self.result.findings
         idx = self._index
         if idx is None or idx.found is not found or len(idx.found) != len(found or []):
@@ -268,6 +270,13 @@ class PlanDocument(QObject):
         changes = {k: v for k, v in changes.items() if getattr(b, k) != v}
         if not changes:
             return
+        if set(changes) - NETWORK_FIELDS:
+            self._refuse_frozen([b])
+        if "status" in changes:
+            from contactplan.scenario.model import BOOKING_STATUSES
+
+            if changes["status"] not in BOOKING_STATUSES:
+                raise ValueError(f"status must be one of {', '.join(BOOKING_STATUSES)}")
         start = changes.get("start_tt", b.start_tt)
         end = changes.get("end_tt", b.end_tt)
         if end <= start:
@@ -293,8 +302,22 @@ class PlanDocument(QObject):
                 raise ValueError("a booking cannot hand over from itself")
         self.undo_stack.push(EditRecord(self, "booking", booking_id, changes, text or _edit_text(booking_id, changes)))
 
+    def is_frozen(self, booking) -> bool:
+        """True when the booking's track starts before the scenario's freeze time."""
+        from contactplan.plan.status import is_frozen
+
+        return self.scenario is not None and is_frozen(self.scenario, booking)
+
+    def _refuse_frozen(self, bookings) -> None:
+        """ValueError naming the first frozen booking not unfrozen by the user."""
+        for b in bookings:
+            if b.id not in self.unfrozen and self.is_frozen(b):
+                raise ValueError(f"{b.id} is frozen (its track starts before the freeze): changing it needs the "
+                                 "network's sign-off; use Plan > Unfreeze booking first")
+
     def delete_bookings(self, ids) -> None:
         ids = [i for i in ids if any(b.id == i for b in self.scenario.bookings)]
+        self._refuse_frozen([b for b in self.scenario.bookings if b.id in set(ids)])
         if ids:
             self.undo_stack.push(RemoveBookings(self, ids))
             if self.selection.kind == "booking" and self.selection.key in ids:
@@ -315,6 +338,10 @@ class PlanDocument(QObject):
         if kind == "activity":
             return self.scenario.activity(rec_id)
         raise KeyError(kind)
+
+
+#: booking fields the network's answers set: a frozen booking takes them without an unfreeze
+NETWORK_FIELDS = frozenset({"status", "network_ref", "requested_revision", "sequence", "confirmed"})
 
 
 def _edit_text(rec_id: str, changes: dict) -> str:

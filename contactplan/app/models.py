@@ -7,6 +7,8 @@ import math
 from PySide6.QtCore import QAbstractTableModel, QModelIndex, QSortFilterProxyModel, Qt
 
 from contactplan.errors import InputError
+from contactplan.plan.status import status_of
+from contactplan.scenario.model import BOOKING_STATUSES
 from contactplan.timescale import format_utc, parse_utc
 
 SORT_ROLE = Qt.ItemDataRole.UserRole + 1  # numeric key for sorting
@@ -324,6 +326,10 @@ class PassesModel(_Base):
         return None
 
 
+#: the bookings table sorts statuses in the order of the exchange
+STATUS_ORDER = {st: i for i, st in enumerate(BOOKING_STATUSES)}
+
+
 class BookingsModel(_Base):
     """One row per booking; station, times, services and the lock are editable (undoable)."""
 
@@ -337,8 +343,10 @@ class BookingsModel(_Base):
         ("Locked", "locked bookings are kept as they are when the week is drafted"),
         ("Down (Gbit)", "data this booking brings down in the recorder simulation"),
         ("Findings", "errors / warnings that name this booking"),
+        ("Status", "draft, requested, confirmed, declined or cancelled (editable; declined and cancelled count "
+                   "nowhere); the network's reference after a slash"),
     )
-    EDITABLE = {1, 2, 3, 5, 6}
+    EDITABLE = {1, 2, 3, 5, 6, 9}
 
     def __init__(self, doc, parent=None):
         super().__init__(doc, parent)
@@ -388,6 +396,8 @@ class BookingsModel(_Base):
             if c == 8:
                 e, w = self._counts(b)
                 return e * 1000 + w
+            if c == 9:
+                return STATUS_ORDER.get(status_of(b), 0)
             return (b.id, b.station, b.start_tt, b.end_tt, b.duration_s, ",".join(b.services), int(b.locked))[c]
         if role in (Qt.ItemDataRole.DisplayRole, Qt.ItemDataRole.EditRole):
             if c == 8:
@@ -395,6 +405,9 @@ class BookingsModel(_Base):
                 return "" if not (e or w) else f"{e} err, {w} warn"
             if c == 6:
                 return "locked" if b.locked and role == Qt.ItemDataRole.DisplayRole else None
+            if c == 9:
+                ref = getattr(b, "network_ref", None)
+                return status_of(b) if not ref or role == Qt.ItemDataRole.EditRole else f"{status_of(b)} / {ref}"
             return (b.id, b.station, utc_text(b.start_tt), utc_text(b.end_tt), hours_text(b.duration_s),
                     ", ".join(b.services), None, _num(self._down(b), ".1f"), None)[c]
         if role == Qt.ItemDataRole.ToolTipRole and c == 8:
@@ -432,6 +445,8 @@ class BookingsModel(_Base):
             elif c == 5:
                 services = [p.strip() for p in text.replace(";", ",").split(",") if p.strip()]
                 self.doc.edit_booking(b.id, services=services)
+            elif c == 9:
+                self.doc.edit_booking(b.id, status=text.lower())
             else:
                 return False
         except KeyError:

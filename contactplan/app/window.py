@@ -7,203 +7,44 @@ a :class:`~contactplan.app.worker.Job` so the window keeps answering.
 
 from __future__ import annotations
 
-import copy
 import importlib.util
 import logging
 from pathlib import Path
 
 from PySide6.QtCore import QSettings, Qt, QTimer
-from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence, QUndoCommand
-from PySide6.QtWidgets import (QAbstractItemView, QCheckBox, QComboBox, QDialog, QDialogButtonBox, QDockWidget,
-                               QFileDialog, QFrame, QHBoxLayout, QHeaderView, QInputDialog, QLabel, QLineEdit,
-                               QMainWindow, QMessageBox, QProgressBar, QPushButton, QScrollArea, QSizePolicy,
-                               QStatusBar, QStyledItemDelegate, QTableView, QUndoView, QVBoxLayout, QWidget)
+from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence
+from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QDialog, QDockWidget, QFrame, QHBoxLayout,
+                               QInputDialog, QLabel, QLineEdit, QMainWindow, QMessageBox, QProgressBar,
+                               QPushButton, QScrollArea, QSizePolicy, QUndoView, QVBoxLayout, QWidget)
 
 from contactplan import CAUTION, __version__
 from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
+from contactplan.app.cycle import NetworkCycle
 from contactplan.app.document import PlanDocument, Selection
-from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel, PassTable
+from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, FindingsModel, PassesModel
 from contactplan.app.navstrip import NavigationStrip
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
+from contactplan.app.statusmarks import STATUS_LOOKS
 from contactplan.app.timeline import Timeline
-from contactplan.app.worker import Job
+from contactplan.app.widgets import (CautionLabel, ServicesDialog, StationDelegate, _marks_legend,  # noqa: F401
+                                     _table)
+from contactplan.app.window_files import (MAX_RECENT, READ_IN_WORKER_BYTES, FilesMixin, SetEphemeris,  # noqa: F401
+                                          _looks_oem)
+from contactplan.app.window_jobs import EXPORTS, JobsMixin, ReplaceBookings, revalidation_lines  # noqa: F401
+from contactplan.app.worker import Job  # noqa: F401
 from contactplan.errors import InputError
-from contactplan.scenario.model import SERVICES
-from contactplan.timescale import DAY_S, format_utc, parse_utc
+from contactplan.timescale import format_utc, parse_utc
 
 log = logging.getLogger("contactplan.app")
-
 APP_NAME = "contactplan"
 AUTOSAVE_MS = 2000  # a snapshot this long after the last edit (debounced; written in a background thread)
-MAX_RECENT = 8
-
-#: export menu: (what, format, label, extension filter)
-EXPORTS = (
-    ("passes", "csv", "Pass table (CSV)", "CSV (*.csv)"),
-    ("passes", "json", "Pass table (JSON)", "JSON (*.json)"),
-    ("passes", "xlsx", "Pass table (workbook)", "Workbook (*.xlsx)"),
-    ("bookings", "csv", "Booking list (CSV)", "CSV (*.csv)"),
-    ("bookings", "json", "Booking list (JSON)", "JSON (*.json)"),
-    ("bookings", "xlsx", "Booking list (workbook)", "Workbook (*.xlsx)"),
-    ("bookings", "ics", "Booking calendar (iCalendar)", "iCalendar (*.ics)"),
-    ("ephemeris", "oem", "Ephemeris (CCSDS OEM)", "OEM (*.oem)"),
-    ("report", "pdf", "Weekly report (PDF)", "PDF (*.pdf)"),
-)
 
 
-class ReplaceBookings(QUndoCommand):
-    """Put drafted bookings in place of the unlocked ones they replace (one undo step)."""
+class MainWindow(FilesMixin, JobsMixin, QMainWindow):
+    """The planner's window; files and background jobs are in the two mixins."""
 
-    def __init__(self, doc, removed_ids, new_bookings, text="Draft the week"):
-        super().__init__(text)
-        self.doc = doc
-        self.removed_ids = set(removed_ids)
-        self.new = list(new_bookings)
-        self.before: list = []
-
-    def redo(self):
-        sc = self.doc.scenario
-        self.before = list(sc.bookings)
-        sc.bookings[:] = [b for b in sc.bookings if b.id not in self.removed_ids] + self.new
-        self.doc._after_bookings()
-
-    def undo(self):
-        self.doc.scenario.bookings[:] = self.before
-        self.doc._after_bookings()
-
-
-class SetEphemeris(QUndoCommand):
-    """Use another ephemeris source for the spacecraft (passes are recomputed)."""
-
-    def __init__(self, window, spec, text):
-        super().__init__(text)
-        self.window = window
-        self.new = spec
-        self.old = window.doc.scenario.spacecraft.ephemeris
-
-    def _set(self, spec):
-        self.window.doc.scenario.spacecraft.ephemeris = spec
-        self.window.doc.mark_stale()
-        self.window.compute()
-
-    def redo(self):
-        self._set(self.new)
-
-    def undo(self):
-        self._set(self.old)
-
-
-class ServicesDialog(QDialog):
-    """The booking's services; those its station cannot give are greyed out unless booked."""
-
-    def __init__(self, booking, parent=None, gives=None):
-        super().__init__(parent)
-        from contactplan.app.servicemarks import SERVICE_LETTERS
-
-        self.setWindowTitle(f"Services of {booking.id}")
-        lay = QVBoxLayout(self)
-        self.boxes = {}
-        gives = set(SERVICES) if gives is None else set(gives)
-        for p in SERVICES:
-            cb = QCheckBox(f"{SERVICE_LETTERS[p]}  {p}" + ("" if p in gives else f"  (not at {booking.station})"))
-            cb.setChecked(p in booking.services)
-            cb.setEnabled(p in gives or p in booking.services)
-            self.boxes[p] = cb
-            lay.addWidget(cb)
-        bb = QDialogButtonBox(QDialogButtonBox.StandardButton.Ok | QDialogButtonBox.StandardButton.Cancel)
-        bb.accepted.connect(self.accept)
-        bb.rejected.connect(self.reject)
-        lay.addWidget(bb)
-
-    def services(self) -> list:
-        return [p for p, cb in self.boxes.items() if cb.isChecked()]
-
-
-def _marks_legend() -> str:
-    from contactplan.app.servicemarks import legend_text
-
-    return legend_text()
-
-
-class StationDelegate(QStyledItemDelegate):
-    """Pick a booking's station from the scenario's stations."""
-
-    def __init__(self, doc, parent=None):
-        super().__init__(parent)
-        self.doc = doc
-
-    def createEditor(self, parent, option, index):
-        box = QComboBox(parent)
-        box.addItems([s.id for s in (self.doc.scenario.stations if self.doc.scenario else [])])
-        return box
-
-    def setEditorData(self, editor, index):
-        editor.setCurrentText(str(index.data(Qt.ItemDataRole.EditRole) or ""))
-
-    def setModelData(self, editor, model, index):
-        model.setData(index, editor.currentText(), Qt.ItemDataRole.EditRole)
-
-
-class CautionLabel(QLabel):
-    """The caution in the status bar: one line when the window is wide, wrapped (never cut) when it is not."""
-
-    MIN_WIDTH = 420  # two lines at most
-
-    def __init__(self, text: str, parent=None):
-        super().__init__(text, parent)
-        self.setWordWrap(True)
-        self.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Preferred)
-        self.setMinimumWidth(self.MIN_WIDTH)
-        self._lines_h = -1
-
-    def _height(self) -> int:
-        return self.heightForWidth(max(self.width(), self.MIN_WIDTH))
-
-    def minimumSizeHint(self):
-        hint = super().minimumSizeHint()
-        hint.setHeight(self._height())
-        return hint
-
-    def sizeHint(self):
-        hint = super().sizeHint()
-        hint.setHeight(self._height())
-        return hint
-
-    def resizeEvent(self, ev):
-        super().resizeEvent(ev)
-        h = self._height()
-        if h != self._lines_h:  # wrapped onto more or fewer lines: let the status bar follow
-            self._lines_h = h
-            self.updateGeometry()
-            bar = self.parentWidget()
-            while bar is not None and not isinstance(bar, QStatusBar):
-                bar = bar.parentWidget()
-            if bar is not None:  # the status bar sizes itself only when asked to
-                bar.setMinimumHeight(h + 6)
-                bar.setMaximumHeight(h + 6)
-
-
-def _table(model, sortable=True) -> QTableView:
-    v = QTableView()
-    v.setModel(model)
-    v.setSortingEnabled(sortable)
-    v.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-    v.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-    v.setAlternatingRowColors(True)
-    v.verticalHeader().setVisible(False)
-    v.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Interactive)
-    v.horizontalHeader().setStretchLastSection(True)
-    v.setWordWrap(False)
-    return v
-
-
-#: scenario files above this size are read in the worker (a few hundred bookings take 0.1 s to parse)
-READ_IN_WORKER_BYTES = 64 * 1024
-
-
-class MainWindow(QMainWindow):
     def __init__(self, settings: QSettings | None = None, autosaver: Autosaver | None = None):
         super().__init__()
         self.settings = settings or QSettings()
@@ -466,6 +307,9 @@ class MainWindow(QMainWindow):
         m = mb.addMenu("&Plan")
         m.addAction(self.act_compute)
         m.addAction(self.act_draft)
+        m.addSeparator()
+        self.cycle = NetworkCycle(self)  # status, freeze, issuing, the issued revision (app/cycle.py)
+        self.cycle.fill_menu(m)
         m = mb.addMenu("&Help")
         m.addAction(self.act_legend)
         m.addAction(self.act_about)
@@ -787,445 +631,6 @@ class MainWindow(QMainWindow):
         n = now_tt()
         self.timeline.set_range_tt(n - (t1 - t0) / 2, n + (t1 - t0) / 2)
 
-    # ------------------------------------------------------------ files
-    def _dirty_ok(self) -> bool:
-        """True when it is fine to drop the open scenario (saved, or the user said so)."""
-        if not self.doc.dirty or self.doc.scenario is None:
-            return True
-        B = QMessageBox.StandardButton
-        ans = self.ask("Unsaved edits", f"Save the edits to {self.doc.scenario.name!r} first?",
-                       B.Save | B.Discard | B.Cancel, B.Save)
-        if ans == B.Save:
-            return self.save()
-        return ans == B.Discard
-
-    def open_dialog(self) -> None:
-        if not self._dirty_ok():
-            return
-        start = str(self.doc.path.parent) if self.doc.path else str(self.settings.value("last_dir", ""))
-        path, _ = QFileDialog.getOpenFileName(self, "Open", start,
-                                              "Scenarios (*.toml);;Ephemeris (*.oem *.kvn *.xml *.txt);;All files (*)")
-        if path:
-            self.open_path(path)
-
-    def open_path(self, path, compute: bool = True) -> bool:
-        """Open a scenario (or an OEM file, offering a new scenario around it). False on a broken file."""
-        path = Path(path)
-        if path.suffix.lower() in (".oem", ".kvn", ".xml") or (path.suffix.lower() == ".txt" and _looks_oem(path)):
-            return self.new_around_oem(path)
-        from contactplan.scenario import load_scenario
-
-        try:
-            size = path.stat().st_size
-        except OSError:
-            size = 0
-        if size > READ_IN_WORKER_BYTES:  # a big plan is read in the worker: the window keeps answering
-            return self._open_in_worker(path, compute)
-        sc = self._read_or_say(load_scenario, path, "Cannot open the scenario")
-        if sc is None:
-            return False
-        self.set_scenario(sc, compute=compute)
-        self._add_recent(path)
-        return True
-
-    def _open_in_worker(self, path: Path, compute: bool) -> Job | None:
-        """Read and check a large scenario file in the worker, then open it (None when busy)."""
-        from contactplan.scenario import load_scenario
-
-        if self.job is not None and self.job.running and self.job.title == "Passes":
-            self.cancel_job(wait=True)  # the old plan's passes are of no use any more
-
-        def done(sc):
-            self.set_scenario(sc, compute=compute)
-            self._add_recent(path)
-
-        return self.run_job("Reading", lambda _progress, _cancel: load_scenario(path), done,
-                            lambda text: self.show_error(text, "Cannot open the scenario"))
-
-    def set_scenario(self, sc, compute: bool = True, result=None) -> None:
-        self.cancel_job(wait=True)
-        self.doc.set_scenario(sc, result=result)
-        self._update_title()
-        self._update_summary()
-        if compute and result is None:
-            self.compute()
-
-    def _add_recent(self, path) -> None:
-        p = str(Path(path).resolve())
-        rec = [x for x in (self.settings.value("recent", []) or []) if x != p]
-        if isinstance(rec, str):
-            rec = [rec]
-        self.settings.setValue("recent", [p] + rec[: MAX_RECENT - 1])
-        self.settings.setValue("last_dir", str(Path(p).parent))
-
-    def recent_files(self) -> list:
-        rec = self.settings.value("recent", []) or []
-        return [rec] if isinstance(rec, str) else list(rec)
-
-    def _fill_recent(self) -> None:
-        self.recent_menu.clear()
-        files = self.recent_files()
-        if not files:
-            a = self.recent_menu.addAction("(none yet)")
-            a.setEnabled(False)
-        for i, f in enumerate(files):
-            self.recent_menu.addAction(f"&{i + 1} {f}", lambda f=f: self._dirty_ok() and self.open_path(f))
-
-    def save(self) -> bool:
-        sc = self.doc.scenario
-        if sc is None:
-            return False
-        if sc.path is None:
-            return self.save_as()
-        return self.save_to(sc.path)
-
-    def save_as(self) -> bool:
-        sc = self.doc.scenario
-        if sc is None:
-            return False
-        start = str(sc.path) if sc.path else str(Path(str(self.settings.value("last_dir", ""))) / "week.toml")
-        path, _ = QFileDialog.getSaveFileName(self, "Save scenario as", start, "Scenarios (*.toml)")
-        if not path:
-            return False
-        if not path.lower().endswith(".toml"):
-            path += ".toml"
-        return self.save_to(path)
-
-    def save_to(self, path) -> bool:
-        from contactplan.scenario import save_scenario
-
-        try:
-            save_scenario(self.doc.scenario, path)
-        except (OSError, ValueError) as exc:
-            self.show_error(f"{path}: cannot save: {exc}", "Not saved")
-            return False
-        self.doc.undo_stack.setClean()
-        self._add_recent(path)
-        self._update_title()
-        self.statusBar().showMessage(f"Saved {path}", 5000)
-        self.autosave(force=True)
-        return True
-
-    def autosave(self, force: bool = False, wait: bool = False) -> None:
-        """Snapshot the scenario to the user data folder (when edited, or ``force``).
-
-        The text is made and the file written in a background thread (``wait``: here and now)."""
-        sc = self.doc.scenario
-        if sc is None or not (force or self.doc.dirty) or not self.autosaver.enabled:
-            return
-        try:
-            from contactplan.app.checking import snapshot_scenario
-            from contactplan.scenario import dumps
-
-            if wait:
-                self.autosaver.wait()
-                self.autosaver.write(dumps(sc), sc.path, sc.name)
-            else:  # the text is made in the autosave thread, from the scenario's lists as they are now
-                snap = snapshot_scenario(sc)
-                self.autosaver.write_async(lambda: dumps(snap), sc.path, sc.name,
-                                           on_error=lambda exc: log.error("autosave failed: %s", exc))
-        except Exception:  # an autosave failing must never disturb the user
-            log.exception("autosave failed")
-
-    def new_scenario(self) -> None:
-        """A new week after the open one: same spacecraft and stations, no bookings, not saved yet."""
-        if not self._dirty_ok():
-            return
-        from contactplan.scenario import dump_document, parse_document
-
-        sc = self.doc.scenario
-        if sc is None:
-            from contactplan.paths import demo_scenario
-            from contactplan.scenario import load_scenario
-
-            try:
-                sc = load_scenario(demo_scenario())
-            except InputError as exc:
-                self.show_error(str(exc))
-                return
-        doc = dump_document(sc)
-        length = sc.end_tt - sc.start_tt
-        from contactplan.scenario.save import format_time
-
-        doc["scenario"] = {"name": f"{sc.name} (next)", "start": format_time(sc.end_tt),
-                           "end": format_time(sc.end_tt + length), "revision": 0}
-        doc.pop("bookings", None)
-        try:
-            new = parse_document(doc, sc.path)
-        except InputError as exc:
-            self.show_error(str(exc))
-            return
-        new.path = None
-        self.set_scenario(new)
-
-    def new_around_oem(self, oem_path: Path) -> Job | None:
-        """Read the OEM in the worker (parsed once: the plan reuses it), then offer a new scenario that
-        flies it, with the stations of the open scenario or the demo. A bad file: a one-line dialog."""
-        from contactplan.ephemeris import open_oem
-
-        oem_path = Path(oem_path)
-        self._stop_passes()
-        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(oem_path),
-                            lambda eph: self._offer_around_oem(oem_path, eph),
-                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
-
-    def _offer_around_oem(self, oem_path: Path, eph) -> bool:
-        base = self.doc.scenario
-        source = "the open scenario"
-        if base is None:
-            from contactplan.paths import demo_scenario
-            from contactplan.scenario import load_scenario
-
-            base = load_scenario(demo_scenario())
-            source = "the bundled demo (invented stations: replace them with yours)"
-        B = QMessageBox.StandardButton
-        if self.ask("New scenario from an ephemeris",
-                    f"{oem_path.name} covers {format_utc(eph.start_tt, 0)} to {format_utc(eph.end_tt, 0)}.\n"
-                    f"Start a new scenario flying it, with the stations and link of {source}?",
-                    B.Yes | B.No, B.Yes) != B.Yes:
-            return False
-        if not self._dirty_ok():
-            return False
-        from contactplan.scenario import dump_document, parse_document
-        from contactplan.scenario.save import format_time
-        from contactplan.timescale import utc_day_start
-
-        doc = dump_document(base)
-        start = float(utc_day_start(eph.start_tt)) + DAY_S
-        end = min(start + 7 * DAY_S, float(utc_day_start(eph.end_tt)))
-        if end <= start:
-            start, end = eph.start_tt, eph.end_tt
-        doc["scenario"] = {"name": f"{Path(oem_path).stem}", "start": format_time(start), "end": format_time(end)}
-        doc["spacecraft"]["ephemeris"] = {"oem": str(Path(oem_path).resolve())}
-        doc.pop("bookings", None)
-        doc.pop("activities", None)
-        doc.pop("activity_series", None)
-        try:
-            sc = parse_document(doc, None)
-        except InputError as exc:
-            self.show_error(str(exc))
-            return False
-        self.set_scenario(sc)
-        return True
-
-    def import_ephemeris(self) -> None:
-        if self.doc.scenario is None:
-            return
-        path, _ = QFileDialog.getOpenFileName(self, "Import ephemeris (CCSDS OEM)", "",
-                                              "Ephemeris (*.oem *.kvn *.xml *.txt);;All files (*)")
-        if path:
-            self.import_ephemeris_path(path)
-
-    def import_ephemeris_path(self, path) -> Job | None:
-        """Read the OEM in the worker, then fly it (one undo step); a bad file: a one-line dialog."""
-        from contactplan.ephemeris import open_oem
-
-        self._stop_passes()
-        return self.run_job("Reading the ephemeris", lambda progress, cancel: open_oem(path),
-                            lambda eph: self._fly_ephemeris(path, eph),
-                            on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
-
-    def _stop_passes(self) -> None:
-        """A pass computation under way gives way to reading a new ephemeris (it is redone after)."""
-        if self.job is not None and self.job.running and self.job.title == "Passes":
-            self.job.cancel()
-            self.job.wait()
-
-    def _fly_ephemeris(self, path, eph) -> bool:
-        from contactplan.scenario.model import EphemerisSpec
-
-        sc = self.doc.scenario
-        if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
-            self.statusBar().showMessage(
-                f"{Path(path).name} covers {format_utc(eph.start_tt, 0)} to {format_utc(eph.end_tt, 0)} only: "
-                "passes outside it cannot be predicted", 10000)
-        spec = EphemerisSpec(kind="oem", oem_path=Path(path).resolve())
-        self.doc.undo_stack.push(SetEphemeris(self, spec, f"Fly {Path(path).name}"))
-        return True
-
-    # ------------------------------------------------------------ background jobs
-    def run_job(self, title: str, fn, on_done, on_failed=None) -> Job | None:
-        if self.job is not None and self.job.running:
-            self.statusBar().showMessage(f"Busy: {self.job.title}. Cancel it first.", 5000)
-            return None
-        if self.job is not None:
-            self.job.deleteLater()  # the previous job is over: free its thread object
-        job = Job(title, fn, self)
-        self.job = job
-        self.progress.setValue(0)
-        self.progress.setFormat(f"{title} %p%")
-        self.progress.setVisible(True)
-        self.cancel_btn.setVisible(True)
-        job.progress.connect(lambda f: self.progress.setValue(int(1000 * f)))
-        job.done.connect(on_done)
-        job.failed.connect(on_failed or (lambda text: self.show_error(text, f"{title}: failed")))
-        job.cancelled.connect(lambda: self.statusBar().showMessage(f"{title}: cancelled", 5000))
-        job.finished.connect(self._job_finished)
-        job.start()
-        self._update_actions()
-        return job
-
-    def _job_finished(self) -> None:
-        self.progress.setVisible(False)
-        self.cancel_btn.setVisible(False)
-        self._update_actions()
-        self._settle_layout()
-
-    def _settle_layout(self) -> None:
-        """Lay the status bar and the window out now rather than in a later pass of the event loop.
-
-        Hiding the progress bar can rewrap the caution and change the status bar's
-        height, which resizes the timeline; settled here, before a job's results are
-        handed to the views, the window is painted once at its final size instead
-        of once before the relayout and again after it.
-        """
-        for w in (self.statusBar(), self):
-            lay = w.layout()
-            if lay is not None:
-                lay.activate()
-
-    def cancel_job(self, wait: bool = False) -> None:
-        if self.job is not None and self.job.running:
-            self.job.cancel()
-            if wait:
-                self.job.wait()
-        if wait:
-            self.nav_strip.wait()
-
-    def compute(self) -> Job | None:
-        """Predict passes, link and recorder for the open scenario in the background."""
-        sc = self.doc.scenario
-        if sc is None:
-            return None
-        if self.job is not None and self.job.running:
-            if self.job.title == "Passes":
-                self.job.cancel()
-                self.job.wait()
-            else:
-                return None
-        from contactplan.app.checking import index_findings
-        from contactplan.plan.pipeline import compute_plan
-
-        revision = self.doc.revision
-        doy = self.act_doy.isChecked()
-        prepared = {}
-
-        def fn(progress, cancel):
-            result = compute_plan(sc, progress=progress, cancel=cancel)
-            # the passes table's keys and texts are made here too, so the window only swaps them in
-            prepared["table"] = PassTable(result.passes, doy=doy, link_profiles=result.link_profiles).prepare()
-            prepared["findings"] = index_findings(result.findings)
-            return result
-
-        def done(result):
-            if self.doc.scenario is sc:
-                self.passes_model.adopt(prepared.pop("table", None))
-                self.doc.set_result(result, revision=revision, index=prepared.pop("findings", None))
-                self._update_summary()
-                self.statusBar().showMessage(f"{len(result.passes)} passes predicted", 5000)
-                self.timeline.settle()  # one paint for the whole hand-off, not two
-
-        return self.run_job("Passes", fn, done)
-
-    def revalidate_dialog(self) -> None:
-        path, _ = QFileDialog.getOpenFileName(self, "Re-validate against an ephemeris (CCSDS OEM)", "",
-                                              "Ephemeris (*.oem *.kvn *.xml *.txt);;All files (*)")
-        if path:
-            self.revalidate(path)
-
-    def revalidate(self, path) -> Job | None:
-        """Check the bookings against the passes of another ephemeris, then offer to fly it."""
-        sc = self.doc.scenario
-        if sc is None:
-            return None
-        snapshot = copy.copy(sc)
-        snapshot.bookings = list(sc.bookings)
-        old = self.doc.result if (self.doc.result is not None and self.doc.result.passes
-                                  and not self.doc.stale) else None
-
-        def fn(progress, cancel):
-            from contactplan.ephemeris import open_oem
-            from contactplan.plan.revalidate import revalidate
-
-            return revalidate(snapshot, open_oem(path), old_result=old, progress=progress, cancel=cancel)
-
-        def done(rv):
-            self.last_revalidation = rv
-            lines = revalidation_lines(rv, Path(path).name)
-            B = QMessageBox.StandardButton
-            if self.ask("Re-validation", "\n".join(lines) + "\n\nFly this ephemeris from now on?",
-                        B.Yes | B.No, B.No) == B.Yes:
-                self.import_ephemeris_path(path)
-
-        return self.run_job("Re-validation", fn, done)
-
-    def draft_week(self) -> Job | None:
-        sc = self.doc.scenario
-        if sc is None:
-            return None
-        from contactplan.plan.drafter import draft, summary_lines
-
-        snapshot = copy.copy(sc)
-        snapshot.bookings = list(sc.bookings)
-        result = self.doc.result if self.doc.result is not None and self.doc.result.passes else None
-        t0, t1 = self.timeline.visible_tt()
-        start, end = max(t0, sc.start_tt), min(t1, sc.end_tt)
-        if end - start < 3600:
-            start, end = sc.start_tt, sc.end_tt
-
-        def fn(progress, cancel):
-            progress(0.02)
-            # the drafter reports its stages and stops between solves when Cancel is pressed
-            return draft(snapshot, result=result, start_tt=start, end_tt=end, progress=progress, cancel=cancel)
-
-        def done(dr):
-            lines = summary_lines(snapshot, dr)
-            if not dr.bookings:
-                self.info("Draft", "\n".join(lines))
-                return
-            B = QMessageBox.StandardButton
-            if self.ask("Draft the week", "\n".join(lines) + "\n\nPut these bookings in the plan? (Undo takes them out.)",
-                        B.Yes | B.No, B.Yes) == B.Yes:
-                self.doc.undo_stack.push(ReplaceBookings(self.doc, dr.removed, dr.bookings))
-
-        return self.run_job("Drafting", fn, done)
-
-    def export_dialog(self, what: str, fmt: str, filt: str) -> None:
-        sc = self.doc.scenario
-        if sc is None:
-            return
-        base = sc.path.parent if sc.path else Path(str(self.settings.value("last_dir", "")) or ".")
-        stem = sc.path.stem if sc.path else "week"
-        path, _ = QFileDialog.getSaveFileName(self, f"Export {what}", str(base / f"{stem}-{what}.{fmt}"), filt)
-        if path:
-            self.export_to(path, what)
-
-    def export_to(self, path, what: str | None = None) -> Job | None:
-        """Write one export in the background; the status bar says what was written."""
-        from contactplan.commands.export import export
-
-        sc = copy.copy(self.doc.scenario)
-        sc.bookings = [copy.copy(b) for b in self.doc.scenario.bookings]
-        plan = self.doc.result if (self.doc.result is not None and self.doc.result.passes and not self.doc.stale) \
-            else None
-        if plan is not None:
-            plan = copy.copy(plan)
-            plan.scenario = sc
-        behind = self.doc.checking  # the findings shown are older than the bookings: check again here
-
-        def fn(progress, cancel):
-            if behind and plan is not None:
-                from contactplan.plan.pipeline import check
-
-                check(plan)  # on the copy: the recorder and findings of the bookings exported
-            return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
-
-        def done(line):
-            self.last_export = line
-            self.statusBar().showMessage(line, 10000)
-
-        return self.run_job("Export", fn, done)
-
     # ------------------------------------------------------------ about, close
     def about(self) -> QMessageBox:
         box = QMessageBox(QMessageBox.Icon.NoIcon, "About contactplan",
@@ -1251,6 +656,9 @@ class MainWindow(QMainWindow):
             (sw(th.booking), "booking track (BOT to EOT); lighter, dotted ends: pre-pass and post-pass; "
                              "lettered boxes: its services (" + _marks_legend() + ")"),
             (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
+        ] + [("", f"{st}: {look}") for st, look in STATUS_LOOKS.items()] + [
+            (sw(th.outage), "dotted across a station lane: other users' time on the antenna (busy)"),
+            ("", "dashed outline without fill: a booking as the latest issued revision had it (Plan menu)"),
             (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
             (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
             (sw(th.burn), "burn; green bar below: span that must be watched"),
@@ -1285,42 +693,3 @@ class MainWindow(QMainWindow):
         self.autosave_timer.stop()
         self.autosaver.clear()
         ev.accept()
-
-
-def revalidation_lines(rv, name: str, limit: int = 14) -> list:
-    """Plain lines saying what a new ephemeris changes for the bookings."""
-    def shift(v):
-        return "-" if v is None else f"{v:+.0f} s"
-
-    lines = [f"{name}: compared {format_utc(rv.start_tt, 0)} to {format_utc(rv.end_tt, 0)}.",
-             f"{len(rv.broken)} booking(s) now break a rule; {len(rv.appeared)} new finding(s), "
-             f"{len(rv.resolved)} resolved."]
-    for b in rv.bookings[:limit]:
-        state = "not checked (outside the new ephemeris)" if not b.checked else (
-            "BROKEN" if b.broken else "ok")
-        lines.append(f"  {b.booking} {b.station}: AOS {shift(b.aos_shift_s)}, LOS {shift(b.los_shift_s)}, {state}")
-    if len(rv.bookings) > limit:
-        lines.append(f"  ... and {len(rv.bookings) - limit} more")
-    for f in rv.appeared[:6]:
-        lines.append(f"  new {f.severity}: {f.message}")
-    return lines
-
-
-def _looks_oem(path: Path) -> bool:
-    """True when the first bytes of a regular file name a CCSDS OEM (never blocks on a FIFO)."""
-    import os
-    import stat
-
-    try:
-        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
-    except OSError:
-        return False
-    try:
-        if not stat.S_ISREG(os.fstat(fd).st_mode):
-            return False
-        head = os.read(fd, 400).decode("utf-8", errors="replace")
-    except OSError:
-        return False
-    finally:
-        os.close(fd)
-    return "CCSDS_OEM_VERS" in head

@@ -13,7 +13,7 @@ from pathlib import Path
 from contactplan import CAUTION, __version__
 from contactplan.errors import InputError
 
-HELP = "export passes, bookings, ephemeris or the weekly report"
+HELP = "export passes, bookings, ephemeris, the weekly report, or issue requests to the network"
 
 EXAMPLES = """\
   contactplan export week.toml --out passes.xlsx
@@ -22,23 +22,36 @@ EXAMPLES = """\
   contactplan export week.toml --out week.ics
   contactplan export week.toml --out probe.oem --start 2027-01-10T00:00:00Z --end 2027-02-10T00:00:00Z --step 300
   contactplan export week.toml --out week.pdf --paper letter
+  contactplan export week.toml --what requests --out requests.ics --station NRV
+  contactplan export week.toml --out week.pdf --since week.r4.toml   # with the changes since revision 4
 
 The extension picks the format: .xlsx, .csv and .json hold the pass table unless
 --what bookings; .ics is the booking calendar, .oem the ephemeris (CCSDS OEM KVN),
-.pdf the weekly report; .txt needs --what passes (aligned table) or --what ephemeris."""
+.pdf the weekly report; .txt needs --what passes (aligned table) or --what ephemeris.
+
+--what requests issues the next revision to the station network: iTIP (RFC 5546)
+METHOD:REQUEST for new and changed bookings in FILE.ics and METHOD:CANCEL for those
+cancelled, declined or deleted since the last issue in FILE-cancel.ics (or one .csv
+or .json list with an action column); it raises the revision, saves the scenario
+(previous as NAME.toml~) and keeps the issued plan as NAME.rN.toml."""
 
 
 def add_arguments(p) -> None:
     p.add_argument("scenario", metavar="SCENARIO", help="scenario file (.toml)")
     p.add_argument("--out", "-o", required=True, metavar="FILE",
                    help="file to write; its extension picks the format (.csv .json .xlsx .ics .oem .pdf .txt)")
-    p.add_argument("--what", choices=("passes", "bookings", "ephemeris", "report"),
-                   help="what to export (default: from the extension; passes for .csv/.json/.xlsx)")
+    p.add_argument("--what", choices=("passes", "bookings", "ephemeris", "report", "requests"),
+                   help="what to export (default: from the extension; passes for .csv/.json/.xlsx); requests: "
+                        "issue the next revision to the station network (.ics, .csv, .json)")
+    p.add_argument("--station", action="append", metavar="ID", default=None,
+                   help="requests: send only the bookings of this station (repeat for more)")
     p.add_argument("--start", metavar="T", help="start of the span, UTC (default: the scenario window's start)")
     p.add_argument("--end", metavar="T", help="end of the span, UTC (default: the scenario window's end)")
     p.add_argument("--step", metavar="SECONDS", type=float, default=None,
                    help="ephemeris spacing in seconds (default 600)")
     p.add_argument("--paper", choices=("a4", "letter"), default=None, help="report paper size (default a4)")
+    p.add_argument("--since", metavar="OLD.toml", default=None,
+                   help="report: add a page of the changes since this earlier revision (contactplan diff)")
 
 
 def run(args) -> int:
@@ -52,6 +65,12 @@ def run(args) -> int:
         raise InputError(f"--step applies to the ephemeris only, not to {what}")
     if args.paper is not None and what != "report":
         raise InputError(f"--paper applies to the report only, not to {what}")
+    if getattr(args, "station", None) and what != "requests":
+        raise InputError(f"--station applies to requests only, not to {what}")
+    if what == "requests" and (args.start is not None or args.end is not None):
+        raise InputError("--start and --end do not apply to requests: every booking is compared with the last issue")
+    if getattr(args, "since", None) is not None and what != "report":
+        raise InputError(f"--since applies to the report only, not to {what}")
     times = {}
     for opt in ("start", "end"):
         text = getattr(args, opt)
@@ -60,8 +79,14 @@ def run(args) -> int:
                 times[opt] = parse_utc(text)
             except InputError as exc:
                 raise exc.at(None, f"--{opt}") from None
-    guard_output(args.out, None, [args.scenario])
+    since = getattr(args, "since", None)
+    guard_output(args.out, None, [args.scenario] + ([since] if since else []))
     scenario = load_scenario(args.scenario)
+    changes = None
+    if since:
+        from contactplan.plan.diff import diff_scenarios
+
+        changes = diff_scenarios(load_scenario(since), scenario)
     if times:
         from contactplan.bounds import window_problem
 
@@ -70,7 +95,8 @@ def run(args) -> int:
             raise InputError(bad[1], None, f"--{bad[0]}")
     try:
         line = export(scenario, args.out, what, start_tt=times.get("start"), end_tt=times.get("end"),
-                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4")
+                      step_s=600.0 if args.step is None else args.step, paper=args.paper or "a4",
+                      stations=getattr(args, "station", None), changes=changes, since_name=Path(since).name if since else None)
     except OutOfSpanError as exc:
         if what != "ephemeris":
             raise
@@ -85,9 +111,10 @@ def run(args) -> int:
 
 
 def scenario_inputs(scenario) -> list:
-    """The files a scenario reads: the scenario file itself and its OEM (absolute or None)."""
+    """The files a scenario reads: the scenario file itself, its OEM and its busy-time calendars (absolute or None)."""
     eph = getattr(getattr(scenario, "spacecraft", None), "ephemeris", None)
-    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)]
+    calendars = [f.path for st in getattr(scenario, "stations", []) for f in getattr(st, "busy_files", [])]
+    return [getattr(scenario, "path", None), getattr(eph, "oem_path", None)] + calendars
 
 
 def guard_output(out, scenario=None, extra=()) -> None:
@@ -111,7 +138,8 @@ def _plan_for(scenario, plan, progress=None, cancel=None):
 
 def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float | None = None,
            end_tt: float | None = None, step_s: float = 600.0, paper: str = "a4",
-           now_tt: float | None = None, progress=None, cancel=None) -> str:
+           now_tt: float | None = None, progress=None, cancel=None, stations=None, changes=None,
+           since_name: str | None = None) -> str:
     """Write one export and return the line that says what was written.
 
     ``scenario`` is a loaded Scenario; ``plan`` a PlanResult already computed for it
@@ -120,6 +148,9 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     they replace the planning window (the plan is recomputed), for bookings they keep
     those that overlap. ``step_s`` is the ephemeris spacing.
     ``paper`` is "a4" or "letter" for the report. ``now_tt`` fixes the generation time.
+    ``what = "requests"`` issues the next revision (:func:`contactplan.commands.requests.issue`; it saves
+    the scenario), only for ``stations`` when given.
+    ``changes`` (a ``plan.diff.Diff``, named ``since_name``) adds the report's changes page.
     """
     from contactplan.io.exporting import resolve, with_window
 
@@ -129,6 +160,10 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     if not folder.is_dir():
         raise InputError(f"folder {folder} does not exist", out)
     guard_output(out, scenario)
+    if what == "requests":
+        from contactplan.commands.requests import issue
+
+        return "\n".join(issue(scenario, out, fmt, stations=stations, now_tt=now_tt)[0])
     if what != "ephemeris" and (start_tt is not None or end_tt is not None):
         windowed = with_window(scenario, start_tt, end_tt)
         if (windowed.start_tt, windowed.end_tt) != (scenario.start_tt, scenario.end_tt):
@@ -193,7 +228,7 @@ def export(scenario, out, what: str | None = None, *, plan=None, start_tt: float
     from contactplan.io.exporting import paper_name
     from contactplan.io.report import write_report
 
-    pages = write_report(plan, out, paper=paper, now_tt=now_tt)
+    pages = write_report(plan, out, paper=paper, now_tt=now_tt, changes=changes, since_name=since_name)
     return f"wrote the weekly report ({_plural(pages, 'page')}, {paper_name(paper)}) to {out}"
 
 

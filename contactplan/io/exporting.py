@@ -17,7 +17,7 @@ from pathlib import Path
 
 from contactplan.errors import InputError
 
-WHATS = ("passes", "bookings", "ephemeris", "report")
+WHATS = ("passes", "bookings", "ephemeris", "report", "requests")
 
 #: (what, format) pairs that exist
 SUPPORTED = {
@@ -25,7 +25,10 @@ SUPPORTED = {
     ("bookings", "csv"), ("bookings", "json"), ("bookings", "xlsx"), ("bookings", "ics"),
     ("ephemeris", "oem"),
     ("report", "pdf"),
+    ("requests", "ics"), ("requests", "csv"), ("requests", "json"),  # issuing a revision (commands/requests.py)
 }
+#: pairs that issue a revision (they save the scenario): not in the app's export menu (the planner issues on its own)
+ISSUING = {("requests", "ics"), ("requests", "csv"), ("requests", "json")}
 
 #: what the app offers in its export menu: (what, format, label, extension)
 CHOICES = (

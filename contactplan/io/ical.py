@@ -6,6 +6,10 @@ already in a calendar instead of duplicating them; SEQUENCE is the plan
 revision, so a later revision wins. SUMMARY carries booking, station and
 services; CATEGORIES the services; DESCRIPTION the pre-pass, track (BOT to EOT)
 and post-pass times, the rate plan and its volume, and the caution.
+
+STATUS follows the booking's status (:data:`EVENT_STATUS`): confirmed -> CONFIRMED, draft
+and requested -> TENTATIVE, cancelled and declined -> CANCELLED. Declined bookings are kept
+as cancelled events rather than left out, so a calendar that showed them before drops them.
 """
 
 from __future__ import annotations
@@ -20,6 +24,11 @@ UID_NAMESPACE = uuid.UUID("6f3c2a1e-7d4b-5c8e-9a10-2b4d6e8f0a1c")
 UID_DOMAIN = "contactplan.invalid"  # RFC 2606 reserved name: never a real host
 
 
+#: booking status -> VEVENT STATUS (RFC 5545 section 3.8.1.11)
+EVENT_STATUS = {"draft": "TENTATIVE", "requested": "TENTATIVE", "confirmed": "CONFIRMED",
+                "declined": "CANCELLED", "cancelled": "CANCELLED"}
+
+
 def booking_uid(scenario_name: str, booking_id: str) -> str:
     """Stable UID for a booking: the same scenario name and booking id always give the same UID."""
     key = f"{' '.join(str(scenario_name).split()).casefold()}\n{booking_id}"
@@ -31,9 +40,11 @@ def _line(text: str) -> str:
     return " ".join(str(text).split())
 
 
-def _describe(rec: dict, station) -> str:
+def _describe(rec: dict, station, booking=None) -> str:
     lines = [
         f"Booking {rec['id']} on {rec['station']}" + (f" ({rec['station_name']})" if rec["station_name"] else ""),
+        f"Status: {getattr(booking, 'status', 'draft')}" + (f", network id {booking.network_ref}"
+                                                            if getattr(booking, "network_ref", None) else ""),
         f"Services: {', '.join(rec['services']) or 'none'}",
         f"Booked: {rec['start_utc']} to {rec['end_utc']} ({rec['start_doy']} to {rec['end_doy']})",
         f"Pre-pass: {rec['pre_pass_min']:g} min, {rec['start_utc']} to {rec['bot_utc']}",
@@ -87,13 +98,13 @@ def calendar(scenario, plan=None, now_tt: float | None = None):
         ev.add("dtstart", to_datetime(b.start_tt))
         ev.add("dtend", to_datetime(b.end_tt))
         ev.add("summary", _line(f"{b.id} {b.station}: {', '.join(b.services) or 'contact'}"))
-        ev.add("description", _describe(rec, st))
+        ev.add("description", _describe(rec, st, b))
         if st is not None:
             ev.add("location", _line(f"{st.name} ({st.id})"))
             ev.add("geo", (float(st.latitude_deg), float(st.longitude_deg)))
         if b.services:
             ev.add("categories", list(b.services))
-        ev.add("status", "CONFIRMED" if b.locked else "TENTATIVE")
+        ev.add("status", EVENT_STATUS.get(getattr(b, "status", "draft"), "TENTATIVE"))
         ev.add("transp", "OPAQUE")
         cal.add_component(ev)
     return cal

@@ -373,8 +373,10 @@ def _num(v, fmt="{:.2f}", none="-"):
     return none if v is None else fmt.format(v)
 
 
-def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> int:
-    """Write the weekly report PDF atomically; returns the number of pages."""
+def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, changes=None,
+                 since_name: str | None = None) -> int:
+    """Write the weekly report PDF atomically; returns the number of pages. ``changes``: a change list
+    (``plan.diff.Diff``) drawn as a "Changes since revision N" page after the cover."""
     from reportlab.lib import colors
     from reportlab.lib.enums import TA_LEFT
     from reportlab.lib.pagesizes import A4, LETTER, landscape
@@ -401,7 +403,9 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     wide_w = wide[0] - 2 * margin
     wide_h = wide[1] - 2 * margin - 4 * mm
 
-    fonts = report_fonts(_plan_texts(plan))
+    from contactplan.io.report_changes import change_texts, changes_story
+
+    fonts = report_fonts(_plan_texts(plan) + change_texts(changes))
     ss = getSampleStyleSheet()
     body = ParagraphStyle("body", parent=ss["BodyText"], fontName=fonts["regular"], fontSize=9, leading=11.5)
     small = ParagraphStyle("small", parent=body, fontSize=7, leading=8.5, alignment=TA_LEFT)
@@ -488,6 +492,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None) -> 
     story.append(Spacer(1, 10 * mm))
     for k, text in enumerate(cautions):
         story += [Paragraph(escape(text), caution_style if k == 0 else body), Spacer(1, 5 * mm)]
+    story += changes_story(changes, P, table, small, h2, frame_w, since_name)
     story += [NextPageTemplate("wide"), PageBreak()]
 
     # ---- timeline, on a landscape page

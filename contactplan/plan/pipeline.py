@@ -145,7 +145,9 @@ def check(result: PlanResult) -> PlanResult:
 
     sc = result.scenario
     sc.bind()
-    result.recorder = _recorder(sc, result.passes, result.profiles)
+    from contactplan.plan.status import active_view
+
+    result.recorder = _recorder(active_view(sc), result.passes, result.profiles)  # declined, cancelled: not
     ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
                             link_profiles=result.link_profiles)
     ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation

@@ -109,6 +109,9 @@ class RuleContext:
         ``link_profiles``: ``{link id: {id(pass): PassProfile}}`` (absent links close whenever tracked)."""
         if hasattr(scenario, "bind"):
             scenario.bind()
+        from contactplan.plan.status import active_view
+
+        scenario = active_view(scenario)  # declined and cancelled bookings count nowhere (plan/status.py)
         ctx = cls(scenario=scenario, passes=list(passes), profiles=dict(profiles or {}), recorder=recorder,
                   start_tt=float(scenario.start_tt), end_tt=float(scenario.end_tt),
                   link_profiles=dict(link_profiles or {}))
@@ -697,6 +700,7 @@ from contactplan.plan.rules_daily import (  # noqa: E402  (they use the helpers 
 from contactplan.plan.rules_services import (  # noqa: E402  (they use the helpers above)
     rule_command_load, rule_handover_gap, rule_prepass_conflict, rule_service_unavailable,
 )
+from contactplan.plan.rules_busy import rule_station_busy  # noqa: E402  (uses the helpers above)
 
 #: every rule, in the order they run; a new rule is one function added here
 RULES = [
@@ -705,6 +709,7 @@ RULES = [
     rule_station_outage,
     rule_double_booking,
     rule_prepass_conflict,
+    rule_station_busy,
     rule_service_unavailable,
     rule_downlink_in_keepout,
     rule_burn_unmonitored,
@@ -726,6 +731,9 @@ RULES = [
 from contactplan.plan.tracking import TRACKING_NEEDS_EPHEMERIS, TRACKING_RULES  # noqa: E402  (imports this module)
 RULES.extend(TRACKING_RULES)
 NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | TRACKING_NEEDS_EPHEMERIS
+from contactplan.plan.rules_network import NETWORK_NEEDS_EPHEMERIS, NETWORK_RULES  # noqa: E402  (imports this module)
+RULES.extend(NETWORK_RULES)
+NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | NETWORK_NEEDS_EPHEMERIS
 
 
 def sort_key(f: Finding):

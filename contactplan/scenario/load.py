@@ -197,7 +197,7 @@ def _service(t: Table, links: dict, seen: set) -> m.StationService:
     return t.keep(sv)
 
 
-def _station(t: Table, links: dict) -> m.Station:
+def _station(t: Table, links: dict, base: Path | None = None) -> m.Station:
     sid = t.str("id", pattern=_ID_RE)
     st = m.Station(
         id=sid,
@@ -236,7 +236,41 @@ def _station(t: Table, links: dict) -> m.Station:
             o.fail("end", "outage ends before it starts")
         outages.append(out)
     st.outages = outages
+    st.busy, st.busy_files = _busy(t, base)
     return t.keep(st)
+
+
+def _busy(t: Table, base: Path | None) -> tuple[list, list]:
+    """``busy = [{ ics = "file.ics" }, { start, end, note }]``: other users' time (docs/scenario.md); each
+    iCalendar file is read now (contactplan.io.freebusy). Returns (spans sorted by start, files)."""
+    spans, files = [], []
+    for bt in t.records("busy"):
+        if "ics" in bt.data:
+            for key in ("start", "end", "note"):
+                if key in bt.data:
+                    bt.fail(key, "give either ics = \"file.ics\" or start, end and note, not both")
+            p = _path(bt, "ics", "iCalendar", base)
+            from contactplan.io.freebusy import read_busy
+
+            spans.extend(read_busy(p))
+            files.append(bt.keep(m.BusyFile(path=p)))
+            continue
+        sp = m.BusySpan(start_tt=bt.time("start"), end_tt=bt.time("end"), source=bt.str("note", ""))
+        if sp.end_tt <= sp.start_tt:
+            bt.fail("end", "busy time ends before it starts")
+        bt.loaded["source"] = bt.loaded.pop("note")
+        spans.append(bt.keep(sp))
+    spans.sort(key=lambda s: (s.start_tt, s.end_tt))
+    return spans, files
+
+
+def _path(t: Table, key: str, what: str, base: Path | None) -> Path:
+    """A file named by ``key``: relative to the scenario's folder ``base`` unless absolute."""
+    rel = t.str(key)
+    if not rel.strip():
+        t.fail(key, f"give the {what} file name (relative to the scenario file)")
+    p = Path(rel)
+    return base / p if not p.is_absolute() and base is not None else p
 
 
 def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
@@ -244,13 +278,7 @@ def _ephemeris(t: Table, base: Path | None) -> m.EphemerisSpec:
     if len(keys) != 1:
         t.fail(None, "give exactly one of oem = \"file.oem\" or libration = { ... }")
     if keys[0] == "oem":
-        rel = t.str("oem")
-        if not rel.strip():
-            t.fail("oem", "give the OEM file name (relative to the scenario file)")
-        p = Path(rel)
-        if not p.is_absolute() and base is not None:
-            p = base / p
-        return t.keep(m.EphemerisSpec(kind="oem", oem_path=p))
+        return t.keep(m.EphemerisSpec(kind="oem", oem_path=_path(t, "oem", "OEM", base)))
     lt = t.sub("libration")
     lib = lt.keep(m.LibrationSpec(
         system=lt.str("system", "sun-earth", choices=("sun-earth",)),
@@ -388,15 +416,42 @@ def _booking(t: Table, station_ids: set) -> m.Booking:
                 t.fail(f"purposes[{i + 1}]", f"{p!r} is not one of {', '.join(m.PURPOSES)}")
         t.fail("purposes", "give at least one purpose" if not purposes else
                "format 2 books services (services = [...]), not purposes")
-    services = t.list("services", list(m.DEFAULT_SERVICES))
+    b.services = _services_list(t, "services", list(m.DEFAULT_SERVICES))
+    t.loaded["services"] = list(b.services)
+    _booking_exchange(t, b, station_ids)
+    return t.keep(b)
+
+
+def _services_list(t: Table, key: str, default=_MISSING) -> list:
+    """A list of booking services (each known, at least one), duplicates dropped."""
+    services = t.list(key, default)
     for i, p in enumerate(services):
         if p not in m.SERVICES:
-            t.fail(f"services[{i + 1}]", f"{p!r} is not one of {', '.join(m.SERVICES)}")
+            t.fail(f"{key}[{i + 1}]", f"{p!r} is not one of {', '.join(m.SERVICES)}")
     if not services:
-        t.fail("services", "give at least one service")
-    b.services = list(dict.fromkeys(services))
-    t.loaded["services"] = list(b.services)
-    return t.keep(b)
+        t.fail(key, "give at least one service")
+    return list(dict.fromkeys(services))
+
+
+def _booking_exchange(t: Table, b: m.Booking, station_ids: set) -> None:
+    """The keys of the exchange with the station network: ``status``, ``network_ref``,
+    ``requested_revision``, ``sequence``, ``confirmed`` (docs/scenario.md)."""
+    b.status = t.str("status", "draft", choices=m.BOOKING_STATUSES)
+    ref = t.str("network_ref", None)
+    if ref is not None and (not ref.strip() or len(ref) > 128 or not ref.isprintable()):
+        t.fail("network_ref", "give the network's id of the booking: 1 to 128 printable characters on one line")
+    b.network_ref = ref
+    b.requested_revision = t.num("requested_revision", None, lo=0, integer=True)
+    b.sequence = t.num("sequence", 0, lo=0, hi=2**31 - 1, integer=True)
+    ct = t.sub("confirmed", required=False)
+    if ct is not None:
+        slot = m.ConfirmedSlot(station=ct.str("station", b.station, pattern=_ID_RE), start_tt=ct.time("start"),
+                               end_tt=ct.time("end"))
+        if slot.end_tt <= slot.start_tt:
+            ct.fail("end", "the confirmed time ends before it starts")
+        slot.services = _services_list(ct, "services") if "services" in ct.data else list(b.services)
+        ct.loaded["services"] = list(slot.services)
+        b.confirmed = ct.keep(slot)
 
 
 def _unique(items, kind: str, path, where: str):
@@ -502,6 +557,10 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     if bad is not None:
         sc.fail(bad[0], bad[1])
     revision = sc.num("revision", 0, lo=0, integer=True)
+    freeze = sc.time("freeze", None)
+    freeze_h = sc.num("freeze_before_start_h", None, lo=0, hi=24 * 366)
+    if freeze is not None and freeze_h is not None:
+        sc.fail("freeze_before_start_h", "give one of freeze (a UTC time) or freeze_before_start_h, not both")
 
     sp = root.sub("spacecraft")
     sp.read.add("object_id")  # read by the ephemeris export (OEM OBJECT_ID)
@@ -516,7 +575,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     sp.keep(spacecraft)
 
     links = {lk.id: lk for lk in spacecraft.links}
-    stations = [_station(t, links) for t in root.records("stations")]
+    stations = [_station(t, links, base) for t in root.records("stations")]
     _unique(stations, "station", path, "stations")
     series = [_series(t) for t in root.records("activity_series")]
     _unique(series, "activity series", path, "activity_series")
@@ -526,8 +585,13 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     _unique(activities, "activity", path, "activities")
     activities.sort(key=lambda a: a.start_tt)
     ids = {s.id for s in stations}
-    bookings = [_booking(t, ids) for t in root.records("bookings")]
+    booking_tables = root.records("bookings")
+    bookings = [_booking(t, ids) for t in booking_tables]
     _unique(bookings, "booking", path, "bookings")
+    for b, t in zip(bookings, booking_tables):
+        if b.requested_revision is not None and b.requested_revision > revision:
+            t.fail("requested_revision", f"{b.requested_revision} is after the plan's revision {revision} "
+                                         "([scenario] revision)")
 
     rq = root.sub("requirements", required=False) or Table({}, path, "requirements")
     req = rq.keep(m.Requirements(
@@ -537,6 +601,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
         recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
         handover_min=rq.num("handover_min", None, lo=0, hi=600),
+        confirm_lead_h=rq.num("confirm_lead_h", None, lo=0, hi=24 * 366),
     ))
     read_tracking_requirements(rq, req)
     gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
@@ -548,7 +613,8 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     scen = m.Scenario(
         name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
         activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
-        format_version=fv, revision=revision, path=path, document=doc,
+        format_version=fv, revision=revision, freeze_tt=freeze, freeze_before_start_h=freeze_h, path=path,
+        document=doc,
         orbit_determination=read_orbit_determination(root),
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table

@@ -28,6 +28,8 @@ PURPOSES = ("downlink", "ranging", "commanding")
 PURPOSE_SERVICES = {"downlink": ("telemetry", "playback"), "ranging": ("ranging", "doppler"),
                     "commanding": ("commanding",)}
 DEFAULT_SERVICES = ("telemetry", "playback")
+#: where a booking stands in the exchange with the station network (docs/scenario.md, plan/status.py)
+BOOKING_STATUSES = ("draft", "requested", "confirmed", "declined", "cancelled")
 
 
 def services_from_purposes(purposes) -> list:
@@ -55,6 +57,23 @@ class Outage(Record):
     start_tt: float
     end_tt: float
     reason: str = ""
+
+
+@dataclass(eq=False)
+class BusySpan(Record):
+    """Antenna time of a station taken by another user (``busy``): inline, or read from an iCalendar file."""
+
+    start_tt: float
+    end_tt: float
+    source: str = ""  # the note given inline, or "file.ics line N: summary"
+    file: Path | None = field(default=None, compare=False)  # the iCalendar file it was read from (None: inline)
+
+
+@dataclass(eq=False)
+class BusyFile(Record):
+    """A ``busy = [{ ics = "path.ics" }]`` entry: the file (absolute), re-read on every load."""
+
+    path: Path
 
 
 @dataclass(eq=False)
@@ -90,6 +109,8 @@ class Station(Record):
     post_pass_min: float = 0.0  # release after the track
     cost_per_hour: float = 1.0
     max_hours_per_week: float | None = None
+    busy: list = field(default_factory=list)  # [BusySpan] of other users, inline and from files, sorted by start
+    busy_files: list = field(default_factory=list)  # [BusyFile] the iCalendar files busy spans were read from
     g_over_t_dbk: InitVar[float | None] = None
     zenith_attenuation_db: InitVar[float | None] = None
     setup_min: InitVar[float | None] = None
@@ -381,6 +402,18 @@ class ActivitySeries(Record):
 
 
 @dataclass(eq=False)
+class ConfirmedSlot(Record):
+    """What the network confirmed for a booking (``[[bookings]] confirmed = {...}``): station, antenna time
+    (pre-pass and post-pass included, as the booking's ``start``/``end``) and services. ``confirmed-changed``
+    compares the booking with it."""
+
+    station: str
+    start_tt: float
+    end_tt: float
+    services: list = field(default_factory=list)
+
+
+@dataclass(eq=False)
 class Booking(Record):
     """Antenna time at a station: ``start``/``end`` include the station's pre-pass and post-pass.
 
@@ -396,6 +429,12 @@ class Booking(Record):
     services: list = field(default_factory=lambda: list(DEFAULT_SERVICES))
     locked: bool = False
     handover_from: str | None = None
+    # the exchange with the station network (plan/status.py, commands/requests.py)
+    status: str = "draft"  # one of BOOKING_STATUSES; declined and cancelled bookings count nowhere
+    network_ref: str | None = None  # the network's own id of the booking
+    requested_revision: int | None = None  # the plan revision it was last sent in
+    sequence: int = 0  # iTIP SEQUENCE of the last request or cancellation sent for it (RFC 5546)
+    confirmed: ConfirmedSlot | None = None  # what the network confirmed (status confirmed)
     purposes: InitVar[list | None] = None
 
     def __post_init__(self, purposes):
@@ -437,6 +476,7 @@ class Requirements(Record):
     cutoff_before_burn_h: float | None = None
     cutoff_lookback_h: float | None = None
     handover_min: float | None = None  # minutes two bookings meant to be continuous must overlap (None: 0)
+    confirm_lead_h: float | None = None  # unconfirmed-near: bookings starting within this many hours
 
 
 @dataclass(eq=False)
@@ -461,6 +501,8 @@ class Scenario(Record):
     orbit_determination: object | None = None  # OrbitDetermination (scenario/orbit_determination.py)
     format_version: int = FORMAT_VERSION
     revision: int = 0
+    freeze_tt: float | None = None  # [scenario] freeze: bookings whose track starts before it are frozen
+    freeze_before_start_h: float | None = None  # ... or those whose track starts within this many hours of now
     path: Path | None = field(default=None, compare=False)
     document: dict = field(default_factory=dict, repr=False, compare=False)  # whole TOML as read
 

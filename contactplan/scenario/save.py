@@ -21,7 +21,8 @@ from contactplan.fileio import atomic_write
 from contactplan.scenario import model as m
 from contactplan.timescale import format_utc
 
-_TIME_KEYS = {"start_tt": "start", "end_tt": "end", "first_start_tt": "first_start", "epoch_tt": "epoch"}
+_TIME_KEYS = {"start_tt": "start", "end_tt": "end", "first_start_tt": "first_start", "epoch_tt": "epoch",
+              "freeze_tt": "freeze"}
 _SKIP = {"raw", "loaded", "outages", "path", "document", "series", "ephemeris", "link", "recorder",
          "libration", "oem_path", "kind_", "spacecraft", "stations", "activities", "bookings",
          "requirements", "geometry", "format_version", "links"}
@@ -101,7 +102,12 @@ def _series_intact(series: m.ActivitySeries, members: list) -> bool:
 
 def _oem_text(eph: m.EphemerisSpec, sc: m.Scenario) -> str:
     """The ``oem`` path as written: relative to the scenario's folder when it can be."""
-    p = Path(eph.oem_path)
+    return _path_text(eph.oem_path, sc)
+
+
+def _path_text(path, sc: m.Scenario) -> str:
+    """A file path as written in the scenario: relative to the scenario's folder when it can be."""
+    p = Path(path)
     if sc.path is not None:
         try:
             p = Path(os.path.relpath(p.resolve(), sc.path.parent.resolve()))
@@ -120,7 +126,8 @@ def dump_document(sc: m.Scenario) -> dict:
     src = sc.document or {}
     doc = copy.deepcopy(src)
     doc["format_version"] = m.FORMAT_VERSION
-    doc["scenario"] = encode(sc, only=("name", "start_tt", "end_tt", "revision"))
+    doc["scenario"] = encode(sc, only=("name", "start_tt", "end_tt", "revision", "freeze_tt",
+                                       "freeze_before_start_h"))
 
     craft = sc.spacecraft
     sp = encode(craft, only=("name",))
@@ -150,7 +157,7 @@ def dump_document(sc: m.Scenario) -> dict:
 
     stations = []
     for st in _in_file_order(sc.stations, src, "stations"):
-        t = encode(st, skip={"services"})
+        t = encode(st, skip={"services", "busy", "busy_files"})
         raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
         if st.services:
             t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services},
@@ -161,6 +168,7 @@ def dump_document(sc: m.Scenario) -> dict:
             t["outages"] = [encode(o) for o in st.outages]
         else:
             t.pop("outages", None)
+        _put_list(t, "busy", _busy_tables(st, sc))
         stations.append(t)
     _put_list(doc, "stations", stations)
 
@@ -180,7 +188,7 @@ def dump_document(sc: m.Scenario) -> dict:
     activities += [encode(a, skip={"series"}) for a in orphans]
     _put_list(doc, "activity_series", [encode(s) for s in kept_series])
     _put_list(doc, "activities", activities)
-    _put_list(doc, "bookings", [encode(b) for b in _in_file_order(sc.bookings, src, "bookings")])
+    _put_list(doc, "bookings", [_encode_booking(b) for b in _in_file_order(sc.bookings, src, "bookings")])
     for key, rec in (("requirements", sc.requirements), ("geometry", sc.geometry)):
         t = encode(rec)
         if t:
@@ -188,6 +196,43 @@ def dump_document(sc: m.Scenario) -> dict:
         else:
             doc.pop(key, None)
     return doc
+
+
+def _encode_booking(b: m.Booking) -> dict:
+    """A booking's table, with its ``confirmed = {...}`` slot (docs/scenario.md) when it has one."""
+    t = encode(b, skip={"confirmed"})
+    if b.confirmed is None:
+        t.pop("confirmed", None)
+    else:
+        t["confirmed"] = encode(b.confirmed)
+    return t
+
+
+def _busy_tables(st: m.Station, sc: m.Scenario) -> list:
+    """A station's ``busy`` list: its iCalendar files (path rewritten when the scenario moves folder) and its
+    inline spans, in file order (new ones last); spans read from a file are not written (the file is re-read)."""
+    inline = [sp for sp in st.busy if getattr(sp, "file", None) is None]
+    raw = st.raw.get("busy") if isinstance(st.raw.get("busy"), list) else []
+    out = []
+    for rec in _in_file_order(list(st.busy_files) + inline, {"busy": raw}, "busy"):
+        t = dict(rec.raw)
+        if isinstance(rec, m.BusyFile):
+            written = t.get("ics") if isinstance(t.get("ics"), str) else None
+            same = (written is not None and sc.path is not None
+                    and (sc.path.parent / written).resolve() == Path(rec.path).resolve())
+            if not same:
+                t["ics"] = _path_text(rec.path, sc)
+        else:
+            for key, value in (("start", rec.start_tt), ("end", rec.end_tt)):
+                if key not in rec.loaded or not _same(rec.loaded[key], value, True):
+                    t[key] = format_time(value)
+            if rec.loaded.get("source", None) != rec.source or "source" not in rec.loaded:
+                if rec.source:
+                    t["note"] = rec.source
+                else:
+                    t.pop("note", None)
+        out.append(t)
+    return out
 
 
 def eph_doc(src: dict) -> dict:
@@ -212,18 +257,10 @@ class NotSavedError(InputError, ValueError):
     """The scenario was refused before writing (it would not load again); the file is untouched."""
 
 
-def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
-                  validate: bool = True) -> Path:
-    """Atomically write the scenario to ``path`` (default: where it was read from).
-
-    With ``validate`` (the default) the text is read back through the loader before
-    anything is written: a scenario that could not be opened again (a booking ending
-    before it starts, an unknown station...) is refused with an :class:`InputError`
-    naming the field, and the file on disk is left as it was.
-    """
-    target = Path(path) if path is not None else sc.path
-    if target is None:
-        raise ValueError("no path to save to")
+def text_for(sc: m.Scenario, target: Path, validate: bool = True, verb: str = "saved") -> str:
+    """The TOML the scenario would be saved as at ``target`` (paths relative to that folder). With
+    ``validate`` it is read back through the loader first: a scenario that could not be opened again
+    raises :class:`NotSavedError` ("not saved: ...", or "not <verb>: ...") naming the field."""
     old_path = sc.path
     sc.path = target
     try:
@@ -236,7 +273,23 @@ def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool =
         try:
             parse_text(text, target)
         except InputError as exc:
-            raise NotSavedError(f"not saved: {exc.message}", target, exc.where) from None
+            raise NotSavedError(f"not {verb}: {exc.message}", target, exc.where) from None
+    return text
+
+
+def save_scenario(sc: m.Scenario, path: str | Path | None = None, backup: bool = True,
+                  validate: bool = True) -> Path:
+    """Atomically write the scenario to ``path`` (default: where it was read from).
+
+    With ``validate`` (the default) the text is read back through the loader before
+    anything is written: a scenario that could not be opened again (a booking ending
+    before it starts, an unknown station...) is refused with an :class:`InputError`
+    naming the field, and the file on disk is left as it was.
+    """
+    target = Path(path) if path is not None else sc.path
+    if target is None:
+        raise ValueError("no path to save to")
+    text = text_for(sc, target, validate)
     atomic_write(target, text, backup=backup)
     sc.path = target
     sc.format_version = m.FORMAT_VERSION  # an older file is upgraded by its first save

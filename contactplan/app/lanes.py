@@ -1,0 +1,419 @@
+"""The timeline's lanes: one canvas item painting every lane and reading the editing gestures.
+
+x is hours since :attr:`Timeline.origin_tt`; y counts lanes from the top (lane 0:
+the spacecraft, lane i: station i-1). :class:`LanesViewBox` reads the mouse and
+hands gestures to :class:`LanesCanvas`, which turns them into undoable document edits.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6.QtCore import QRectF, Qt
+
+from contactplan.app.document import NOTHING, Selection
+from contactplan.app.lanepaint import LanePainter
+from contactplan.app.servicemarks import letters, margins_text, services_text
+from contactplan.app.spans import SpanIndex
+from contactplan.timescale import DAY_S, format_utc, utc_day_start
+
+GRID_S = 300.0  # bookings snap to a 5-minute grid ...
+SNAP_PX = 8.0  # ... or to a pass edge closer than this many pixels
+EDGE_PX = 5.0  # grab a booking's edge within this many pixels
+MIN_BOOKING_S = 300.0
+WEEK_S = 7 * DAY_S
+
+_CANCELLED = object()  # a gesture dropped with Escape
+
+
+class LanesViewBox(pg.ViewBox):
+    """Reads gestures in the lanes: click selects, drag on a pass books, drag a booking moves or resizes it."""
+
+    def __init__(self, **kw):
+        super().__init__(**kw)
+        self.canvas: LanesCanvas | None = None
+        self._drag = None
+        self.setMouseEnabled(x=True, y=False)
+        self.setMenuEnabled(False)
+        self.invertY(True)
+
+    def mouseClickEvent(self, ev):
+        if self.canvas is None:
+            return super().mouseClickEvent(ev)
+        p = self.mapSceneToView(ev.scenePos())
+        if ev.button() == Qt.MouseButton.LeftButton:
+            ev.accept()
+            self.canvas.click(p.x(), p.y(), double=ev.double())
+        elif ev.button() == Qt.MouseButton.RightButton:
+            ev.accept()
+            self.canvas.context_menu(p.x(), p.y(), ev.screenPos())
+        else:
+            super().mouseClickEvent(ev)
+
+    def cancel_drag(self) -> bool:
+        """Escape during a gesture: drop it; the rest of the mouse drag does nothing. True if one was running."""
+        if self._drag is None or self._drag is _CANCELLED:
+            return False
+        self._drag = _CANCELLED
+        if self.canvas is not None:
+            self.canvas.drag = None
+            self.canvas.update()
+        return True
+
+    def mouseDragEvent(self, ev, axis=None):
+        if self.canvas is None or axis is not None or ev.button() != Qt.MouseButton.LeftButton:
+            return super().mouseDragEvent(ev, axis)
+        if ev.isStart():
+            p = self.mapSceneToView(ev.buttonDownScenePos())
+            self._drag = self.canvas.begin_drag(p.x(), p.y())
+        if self._drag is _CANCELLED:
+            ev.accept()
+            if ev.isFinish():
+                self._drag = None
+            return
+        if self._drag is None:
+            return super().mouseDragEvent(ev, axis)  # pan
+        ev.accept()
+        p = self.mapSceneToView(ev.scenePos())
+        self.canvas.update_drag(self._drag, p.x(), p.y())
+        if ev.isFinish():
+            drag, self._drag = self._drag, None
+            self.canvas.finish_drag(drag)
+
+
+class Drag:
+    """A gesture in progress: mode is create, move, start or end (the edge being dragged)."""
+
+    def __init__(self, mode: str, lane: int, x0: float, booking=None):
+        self.mode = mode
+        self.lane = lane
+        self.x0 = x0
+        self.booking = booking
+        self.pass_ = None
+        self.station = None
+        self.start_tt = booking.start_tt if booking is not None else None
+        self.end_tt = booking.end_tt if booking is not None else None
+
+
+class LanesCanvas(LanePainter, pg.GraphicsObject):
+    """Paints every lane and turns gestures into document edits."""
+
+    def __init__(self, timeline: "Timeline"):
+        super().__init__()
+        self.tl = timeline
+        self.doc = timeline.doc
+        self.drag: Drag | None = None
+        self.shade = "rate"  # or "elevation"
+        self._segments: dict = {}  # id(Pass) -> [(t0, t1, level)]
+        self._finding_span = None
+        self._pass_index = None  # (passes list, its length, AOS array or None if unsorted, longest pass in s)
+        self.drag_label = ""  # what the drag preview says (start - end and length)
+        self.findings_stale = False  # True while a newer state is being checked: outlines faded
+        self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
+        self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
+                                                    max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
+        # stations and activities change far less often than bookings: their index is rebuilt only
+        # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
+        self.records_revision = 0
+        self.ghosts: list = []  # [(station, start_tt, end_tt)] of the latest issued revision, when shown
+        self.doc.recordsChanged.connect(self._records_edited)
+        self.doc.scenarioReplaced.connect(self._records_edited)
+        self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
+        self._marks_until: dict = {}
+        self.setZValue(10)
+
+    def _records_edited(self) -> None:
+        self.records_revision += 1
+
+    # ------------------------------------------------------------ geometry
+    @property
+    def stations(self) -> list:
+        sc = self.doc.scenario
+        return [] if sc is None else list(sc.stations)
+
+    def lanes(self) -> int:
+        return 1 + len(self.stations)
+
+    def x_of(self, t_tt):
+        return (np.asarray(t_tt, dtype=float) - self.tl.origin_tt) / 3600.0 if np.ndim(t_tt) else \
+            (float(t_tt) - self.tl.origin_tt) / 3600.0
+
+    def t_of(self, x: float) -> float:
+        return self.tl.origin_tt + float(x) * 3600.0
+
+    def lane_of(self, y: float) -> int:
+        return int(math.floor(y))
+
+    def station_of_lane(self, lane: int):
+        st = self.stations
+        return st[lane - 1] if 1 <= lane <= len(st) else None
+
+    def lane_of_station(self, sid: str) -> int:
+        for i, s in enumerate(self.stations):
+            if s.id == sid:
+                return i + 1
+        return -1
+
+    def boundingRect(self):
+        sc = self.doc.scenario
+        if sc is None:
+            return QRectF(0, 0, 1, 1)
+        x0 = self.x_of(sc.start_tt) - 48
+        x1 = self.x_of(sc.end_tt) + 48
+        return QRectF(x0, 0, x1 - x0, self.lanes())
+
+    def px_s(self) -> float:
+        """Seconds per screen pixel along x."""
+        vb = self.getViewBox()
+        if vb is None:
+            return 60.0
+        w = vb.width() or 1.0
+        (x0, x1), _ = vb.viewRange()
+        return (x1 - x0) * 3600.0 / w
+
+    def visible_passes(self, t_lo: float, t_hi: float):
+        """The passes that may show between t_lo and t_hi, in the result's order (a year is not walked per paint).
+
+        Passes come sorted by AOS: the candidates are those with AOS in
+        [t_lo - longest pass, t_hi], found by bisection; the caller still tests each.
+        """
+        passes = [] if self.doc.result is None else self.doc.result.passes
+        idx = self._pass_index
+        if idx is None or idx[0] is not passes or idx[1] != len(passes):
+            aos = np.fromiter((p.aos_tt for p in passes), dtype=float, count=len(passes))
+            longest = max((p.los_tt - p.aos_tt for p in passes), default=0.0)
+            ordered = bool(len(aos) < 2 or np.all(np.diff(aos) >= 0))
+            idx = self._pass_index = (passes, len(passes), aos if ordered else None, longest)
+        _passes, _n, aos, longest = idx
+        if aos is None:
+            return passes
+        i0 = int(np.searchsorted(aos, t_lo - longest, side="left"))
+        i1 = int(np.searchsorted(aos, t_hi, side="right"))
+        return passes[i0:i1]
+
+    def invalidate(self) -> None:
+        self._segments.clear()
+        self._pass_index = None
+        self.prepareGeometryChange()
+        self.update()
+
+    # ------------------------------------------------------------ hit tests
+    def booking_at(self, x: float, y: float):
+        """(booking, part) under a point; part is start, end or body."""
+        lane = self.lane_of(y)
+        st = self.station_of_lane(lane)
+        if st is None or not (0.22 <= y - lane <= 0.78):
+            return None, None
+        t = self.t_of(x)
+        tol = EDGE_PX * self.px_s()
+        best = None
+        for b in self.doc.scenario.bookings:
+            if b.station != st.id or not (b.start_tt - tol <= t <= b.end_tt + tol):
+                continue
+            if abs(t - b.start_tt) <= tol and (b.end_tt - b.start_tt) > 3 * tol:
+                part = "start"
+            elif abs(t - b.end_tt) <= tol and (b.end_tt - b.start_tt) > 3 * tol:
+                part = "end"
+            elif b.start_tt <= t <= b.end_tt:
+                part = "body"
+            else:
+                continue
+            best = (b, part)
+            if part != "body":
+                break
+        return best if best else (None, None)
+
+    def pass_at(self, x: float, y: float):
+        st = self.station_of_lane(self.lane_of(y))
+        return None if st is None else self.doc.pass_at(st.id, self.t_of(x))
+
+    def activity_at(self, x: float, y: float):
+        if self.lane_of(y) != 0 or self.doc.scenario is None:
+            return None
+        t = self.t_of(x)
+        tol = 3 * self.px_s()
+        for a in self.doc.scenario.activities:
+            if a.start_tt - tol <= t <= a.end_tt + tol:
+                return a
+        return None
+
+    def describe(self, x: float, y: float) -> str:
+        """Plain text about what lies under a point (for the hover tip)."""
+        sc = self.doc.scenario
+        if sc is None:
+            return ""
+        t = self.t_of(x)
+        lines = [format_utc(t, 0)]
+        b, part = self.booking_at(x, y)
+        if b is not None:
+            bot, eot = sc.track_span_tt(b)
+            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)}"
+                         f"{', locked' if b.locked else ''}")
+            lines.append(f"track (BOT to EOT) {format_utc(bot, 0)} to {format_utc(eot, 0)}")
+            lines.append(f"services: {services_text(sc, b)} [{letters(b.services)}]")
+            if b.handover_from:
+                lines.append(f"continues {b.handover_from} (handover)")
+            for f in self.doc.findings_for(b.id)[:4]:
+                lines.append(f"{f.severity}: {f.message}")
+            if part in ("start", "end"):
+                lines.append(f"drag to move its {part}")
+            return "\n".join(lines)
+        a = self.activity_at(x, y)
+        if self.lane_of(y) == 0:
+            for sh in (getattr(self.doc.result, "shadows", None) or []):
+                if len(sh) >= 4 and sh[0] <= t <= sh[1]:
+                    lines.append(f"in the {sh[2]}'s {sh[3]} {format_utc(sh[0], 0)} to {format_utc(sh[1], 0)}")
+        if a is not None:
+            k0, k1 = a.keepout_span_tt
+            lines.append(f"{a.kind} {a.id}: {format_utc(a.start_tt, 0)}, {a.duration_min:g} min; "
+                         f"no downlink {format_utc(k0, 0)[11:16]} to {format_utc(k1, 0)[11:16]}")
+            return "\n".join(lines)
+        st = self.station_of_lane(self.lane_of(y))
+        if st is not None:
+            for o in st.outages:
+                if o.start_tt <= t <= o.end_tt:
+                    lines.append(f"{st.id} out of service {format_utc(o.start_tt, 0)} to {format_utc(o.end_tt, 0)}"
+                                 + (f": {o.reason}" if o.reason else ""))
+            p = self.pass_at(x, y)
+            if p is not None:
+                rate = "" if p.max_rate_kbps is None else f", best {p.max_rate_kbps:,.0f} kbit/s"
+                vol = "" if p.volume_gbit is None else f", {p.volume_gbit:.1f} Gbit"
+                lines.append(f"pass {p.station} {format_utc(p.aos_tt, 0)} to {format_utc(p.los_tt, 0)}, "
+                             f"max {p.max_elevation_deg:.1f} deg{rate}{vol}")
+                margins = margins_text(self.doc.result, p)
+                if margins:
+                    lines.append(f"margin at culmination: {margins}")
+                lines.append("drag across it to book")
+        for a in sc.activities:
+            k0, k1 = a.keepout_span_tt
+            if k0 <= t <= k1 and a.downlink_keepout_min > 0:
+                lines.append(f"no downlink: keep-out of {a.kind} {a.id}")
+        return "\n".join(lines) if len(lines) > 1 else ""
+
+    # ------------------------------------------------------------ snapping
+    def snap(self, t: float, station: str | None) -> float:
+        """Snap to a pass edge of the station within SNAP_PX pixels, else to the 5-minute UTC grid."""
+        tol = SNAP_PX * self.px_s()
+        best, dist = None, tol
+        if station is not None:
+            for p in self.doc.passes_for(station):
+                for e in (p.aos_tt, p.los_tt):
+                    if abs(e - t) <= dist:
+                        best, dist = e, abs(e - t)
+        if best is not None:
+            return best
+        day0 = utc_day_start(t)
+        return day0 + round((t - day0) / GRID_S) * GRID_S
+
+    # ------------------------------------------------------------ gestures
+    def click(self, x: float, y: float, double: bool = False) -> None:
+        self.tl.setFocus()
+        b, _part = self.booking_at(x, y)
+        if b is not None:
+            self.doc.select(Selection("booking", b.id))
+            if double:
+                self.tl.editPurposesRequested.emit(b.id)
+            return
+        a = self.activity_at(x, y)
+        if a is not None:
+            self.doc.select(Selection("activity", a.id))
+            return
+        p = self.pass_at(x, y)
+        if p is not None:
+            self.doc.select(Selection("pass", p))
+            return
+        st = self.station_of_lane(self.lane_of(y))
+        self.doc.select(Selection("station", st.id) if st is not None else NOTHING)
+
+    def context_menu(self, x: float, y: float, screen_pos) -> None:
+        from PySide6.QtWidgets import QMenu
+
+        b, _ = self.booking_at(x, y)
+        p = self.pass_at(x, y)
+        menu = QMenu()
+        if b is not None:
+            self.doc.select(Selection("booking", b.id))
+            menu.addAction("Edit services...", lambda: self.tl.editPurposesRequested.emit(b.id))
+            menu.addAction("Unlock" if b.locked else "Lock",
+                           lambda: self.doc.edit_booking(b.id, locked=not b.locked))
+            menu.addAction("Delete", lambda: self.doc.delete_bookings([b.id]))
+        elif p is not None:
+            menu.addAction("Book the whole pass", lambda: self.doc.add_booking(p.station, p.aos_tt, p.los_tt))
+        else:
+            return
+        menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+
+    def begin_drag(self, x: float, y: float):
+        if self.doc.scenario is None:
+            return None
+        lane = self.lane_of(y)
+        b, part = self.booking_at(x, y)
+        if b is not None:
+            self.doc.select(Selection("booking", b.id))
+            d = Drag({"body": "move", "start": "start", "end": "end"}[part], lane, x, b)
+            d.station = b.station
+            self.drag = d
+            return d
+        p = self.pass_at(x, y)
+        if p is not None:
+            d = Drag("create", lane, x)
+            d.station = p.station
+            d.pass_ = p
+            self.drag = d
+            return d
+        return None
+
+    def update_drag(self, d: Drag, x: float, y: float) -> None:
+        t = self.t_of(x)
+        if d.mode == "create":
+            a, b = sorted((self.snap(self.t_of(d.x0), d.station), self.snap(t, d.station)))
+            p = d.pass_  # a new booking stays inside the pass it was drawn on
+            d.start_tt, d.end_tt = min(max(a, p.aos_tt), p.los_tt), min(max(b, p.aos_tt), p.los_tt)
+        elif d.mode == "move":
+            b = d.booking
+            delta = t - self.t_of(d.x0)
+            lane = self.lane_of(y)
+            st = self.station_of_lane(lane)
+            if st is not None:
+                d.station = st.id
+            s, e = b.start_tt + delta, b.end_tt + delta
+            tol = SNAP_PX * self.px_s()
+            ss, se = self.snap(s, d.station), self.snap(e, d.station)
+            # prefer a pass edge on either side; otherwise put the start on the grid
+            edges = {pe for p in self.doc.passes_for(d.station) for pe in (p.aos_tt, p.los_tt)}
+            if se in edges and abs(se - e) <= tol and not (ss in edges and abs(ss - s) <= abs(se - e)):
+                shift = se - e
+            else:
+                shift = ss - s
+            d.start_tt, d.end_tt = s + shift, e + shift
+        elif d.mode == "start":
+            d.start_tt = min(self.snap(t, d.station), d.booking.end_tt - MIN_BOOKING_S)
+            d.end_tt = d.booking.end_tt
+        elif d.mode == "end":
+            d.end_tt = max(self.snap(t, d.station), d.booking.start_tt + MIN_BOOKING_S)
+            d.start_tt = d.booking.start_tt
+        self.update()
+
+    def finish_drag(self, d: Drag) -> None:
+        self.drag = None
+        try:
+            if d.start_tt is None or d.end_tt is None:
+                return
+            if d.mode == "create":
+                if d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
+                    self.doc.add_booking(d.station, d.start_tt, d.end_tt)
+            else:
+                changes = {"start_tt": d.start_tt, "end_tt": d.end_tt}
+                if d.station and d.station != d.booking.station:
+                    changes["station"] = d.station
+                self.doc.edit_booking(d.booking.id, **changes)
+        except (ValueError, KeyError) as exc:
+            self.doc.message.emit(str(exc))
+        finally:
+            self.update()
+
+    def show_finding_span(self, span) -> None:
+        self._finding_span = span
+        self.update()

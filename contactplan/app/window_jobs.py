@@ -1,0 +1,253 @@
+"""The main window's background work: passes, re-validation, drafting, exports (a mixin)."""
+
+from __future__ import annotations
+
+import copy
+from pathlib import Path
+
+from PySide6.QtGui import QUndoCommand
+from PySide6.QtWidgets import QFileDialog, QMessageBox
+
+from contactplan.app.models import PassTable
+from contactplan.app.worker import Job
+from contactplan.timescale import format_utc
+
+#: export menu: (what, format, label, extension filter)
+EXPORTS = (
+    ("passes", "csv", "Pass table (CSV)", "CSV (*.csv)"),
+    ("passes", "json", "Pass table (JSON)", "JSON (*.json)"),
+    ("passes", "xlsx", "Pass table (workbook)", "Workbook (*.xlsx)"),
+    ("bookings", "csv", "Booking list (CSV)", "CSV (*.csv)"),
+    ("bookings", "json", "Booking list (JSON)", "JSON (*.json)"),
+    ("bookings", "xlsx", "Booking list (workbook)", "Workbook (*.xlsx)"),
+    ("bookings", "ics", "Booking calendar (iCalendar)", "iCalendar (*.ics)"),
+    ("ephemeris", "oem", "Ephemeris (CCSDS OEM)", "OEM (*.oem)"),
+    ("report", "pdf", "Weekly report (PDF)", "PDF (*.pdf)"),
+)
+
+
+class ReplaceBookings(QUndoCommand):
+    """Put drafted bookings in place of the unlocked ones they replace (one undo step)."""
+
+    def __init__(self, doc, removed_ids, new_bookings, text="Draft the week"):
+        super().__init__(text)
+        self.doc = doc
+        self.removed_ids = set(removed_ids)
+        self.new = list(new_bookings)
+        self.before: list = []
+
+    def redo(self):
+        sc = self.doc.scenario
+        self.before = list(sc.bookings)
+        sc.bookings[:] = [b for b in sc.bookings if b.id not in self.removed_ids] + self.new
+        self.doc._after_bookings()
+
+    def undo(self):
+        self.doc.scenario.bookings[:] = self.before
+        self.doc._after_bookings()
+
+
+class JobsMixin:
+    """Jobs in the worker for :class:`~contactplan.app.window.MainWindow`."""
+
+    # ------------------------------------------------------------ background jobs
+    def run_job(self, title: str, fn, on_done, on_failed=None) -> Job | None:
+        if self.job is not None and self.job.running:
+            self.statusBar().showMessage(f"Busy: {self.job.title}. Cancel it first.", 5000)
+            return None
+        if self.job is not None:
+            self.job.deleteLater()  # the previous job is over: free its thread object
+        job = Job(title, fn, self)
+        self.job = job
+        self.progress.setValue(0)
+        self.progress.setFormat(f"{title} %p%")
+        self.progress.setVisible(True)
+        self.cancel_btn.setVisible(True)
+        job.progress.connect(lambda f: self.progress.setValue(int(1000 * f)))
+        job.done.connect(on_done)
+        job.failed.connect(on_failed or (lambda text: self.show_error(text, f"{title}: failed")))
+        job.cancelled.connect(lambda: self.statusBar().showMessage(f"{title}: cancelled", 5000))
+        job.finished.connect(self._job_finished)
+        job.start()
+        self._update_actions()
+        return job
+
+    def _job_finished(self) -> None:
+        self.progress.setVisible(False)
+        self.cancel_btn.setVisible(False)
+        self._update_actions()
+        self._settle_layout()
+
+    def _settle_layout(self) -> None:
+        """Lay the status bar and the window out now rather than in a later pass of the event loop.
+
+        Hiding the progress bar can rewrap the caution and change the status bar's
+        height, which resizes the timeline; settled here, before a job's results are
+        handed to the views, the window is painted once at its final size instead
+        of once before the relayout and again after it.
+        """
+        for w in (self.statusBar(), self):
+            lay = w.layout()
+            if lay is not None:
+                lay.activate()
+
+    def cancel_job(self, wait: bool = False) -> None:
+        if self.job is not None and self.job.running:
+            self.job.cancel()
+            if wait:
+                self.job.wait()
+        if wait:
+            self.nav_strip.wait()
+
+    def compute(self) -> Job | None:
+        """Predict passes, link and recorder for the open scenario in the background."""
+        sc = self.doc.scenario
+        if sc is None:
+            return None
+        if self.job is not None and self.job.running:
+            if self.job.title == "Passes":
+                self.job.cancel()
+                self.job.wait()
+            else:
+                return None
+        from contactplan.app.checking import index_findings
+        from contactplan.plan.pipeline import compute_plan
+
+        revision = self.doc.revision
+        doy = self.act_doy.isChecked()
+        prepared = {}
+
+        def fn(progress, cancel):
+            result = compute_plan(sc, progress=progress, cancel=cancel)
+            # the passes table's keys and texts are made here too, so the window only swaps them in
+            prepared["table"] = PassTable(result.passes, doy=doy, link_profiles=result.link_profiles).prepare()
+            prepared["findings"] = index_findings(result.findings)
+            return result
+
+        def done(result):
+            if self.doc.scenario is sc:
+                self.passes_model.adopt(prepared.pop("table", None))
+                self.doc.set_result(result, revision=revision, index=prepared.pop("findings", None))
+                self._update_summary()
+                self.statusBar().showMessage(f"{len(result.passes)} passes predicted", 5000)
+                self.timeline.settle()  # one paint for the whole hand-off, not two
+
+        return self.run_job("Passes", fn, done)
+
+    def revalidate_dialog(self) -> None:
+        path, _ = QFileDialog.getOpenFileName(self, "Re-validate against an ephemeris (CCSDS OEM)", "",
+                                              "Ephemeris (*.oem *.kvn *.xml *.txt);;All files (*)")
+        if path:
+            self.revalidate(path)
+
+    def revalidate(self, path) -> Job | None:
+        """Check the bookings against the passes of another ephemeris, then offer to fly it."""
+        sc = self.doc.scenario
+        if sc is None:
+            return None
+        snapshot = copy.copy(sc)
+        snapshot.bookings = list(sc.bookings)
+        old = self.doc.result if (self.doc.result is not None and self.doc.result.passes
+                                  and not self.doc.stale) else None
+
+        def fn(progress, cancel):
+            from contactplan.ephemeris import open_oem
+            from contactplan.plan.revalidate import revalidate
+
+            return revalidate(snapshot, open_oem(path), old_result=old, progress=progress, cancel=cancel)
+
+        def done(rv):
+            self.last_revalidation = rv
+            lines = revalidation_lines(rv, Path(path).name)
+            B = QMessageBox.StandardButton
+            if self.ask("Re-validation", "\n".join(lines) + "\n\nFly this ephemeris from now on?",
+                        B.Yes | B.No, B.No) == B.Yes:
+                self.import_ephemeris_path(path)
+
+        return self.run_job("Re-validation", fn, done)
+
+    def draft_week(self) -> Job | None:
+        sc = self.doc.scenario
+        if sc is None:
+            return None
+        from contactplan.plan.drafter import draft, summary_lines
+
+        snapshot = copy.copy(sc)
+        snapshot.bookings = list(sc.bookings)
+        result = self.doc.result if self.doc.result is not None and self.doc.result.passes else None
+        t0, t1 = self.timeline.visible_tt()
+        start, end = max(t0, sc.start_tt), min(t1, sc.end_tt)
+        if end - start < 3600:
+            start, end = sc.start_tt, sc.end_tt
+
+        def fn(progress, cancel):
+            progress(0.02)
+            # the drafter reports its stages and stops between solves when Cancel is pressed
+            return draft(snapshot, result=result, start_tt=start, end_tt=end, progress=progress, cancel=cancel)
+
+        def done(dr):
+            lines = summary_lines(snapshot, dr)
+            if not dr.bookings:
+                self.info("Draft", "\n".join(lines))
+                return
+            B = QMessageBox.StandardButton
+            if self.ask("Draft the week", "\n".join(lines) + "\n\nPut these bookings in the plan? (Undo takes them out.)",
+                        B.Yes | B.No, B.Yes) == B.Yes:
+                self.doc.undo_stack.push(ReplaceBookings(self.doc, dr.removed, dr.bookings))
+
+        return self.run_job("Drafting", fn, done)
+
+    def export_dialog(self, what: str, fmt: str, filt: str) -> None:
+        sc = self.doc.scenario
+        if sc is None:
+            return
+        base = sc.path.parent if sc.path else Path(str(self.settings.value("last_dir", "")) or ".")
+        stem = sc.path.stem if sc.path else "week"
+        path, _ = QFileDialog.getSaveFileName(self, f"Export {what}", str(base / f"{stem}-{what}.{fmt}"), filt)
+        if path:
+            self.export_to(path, what)
+
+    def export_to(self, path, what: str | None = None) -> Job | None:
+        """Write one export in the background; the status bar says what was written."""
+        from contactplan.commands.export import export
+
+        sc = copy.copy(self.doc.scenario)
+        sc.bookings = [copy.copy(b) for b in self.doc.scenario.bookings]
+        plan = self.doc.result if (self.doc.result is not None and self.doc.result.passes and not self.doc.stale) \
+            else None
+        if plan is not None:
+            plan = copy.copy(plan)
+            plan.scenario = sc
+        behind = self.doc.checking  # the findings shown are older than the bookings: check again here
+
+        def fn(progress, cancel):
+            if behind and plan is not None:
+                from contactplan.plan.pipeline import check
+
+                check(plan)  # on the copy: the recorder and findings of the bookings exported
+            return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
+
+        def done(line):
+            self.last_export = line
+            self.statusBar().showMessage(line, 10000)
+
+        return self.run_job("Export", fn, done)
+
+
+def revalidation_lines(rv, name: str, limit: int = 14) -> list:
+    """Plain lines saying what a new ephemeris changes for the bookings."""
+    def shift(v):
+        return "-" if v is None else f"{v:+.0f} s"
+
+    lines = [f"{name}: compared {format_utc(rv.start_tt, 0)} to {format_utc(rv.end_tt, 0)}.",
+             f"{len(rv.broken)} booking(s) now break a rule; {len(rv.appeared)} new finding(s), "
+             f"{len(rv.resolved)} resolved."]
+    for b in rv.bookings[:limit]:
+        state = "not checked (outside the new ephemeris)" if not b.checked else (
+            "BROKEN" if b.broken else "ok")
+        lines.append(f"  {b.booking} {b.station}: AOS {shift(b.aos_shift_s)}, LOS {shift(b.los_shift_s)}, {state}")
+    if len(rv.bookings) > limit:
+        lines.append(f"  ... and {len(rv.bookings) - limit} more")
+    for f in rv.appeared[:6]:
+        lines.append(f"  new {f.severity}: {f.message}")
+    return lines
