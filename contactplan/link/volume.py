@@ -183,7 +183,10 @@ def playback_profiles(scenario, passes, link_profiles: dict) -> dict:
             by_station[p.station] = None if lk is None else link_profiles.get(lk.id, {})
         got = by_station[p.station]
         if got is not None and id(p) in got:
-            out[id(p)] = got[id(p)]
+            prof = out[id(p)] = got[id(p)]
+            # weather columns from the profile (set here, in the caller's process, also after a split run)
+            p.clear_volume_gbit, p.availability_pct, p.gt_model = (prof.clear_volume_gbit, prof.availability_pct,
+                                                                    prof.gt_model)
     return out
 
 
@@ -209,6 +212,7 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     from contactplan.geometry.topo import Site, Track, look_angles, view
     from contactplan.link.atmosphere import service_zenith_attenuation_db
     from contactplan.link.services import playback_link, station_links
+    from contactplan.link.weather import link_weather
 
     refraction = bool(getattr(getattr(scenario, "geometry", None), "refraction", False))
     groups = []  # (station, passes, [(link, value, zenith, data link?)])
@@ -225,7 +229,9 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
         for lk, sv in station_links(scenario, station):
             value = sv.g_over_t_dbk if lk.direction == "down" else sv.eirp_dbw
             if lk.has_budget and value is not None:
-                todo.append((lk, value, service_zenith_attenuation_db(station, sv, lk), lk is data))
+                lw = link_weather(scenario, station, lk, sv)  # None unless the link is planned in weather
+                zen = service_zenith_attenuation_db(station, sv, lk) if lw is None else lw.zenith_db
+                todo.append((lk, value, zen, (lk is data, lw)))
         if todo:
             groups.append((station, sorted(plist, key=lambda p: p.aos_tt), todo))
     out: dict = {}
@@ -235,13 +241,16 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     def put(lk, got):
         out.setdefault(lk.id, {}).update(got)
 
+    def build(station, plist, t, offsets, el, rng, lk, level, flags):
+        return build_in_weather(station, plist, t, offsets, el, rng, lk, level, *flags)
+
     if not geometry_step_s or geometry_step_s <= step_s:
         for station, plist, todo in groups:
             t, offsets = sample_times(plist, step_s)
             la = look_angles(station, ephemeris, t, refraction=refraction)
             for lk, value, zen, data in todo:
                 level = link_level_db(lk, value, zen, la.range_km, la.elevation_deg)
-                put(lk, _build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
+                put(lk, build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
         return out
 
     ref = min(p.aos_tt for _, plist, _ in groups for p in plist) if ref_tt is None else float(ref_tt)
@@ -270,8 +279,28 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
             level = np.interp(t, nt, lv)
             if rows.size:
                 level[rows] = link_level_db(lk, value, zen, exact.range_km, exact.elevation_deg)
-            put(lk, _build(station, plist, t, offsets, el, rng, lk, level, data))
+            put(lk, build(station, plist, t, offsets, el, rng, lk, level, data))
     return out
+
+
+def build_in_weather(station, passes, t, offsets, el, rng, link, level, set_fields=True, lw=None):
+    """:func:`_build` on the clear-sky ``level``, or, with a :class:`~contactplan.link.weather.LinkWeather`,
+    on the level at the link's availability; each profile then keeps the clear-sky level
+    (``clear_level_db``) and volume (``clear_volume_gbit``) beside it (see :mod:`contactplan.link.weather`)."""
+    if lw is None:
+        return _build(station, passes, t, offsets, el, rng, link, level, set_fields)
+    from contactplan.link.weather import penalty_db
+
+    got = _build(station, passes, t, offsets, el, rng, link, level - penalty_db(lw.table, el, lw.system_noise_k),
+                 set_fields)
+    clear = _build(station, passes, t, offsets, el, rng, link, level, False)
+    for i, p in enumerate(passes):
+        prof = got[id(p)]
+        prof.clear_level_db = level[offsets[i]:offsets[i + 1]]
+        prof.clear_volume_gbit = clear[id(p)].volume_gbit()
+        prof.availability_pct = lw.availability_pct
+        prof.gt_model = lw.gt_model
+    return got
 
 
 def _rough_passes(nt, noff, el, cn0, h, tol_deg, tol_db):
