@@ -24,6 +24,7 @@ class PlanResult:
     # parts of the planning window the ephemeris answers [(start_tt, end_tt)]; None: the whole window
     coverage: list | None = None
     navigation: object | None = None  # NavigationResult (plan/tracking.py navigation_for), None without [orbit_determination]
+    forecast: object | None = None  # RecorderForecast (link/forecast.py), None without weather or recorder
 
     @property
     def errors(self) -> int:
@@ -146,8 +147,12 @@ def check(result: PlanResult) -> PlanResult:
     sc = result.scenario
     sc.bind()
     result.recorder = _recorder(sc, result.passes, result.profiles)
-    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
+    from contactplan.plan.rules_weather import weather_stage
+
+    rule_recorder, forecast = weather_stage(result, result.recorder)  # result.forecast: the recorder in weather
+    ctx = RuleContext.build(sc, result.passes, result.profiles, rule_recorder, coverage=result.coverage,
                             link_profiles=result.link_profiles)
+    ctx.forecast = forecast
     ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
     # unknown keys first: they are dated at the window start, so the list stays in time order
     result.findings = unknown_key_findings(sc) + run_rules(ctx)
