@@ -422,9 +422,12 @@ def upgrade_1_to_2(doc: dict) -> dict:
       (with its ``zenith_attenuation_db``).
     - a booking's ``purposes`` become ``services``: downlink -> telemetry + playback, ranging -> ranging +
       doppler, commanding -> commanding.
+    - ``[link_planning] weather = false``: links stay in clear sky at the reference atmosphere.
     """
     doc = copy.deepcopy(doc)
     doc["format_version"] = 2
+    if not isinstance(doc.get("link_planning"), dict):  # format 1 knew no weather: volumes stay as they were
+        doc.setdefault("link_planning", {"weather": False})
     sp = doc.get("spacecraft")
     has_link = isinstance(sp, dict)
     if has_link:
