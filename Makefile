@@ -20,7 +20,8 @@ run: $(STAMP)
 	$(PY) -m contactplan $(DEMO)
 
 test: $(STAMP)
-	QT_QPA_PLATFORM=offscreen MPLBACKEND=Agg $(PY) -m pytest
+	# one test process per core (pytest-xdist): the suite is CPU-bound
+	QT_QPA_PLATFORM=offscreen MPLBACKEND=Agg $(PY) -m pytest -n auto
 
 bench: $(STAMP)
 	@for b in benchmarks/bench_*.py; do echo "== $$b"; QT_QPA_PLATFORM=offscreen $(PY) $$b || exit 1; done

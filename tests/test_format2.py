@@ -80,7 +80,8 @@ def test_version_1_files_upgrade_with_the_same_passes_volumes_and_findings(v1_pl
             assert g[:3] == o[:3]
             assert (g[3] is None) == (o[3] is None) and g[4] == o[4]
             if o[3] is not None:
-                assert g[3] == pytest.approx(o[3], rel=1e-12, abs=1e-12)
+                # 1e-9: a newer astropy-iers-data release moves pass edges by nanoseconds
+                assert g[3] == pytest.approx(o[3], rel=1e-9, abs=1e-12)
         rec = plan.recorder
         assert [rec.downlinked_gbit, rec.end_gbit, rec.lost_gbit] == pytest.approx(old["recorder"][:3], abs=1e-9)
         assert rec.downlinked_by_booking_gbit == pytest.approx(old["recorder"][3], abs=1e-9)

@@ -2,8 +2,8 @@
 
 The reference is the output of the rules before indexing (per-booking scans over every pass,
 keep-out and day), frozen in ``tests/data/rules_frozen.json`` rule by rule: every finding's rule,
-severity, subjects, span, message and fix, and the recorder's bookkeeping, compared exactly (float
-for float; the random cases keep a SHA-1 of each whole finding to stay small). Cases: the demo week, the version-1 fixture, the demo stretched to 30 days with drawn
+severity, subjects, span, message and fix, and the recorder's bookkeeping, compared exactly (floats
+within a microsecond, see ``_same``; the random cases keep a SHA-1 of each whole finding to stay small). Cases: the demo week, the version-1 fixture, the demo stretched to 30 days with drawn
 bookings (the check benchmark's plan), and seeded random plans on hand-built passes, with and
 without a link model. Regenerate only on purpose (a rule meaning changed):
 ``python tests/test_rules_index.py --freeze``.
@@ -171,9 +171,24 @@ def test_findings_equal_the_frozen_scans_rule_by_rule(name, frozen):
     g, w = _by_rule(got["findings"]), _by_rule(want["findings"])
     assert sorted(g) == sorted(w)
     for rule in w:
-        assert g[rule] == w[rule], rule
-    assert got["findings"] == want["findings"]  # same order too
-    assert got["recorder"] == want["recorder"]
+        assert _same(g[rule], w[rule]), rule
+    assert _same(got["findings"], want["findings"])  # same order too
+    assert _same(got["recorder"], want["recorder"])
+
+
+def _same(a, b) -> bool:
+    """Equal, floats within 1 microsecond (or 1e-12 relative) of each other.
+
+    The geometric cases (demo, version 1, month) move by a few nanoseconds when a newer
+    astropy-iers-data release revises the Earth-orientation predictions: the rules must not
+    change, the last bits of a pass edge may."""
+    if isinstance(a, float) or isinstance(b, float):
+        return isinstance(a, (int, float)) and isinstance(b, (int, float)) and a == pytest.approx(b, rel=1e-12, abs=1e-6)
+    if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
+        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(_same(a[k], b[k]) for k in a)
+    return a == b
 
 
 def test_the_frozen_cases_fire_every_rule():
