@@ -283,6 +283,37 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     return out
 
 
+def plan_volumes_gbit(link, t, offsets, level) -> list:
+    """The rate-plan volume (Gbit) of each pass from the level at its samples: the numbers of
+    :func:`_build` (``PassProfile.volume_gbit()``) without building the profiles (the clear sky in weather).
+    Passes whose profile changes rate no more often than the plan may are summed at once."""
+    from contactplan.link.rateplan import best_rate_plan
+
+    rate = rates_and_margins(link, level)[0]
+    limit = getattr(link, "max_rate_changes_per_pass", None)
+    n = offsets.size - 1
+    seg = np.minimum(rate[:-1], rate[1:])
+    cross = offsets[1:-1] - 1  # spans joining one pass to the next
+    seg[cross] = 0.0
+    cum = np.concatenate(([0.0], np.cumsum(seg * np.diff(t))))
+    out = ((cum[offsets[1:] - 1] - cum[offsets[:-1]]) * 1e-6).tolist()
+    if limit is None:
+        return out
+    change = np.concatenate(([0], (seg[1:] != seg[:-1]).astype(np.int64)))
+    change[offsets[1:-1]] = 0  # the first span of a pass is not a change
+    change[offsets[1:-1] - 1] = 0
+    cc = np.concatenate(([0], np.cumsum(change)))
+    # changes inside pass i: spans offsets[i] .. offsets[i+1]-2
+    inside = cc[np.maximum(offsets[1:] - 1, offsets[:-1])] - cc[np.minimum(offsets[:-1] + 1, offsets[1:] - 1)]
+    for i in np.flatnonzero(inside > limit):
+        a, b = offsets[i], offsets[i + 1]
+        tt, sg = t[a:b], seg[a:b - 1]
+        keep = np.concatenate(([True], sg[1:] != sg[:-1]))
+        edges, steps, _ = best_rate_plan(np.concatenate((tt[:-1][keep], tt[-1:])), sg[keep], limit)
+        out[i] = float(np.sum(steps * np.diff(edges)) * 1e-6)
+    return out
+
+
 def build_in_weather(station, passes, t, offsets, el, rng, link, level, set_fields=True, lw=None):
     """:func:`_build` on the clear-sky ``level``, or, with a :class:`~contactplan.link.weather.LinkWeather`,
     on the level at the link's availability; each profile then keeps the clear-sky level
@@ -293,11 +324,11 @@ def build_in_weather(station, passes, t, offsets, el, rng, link, level, set_fiel
 
     got = _build(station, passes, t, offsets, el, rng, link, level - penalty_db(lw.table, el, lw.system_noise_k),
                  set_fields)
-    clear = _build(station, passes, t, offsets, el, rng, link, level, False)
+    clear = plan_volumes_gbit(link, t, offsets, level)
     for i, p in enumerate(passes):
         prof = got[id(p)]
         prof.clear_level_db = level[offsets[i]:offsets[i + 1]]
-        prof.clear_volume_gbit = clear[id(p)].volume_gbit()
+        prof.clear_volume_gbit = clear[i]
         prof.availability_pct = lw.availability_pct
         prof.gt_model = lw.gt_model
     return got

@@ -110,13 +110,30 @@ def gt_drop_db(clear_db, total_db, radiating_temperature_k: float, system_noise_
     return 10.0 * np.log10((float(system_noise_k) + np.maximum(dt, 0.0)) / float(system_noise_k))
 
 
-def penalty_db(table: SiteWeather, elevation_deg, system_noise_k: float | None):
-    """What weather at ``table``'s p takes off the clear-sky C/N0 (dB): excess attenuation plus G/T drop."""
+#: the penalty curve is evaluated on this fine elevation grid (deg) once per table and noise temperature,
+#: then interpolated at the samples (the curve is smooth: under 0.001 dB from 3 deg up, 0.005 dB below)
+FINE_ELEVATION_DEG = np.linspace(-1.0, 90.0, 1821)
+
+
+def penalty_curve_db(table: SiteWeather, elevation_deg, system_noise_k: float | None):
+    """What weather at ``table``'s p takes off the clear-sky C/N0 (dB), computed directly: excess attenuation
+    plus the G/T drop."""
     excess = table.excess_db(elevation_deg)
     if system_noise_k is None:
         return excess
     clear = table.clear_sky_db(elevation_deg)
     return excess + gt_drop_db(clear, clear + excess, table.radiating_temperature_k, system_noise_k)
+
+
+def penalty_db(table: SiteWeather, elevation_deg, system_noise_k: float | None):
+    """:func:`penalty_curve_db` at the samples, interpolated from :data:`FINE_ELEVATION_DEG` (one pass over
+    the samples)."""
+    memo = table.__dict__.setdefault("_fine", {})
+    key = None if system_noise_k is None else float(system_noise_k)
+    curve = memo.get(key)
+    if curve is None:
+        curve = memo[key] = penalty_curve_db(table, FINE_ELEVATION_DEG, system_noise_k)
+    return np.interp(np.asarray(elevation_deg, dtype=float), FINE_ELEVATION_DEG, curve)
 
 
 # ---------------------------------------------------------------- tables
