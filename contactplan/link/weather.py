@@ -28,7 +28,6 @@ to fill a missing table, inside :func:`_tabulate`.
 
 from __future__ import annotations
 
-import math
 import warnings
 from dataclasses import dataclass
 
@@ -250,14 +249,3 @@ def link_weather(scenario, station, link, service) -> LinkWeather | None:
     zen = float(given) if given is not None else table.clear_zenith_db
     return LinkWeather(table=table, availability_pct=a, zenith_db=zen,
                        system_noise_k=getattr(service, "system_noise_k", None) if service is not None else None)
-
-
-def margin_text(lw: LinkWeather) -> str:
-    """One line for reports: availability and how G/T is treated."""
-    gt = (f"sky noise on a {lw.system_noise_k:g} K system (T_m {lw.table.radiating_temperature_k:.0f} K)"
-          if lw.system_noise_k is not None else "G/T held constant")
-    return f"at {lw.availability_pct:g} % availability; {gt}"
-
-
-def finite(x) -> bool:
-    return x is not None and math.isfinite(float(x))
