@@ -8,7 +8,9 @@ margin and, down, the highest rate that closes with the demanded margin. A link 
 (see :class:`~contactplan.link.profiles.PassProfile`). The volume of a pass is
 the integral of that step function from AOS to LOS.
 
-All passes of one station are evaluated in one vectorised call.
+All passes of one station are evaluated in one vectorised call. A link planned in weather
+(:mod:`contactplan.link.weather`) is evaluated at its availability, its clear-sky level and volume kept
+beside (:func:`build_in_weather`).
 """
 
 from __future__ import annotations
@@ -291,7 +293,6 @@ def plan_volumes_gbit(link, t, offsets, level) -> list:
 
     rate = rates_and_margins(link, level)[0]
     limit = getattr(link, "max_rate_changes_per_pass", None)
-    n = offsets.size - 1
     seg = np.minimum(rate[:-1], rate[1:])
     cross = offsets[1:-1] - 1  # spans joining one pass to the next
     seg[cross] = 0.0
