@@ -78,3 +78,12 @@ def test_report_figure_shows_the_band(demo_plan):
     labels = [t.get_text() for t in fig.legends[0].get_texts()]
     assert "clear sky" in labels and "weather band (50 to 95 % availability)" in labels
     assert "Overflow probability" in forecast_text(demo_plan)
+
+
+def test_pass_notes_give_the_clear_sky_volume(demo_plan):
+    from contactplan.app.models import pass_notes
+
+    ka = next(p for p in demo_plan.passes if p.availability_pct is not None)
+    assert f"at 95 %, {ka.clear_volume_gbit:.1f} Gbit clear sky" in pass_notes(ka)
+    ka_const = type(ka)(**{**vars(ka), "gt_model": "constant"})
+    assert pass_notes(ka_const).endswith("G/T held constant")
