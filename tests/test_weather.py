@@ -447,3 +447,15 @@ def test_bad_weather_keys_name_the_field(edit, field):
 def test_format_1_files_upgrade_with_weather_off():
     sc = load_scenario(ROOT / "tests" / "data" / "week_v1.toml")
     assert sc.link_planning is not None and sc.link_planning.weather is False
+
+
+def test_docs_name_every_weather_key():
+    # docs/scenario.md is the contract: every key scenario/link_planning.py reads is in it
+    import re
+
+    doc = (ROOT / "docs" / "scenario.md").read_text(encoding="utf-8")
+    src = (ROOT / "contactplan" / "scenario" / "link_planning.py").read_text(encoding="utf-8")
+    keys = set(re.findall(r'\.(?:num|bool|list|sub)\("([a-z_]+)"', src)) | {"weather"}
+    assert {"availability_pct", "band_availability_pct", "forecast_draws", "forecast_seed", "system_noise_k",
+            "recorder_overflow_availability_pct", "overflow_risk_max_pct", "link_planning"} <= keys
+    assert sorted(k for k in keys if f"`{k}`" not in doc) == []
