@@ -458,4 +458,4 @@ def test_docs_name_every_weather_key():
     keys = set(re.findall(r'\.(?:num|bool|list|sub)\("([a-z_]+)"', src)) | {"weather"}
     assert {"availability_pct", "band_availability_pct", "forecast_draws", "forecast_seed", "system_noise_k",
             "recorder_overflow_availability_pct", "overflow_risk_max_pct", "link_planning"} <= keys
-    assert sorted(k for k in keys if f"`{k}`" not in doc) == []
+    assert sorted(k for k in keys if f"`{k}`" not in doc and f"[{k}]" not in doc) == []
