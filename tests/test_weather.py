@@ -459,3 +459,40 @@ def test_docs_name_every_weather_key():
     assert {"availability_pct", "band_availability_pct", "forecast_draws", "forecast_seed", "system_noise_k",
             "recorder_overflow_availability_pct", "overflow_risk_max_pct", "link_planning"} <= keys
     assert sorted(k for k in keys if f"`{k}`" not in doc and f"[{k}]" not in doc) == []
+
+
+_LP_TEXT = None
+
+
+def _lp_base() -> str:
+    global _LP_TEXT
+    if _LP_TEXT is None:
+        text = DEMO.read_text("utf-8")
+        start = text.index("[link_planning]")
+        end = text.index("[geometry]")
+        _LP_TEXT = text[:start] + "{lp}\n" + text[end:]
+    return _LP_TEXT
+
+
+def test_link_planning_values_load_or_name_their_field():
+    # property: any availability either loads as given (50 to 99.999) or is refused naming its field
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    from contactplan.errors import InputError
+
+    @settings(max_examples=60, deadline=None)
+    @given(a=st.floats(allow_nan=False, allow_infinity=False, min_value=-1e3, max_value=1e3),
+           draws=st.integers(min_value=-5, max_value=200000))
+    def check(a, draws):
+        text = _lp_base().replace("{lp}", f"[link_planning]\navailability_pct = {a!r}\nforecast_draws = {draws}\n")
+        try:
+            sc = parse_text(text, DEMO)
+        except InputError as exc:
+            assert exc.where in ("link_planning.availability_pct", "link_planning.forecast_draws")
+            assert not (50.0 <= a <= 99.999 and 0 <= draws <= 100000)
+            return
+        assert 50.0 <= a <= 99.999 and 0 <= draws <= 100000
+        assert sc.link_planning.availability_pct == a and sc.link_planning.forecast_draws == draws
+
+    check()
