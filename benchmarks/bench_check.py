@@ -101,11 +101,15 @@ def draw_bookings(sc, passes, seed: int = 19) -> list:
     return out
 
 
-def plan_for(days: float):
-    """(PlanResult with bookings drawn, seconds of geometry) for the demo stretched to ``days``."""
+def plan_for(days: float, weather: bool = True):
+    """(PlanResult with bookings drawn, seconds of geometry) for the demo stretched to ``days``
+    (``weather=False``: every link in clear sky at the reference atmosphere)."""
     from contactplan.plan.pipeline import compute_plan
+    from contactplan.scenario.link_planning import LinkPlanning
 
     sc = stretched_scenario(days)
+    if not weather:
+        sc.link_planning = LinkPlanning(weather=False)
     t0 = time.process_time()
     result = compute_plan(sc)
     geo = time.process_time() - t0

@@ -66,6 +66,9 @@ SCENARIO_EXPECT = {
     "series_id_too_long.toml": ("activity_series[STATIONKEEPING-MANOEUVRE-WEEK03].id",
                                 "its activities get ids such as 'STATIONKEEPING-MANOEUVRE-WEEK03-03' "
                                 "(more than 32 characters); use at most 29 characters"),
+    "weather_availability_40.toml": ("link_planning.availability_pct", "40.0 is out of range (must be >= 50.0)"),
+    "weather_noise_on_uplink.toml": ("stations[NRV].services[#2].system_noise_k", "belongs to a down link"),
+    "weather_band_one_value.toml": ("link_planning.band_availability_pct", "give two availabilities [p1, p2]"),
     "id_with_newline.toml": ("stations[KAL\\n\\x1b[31mEVIL].id", "'KAL\\n\\x1b[31mEVIL' is not a valid id"),
 }
 

@@ -185,7 +185,10 @@ def test_demo_pass_volumes_match_a_fine_independent_budget():
     from contactplan.paths import demo_scenario
     from contactplan.scenario.load import load_scenario
 
+    from contactplan.scenario.link_planning import LinkPlanning
+
     sc = load_scenario(demo_scenario())
+    sc.link_planning = LinkPlanning(weather=False)  # this checks the clear-sky budget at the reference atmosphere
     link = sc.spacecraft.link
     eph = ephemeris_for(sc)
     # the first three days of the demo week: each downlink station's passes, rising and setting

@@ -185,8 +185,9 @@ def test_user_cache_dir(monkeypatch, tmp_path):
 
 
 def test_demo_passes_never_import_scipy(tmp_path):
-    """The common command on the demo (built-in orbit) stays free of scipy, with an empty cache and with a
-    filled one (scipy alone costs about 0.5 s to import)."""
+    """The common command on the demo (built-in orbit) stays free of scipy once the cache is filled (scipy
+    alone costs about 0.5 s to import). The empty cache's run may import them: the demo's Ka link is planned
+    in weather, and its first run fills the weather tables through itur (which uses scipy and astropy)."""
     from contactplan.paths import demo_scenario
 
     code = ("import sys, json, contextlib, io\nfrom contactplan.cli import main\n"
@@ -194,8 +195,10 @@ def test_demo_passes_never_import_scipy(tmp_path):
             f"    code = main(['passes', {str(demo_scenario())!r}])\n"
             "print(json.dumps([code, sorted({m.split('.')[0] for m in sys.modules} & {'scipy', 'astropy'})]))")
     env = dict(os.environ, CONTACTPLAN_CACHE_DIR=str(tmp_path / "cache"))
-    for _ in range(2):  # empty cache, then filled
+    for run in range(2):  # empty cache, then filled
         proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
         assert proc.returncode == 0, proc.stderr[-2000:]
-        assert json.loads(proc.stdout.strip().splitlines()[-1]) == [0, []]
+        got = json.loads(proc.stdout.strip().splitlines()[-1])
+        assert got[0] == 0 and (run == 0 or got[1] == [])
+    assert (tmp_path / "cache" / "weather").is_dir()
     assert len(_files(tmp_path / "cache")) == 1

@@ -176,6 +176,9 @@ def pass_notes(p) -> str:
         out.append("Moon near")
     if p.sun_separation_min_deg < 10.0:
         out.append(f"Sun {p.sun_separation_min_deg:.1f} deg")
+    if getattr(p, "availability_pct", None) is not None:  # volume at availability; clear sky beside it
+        out.append(f"at {p.availability_pct:g} %, {p.clear_volume_gbit:.1f} Gbit clear sky"
+                   + ("" if p.gt_model == "sky-noise" else ", G/T held constant"))
     return ", ".join(out)
 
 
@@ -268,7 +271,7 @@ class PassesModel(_Base):
         ("Length", "pass length, hours:minutes"),
         ("Max el (deg)", "highest elevation during the pass"),
         ("Best rate (kbit/s)", "highest rate the link closes at during the pass"),
-        ("Volume (Gbit)", "data the whole pass could bring down"),
+        ("Volume (Gbit)", "data the whole pass could bring down (links in weather: at their availability)"),
         ("Range (km)", "smallest range during the pass"),
         ("Notes", "clipped by the window, Sun or Moon near the line of sight, outages"),
         ("Margin (dB)", "margin at culmination per link the station offers: down, Eb/N0 above the required; "

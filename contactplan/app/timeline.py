@@ -220,6 +220,9 @@ class Timeline(pg.GraphicsLayoutWidget):
             return
         x = (np.asarray(rec.t_tt, dtype=float) - self.origin_tt) / 3600.0
         self.fill_curve.setData(x, np.asarray(rec.fill_gbit, dtype=float))
+        from contactplan.app.forecastband import draw_band  # weather: clear-sky line and band
+
+        self.overflow_items += draw_band(self.rec_plot, self.doc.result, self.origin_tt)
         self.capacity_line.setVisible(True)
         self.capacity_line.setValue(rec.capacity_gbit)
         self.rec_plot.setYRange(0, max(rec.capacity_gbit, float(np.nanmax(rec.fill_gbit)) if len(x) else 0) * 1.12,

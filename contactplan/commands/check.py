@@ -113,6 +113,8 @@ def run(args) -> int:
             doc["revalidation"] = rv.to_json()
         if getattr(result, "navigation", None) is not None:
             doc["orbit_determination"] = result.navigation.to_json(samples=200)
+        if getattr(result, "forecast", None) is not None:
+            doc["recorder_forecast"] = result.forecast.to_json()
         sys.stdout.write(json.dumps(doc, indent=2) + "\n")
     else:
         from contactplan.timescale import format_utc
@@ -128,6 +130,8 @@ def run(args) -> int:
             from contactplan.navigation import navigation_lines
 
             out += navigation_lines(result.navigation)
+        if getattr(result, "forecast", None) is not None:
+            out += result.forecast.lines()
         out.append(_summary(errors, warnings) if findings else "no findings: the plan keeps every rule")
         out.append(CAUTION)
         sys.stdout.write("\n".join(out) + "\n")

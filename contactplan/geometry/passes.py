@@ -61,6 +61,10 @@ class Pass:
     # Filled by contactplan.link (None until then / for stations without downlink):
     max_rate_kbps: float | None = None
     volume_gbit: float | None = None
+    # links in weather (contactplan.link.weather): volume_gbit is at availability_pct; clear sky beside it
+    clear_volume_gbit: float | None = None
+    availability_pct: float | None = None
+    gt_model: str = ""
     # Added by the pass finder:
     moon_flag: bool = False  # Moon closer to the line of sight than geometry.moon_separation_min_deg
     sun_flag: bool = False  # Sun closer to the line of sight than geometry.sun_separation_min_deg

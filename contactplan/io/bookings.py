@@ -9,7 +9,9 @@ link (the station's playback link when playback is booked, else its telemetry
 link) over the track is listed as time-tagged steps (``rate_plan_kbps``: start,
 end, rate) with the volume of that plan (``plan_volume_gbit``), the volume the
 recorder actually gives up (``downlinked_gbit``) and the rule codes of the findings
-that name the booking.
+that name the booking. On a link planned in weather ``plan_volume_gbit`` is at the link's availability
+(``availability_pct``) and ``clear_volume_gbit`` gives the clear-sky plan's volume beside it (both empty
+without weather).
 """
 
 from __future__ import annotations
@@ -42,6 +44,8 @@ BOOKING_COLUMNS = (
     "plan_volume_gbit",
     "downlinked_gbit",
     "findings",
+    "clear_volume_gbit",
+    "availability_pct",
 )
 
 
@@ -135,6 +139,7 @@ def booking_record(scenario, booking, plan=None, index=None) -> dict:
     down = None
     rules = []
     link_id, steps, plan_gbit = None, [], None
+    clear_gbit, avail = None, None
     if plan is not None:
         index = index or _PlanIndex(plan)
         rec = getattr(plan, "recorder", None)
@@ -142,6 +147,7 @@ def booking_record(scenario, booking, plan=None, index=None) -> dict:
             down = round(float(rec.downlinked_by_booking_gbit[booking.id]), 6)
         rules = list(index.findings.get(booking.id, []))
         link_id, steps, plan_gbit = booking_rate_plan(scenario, booking, index, bot, eot)
+        clear_gbit, avail = booking_clear_volume(scenario, booking, index, bot, eot)
     return {
         "id": booking.id,
         "station": booking.station,
@@ -164,7 +170,24 @@ def booking_record(scenario, booking, plan=None, index=None) -> dict:
         "plan_volume_gbit": plan_gbit,
         "downlinked_gbit": down,
         "findings": rules,
+        "clear_volume_gbit": clear_gbit,
+        "availability_pct": avail,
     }
+
+
+def booking_clear_volume(scenario, booking, index, bot_tt, eot_tt):
+    """(clear-sky plan volume Gbit over the track, availability %) of a booking whose playback passes are
+    planned in weather (see :mod:`contactplan.link.forecast`); (None, None) otherwise."""
+    profiles = getattr(index.plan, "profiles", None) or {}
+    passes = [p for p in index.passes_over(booking.station, bot_tt, eot_tt)
+              if getattr(profiles.get(id(p)), "clear_level_db", None) is not None]
+    if not passes or "playback" not in booking.services:
+        return None, None
+    from contactplan.link.forecast import cached_profiles_at
+
+    clear = cached_profiles_at(index.plan, None)
+    volume = sum(clear[id(p)].volume_gbit(bot_tt, eot_tt) for p in passes)
+    return round(float(volume), 6), profiles[id(passes[0])].availability_pct
 
 
 def rate_plan_text(steps) -> str:

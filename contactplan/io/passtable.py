@@ -10,6 +10,10 @@ has been computed. Given the per-link profiles (``PlanResult.link_profiles``), o
 ``margin_<LINK>_db`` column follows per link with a budget: the margin at culmination
 (down: Eb/N0 at the rate in use minus the required Eb/N0; up: Pt/N0 minus the required
 Pt/N0, dB), empty where the pass's station does not offer that link.
+Passes on a playback link planned in weather (docs/scenario.md, ``[link_planning]``) add, after
+``volume_gbit`` (then the volume at the availability), ``clear_volume_gbit`` (the clear-sky volume at the
+site's climate), ``availability_pct`` and ``gt_in_weather`` (``sky-noise``: G/T falls with the
+attenuation; ``held-constant``: no ``system_noise_k`` given); without weather these columns are left out.
 """
 
 from __future__ import annotations
@@ -28,8 +32,12 @@ PASS_COLUMNS = FIXED_COLUMNS + (
     "aos_doy", "los_doy", "clipped_start", "clipped_end", "light_time_s",
     "sun_separation_min_deg", "moon_separation_min_deg", "sun_earth_probe_deg",
     "sun_flag", "moon_flag", "outages", "max_rate_kbps", "volume_gbit",
+    "clear_volume_gbit", "availability_pct", "gt_in_weather",
 )
 LINK_COLUMNS = ("max_rate_kbps", "volume_gbit")
+#: only when some pass is planned in weather
+WEATHER_COLUMNS = ("clear_volume_gbit", "availability_pct", "gt_in_weather")
+_GT_TEXT = {"sky-noise": "sky-noise", "constant": "held-constant"}
 
 
 def margin_column(link_id: str) -> str:
@@ -95,6 +103,10 @@ def pass_rows(passes, link_profiles=None) -> list[dict]:
             "outages": _outage_text(p.outages),
             "max_rate_kbps": None if p.max_rate_kbps is None else round(float(p.max_rate_kbps), 3),
             "volume_gbit": None if p.volume_gbit is None else round(float(p.volume_gbit), 6),
+            "clear_volume_gbit": (None if getattr(p, "clear_volume_gbit", None) is None
+                                  else round(float(p.clear_volume_gbit), 6)),
+            "availability_pct": getattr(p, "availability_pct", None),
+            "gt_in_weather": _GT_TEXT.get(getattr(p, "gt_model", ""), None),
         })
         for link_id, per_pass in (link_profiles or {}).items():
             prof = per_pass.get(id(p))
@@ -106,8 +118,10 @@ def pass_rows(passes, link_profiles=None) -> list[dict]:
 def columns_for(rows) -> list[str]:
     """PASS_COLUMNS, without the link columns when no row has a value in them, then the margin columns."""
     has_link = any(r.get(c) is not None for r in rows for c in LINK_COLUMNS)
+    has_weather = any(r.get("availability_pct") is not None for r in rows)
     margins = [k for k in (rows[0] if rows else {}) if k.startswith("margin_") and k.endswith("_db")]
-    return [c for c in PASS_COLUMNS if has_link or c not in LINK_COLUMNS] + margins
+    return [c for c in PASS_COLUMNS if (has_link or c not in LINK_COLUMNS)
+            and (has_weather or c not in WEATHER_COLUMNS)] + margins
 
 
 def _csv_cell(v):
@@ -196,6 +210,9 @@ def passes_text(passes, start_tt=None, end_tt=None) -> str:
                          + (f" {o.reason}" if getattr(o, "reason", "") else ""))
         if p.volume_gbit is not None:
             notes.append(f"{p.volume_gbit:.1f} Gbit")
+        if getattr(p, "availability_pct", None) is not None:
+            notes.append(f"at {p.availability_pct:g} % ({p.clear_volume_gbit:.1f} Gbit clear sky; G/T "
+                         f"{'with sky noise' if p.gt_model == 'sky-noise' else 'held constant'})")
         lines.append((p.station, f"{day_of_year(p.aos_tt):03d}", format_utc(p.aos_tt, 0), format_utc(p.los_tt, 0), _hms(p.duration_s),
                       f"{p.max_elevation_deg:.2f}", format_utc(p.max_elevation_tt, 0),
                       f"{p.aos_azimuth_deg:.1f}", f"{p.los_azimuth_deg:.1f}",

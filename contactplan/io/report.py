@@ -211,6 +211,9 @@ def recorder_figure(plan, width_in: float):
     t0, t1 = sc.start_tt, sc.end_tt
     x = _days(rec.t_tt, t0)
     ax.plot(x, rec.fill_gbit, color=COLOURS["booking"], lw=1.2, label="on board")
+    from contactplan.io.report_forecast import draw_band
+
+    draw_band(ax, plan, t0, COLOURS["booking"])  # weather: clear-sky line and band (nothing without weather)
     ax.axhline(rec.capacity_gbit, color=COLOURS["capacity"], ls="--", lw=1.0, label="capacity")
     ax.axhline(0.9 * rec.capacity_gbit, color=COLOURS["warning"], ls=":", lw=1.0, label="90 % of capacity")
     for k, (a, b, _lost) in enumerate(rec.overflow_spans or []):
@@ -570,6 +573,10 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
                        f"{rec.lost_gbit:.1f} Gbit; {rec.end_gbit:.1f} Gbit on board at the end of the window "
                        f"(capacity {rec.capacity_gbit:.1f} Gbit). Blue ticks along the bottom: booked downlink time.",
                        small))
+        from contactplan.io.report_forecast import forecast_text
+
+        if forecast_text(plan):
+            story.append(P(forecast_text(plan), small))
         story += [Spacer(1, 2 * mm), figure(recorder_figure(plan, fig_w_in))]
         if rec.overflow_spans:
             rows = [["Overflow from (UTC)", "To (UTC)", "Lost (Gbit)"]]

@@ -3,7 +3,8 @@
 Modules: ``budget`` (free-space loss, C/N0, Eb/N0, rate choice), ``atmosphere``
 (ITU-R P.676 zenith attenuation, cosecant law), ``volume`` (per-pass rate profiles
 and volumes), ``windows`` (booked downlink time), ``recorder`` (fill, losses, age),
-``profiles`` (the result records). The main entry points are importable from here
+``profiles`` (the result records), ``weather`` (site clear sky, ITU-R P.618 attenuation at an
+availability, sky noise) and ``forecast`` (the recorder band and Monte Carlo in weather). The main entry points are importable from here
 lazily, so importing the package costs nothing on the CLI start path.
 """
 

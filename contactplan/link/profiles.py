@@ -32,6 +32,12 @@ class PassProfile:
     # the time-tagged rate plan (at most max_rate_changes_per_pass changes; without a limit, the profile)
     plan_edges_tt: np.ndarray | None = None
     plan_rates_kbps: np.ndarray | None = None
+    # links planned in weather (contactplan.link.weather): the level above is at ``availability_pct``;
+    # the clear-sky level (C/N0, dB-Hz) at the samples and the clear-sky volume of the pass are kept beside it
+    clear_level_db: np.ndarray | None = None
+    clear_volume_gbit: float | None = None
+    availability_pct: float | None = None
+    gt_model: str = ""  # "sky-noise" (G/T falls with the attenuation), "constant"; "" without weather
 
     def segment_rates_kbps(self) -> np.ndarray:
         """Rate (kbit/s) held over each span [t_tt[i], t_tt[i+1]] (length len(t_tt) - 1)."""

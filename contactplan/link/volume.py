@@ -8,7 +8,9 @@ margin and, down, the highest rate that closes with the demanded margin. A link 
 (see :class:`~contactplan.link.profiles.PassProfile`). The volume of a pass is
 the integral of that step function from AOS to LOS.
 
-All passes of one station are evaluated in one vectorised call.
+All passes of one station are evaluated in one vectorised call. A link planned in weather
+(:mod:`contactplan.link.weather`) is evaluated at its availability, its clear-sky level and volume kept
+beside (:func:`build_in_weather`).
 """
 
 from __future__ import annotations
@@ -183,7 +185,10 @@ def playback_profiles(scenario, passes, link_profiles: dict) -> dict:
             by_station[p.station] = None if lk is None else link_profiles.get(lk.id, {})
         got = by_station[p.station]
         if got is not None and id(p) in got:
-            out[id(p)] = got[id(p)]
+            prof = out[id(p)] = got[id(p)]
+            # weather columns from the profile (set here, in the caller's process, also after a split run)
+            p.clear_volume_gbit, p.availability_pct, p.gt_model = (prof.clear_volume_gbit, prof.availability_pct,
+                                                                    prof.gt_model)
     return out
 
 
@@ -209,6 +214,7 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     from contactplan.geometry.topo import Site, Track, look_angles, view
     from contactplan.link.atmosphere import service_zenith_attenuation_db
     from contactplan.link.services import playback_link, station_links
+    from contactplan.link.weather import link_weather
 
     refraction = bool(getattr(getattr(scenario, "geometry", None), "refraction", False))
     groups = []  # (station, passes, [(link, value, zenith, data link?)])
@@ -225,7 +231,9 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
         for lk, sv in station_links(scenario, station):
             value = sv.g_over_t_dbk if lk.direction == "down" else sv.eirp_dbw
             if lk.has_budget and value is not None:
-                todo.append((lk, value, service_zenith_attenuation_db(station, sv, lk), lk is data))
+                lw = link_weather(scenario, station, lk, sv)  # None unless the link is planned in weather
+                zen = service_zenith_attenuation_db(station, sv, lk) if lw is None else lw.zenith_db
+                todo.append((lk, value, zen, (lk is data, lw)))
         if todo:
             groups.append((station, sorted(plist, key=lambda p: p.aos_tt), todo))
     out: dict = {}
@@ -235,13 +243,16 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
     def put(lk, got):
         out.setdefault(lk.id, {}).update(got)
 
+    def build(station, plist, t, offsets, el, rng, lk, level, flags):
+        return build_in_weather(station, plist, t, offsets, el, rng, lk, level, *flags)
+
     if not geometry_step_s or geometry_step_s <= step_s:
         for station, plist, todo in groups:
             t, offsets = sample_times(plist, step_s)
             la = look_angles(station, ephemeris, t, refraction=refraction)
             for lk, value, zen, data in todo:
                 level = link_level_db(lk, value, zen, la.range_km, la.elevation_deg)
-                put(lk, _build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
+                put(lk, build(station, plist, t, offsets, la.elevation_deg, la.range_km, lk, level, data))
         return out
 
     ref = min(p.aos_tt for _, plist, _ in groups for p in plist) if ref_tt is None else float(ref_tt)
@@ -270,8 +281,58 @@ def annotate_links(scenario, passes, ephemeris, step_s: float = 60.0, geometry_s
             level = np.interp(t, nt, lv)
             if rows.size:
                 level[rows] = link_level_db(lk, value, zen, exact.range_km, exact.elevation_deg)
-            put(lk, _build(station, plist, t, offsets, el, rng, lk, level, data))
+            put(lk, build(station, plist, t, offsets, el, rng, lk, level, data))
     return out
+
+
+def plan_volumes_gbit(link, t, offsets, level) -> list:
+    """The rate-plan volume (Gbit) of each pass from the level at its samples: the numbers of
+    :func:`_build` (``PassProfile.volume_gbit()``) without building the profiles (the clear sky in weather).
+    Passes whose profile changes rate no more often than the plan may are summed at once."""
+    from contactplan.link.rateplan import best_rate_plan
+
+    rate = rates_and_margins(link, level)[0]
+    limit = getattr(link, "max_rate_changes_per_pass", None)
+    seg = np.minimum(rate[:-1], rate[1:])
+    cross = offsets[1:-1] - 1  # spans joining one pass to the next
+    seg[cross] = 0.0
+    cum = np.concatenate(([0.0], np.cumsum(seg * np.diff(t))))
+    out = ((cum[offsets[1:] - 1] - cum[offsets[:-1]]) * 1e-6).tolist()
+    if limit is None:
+        return out
+    change = np.concatenate(([0], (seg[1:] != seg[:-1]).astype(np.int64)))
+    change[offsets[1:-1]] = 0  # the first span of a pass is not a change
+    change[offsets[1:-1] - 1] = 0
+    cc = np.concatenate(([0], np.cumsum(change)))
+    # changes inside pass i: spans offsets[i] .. offsets[i+1]-2
+    inside = cc[np.maximum(offsets[1:] - 1, offsets[:-1])] - cc[np.minimum(offsets[:-1] + 1, offsets[1:] - 1)]
+    for i in np.flatnonzero(inside > limit):
+        a, b = offsets[i], offsets[i + 1]
+        tt, sg = t[a:b], seg[a:b - 1]
+        keep = np.concatenate(([True], sg[1:] != sg[:-1]))
+        edges, steps, _ = best_rate_plan(np.concatenate((tt[:-1][keep], tt[-1:])), sg[keep], limit)
+        out[i] = float(np.sum(steps * np.diff(edges)) * 1e-6)
+    return out
+
+
+def build_in_weather(station, passes, t, offsets, el, rng, link, level, set_fields=True, lw=None):
+    """:func:`_build` on the clear-sky ``level``, or, with a :class:`~contactplan.link.weather.LinkWeather`,
+    on the level at the link's availability; each profile then keeps the clear-sky level
+    (``clear_level_db``) and volume (``clear_volume_gbit``) beside it (see :mod:`contactplan.link.weather`)."""
+    if lw is None:
+        return _build(station, passes, t, offsets, el, rng, link, level, set_fields)
+    from contactplan.link.weather import penalty_db
+
+    got = _build(station, passes, t, offsets, el, rng, link, level - penalty_db(lw.table, el, lw.system_noise_k),
+                 set_fields)
+    clear = plan_volumes_gbit(link, t, offsets, level)
+    for i, p in enumerate(passes):
+        prof = got[id(p)]
+        prof.clear_level_db = level[offsets[i]:offsets[i + 1]]
+        prof.clear_volume_gbit = clear[i]
+        prof.availability_pct = lw.availability_pct
+        prof.gt_model = lw.gt_model
+    return got
 
 
 def _rough_passes(nt, noff, el, cn0, h, tol_deg, tol_db):

@@ -24,6 +24,7 @@ class PlanResult:
     # parts of the planning window the ephemeris answers [(start_tt, end_tt)]; None: the whole window
     coverage: list | None = None
     navigation: object | None = None  # NavigationResult (plan/tracking.py navigation_for), None without [orbit_determination]
+    forecast: object | None = None  # RecorderForecast (link/forecast.py), None without weather or recorder
 
     @property
     def errors(self) -> int:
@@ -145,11 +146,16 @@ def check(result: PlanResult) -> PlanResult:
 
     sc = result.scenario
     sc.bind()
+    from contactplan.plan.rules_weather import weather_stage
     from contactplan.plan.status import active_view
 
-    result.recorder = _recorder(active_view(sc), result.passes, result.profiles)  # declined, cancelled: not
-    ctx = RuleContext.build(sc, result.passes, result.profiles, result.recorder, coverage=result.coverage,
+    view = active_view(sc)  # declined and cancelled bookings count nowhere: not in the recorder either
+    result.recorder = _recorder(view, result.passes, result.profiles)
+    # result.forecast: the recorder in weather
+    rule_recorder, forecast = weather_stage(result, result.recorder, scenario=view)
+    ctx = RuleContext.build(sc, result.passes, result.profiles, rule_recorder, coverage=result.coverage,
                             link_profiles=result.link_profiles)
+    ctx.forecast = forecast
     ctx.navigation = navigation_for(result, ctx)  # also keeps result.navigation
     # unknown keys first: they are dated at the window start, so the list stays in time order
     result.findings = unknown_key_findings(sc) + run_rules(ctx)

@@ -730,6 +730,8 @@ RULES = [
 ]
 from contactplan.plan.tracking import TRACKING_NEEDS_EPHEMERIS, TRACKING_RULES  # noqa: E402  (imports this module)
 RULES.extend(TRACKING_RULES)
+from contactplan.plan.rules_weather import WEATHER_RULES  # noqa: E402
+RULES.extend(WEATHER_RULES)
 NEEDS_EPHEMERIS = NEEDS_EPHEMERIS | TRACKING_NEEDS_EPHEMERIS
 from contactplan.plan.rules_network import NETWORK_NEEDS_EPHEMERIS, NETWORK_RULES  # noqa: E402  (imports this module)
 RULES.extend(NETWORK_RULES)

@@ -14,6 +14,7 @@ from pathlib import Path
 from contactplan.errors import InputError, show_id
 from contactplan.fileio import read_input
 from contactplan.scenario import model as m
+from contactplan.scenario import link_planning as lp
 from contactplan.scenario.orbit_determination import read_orbit_determination, read_tracking_requirements
 from contactplan.timescale import parse_time_value
 
@@ -183,6 +184,7 @@ def _service(t: Table, links: dict, seen: set) -> m.StationService:
         g_over_t_dbk=t.num("g_over_t_dbk", None, lo=-40, hi=80),
         eirp_dbw=t.num("eirp_dbw", None, lo=-50, hi=150),
         zenith_attenuation_db=t.num("zenith_attenuation_db", None, lo=0, hi=50),
+        system_noise_k=lp.read_service_noise(t, lk.direction == "down"),
     )
     if lk.direction == "down":
         if sv.eirp_dbw is not None:
@@ -321,6 +323,7 @@ def _link(t: Table) -> m.Link:
         max_rate_changes_per_pass=t.num("max_rate_changes_per_pass", None, lo=0, hi=1000, integer=True),
         required_pt_dbhz=None if down else t.num("required_pt_dbhz", None, lo=-20, hi=100),
         spacecraft_g_over_t_dbk=None if down else t.num("spacecraft_g_over_t_dbk", None, lo=-80, hi=60),
+        availability_pct=lp.read_link_availability(t, down),
     )
     for key in ("eirp_dbw", "required_ebn0_db") if not down else ("required_pt_dbhz", "spacecraft_g_over_t_dbk"):
         if key in t.data:
@@ -474,9 +477,12 @@ def upgrade_1_to_2(doc: dict) -> dict:
       (with its ``zenith_attenuation_db``).
     - a booking's ``purposes`` become ``services``: downlink -> telemetry + playback, ranging -> ranging +
       doppler, commanding -> commanding.
+    - ``[link_planning] weather = false``: links stay in clear sky at the reference atmosphere.
     """
     doc = copy.deepcopy(doc)
     doc["format_version"] = 2
+    if not isinstance(doc.get("link_planning"), dict):  # format 1 knew no weather: volumes stay as they were
+        doc.setdefault("link_planning", {"weather": False})
     sp = doc.get("spacecraft")
     has_link = isinstance(sp, dict)
     if has_link:
@@ -604,6 +610,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         confirm_lead_h=rq.num("confirm_lead_h", None, lo=0, hi=24 * 366),
     ))
     read_tracking_requirements(rq, req)
+    lp.read_weather_requirements(rq, req)
     gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
     geo = gt.keep(m.GeometryOptions(
         refraction=gt.bool("refraction", False),
@@ -614,8 +621,7 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
         name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
         activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
         format_version=fv, revision=revision, freeze_tt=freeze, freeze_before_start_h=freeze_h, path=path,
-        document=doc,
-        orbit_determination=read_orbit_determination(root),
+        document=doc, orbit_determination=read_orbit_determination(root), link_planning=lp.read_link_planning(root),
     )
     sc.keep(scen)  # raw/loaded of the [scenario] table
     scen.unknown_keys = unknown_keys(tables, path)

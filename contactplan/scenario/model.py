@@ -84,6 +84,7 @@ class StationService(Record):
     g_over_t_dbk: float | None = None  # down links: receive G/T
     eirp_dbw: float | None = None  # up links: station EIRP
     zenith_attenuation_db: float | None = None  # None: from ITU-R P.676 for the link frequency and height
+    system_noise_k: float | None = None  # down links in weather: clear-sky system noise temperature (sky noise)
 
 
 @dataclass(eq=False)
@@ -258,6 +259,7 @@ class Link(Record):
     max_rate_changes_per_pass: int | None = None  # None: no limit (rate follows the profile)
     required_pt_dbhz: float | None = None  # up: carrier-to-noise density the spacecraft needs
     spacecraft_g_over_t_dbk: float | None = None  # up: spacecraft receive G/T
+    availability_pct: float | None = None  # down: plan at this availability (None: [link_planning]'s)
 
     def __post_init__(self):
         if not self.carries:
@@ -477,6 +479,9 @@ class Requirements(Record):
     cutoff_lookback_h: float | None = None
     handover_min: float | None = None  # minutes two bookings meant to be continuous must overlap (None: 0)
     confirm_lead_h: float | None = None  # unconfirmed-near: bookings starting within this many hours
+    # weather (contactplan.scenario.link_planning, plan/rules_weather.py)
+    recorder_overflow_availability_pct: float | None = None  # None: 95
+    overflow_risk_max_pct: float | None = None  # overflow-risk above this probability (None: no rule)
 
 
 @dataclass(eq=False)
@@ -499,6 +504,7 @@ class Scenario(Record):
     requirements: Requirements = field(default_factory=Requirements)
     geometry: GeometryOptions = field(default_factory=GeometryOptions)
     orbit_determination: object | None = None  # OrbitDetermination (scenario/orbit_determination.py)
+    link_planning: object | None = None  # LinkPlanning (scenario/link_planning.py); None: defaults
     format_version: int = FORMAT_VERSION
     revision: int = 0
     freeze_tt: float | None = None  # [scenario] freeze: bookings whose track starts before it are frozen
