@@ -27,15 +27,19 @@ def draw_band(plot, result, origin_tt: float) -> list:
     x = (np.asarray(fc.t_tt, dtype=float) - origin_tt) / 3600.0
     low = pg.PlotDataItem(x, np.asarray(fc.band_low_gbit, dtype=float), pen=pg.mkPen(None))
     high = pg.PlotDataItem(x, np.asarray(fc.band_high_gbit, dtype=float), pen=pg.mkPen(None))
-    c = th.fill
-    band = pg.FillBetweenItem(low, high, brush=QColor(c.red(), c.green(), c.blue(), 45))
     clear = pg.PlotDataItem(x, np.asarray(fc.clear_gbit, dtype=float),
                             pen=pg.mkPen(th.foreground, width=1, style=Qt.PenStyle.DashLine))
+    # the curves join the strip first, so that they take its clipping to the view and its peak
+    # downsampling: the band is then filled between what is on screen (a few thousand points at
+    # most), not between a year of points (hundreds of ms in the GUI thread)
+    for it in (low, high, clear):
+        plot.addItem(it, ignoreBounds=True)
+    c = th.fill
+    band = pg.FillBetweenItem(low, high, brush=QColor(c.red(), c.green(), c.blue(), 45))
+    plot.addItem(band, ignoreBounds=True)
     tip = band_tooltip(fc)
     for it in (band, clear):
         it.setToolTip(tip)
     items = [low, high, band, clear]
-    for it in items:
-        plot.addItem(it, ignoreBounds=True)
     band.setZValue(-5)
     return items
