@@ -174,14 +174,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             ax.origin_tt = self.origin_tt
             ax.picture = None
             ax.update()
-        names = ["Spacecraft"] + [s.id for s in sc.stations]
-        self.lane_axis.set_lanes(names)
-        self.ci.layout.setRowMinimumHeight(0, 30 + 20 * len(names))  # lanes stay readable when short
-        self.lanes_vb.setYRange(0, len(names), padding=0)
-        span_h = (sc.end_tt - sc.start_tt) / 3600.0
-        x0, x1 = self.x_of(sc.start_tt), self.x_of(sc.end_tt)
-        self.lanes_vb.setLimits(xMin=x0 - max(24.0, 0.1 * span_h), xMax=x1 + max(24.0, 0.1 * span_h),
-                                minXRange=0.25, yMin=0, yMax=len(names))
+        self._set_lanes()
         self.set_range_tt(sc.start_tt, min(sc.end_tt, sc.start_tt + WEEK_S))
         self.canvas.invalidate()
         self.update_now()
@@ -192,11 +185,23 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.canvas.invalidate()
         self._selection_changed(self.doc.selection)
 
+    def _set_lanes(self) -> None:
+        """One lane for the spacecraft and one per station (after opening, or a station added or deleted)."""
+        sc = self.doc.scenario
+        names = ["Spacecraft"] + [s.id for s in sc.stations]
+        self.lane_axis.set_lanes(names)
+        self.ci.layout.setRowMinimumHeight(0, 30 + 20 * len(names))  # lanes stay readable when short
+        self.lanes_vb.setYRange(0, len(names), padding=0)
+        span_h = (sc.end_tt - sc.start_tt) / 3600.0
+        x0, x1 = self.x_of(sc.start_tt), self.x_of(sc.end_tt)
+        self.lanes_vb.setLimits(xMin=x0 - max(24.0, 0.1 * span_h), xMax=x1 + max(24.0, 0.1 * span_h),
+                                minXRange=0.25, yMin=0, yMax=len(names))
+
     def _records_changed(self) -> None:
         sc = self.doc.scenario
         if sc is not None:
-            self.lane_axis.set_lanes(["Spacecraft"] + [s.id for s in sc.stations])
-        self.canvas.update()
+            self._set_lanes()
+        self.canvas.invalidate()
 
     def set_shade(self, mode: str) -> None:
         self.canvas.shade = mode

@@ -148,6 +148,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         lay.addWidget(self.passes_view)
         self.passes_dock = self._dock("Passes", "dock-passes", host, Qt.DockWidgetArea.BottomDockWidgetArea)
         doc.scenarioReplaced.connect(self._fill_station_filter)
+        doc.recordsChanged.connect(self._fill_station_filter)
 
         self.bookings_model = BookingsModel(doc, self)
         self.bookings_proxy = FilterProxy(self)
@@ -180,17 +181,19 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.sky = SkyView(doc)
         self.sky_dock = self._dock("Sky", "dock-sky", self.sky, Qt.DockWidgetArea.RightDockWidgetArea)
         self.props = PropertyEditor(doc)
-        props_scroll = QScrollArea()  # a short dock scrolls the form instead of squeezing it
-        props_scroll.setWidget(self.props)
-        props_scroll.setWidgetResizable(True)
-        props_scroll.setFrameShape(QFrame.Shape.NoFrame)
-        self.props_dock = self._dock("Properties", "dock-properties", props_scroll,
+        self.props_dock = self._dock("Properties", "dock-properties", _scrolled(self.props),
                                      Qt.DockWidgetArea.RightDockWidgetArea)
+        from contactplan.app.stationeditor import StationEditor
+
+        self.stations_editor = StationEditor(doc)
+        self.stations_dock = self._dock("Stations", "dock-stations", _scrolled(self.stations_editor),
+                                        Qt.DockWidgetArea.RightDockWidgetArea)
         self.history = QUndoView(doc.undo_stack)
         self.history.setEmptyLabel("(as opened)")
         self.history_dock = self._dock("Edit history", "dock-history", self.history,
                                        Qt.DockWidgetArea.RightDockWidgetArea)
-        self.tabifyDockWidget(self.props_dock, self.history_dock)
+        self.tabifyDockWidget(self.props_dock, self.stations_dock)
+        self.tabifyDockWidget(self.stations_dock, self.history_dock)
         self.props_dock.raise_()
 
     def _act(self, text, slot, shortcut=None, icon=None, tip=None) -> QAction:
@@ -300,7 +303,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         m.addAction(self.act_doy)
         m.addSeparator()
         for d in (self.passes_dock, self.bookings_dock, self.findings_dock, self.sky_dock, self.props_dock,
-                  self.history_dock):
+                  self.stations_dock, self.history_dock):
             m.addAction(d.toggleViewAction())
         m = mb.addMenu("&Plan")
         m.addAction(self.act_compute)
@@ -503,13 +506,16 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
             self.compute()
 
     def _fill_station_filter(self) -> None:
+        keep = self.pass_station.currentData()  # (kept through a station edit while it still exists)
         self.pass_station.blockSignals(True)
         self.pass_station.clear()
         self.pass_station.addItem("All stations", None)
         for s in (self.doc.scenario.stations if self.doc.scenario else []):
             self.pass_station.addItem(f"{s.id} ({s.name})", s.id)
+        i = max(self.pass_station.findData(keep), 0) if keep is not None else 0
+        self.pass_station.setCurrentIndex(i)
         self.pass_station.blockSignals(False)
-        self.passes_proxy.set_station(None)
+        self.passes_proxy.set_station(self.pass_station.currentData())
 
     # ------------------------------------------------------------ selection <-> tables
     def _pass_clicked(self, index) -> None:
@@ -685,3 +691,12 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.autosave_timer.stop()
         self.autosaver.clear()
         ev.accept()
+
+
+def _scrolled(widget) -> QScrollArea:
+    """A dock's form in a scroll area: a short dock scrolls the form instead of squeezing it."""
+    area = QScrollArea()
+    area.setWidget(widget)
+    area.setWidgetResizable(True)
+    area.setFrameShape(QFrame.Shape.NoFrame)
+    return area

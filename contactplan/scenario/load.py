@@ -529,22 +529,8 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     bookings = [_booking(t, ids) for t in root.records("bookings")]
     _unique(bookings, "booking", path, "bookings")
 
-    rq = root.sub("requirements", required=False) or Table({}, path, "requirements")
-    req = rq.keep(m.Requirements(
-        contact_per_day_min_h=rq.num("contact_per_day_min_h", None, lo=0, hi=24),
-        ranging_per_day_min=rq.num("ranging_per_day_min", None, lo=0, hi=48, integer=True),
-        booking_min_h=rq.num("booking_min_h", None, lo=0, hi=24),
-        booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
-        recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
-        handover_min=rq.num("handover_min", None, lo=0, hi=600),
-    ))
-    read_tracking_requirements(rq, req)
-    gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
-    geo = gt.keep(m.GeometryOptions(
-        refraction=gt.bool("refraction", False),
-        moon_separation_min_deg=gt.num("moon_separation_min_deg", 5.0, lo=0, hi=180),
-        sun_separation_min_deg=gt.num("sun_separation_min_deg", 5.0, lo=0, hi=180),
-    ))
+    req = read_requirements(root.sub("requirements", required=False) or Table({}, path, "requirements"))
+    geo = read_geometry(root.sub("geometry", required=False) or Table({}, path, "geometry"))
     scen = m.Scenario(
         name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
         activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
@@ -554,6 +540,29 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     sc.keep(scen)  # raw/loaded of the [scenario] table
     scen.unknown_keys = unknown_keys(tables, path)
     return scen
+
+
+def read_requirements(rq: Table) -> m.Requirements:
+    """The ``[requirements]`` table (also used by the planner's settings page)."""
+    req = rq.keep(m.Requirements(
+        contact_per_day_min_h=rq.num("contact_per_day_min_h", None, lo=0, hi=24),
+        ranging_per_day_min=rq.num("ranging_per_day_min", None, lo=0, hi=48, integer=True),
+        booking_min_h=rq.num("booking_min_h", None, lo=0, hi=24),
+        booking_max_h=rq.num("booking_max_h", None, lo=0, lo_open=True, hi=48),
+        recorder_end_max_gbit=rq.num("recorder_end_max_gbit", None, lo=0),
+        handover_min=rq.num("handover_min", None, lo=0, hi=600),
+    ))
+    read_tracking_requirements(rq, req)
+    return req
+
+
+def read_geometry(gt: Table) -> m.GeometryOptions:
+    """The ``[geometry]`` table (also used by the planner's settings page)."""
+    return gt.keep(m.GeometryOptions(
+        refraction=gt.bool("refraction", False),
+        moon_separation_min_deg=gt.num("moon_separation_min_deg", 5.0, lo=0, hi=180),
+        sun_separation_min_deg=gt.num("sun_separation_min_deg", 5.0, lo=0, hi=180),
+    ))
 
 
 class UnknownKeyWarning(UserWarning):

@@ -148,21 +148,7 @@ def dump_document(sc: m.Scenario) -> dict:
         sp["recorder"] = encode(craft.recorder)
     doc["spacecraft"] = sp
 
-    stations = []
-    for st in _in_file_order(sc.stations, src, "stations"):
-        t = encode(st, skip={"services"})
-        raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
-        if st.services:
-            t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services},
-                                                                  "services")]
-        else:
-            t.pop("services", None)
-        if st.outages:
-            t["outages"] = [encode(o) for o in st.outages]
-        else:
-            t.pop("outages", None)
-        stations.append(t)
-    _put_list(doc, "stations", stations)
+    _put_list(doc, "stations", [station_table(st) for st in _in_file_order(sc.stations, src, "stations")])
 
     kept_series, loose = [], []
     for s in _in_file_order(sc.series, src, "activity_series"):
@@ -187,7 +173,26 @@ def dump_document(sc: m.Scenario) -> dict:
             doc[key] = t
         else:
             doc.pop(key, None)
+    if sc.orbit_determination is None:  # (set or taken away in the planner: written as it now is)
+        doc.pop("orbit_determination", None)
+    else:
+        doc["orbit_determination"] = encode(sc.orbit_determination)
     return doc
+
+
+def station_table(st: m.Station) -> dict:
+    """The ``[[stations]]`` table of one station, its services and outages included."""
+    t = encode(st, skip={"services"})
+    raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
+    if st.services:
+        t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services}, "services")]
+    else:
+        t.pop("services", None)
+    if st.outages:
+        t["outages"] = [encode(o) for o in st.outages]
+    else:
+        t.pop("outages", None)
+    return t
 
 
 def eph_doc(src: dict) -> dict:
