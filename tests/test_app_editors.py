@@ -225,3 +225,165 @@ def test_mask_text_parser_takes_what_spreadsheets_give():
     round_trip()
     with pytest.raises(InputError, match="no azimuth and elevation pairs"):
         parse_mask_text("azimuth,elevation\n")
+
+
+# ---------------------------------------------------------------- activities, series, outages on the lanes
+@pytest.fixture
+def planner(qtbot, tmp_path, monkeypatch):
+    """The main window on the small scenario, passes not computed (the lanes and editors only)."""
+    from PySide6.QtCore import QSettings
+
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+
+    path = tmp_path / "week.toml"
+    path.write_text(SCENARIO, "utf-8")
+    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
+    w = MainWindow(settings=settings, autosaver=Autosaver(tmp_path / "autosave"))
+    monkeypatch.setattr(w, "compute", lambda *a, **k: None)
+    monkeypatch.setattr(w, "ask", lambda *a, **k: QMessageBox.StandardButton.Discard)
+    qtbot.addWidget(w)
+    w.resize(1400, 880)
+    w.show()
+    assert w.open_path(path, compute=False)
+    w.doc.wait_checked()
+    yield w
+    w.doc.undo_stack.setClean()
+    w.cancel_job(wait=True)
+    w.doc.wait_checked()
+
+
+from PySide6.QtWidgets import QMessageBox  # noqa: E402
+
+
+def _lane_drag(qtbot, win, t0, t1, y, modifiers=Qt.KeyboardModifier.NoModifier):
+    """Press at (t0, lane y), move, release at t1 on the timeline, holding ``modifiers``."""
+    import numpy as np
+    from PySide6.QtCore import QEvent, QPointF
+    from PySide6.QtGui import QMouseEvent
+    from PySide6.QtWidgets import QApplication
+
+    tl = win.timeline
+    vp = tl.viewport()
+
+    def pos(t):
+        return tl.mapFromScene(tl.lanes_vb.mapViewToScene(QPointF(tl.x_of(t), y)))
+
+    def send(kind, t, buttons):
+        p = pos(t)
+        ev = QMouseEvent(kind, QPointF(p), QPointF(vp.mapToGlobal(p)), Qt.MouseButton.LeftButton, buttons,
+                         modifiers)
+        QApplication.sendEvent(vp, ev)
+
+    send(QEvent.Type.MouseButtonPress, t0, Qt.MouseButton.LeftButton)
+    for f in np.linspace(0.1, 1.0, 6):
+        qtbot.wait(25)  # the scene ignores move events closer than its rate limit
+        send(QEvent.Type.MouseMove, t0 + (t1 - t0) * f, Qt.MouseButton.LeftButton)
+    qtbot.wait(25)
+    send(QEvent.Type.MouseButtonRelease, t1, Qt.MouseButton.NoButton)
+    QApplication.processEvents()
+
+
+def test_an_outage_dragged_on_the_station_lane_edited_deleted_undone_and_saved(planner, qtbot, tmp_path):
+    from contactplan.timescale import parse_utc
+
+    win = planner
+    sc = win.doc.scenario
+    t0, t1 = parse_utc("2027-03-03T02:00:00Z"), parse_utc("2027-03-03T05:00:00Z")
+    win.timeline.zoom_to(t0, t1)
+    qtbot.wait(10)
+    lane = win.timeline.canvas.lane_of_station("HLM") + 0.5
+    n = win.doc.undo_stack.count()
+    _lane_drag(qtbot, win, t0 + 40.0, t1 - 40.0, lane)  # without the modifier: a pan, no outage
+    assert sc.station("HLM").outages == [] and win.doc.undo_stack.count() == n
+    win.timeline.zoom_to(t0, t1)
+    qtbot.wait(10)
+    _lane_drag(qtbot, win, t0 + 40.0, t1 - 40.0, lane, Qt.KeyboardModifier.ShiftModifier)
+    st = sc.station("HLM")
+    assert [(o.start_tt, o.end_tt) for o in st.outages] == [(t0, t1)]  # snapped to the 5-minute grid
+    o = st.outages[0]
+    assert win.doc.selection.kind == "outage" and win.doc.selection.key is o
+    ed = win.props
+    assert ed.kind == "outage"
+    ed.fields["reason"].setText("feed repair")
+    ed.fields["end_tt"].setText("2027-03-03T06:00:00Z")
+    qtbot.keyClick(ed.fields["end_tt"], Qt.Key.Key_Return)
+    qtbot.waitUntil(lambda: st.outages[0] is not o, timeout=2000)  # applied from the event loop
+    o2 = st.outages[0]
+    assert (o2.reason, o2.end_tt) == ("feed repair", parse_utc("2027-03-03T06:00:00Z"))
+    ed.fields["end_tt"].setText("2027-03-03T01:00:00Z")  # before its start: the loader's message
+    ed.apply()
+    assert ed.error.text() == "stations[HLM].outages[#1].end: outage ends before it starts"
+    back = _saved_and_read(win.doc, tmp_path)
+    assert [(x.start_tt, x.end_tt, x.reason) for x in back.station("HLM").outages] == \
+        [(t0, o2.end_tt, "feed repair")]
+    win.doc.undo_stack.undo()
+    assert st.outages[0].end_tt == t1 and st.outages[0].reason == ""
+    win.doc.undo_stack.redo()
+    win.doc.select(type(win.doc.selection)("outage", st.outages[0]))
+    win.timeline.setFocus()
+    qtbot.keyClick(win.timeline, Qt.Key.Key_Delete)
+    assert st.outages == []
+    win.doc.undo_stack.undo()
+    assert len(st.outages) == 1
+
+
+def test_a_series_created_one_member_moved_the_series_edited_undone_and_saved(planner, qtbot, tmp_path):
+    from contactplan.app import activities as acts
+    from contactplan.app.document import Selection
+    from contactplan.timescale import parse_utc
+
+    win = planner
+    doc = win.doc
+    sc = doc.scenario
+    start = parse_utc("2027-03-02T12:00:00Z")
+    win.timeline.zoom_to(start - 3 * 3600, start + 9 * 3600)
+    qtbot.wait(10)
+    c = win.timeline.canvas
+    # right click on the spacecraft lane offers new activities and a series there
+    c.context_menu(c.x_of(start), 0.5, None)
+    labels = [a.text() for a in c.last_menu.actions()]
+    assert "New burn here" in labels and "New weekly series of burns from here" in labels
+    next(a for a in c.last_menu.actions() if a.text().startswith("New weekly series")).trigger()
+    s = sc.series[-1]
+    members = [a for a in sc.activities if a.series == s.id]
+    assert [a.id for a in members] == ["SER1-01", "SER1-02", "SER1-03"]
+    assert [a.start_tt - start for a in members] == [0.0, 7 * 86400.0, 14 * 86400.0]  # expanded at once
+    # the series edited in Properties: every 2 days, 4 members, expanded live
+    doc.select(Selection("activity", "SER1-01"))
+    form = win.props.series_form
+    form.widgets["every_days"].setText("2")
+    form.widgets["count"].setText("4")
+    qtbot.keyClick(form.widgets["count"], Qt.Key.Key_Return)
+    qtbot.waitUntil(lambda: len([a for a in sc.activities if a.series == "SER1"]) == 4, timeout=2000)
+    members = [a for a in sc.activities if a.series == "SER1"]
+    assert [a.start_tt - start for a in members] == [0.0, 2 * 86400.0, 4 * 86400.0, 6 * 86400.0]
+    # one member moved by dragging it on the spacecraft lane (1 h later, on the grid)
+    first = members[0]
+    _lane_drag(qtbot, win, first.start_tt + 300.0, first.start_tt + 300.0 + 3600.0, 0.5)
+    assert first.start_tt == start + 3600.0
+    assert doc.undo_stack.undoText() == "Move SER1-01"
+    back = _saved_and_read(doc, tmp_path)  # the moved member: the series is written as single activities
+    assert "SER1" not in [x.id for x in back.series]
+    assert [(a.id, a.start_tt) for a in back.activities if a.id.startswith("SER1")] == \
+        [(a.id, a.start_tt) for a in members]
+    doc.undo_stack.undo()  # the move
+    assert first.start_tt == start
+    back = _saved_and_read(doc, tmp_path)
+    assert [(x.id, x.every_days, x.count) for x in back.series] == [("SER1", 2, 4)]
+    doc.undo_stack.undo()  # the series edit
+    assert len([a for a in sc.activities if a.series == "SER1"]) == 3
+    doc.undo_stack.redo()
+    assert len([a for a in sc.activities if a.series == "SER1"]) == 4
+    # a single burn drawn with the modifier, then deleted from the menu
+    t0 = parse_utc("2027-03-02T16:00:00Z")
+    _lane_drag(qtbot, win, t0, t0 + 1800.0, 0.5, Qt.KeyboardModifier.ShiftModifier)
+    new = sc.activity(doc.selection.key)
+    assert (new.kind, new.start_tt, new.duration_min) == ("other", t0, 30.0)
+    win.props.fields["kind"].setCurrentText("burn")
+    win.props.apply()
+    assert new.kind == "burn"
+    acts.delete_activity(doc, new)
+    assert all(a is not new for a in sc.activities)
+    doc.undo_stack.undo()
+    assert sc.activity(new.id) is new

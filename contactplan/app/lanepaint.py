@@ -113,6 +113,9 @@ class LanePainter:
                 painter.fillRect(r, hatch)
                 painter.setPen(QPen(th.outage, 1, Qt.PenStyle.DashLine))
                 painter.drawRect(r)
+                if self.doc.selection.kind == "outage" and self.doc.selection.key is o:
+                    painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
+                    painter.drawRect(r.adjusted(-3, -3, 3, 3))
         # passes
         sel = self.doc.selection
         small = QFont()

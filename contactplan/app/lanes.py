@@ -17,6 +17,7 @@ from contactplan.app.document import NOTHING, Selection
 from contactplan.app.lanepaint import LanePainter
 from contactplan.app.servicemarks import letters, margins_text, services_text
 from contactplan.app.spans import SpanIndex
+from contactplan.errors import InputError
 from contactplan.timescale import DAY_S, format_utc, utc_day_start
 
 GRID_S = 300.0  # bookings snap to a 5-minute grid ...
@@ -24,6 +25,8 @@ SNAP_PX = 8.0  # ... or to a pass edge closer than this many pixels
 EDGE_PX = 5.0  # grab a booking's edge within this many pixels
 MIN_BOOKING_S = 300.0
 WEEK_S = 7 * DAY_S
+#: held while dragging, draws a new span: an activity on the spacecraft lane, an outage on a station lane
+SPAN_MODIFIER = Qt.KeyboardModifier.ShiftModifier
 
 _CANCELLED = object()  # a gesture dropped with Escape
 
@@ -67,7 +70,8 @@ class LanesViewBox(pg.ViewBox):
             return super().mouseDragEvent(ev, axis)
         if ev.isStart():
             p = self.mapSceneToView(ev.buttonDownScenePos())
-            self._drag = self.canvas.begin_drag(p.x(), p.y())
+            span = bool(ev.modifiers() & SPAN_MODIFIER)
+            self._drag = self.canvas.begin_drag(p.x(), p.y(), span=span)
         if self._drag is _CANCELLED:
             ev.accept()
             if ev.isFinish():
@@ -84,17 +88,20 @@ class LanesViewBox(pg.ViewBox):
 
 
 class Drag:
-    """A gesture in progress: mode is create, move, start or end (the edge being dragged)."""
+    """A gesture in progress: mode is create, move, start or end (the edge being dragged) for bookings,
+    activity (a new one), move-activity, or outage (a new one)."""
 
-    def __init__(self, mode: str, lane: int, x0: float, booking=None):
+    def __init__(self, mode: str, lane: int, x0: float, booking=None, activity=None):
         self.mode = mode
         self.lane = lane
         self.x0 = x0
         self.booking = booking
+        self.activity = activity
         self.pass_ = None
         self.station = None
-        self.start_tt = booking.start_tt if booking is not None else None
-        self.end_tt = booking.end_tt if booking is not None else None
+        rec = booking if booking is not None else activity
+        self.start_tt = rec.start_tt if rec is not None else None
+        self.end_tt = rec.end_tt if rec is not None else None
 
 
 class LanesCanvas(LanePainter, pg.GraphicsObject):
@@ -230,6 +237,17 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 return a
         return None
 
+    def outage_at(self, x: float, y: float):
+        """(station, outage) under a point of a station lane, else (None, None)."""
+        st = self.station_of_lane(self.lane_of(y))
+        if st is None:
+            return None, None
+        t = self.t_of(x)
+        for o in st.outages:
+            if o.start_tt <= t <= o.end_tt:
+                return st, o
+        return None, None
+
     def describe(self, x: float, y: float) -> str:
         """Plain text about what lies under a point (for the hover tip)."""
         sc = self.doc.scenario
@@ -315,6 +333,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if p is not None:
             self.doc.select(Selection("pass", p))
             return
+        _st, o = self.outage_at(x, y)
+        if o is not None:
+            self.doc.select(Selection("outage", o))
+            return
         st = self.station_of_lane(self.lane_of(y))
         self.doc.select(Selection("station", st.id) if st is not None else NOTHING)
 
@@ -324,7 +346,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         b, _ = self.booking_at(x, y)
         p = self.pass_at(x, y)
         menu = QMenu()
-        if b is not None:
+        self.last_menu = menu  # (tests read it)
+        if self.lane_of(y) == 0:
+            self._spacecraft_menu(menu, x, y)
+        elif b is not None:
             self.doc.select(Selection("booking", b.id))
             menu.addAction("Edit services...", lambda: self.tl.editPurposesRequested.emit(b.id))
             menu.addAction("Unlock" if b.locked else "Lock",
@@ -332,14 +357,55 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
             menu.addAction("Delete", lambda: self.doc.delete_bookings([b.id]))
         elif p is not None:
             menu.addAction("Book the whole pass", lambda: self.doc.add_booking(p.station, p.aos_tt, p.los_tt))
-        else:
-            return
-        menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+        if self.lane_of(y) > 0:
+            st, o = self.outage_at(x, y)
+            if o is not None:
+                from contactplan.app.activities import delete_outage
 
-    def begin_drag(self, x: float, y: float):
+                if b is None:
+                    self.doc.select(Selection("outage", o))
+                menu.addAction(f"Delete the outage at {st.id}", lambda: delete_outage(self.doc, o))
+        if menu.isEmpty():
+            return
+        if screen_pos is not None:
+            menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+
+    def _spacecraft_menu(self, menu, x: float, y: float) -> None:
+        """Right click on the spacecraft lane: new activities there, or the activity's own actions."""
+        from contactplan.app import activities as acts
+        from contactplan.scenario.model import ACTIVITY_KINDS
+
+        a = self.activity_at(x, y)
+        doc = self.doc
+        if a is not None:
+            doc.select(Selection("activity", a.id))
+            menu.addAction(f"Delete {a.id}", lambda: acts.delete_activity(doc, a))
+            s = acts.series_of(doc.scenario, a)
+            if s is not None:
+                menu.addAction(f"Delete the whole series {s.id}", lambda: acts.delete_series(doc, s))
+            return
+        t = self.snap(self.t_of(x), None)
+        for kind in ACTIVITY_KINDS:
+            menu.addAction(f"New {kind.replace('-', ' ')} here", lambda k=kind: acts.add_activity(doc, k, t))
+        menu.addAction("New weekly series of burns from here", lambda: acts.add_series(doc, t))
+
+    def begin_drag(self, x: float, y: float, span: bool = False):
         if self.doc.scenario is None:
             return None
         lane = self.lane_of(y)
+        if span and 0 <= lane < self.lanes():  # a new activity or outage drawn as a span
+            d = Drag("activity" if lane == 0 else "outage", lane, x)
+            st = self.station_of_lane(lane)
+            d.station = None if st is None else st.id
+            self.drag = d
+            return d
+        if lane == 0:
+            a = self.activity_at(x, y)
+            if a is not None:
+                self.doc.select(Selection("activity", a.id))
+                self.drag = Drag("move-activity", 0, x, activity=a)
+                return self.drag
+            return None
         b, part = self.booking_at(x, y)
         if b is not None:
             self.doc.select(Selection("booking", b.id))
@@ -358,7 +424,13 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
 
     def update_drag(self, d: Drag, x: float, y: float) -> None:
         t = self.t_of(x)
-        if d.mode == "create":
+        if d.mode in ("activity", "outage"):
+            d.start_tt, d.end_tt = sorted((self.snap(self.t_of(d.x0), None), self.snap(t, None)))
+        elif d.mode == "move-activity":
+            a = d.activity
+            d.start_tt = self.snap(a.start_tt + t - self.t_of(d.x0), None)
+            d.end_tt = d.start_tt + (a.end_tt - a.start_tt)
+        elif d.mode == "create":
             a, b = sorted((self.snap(self.t_of(d.x0), d.station), self.snap(t, d.station)))
             p = d.pass_  # a new booking stays inside the pass it was drawn on
             d.start_tt, d.end_tt = min(max(a, p.aos_tt), p.los_tt), min(max(b, p.aos_tt), p.los_tt)
@@ -392,7 +464,9 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         try:
             if d.start_tt is None or d.end_tt is None:
                 return
-            if d.mode == "create":
+            if d.mode in ("activity", "outage", "move-activity"):
+                self._finish_span(d)
+            elif d.mode == "create":
                 if d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
                     self.doc.add_booking(d.station, d.start_tt, d.end_tt)
             else:
@@ -400,10 +474,23 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 if d.station and d.station != d.booking.station:
                     changes["station"] = d.station
                 self.doc.edit_booking(d.booking.id, **changes)
-        except (ValueError, KeyError) as exc:
+        except (ValueError, KeyError) as exc:  # (InputError is a ValueError's sibling: caught below)
+            self.doc.message.emit(str(exc))
+        except InputError as exc:
             self.doc.message.emit(str(exc))
         finally:
             self.update()
+
+    def _finish_span(self, d: Drag) -> None:
+        from contactplan.app import activities as acts
+
+        if d.mode == "move-activity":
+            acts.move_activity(self.doc, d.activity, d.start_tt)
+        elif d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
+            if d.mode == "activity":
+                acts.add_activity(self.doc, "other", d.start_tt, (d.end_tt - d.start_tt) / 60.0)
+            else:
+                acts.add_outage(self.doc, d.station, d.start_tt, d.end_tt)
 
     def show_finding_span(self, span) -> None:
         self._finding_span = span

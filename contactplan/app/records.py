@@ -47,13 +47,16 @@ class Change(QUndoCommand):
         sc.activities.sort(key=lambda a: a.start_tt)
         doc.revision += 1
         sel = doc.selection
+        gone = sel.kind == "outage" and not any(o is sel.key for st in sc.stations for o in st.outages)
         if sel.kind in ("station", "activity", "booking"):
             try:
                 doc._record(sel.kind, sel.key)
             except KeyError:
-                from contactplan.app.document import NOTHING
+                gone = True
+        if gone:
+            from contactplan.app.document import NOTHING
 
-                doc.select(NOTHING)
+            doc.select(NOTHING)
         if self.bookings:
             doc.bookingsChanged.emit()
         doc.recordsChanged.emit()

@@ -375,9 +375,9 @@ class Timeline(pg.GraphicsLayoutWidget):
     def keyPressEvent(self, ev):
         k = ev.key()
         if k in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace):
-            b = self.doc.selected_booking()
-            if b is not None:
-                self.doc.delete_bookings([b.id])
+            from contactplan.app.activities import delete_selected
+
+            if delete_selected(self.doc):
                 ev.accept()
                 return
         elif k == Qt.Key.Key_Left:

@@ -229,7 +229,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.act_redo.setShortcut(QKeySequence(K.Redo))
         self.act_redo.setIcon(icons.icon("redo"))
         self.act_redo.setProperty("icon_name", "redo")
-        self.act_delete = self._act("&Delete booking", self.delete_selected, K.Delete)
+        self.act_delete = self._act("&Delete", self.delete_selected, K.Delete, tip="Delete the selected booking, "
+                                                                              "activity or outage")
         self.act_delete.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
         self.timeline.addAction(self.act_delete)
         self.bookings_view.addAction(self.act_delete)
@@ -588,9 +589,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
 
     # ------------------------------------------------------------ edits
     def delete_selected(self) -> None:
-        b = self.doc.selected_booking()
-        if b is not None:
-            self.doc.delete_bookings([b.id])
+        from contactplan.app.activities import delete_selected
+
+        delete_selected(self.doc)
 
     def edit_purposes(self, booking_id: str | None) -> None:
         b = self.doc.selected_booking() if booking_id is None else self.doc.scenario.booking(booking_id)
