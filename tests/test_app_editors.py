@@ -253,7 +253,7 @@ def planner(qtbot, tmp_path, monkeypatch):
     w.doc.wait_checked()
 
 
-from PySide6.QtWidgets import QMessageBox  # noqa: E402
+from PySide6.QtWidgets import QMessageBox, QPushButton  # noqa: E402
 
 
 def _lane_drag(qtbot, win, t0, t1, y, modifiers=Qt.KeyboardModifier.NoModifier):
@@ -387,3 +387,110 @@ def test_a_series_created_one_member_moved_the_series_edited_undone_and_saved(pl
     assert all(a is not new for a in sc.activities)
     doc.undo_stack.undo()
     assert sc.activity(new.id) is new
+
+
+# ---------------------------------------------------------------- mission settings
+def test_a_requirement_changed_on_its_page_by_enter_undone_redone_saved_and_read_equal(planner, qtbot, tmp_path):
+    win = planner
+    doc = win.doc
+    sc = doc.scenario
+    dlg = win.show_settings()
+    page = dlg.pages["requirements"]
+    dlg.tabs.setCurrentWidget(page)
+    f = page.form.widgets
+    assert f["booking_max_h"].text() == "10.0" and f["booking_min_h"].text() == ""
+    f["booking_min_h"].setText("1.5")
+    f["ranging_per_day_min"].setText("2")
+    qtbot.keyClick(f["ranging_per_day_min"], Qt.Key.Key_Return)  # Enter applies, as the button does
+    assert (sc.requirements.booking_min_h, sc.requirements.ranging_per_day_min) == (1.5, 2)
+    assert doc.undo_stack.undoText() == "Change the requirements"
+    # the checks follow: a 4 h booking is fine, a 1 h minimum of 5 h makes it too short
+    f["booking_min_h"].setText("5")
+    page.apply()
+    doc.wait_checked()
+    assert any(x.rule == "booking-too-short" for x in doc.findings)
+    doc.undo_stack.undo()
+    doc.wait_checked()
+    assert not any(x.rule == "booking-too-short" for x in doc.findings)
+    f["booking_max_h"].setText("0")  # refused with the loader's message
+    assert not page.apply()
+    assert page.error.text() == "requirements.booking_max_h: 0 is out of range (must be > 0)"
+    doc.undo_stack.undo()
+    assert sc.requirements.booking_min_h is None and page.form.widgets["booking_min_h"].text() == ""
+    doc.undo_stack.redo()
+    back = _saved_and_read(doc, tmp_path)
+    assert (back.requirements.booking_min_h, back.requirements.ranging_per_day_min,
+            back.requirements.booking_max_h) == (1.5, 2, 10.0)
+
+
+def test_links_recorder_geometry_and_orbit_determination_pages(planner, qtbot, tmp_path):
+    win = planner
+    doc = win.doc
+    sc = doc.scenario
+    dlg = win.show_settings()
+    links = dlg.links
+    # rename a link: the station's service follows it in the same step
+    links.form.widgets["id"].setText("XB-DN")
+    assert links.apply()
+    assert [lk.id for lk in sc.spacecraft.links] == ["XB-DN", "X-UP"]
+    assert [sv.link for sv in sc.station("HLM").services] == ["XB-DN", "X-UP"]
+    assert doc.stale
+    # an up link given a budget needs the station's EIRP... which HLM has; a G/T on it is refused
+    links.list.setCurrentRow(1)
+    assert links.link_id == "X-UP"
+    assert not links.form.widgets["eirp_dbw"].isEnabled()  # a down-link key on an up link
+    links.form.widgets["required_pt_dbhz"].setText("30")
+    assert not links.apply()
+    assert links.error.text() == ("spacecraft.links[X-UP].spacecraft_g_over_t_dbk: missing (required with "
+                                  "required_pt_dbhz)")
+    links.form.widgets["spacecraft_g_over_t_dbk"].setText("-20")
+    assert links.apply()
+    assert sc.spacecraft.link_by_id("X-UP").has_budget
+    # delete a link: stations stop using it
+    links.list.setCurrentRow(1)
+    assert links.delete_link()
+    assert [sv.link for sv in sc.station("HLM").services] == ["XB-DN"]
+    doc.undo_stack.undo()
+    assert [sv.link for sv in sc.station("HLM").services] == ["XB-DN", "X-UP"]
+    # recorder off, then on again with a new size
+    rec = dlg.pages["recorder"]
+    rec.switch.setChecked(False)
+    assert rec.apply() and sc.spacecraft.recorder is None
+    rec.switch.setChecked(True)
+    rec.form.widgets["capacity_gbit"].setText("80")
+    assert rec.apply() and sc.spacecraft.recorder.capacity_gbit == 80
+    geo = dlg.pages["geometry"]
+    geo.form.widgets["refraction"].setChecked(True)
+    assert geo.apply() and sc.geometry.refraction
+    od = dlg.pages["orbit_determination"]
+    assert not od.switch.isChecked()
+    od.switch.setChecked(True)
+    od.form.widgets["required_position_km"].setText("5")
+    assert od.apply()
+    assert sc.orbit_determination.required_position_km == 5 and sc.orbit_determination.range_sigma_m == 2.0
+    back = _saved_and_read(doc, tmp_path)
+    assert [lk.id for lk in back.spacecraft.links] == ["XB-DN", "X-UP"]
+    assert back.spacecraft.link_by_id("X-UP").required_pt_dbhz == 30
+    assert back.spacecraft.recorder.capacity_gbit == 80 and back.geometry.refraction
+    assert back.orbit_determination.required_position_km == 5
+    for _ in range(5):
+        doc.undo_stack.undo()
+    assert sc.spacecraft.recorder.capacity_gbit == 50.0 and not sc.geometry.refraction
+    assert sc.orbit_determination is None
+
+
+def test_every_settings_page_is_seen_whole_at_the_default_window_size(planner, qtbot):
+    win = planner
+    assert (win.width(), win.height()) == (1400, 880)
+    dlg = win.show_settings()
+    qtbot.wait(10)
+    assert dlg.width() <= win.width() and dlg.height() <= win.height()
+    for name, page in dlg.pages.items():
+        dlg.tabs.setCurrentWidget(page)
+        qtbot.wait(5)
+        need = page.minimumSizeHint()
+        room = dlg.tabs.currentWidget().size()
+        assert need.height() <= room.height() and need.width() <= room.width(), name
+        for w in page.findChildren(QPushButton):  # the Apply button is on screen, inside the page
+            if w.text() == "Apply":
+                assert page.rect().contains(w.geometry())

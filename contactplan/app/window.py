@@ -235,6 +235,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.timeline.addAction(self.act_delete)
         self.bookings_view.addAction(self.act_delete)
         self.act_purposes = self._act("Edit &services...", lambda: self.edit_purposes(None), "Ctrl+E")
+        self.act_settings = self._act("Mission &settings...", self.show_settings, "Ctrl+,", None,
+                                      "Links, recorder, requirements, geometry and orbit determination")
         self.act_book_pass = self._act("&Book the selected pass", self.book_selected_pass, "Ctrl+B")
         self.act_zoom_in = self._act("Zoom &in", lambda: self.timeline.zoom(0.5), K.ZoomIn, "zoom-in")
         self.act_zoom_out = self._act("Zoom &out", lambda: self.timeline.zoom(2.0), K.ZoomOut, "zoom-out")
@@ -292,6 +294,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         m.addSeparator()
         for a in (self.act_book_pass, self.act_purposes, self.act_delete):
             m.addAction(a)
+        m.addSeparator()
+        m.addAction(self.act_settings)
         m = mb.addMenu("&View")
         for a in (self.act_zoom_in, self.act_zoom_out, self.act_window):
             m.addAction(a)
@@ -468,7 +472,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         has = self.doc.scenario is not None
         busy = self.job is not None and self.job.running
         for a in (self.act_save, self.act_save_as, self.act_import, self.act_revalidate, *self.export_actions,
-                  self.act_book_pass, self.act_purposes):
+                  self.act_book_pass, self.act_purposes, self.act_settings):
             a.setEnabled(has)
         self.act_compute.setEnabled(has and not busy)
         if importlib.util.find_spec("contactplan.plan.drafter") is not None:
@@ -606,6 +610,20 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
                 self.doc.edit_booking(b.id, services=dlg.services())
             except ValueError as exc:
                 self.show_error(str(exc))
+
+    def show_settings(self):
+        """The mission settings beside the planner (one dialog, kept)."""
+        if self.doc.scenario is None:
+            return None
+        dlg = getattr(self, "settings_dialog", None)
+        if dlg is None:
+            from contactplan.app.settings import SettingsDialog
+
+            dlg = self.settings_dialog = SettingsDialog(self.doc, self)
+            dlg.resize(900, 640)
+        dlg.show()
+        dlg.raise_()
+        return dlg
 
     def book_selected_pass(self) -> None:
         sel = self.doc.selection
