@@ -494,3 +494,124 @@ def test_every_settings_page_is_seen_whole_at_the_default_window_size(planner, q
         for w in page.findChildren(QPushButton):  # the Apply button is on screen, inside the page
             if w.text() == "Apply":
                 assert page.rect().contains(w.geometry())
+
+
+# ---------------------------------------------------------------- new mission, the demo, exports, date form
+def test_a_new_mission_from_the_built_in_orbit_has_no_stations_links_or_bookings(planner, qtbot, tmp_path):
+    from contactplan.timescale import parse_utc
+
+    win = planner
+    win.doc.undo_stack.setClean()
+
+    def fill(dlg):
+        dlg.name.setText("Relay trial")
+        dlg.start.setText("2027-05-03")
+        dlg.days.setText("5")
+        dlg.point.setCurrentText("L1")
+        dlg.amplitude.setText("2000000")  # out of range: the loader's message, the dialog stays
+        dlg.accept()
+        assert dlg.error.text() == ("spacecraft.ephemeris.libration.vertical_amplitude_km: 2000000 is out of "
+                                    "range (must be <= 1500000.0)")
+        dlg.amplitude.setText("250000")
+        dlg.accept()
+        return dlg.result() == dlg.DialogCode.Accepted
+
+    win.run_dialog = fill
+    sc = win.new_mission()
+    assert sc is win.doc.scenario and sc.path is None and sc.name == "Relay trial"
+    assert sc.stations == [] and sc.spacecraft.links == [] and sc.bookings == [] and sc.activities == []
+    assert sc.start_tt == parse_utc("2027-05-03") and sc.end_tt - sc.start_tt == 5 * 86400.0
+    lib = sc.spacecraft.ephemeris.libration
+    assert (lib.point, lib.vertical_amplitude_km, lib.epoch_tt) == ("L1", 250000, sc.start_tt)
+    # the stations editor starts from nothing: New is there, the form waits for a station
+    ed = win.stations_editor
+    assert ed.new_btn.isEnabled() and not ed.apply_btn.isEnabled()
+    out = tmp_path / "trial.toml"
+    assert win.save_to(out)
+    back = load_scenario(out)
+    assert back.stations == [] and back.spacecraft.links == [] and back.name == "Relay trial"
+
+
+def test_a_new_mission_around_an_oem_borrows_nothing_from_the_demo(planner, qtbot, tmp_path):
+    from contactplan.app.newmission import mission_document
+    from contactplan.scenario import parse_document
+
+    oem = tmp_path / "fd.oem"
+    oem.write_text("CCSDS_OEM_VERS = 2.0\n", "utf-8")  # only its name is used here
+    doc = mission_document("Week 19", "Probe", "2027-05-10T00:00:00Z", 7, {"oem": str(oem)})
+    sc = parse_document(doc, None)
+    assert sc.spacecraft.ephemeris.kind == "oem" and sc.stations == [] and sc.spacecraft.links == []
+    win = planner
+    win.doc.undo_stack.setClean()
+    win.set_scenario(None, compute=False)
+    win.ask = lambda *a, **k: QMessageBox.StandardButton.Yes
+
+    class Coverage:
+        start_tt, end_tt = sc.start_tt, sc.start_tt + 20 * 86400.0
+
+    assert win._offer_around_oem(oem, Coverage())
+    new = win.doc.scenario
+    assert new.stations == [] and new.spacecraft.links == [] and new.spacecraft.ephemeris.kind == "oem"
+    assert new.end_tt - new.start_tt == 7 * 86400.0
+
+
+def test_the_bundled_demo_opens_as_a_copy_and_save_asks_where(planner, qtbot, tmp_path, monkeypatch):
+    from contactplan.paths import demo_scenario
+
+    win = planner
+    win.doc.undo_stack.setClean()
+    before = demo_scenario().read_bytes()
+    assert win.open_path(demo_scenario(), compute=False)
+    assert win.doc.scenario.path is None and "not saved yet" in win.windowTitle()
+    asked = []
+    monkeypatch.setattr(win, "save_as", lambda: asked.append(True) or False)
+    assert not win.save() and asked == [True]
+    assert demo_scenario().read_bytes() == before
+    assert str(demo_scenario().resolve()) not in win.recent_files()
+
+
+def test_exports_start_in_the_last_export_folder_and_leave_a_lasting_line(planner, qtbot, tmp_path):
+    from contactplan.paths import resource_dir
+
+    win = planner
+    assert win.export_folder() == (tmp_path).resolve()  # the scenario's folder before any export
+    win.doc.scenario.path = None
+    assert win.export_folder() == type(tmp_path).home()  # never the installation's folder
+    assert resource_dir().resolve() not in win.export_folder().parents
+    out_dir = tmp_path / "out"
+    out_dir.mkdir()
+    win.export_to(out_dir / "plan.csv", "bookings")
+    qtbot.waitUntil(lambda: win.job is not None and not win.job.running, timeout=30000)
+    qtbot.wait(20)
+    assert win.export_line.isVisible()
+    assert win.export_label.text() == f"Exported {(out_dir / 'plan.csv').resolve()}"
+    win.statusBar().showMessage("something else", 100)
+    qtbot.wait(150)
+    assert win.export_line.isVisible()  # lasting: temporary messages do not take it away
+    assert win.export_folder() == out_dir.resolve()
+    assert win.export_open_btn.text() == "Open folder"
+
+
+def test_one_day_of_year_switch_is_remembered_and_reaches_tables_axes_editors_and_dialogs(planner, qtbot,
+                                                                                          monkeypatch):
+    from contactplan.app import window as window_mod
+
+    win = planner
+    win.act_doy.setChecked(True)
+    assert str(win.settings.value("view/doy")).lower() == "true"
+    st_ed = win.stations_editor
+    st_ed.add_outage_row()
+    assert st_ed.outages.item(0, 0).text() == "2027-061T00:00:00Z"  # 2 March is day 61 (calendar fact)
+    dlg = win.show_settings()
+    assert dlg is not None
+    row = win.bookings_model.index(0, 2).data()
+    assert row == "2027-061T10:00:00Z"
+    assert win.timeline.top_axis.tickStrings([24.0], 1, 1) == ["062 Wed 03-03"]
+    prompts = []
+    monkeypatch.setattr(window_mod.QInputDialog, "getText",
+                        staticmethod(lambda *a, **k: (prompts.append((a[2], k["text"])), ("", False))[1]))
+    win.goto_week()
+    assert "2027-019" in prompts[-1][0] and prompts[-1][1].startswith("2027-0")
+    win.act_doy.setChecked(False)
+    assert win.timeline.top_axis.tickStrings([24.0], 1, 1) == ["Wed 03-03"]
+    assert win.bookings_model.index(0, 2).data() == "2027-03-02T10:00:00Z"

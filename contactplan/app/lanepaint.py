@@ -16,7 +16,7 @@ from PySide6.QtGui import QBrush, QColor, QFont, QPainter, QPen
 from contactplan.app import theme
 from contactplan.app.servicemarks import paint_marks
 from contactplan.app.spans import DETAIL_MAX, paint_runs
-from contactplan.timescale import DAY_S, format_utc, utc_days
+from contactplan.timescale import DAY_S, utc_days
 
 
 class LanePainter:
@@ -227,7 +227,7 @@ class LanePainter:
             painter.drawRect(r)
             painter.setPen(QPen(th.foreground))
             minutes = int(round((d.end_tt - d.start_tt) / 60.0))
-            label = (f"{format_utc(d.start_tt, 0)[5:16].replace('T', ' ')} - {format_utc(d.end_tt, 0)[11:16]}"
+            label = (f"{_when(d.start_tt)} - {_when(d.end_tt)}"
                      f"  ({minutes // 60} h {minutes % 60:02d})")
             self.drag_label = label
             fm = painter.fontMetrics()
@@ -312,3 +312,9 @@ class LanePainter:
             self._marks_until[lane] = drawn[-1][1].right() + 2
         self.marks_drawn[b.id] = drawn
 
+
+def _when(tt: float) -> str:
+    """A time in the drag label: date and time to the minute, in the form of the day-of-year switch."""
+    from contactplan.app.models import utc_text
+
+    return utc_text(tt)[:-4].replace("T", " ")  # 2027-01-12 19:05 (or 2027-012 19:05)

@@ -15,10 +15,11 @@ from PySide6.QtCore import QRectF, Qt
 
 from contactplan.app.document import NOTHING, Selection
 from contactplan.app.lanepaint import LanePainter
+from contactplan.app.models import utc_text
 from contactplan.app.servicemarks import letters, margins_text, services_text
 from contactplan.app.spans import SpanIndex
 from contactplan.errors import InputError
-from contactplan.timescale import DAY_S, format_utc, utc_day_start
+from contactplan.timescale import DAY_S, utc_day_start
 
 GRID_S = 300.0  # bookings snap to a 5-minute grid ...
 SNAP_PX = 8.0  # ... or to a pass edge closer than this many pixels
@@ -254,13 +255,13 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if sc is None:
             return ""
         t = self.t_of(x)
-        lines = [format_utc(t, 0)]
+        lines = [utc_text(t)]
         b, part = self.booking_at(x, y)
         if b is not None:
             bot, eot = sc.track_span_tt(b)
-            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)}"
+            lines.append(f"booking {b.id} at {b.station}: {utc_text(b.start_tt)} to {utc_text(b.end_tt)}"
                          f"{', locked' if b.locked else ''}")
-            lines.append(f"track (BOT to EOT) {format_utc(bot, 0)} to {format_utc(eot, 0)}")
+            lines.append(f"track (BOT to EOT) {utc_text(bot)} to {utc_text(eot)}")
             lines.append(f"services: {services_text(sc, b)} [{letters(b.services)}]")
             if b.handover_from:
                 lines.append(f"continues {b.handover_from} (handover)")
@@ -273,23 +274,23 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if self.lane_of(y) == 0:
             for sh in (getattr(self.doc.result, "shadows", None) or []):
                 if len(sh) >= 4 and sh[0] <= t <= sh[1]:
-                    lines.append(f"in the {sh[2]}'s {sh[3]} {format_utc(sh[0], 0)} to {format_utc(sh[1], 0)}")
+                    lines.append(f"in the {sh[2]}'s {sh[3]} {utc_text(sh[0])} to {utc_text(sh[1])}")
         if a is not None:
             k0, k1 = a.keepout_span_tt
-            lines.append(f"{a.kind} {a.id}: {format_utc(a.start_tt, 0)}, {a.duration_min:g} min; "
-                         f"no downlink {format_utc(k0, 0)[11:16]} to {format_utc(k1, 0)[11:16]}")
+            lines.append(f"{a.kind} {a.id}: {utc_text(a.start_tt)}, {a.duration_min:g} min; "
+                         f"no downlink {_hm(k0)} to {_hm(k1)}")
             return "\n".join(lines)
         st = self.station_of_lane(self.lane_of(y))
         if st is not None:
             for o in st.outages:
                 if o.start_tt <= t <= o.end_tt:
-                    lines.append(f"{st.id} out of service {format_utc(o.start_tt, 0)} to {format_utc(o.end_tt, 0)}"
+                    lines.append(f"{st.id} out of service {utc_text(o.start_tt)} to {utc_text(o.end_tt)}"
                                  + (f": {o.reason}" if o.reason else ""))
             p = self.pass_at(x, y)
             if p is not None:
                 rate = "" if p.max_rate_kbps is None else f", best {p.max_rate_kbps:,.0f} kbit/s"
                 vol = "" if p.volume_gbit is None else f", {p.volume_gbit:.1f} Gbit"
-                lines.append(f"pass {p.station} {format_utc(p.aos_tt, 0)} to {format_utc(p.los_tt, 0)}, "
+                lines.append(f"pass {p.station} {utc_text(p.aos_tt)} to {utc_text(p.los_tt)}, "
                              f"max {p.max_elevation_deg:.1f} deg{rate}{vol}")
                 margins = margins_text(self.doc.result, p)
                 if margins:
@@ -495,3 +496,8 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
     def show_finding_span(self, span) -> None:
         self._finding_span = span
         self.update()
+
+
+def _hm(tt: float) -> str:
+    """HH:MM of a time (either date form)."""
+    return utc_text(tt).split("T")[1][:5]

@@ -21,6 +21,11 @@ def set_day_of_year(on: bool) -> None:
     _DOY["on"] = bool(on)
 
 
+def day_of_year_on() -> bool:
+    """The one day-of-year / calendar switch (View menu) every table, axis and dialog follows."""
+    return _DOY["on"]
+
+
 def utc_text(tt):
     """Table time text (scalar or list): calendar or day-of-year UTC, whole seconds."""
     return format_utc(tt, 0, doy=_DOY["on"])

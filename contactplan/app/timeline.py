@@ -185,6 +185,13 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.canvas.invalidate()
         self._selection_changed(self.doc.selection)
 
+    def redraw_axes(self) -> None:
+        """Draw the time axes again (after the day-of-year switch)."""
+        for ax in (self.top_axis, self.rec_axis, self.el_axis):
+            ax.picture = None
+            ax.update()
+        self.canvas.update()
+
     def _set_lanes(self) -> None:
         """One lane for the spacecraft and one per station (after opening, or a station added or deleted)."""
         sc = self.doc.scenario

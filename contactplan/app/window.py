@@ -33,7 +33,7 @@ from contactplan.app.window_files import (MAX_RECENT, READ_IN_WORKER_BYTES, File
 from contactplan.app.window_jobs import EXPORTS, JobsMixin, ReplaceBookings, revalidation_lines  # noqa: F401
 from contactplan.app.worker import Job  # noqa: F401
 from contactplan.errors import InputError
-from contactplan.timescale import format_utc, parse_utc
+from contactplan.timescale import parse_utc
 
 log = logging.getLogger("contactplan.app")
 APP_NAME = "contactplan"
@@ -211,8 +211,10 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
 
     def _build_actions(self) -> None:
         K = QKeySequence.StandardKey
-        self.act_new = self._act("&New week", self.new_scenario, K.New, "new",
-                                 "Start a new week with the same spacecraft and stations")
+        self.act_new = self._act("&New mission...", self.new_mission, K.New, "new",
+                                 "Start a new mission from an OEM file or the built-in orbit, with no stations yet")
+        self.act_next_week = self._act("New &week after this one", self.new_scenario, None, None,
+                                       "Start the next week with the same spacecraft, stations and settings")
         self.act_open = self._act("&Open...", self.open_dialog, K.Open, "open", "Open a scenario or an OEM file")
         self.act_save = self._act("&Save", self.save, K.Save, "save", "Save the scenario")
         self.act_save_as = self._act("Save &as...", self.save_as, K.SaveAs, "save-as", "Save under a new name")
@@ -263,7 +265,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         if str(self.settings.value("view/shade", "rate")) == "elevation":
             self.act_shade_el.setChecked(True)
             self.timeline.set_shade("elevation")
-        self.act_doy = QAction("&Day-of-year dates in tables", self, checkable=True)
+        self.act_doy = QAction("&Day-of-year dates", self, checkable=True)
+        self.act_doy.setToolTip("Times as 2027-012T19:00:00Z instead of 2027-01-12T19:00:00Z in every table, "
+                                "axis, editor and dialog")
         self.act_doy.toggled.connect(self.set_day_of_year)
         self.export_actions = []
         for what, fmt, label, filt in EXPORTS:
@@ -273,7 +277,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
     def _build_menus(self) -> None:
         mb = self.menuBar()
         m = mb.addMenu("&File")
-        for a in (self.act_new, self.act_open):
+        for a in (self.act_new, self.act_next_week, self.act_open):
             m.addAction(a)
         self.recent_menu = m.addMenu("Open &recent")
         self.recent_menu.aboutToShow.connect(self._fill_recent)
@@ -344,6 +348,22 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.progress.setMaximumWidth(220)
         self.progress.setVisible(False)
         sb.addPermanentWidget(self.progress)
+        self.export_line = QWidget()  # the last export: stays until the next one or until closed
+        row = QHBoxLayout(self.export_line)
+        row.setContentsMargins(0, 0, 0, 0)
+        self.export_label = QLabel("")
+        self.export_label.setObjectName("export_line")
+        row.addWidget(self.export_label)
+        self.export_open_btn = QPushButton("Open folder")
+        self.export_open_btn.clicked.connect(self.open_export_folder)
+        row.addWidget(self.export_open_btn)
+        close = QPushButton("x")
+        close.setToolTip("Hide this line")
+        close.setFixedWidth(24)
+        close.clicked.connect(lambda: self.export_line.setVisible(False))
+        row.addWidget(close)
+        self.export_line.setVisible(False)
+        sb.addPermanentWidget(self.export_line)
         self.cancel_btn = QPushButton(icons.icon("cancel"), "Cancel")
         self.cancel_btn.setVisible(False)
         self.cancel_btn.clicked.connect(self.cancel_job)
@@ -450,6 +470,13 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         for m in (self.passes_model, self.bookings_model, self.findings_model):
             m.refresh()
         self.props.reload()
+        self.stations_editor.reload()
+        self.timeline.redraw_axes()
+        self.nav_strip.axis.picture = None
+        self.nav_strip.axis.update()
+        dlg = getattr(self, "settings_dialog", None)
+        if dlg is not None:
+            dlg.reload()
 
     def set_shade(self, mode: str) -> None:
         self.timeline.set_shade(mode)
@@ -472,7 +499,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         has = self.doc.scenario is not None
         busy = self.job is not None and self.job.running
         for a in (self.act_save, self.act_save_as, self.act_import, self.act_revalidate, *self.export_actions,
-                  self.act_book_pass, self.act_purposes, self.act_settings):
+                  self.act_book_pass, self.act_purposes, self.act_settings, self.act_next_week):
             a.setEnabled(has)
         self.act_compute.setEnabled(has and not busy)
         if importlib.util.find_spec("contactplan.plan.drafter") is not None:
@@ -636,8 +663,11 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
     # ------------------------------------------------------------ navigation
     def goto_week(self) -> None:
         t0, _ = self.timeline.visible_tt()
-        text, ok = QInputDialog.getText(self, "Go to week", "First day (UTC), e.g. 2027-01-19 or 2027-019:",
-                                        text=format_utc(t0, 0)[:10])
+        from contactplan.app.models import day_of_year_on, utc_text
+
+        example = "2027-019" if day_of_year_on() else "2027-01-19"
+        text, ok = QInputDialog.getText(self, "Go to week", f"First day (UTC), e.g. {example}:",
+                                        text=utc_text(t0).split("T")[0])
         if ok and text.strip():
             try:
                 self.timeline.show_week(parse_utc(text))

@@ -201,11 +201,44 @@ class JobsMixin:
         sc = self.doc.scenario
         if sc is None:
             return
-        base = sc.path.parent if sc.path else Path(str(self.settings.value("last_dir", "")) or ".")
+        base = self.export_folder()
         stem = sc.path.stem if sc.path else "week"
         path, _ = QFileDialog.getSaveFileName(self, f"Export {what}", str(base / f"{stem}-{what}.{fmt}"), filt)
         if path:
             self.export_to(path, what)
+
+    def export_folder(self) -> Path:
+        """Where an export dialog starts: the last export's folder, else the scenario's, else the home
+        folder; never inside the installation (the bundled demo's folder)."""
+        from contactplan.paths import resource_dir
+
+        sc = self.doc.scenario
+        install = resource_dir().resolve()
+        for cand in (str(self.settings.value("export_dir", "") or ""),
+                     str(sc.path.parent) if sc is not None and sc.path else ""):
+            if cand and Path(cand).is_dir():
+                p = Path(cand).resolve()
+                if p != install and install not in p.parents:
+                    return p
+        return Path.home()
+
+    def _exported(self, path, line: str) -> None:
+        """The lasting status-bar line of the last export: its path and a button opening its folder."""
+        path = Path(path).resolve()
+        self.last_export = line
+        self.settings.setValue("export_dir", str(path.parent))
+        self.export_label.setText(f"Exported {path}")
+        self.export_label.setToolTip(line)
+        self.export_line.setVisible(True)
+        self.statusBar().showMessage(line, 10000)
+
+    def open_export_folder(self) -> bool:
+        """Show the last export's folder in the desktop's file manager."""
+        from PySide6.QtCore import QUrl
+        from PySide6.QtGui import QDesktopServices
+
+        text = self.export_label.text().removeprefix("Exported ")
+        return bool(text) and QDesktopServices.openUrl(QUrl.fromLocalFile(str(Path(text).parent)))
 
     def export_to(self, path, what: str | None = None) -> Job | None:
         """Write one export in the background; the status bar says what was written."""
@@ -228,8 +261,7 @@ class JobsMixin:
             return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
 
         def done(line):
-            self.last_export = line
-            self.statusBar().showMessage(line, 10000)
+            self._exported(path, line)
 
         return self.run_job("Export", fn, done)
 
