@@ -123,6 +123,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
                                                     max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
         self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
+        self.labels_drawn: dict = {}  # booking id -> QRectF of its id label in its last paint
+        self.badges_drawn: dict = {}  # subject -> (severity, QRectF of its badge) in the last paint
+        self.blocks_drawn: dict = {}  # booking id -> QRectF of its block in the last paint
+        self._labels_until: dict = {}
         self._marks_until: dict = {}
         self.setZValue(10)
 
@@ -219,10 +223,14 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 part = "body"
             else:
                 continue
-            best = (b, part)
             if part != "body":
-                break
-        return best if best else (None, None)
+                return b, part
+            # of overlapping bookings, the one drawn on top (painted by start: the latest start) is under
+            # the cursor; the selected one first, as it is the one being worked on
+            rank = (self.doc.selection.kind == "booking" and self.doc.selection.key == b.id, b.start_tt)
+            if best is None or rank >= best[2]:
+                best = (b, part, rank)
+        return (best[0], best[1]) if best else (None, None)
 
     def pass_at(self, x: float, y: float):
         st = self.station_of_lane(self.lane_of(y))

@@ -50,7 +50,23 @@ class SkyView(QWidget):
         self.margins_line = ""  # the margin per link shown under the title (last paint)
         doc.selectionChanged.connect(self._selection)
         doc.scenarioReplaced.connect(self.clear)
-        doc.resultChanged.connect(self.clear)
+        # the chart follows the selected booking when it moves, and new passes when they are computed
+        doc.resultChanged.connect(self.follow)
+        doc.bookingsChanged.connect(self.follow)
+        doc.recordsChanged.connect(self.follow)
+
+    def follow(self) -> None:
+        """Show again what the selection is on now (a moved booking, recomputed passes, an edited mask)."""
+        sel = self.doc.selection
+        if sel.kind == "pass" and self.doc.result is not None and not any(
+                p is sel.key for p in self.doc.passes_for(sel.key.station)):
+            self.clear()  # a pass of an older computation
+        elif sel.kind in ("pass", "booking"):
+            self._selection(sel)
+        elif self.pass_ is not None:
+            self.clear()
+        else:
+            self.update()
 
     def _selection(self, sel) -> None:
         if sel.kind == "pass":

@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, QTimer, Signal
-from PySide6.QtGui import QColor, QFont
+from PySide6.QtGui import QBrush, QColor, QFont
 
 from contactplan.app import theme
 from contactplan.app.document import NOTHING
@@ -242,13 +242,14 @@ class Timeline(pg.GraphicsLayoutWidget):
             x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
             a, b = (format_utc(t, 0)[5:16].replace("T", " ") for t in (t0, t1))
             text = f"full {a} to {b}: {lost:.1f} Gbit lost"
-            reg = pg.LinearRegionItem(values=(x0, x1), movable=False,
-                                      brush=th.overflow, pen=pg.mkPen(th.error, width=1))
+            reg = pg.LinearRegionItem(values=(x0, x1), movable=False,  # cross-hatched: read without colour
+                                      brush=QBrush(th.overflow, Qt.BrushStyle.DiagCrossPattern),
+                                      pen=pg.mkPen(th.capacity, width=1))
             reg.setToolTip(f"recorder {text}")
             self.rec_plot.addItem(reg, ignoreBounds=True)
             self.overflow_items.append(reg)
             # a second cue besides the shading: a thick bar on the capacity line, and the loss in words
-            bar = pg.PlotDataItem([x0, x1], [cap, cap], pen=pg.mkPen(th.error, width=5))
+            bar = pg.PlotDataItem([x0, x1], [cap, cap], pen=pg.mkPen(th.capacity, width=5))
             self.rec_plot.addItem(bar, ignoreBounds=True)
             self.overflow_items.append(bar)
             label = pg.TextItem(f"{lost:.1f} Gbit lost", color=th.foreground, anchor=(0, 0),

@@ -700,28 +700,32 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         def sw(c, style=""):
             return (f'<span style="background:{c.name()};{style}">&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;</span>')
 
+        from contactplan.app.theme import MARKS
+
         rows = [
             (sw(th.pass_low) + sw(th.pass_colour(0.5)) + sw(th.pass_high),
-             "pass; darker = higher rate (or elevation, View menu); black ticks = AOS and LOS"),
-            (sw(th.booking), "booking track (BOT to EOT); lighter, dotted ends: pre-pass and post-pass; "
+             "pass: " + MARKS["pass"] + " (darker = higher rate, or elevation: View menu)"),
+            (sw(th.booking), "booking: " + MARKS["booking"] + "; lighter, dotted ends: pre-pass and post-pass; "
                              "lettered boxes: its services (" + _marks_legend() + ")"),
-            (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
-            (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
-            (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
-            (sw(th.burn), "burn; green bar below: span that must be watched"),
-            (sw(th.slew), "slew"), (sw(th.other), "other activity"),
-            (sw(th.keepout), "keep-out: no downlink (shaded across every lane)"),
-            (sw(th.outage), "hatched: station out of service"),
+            (sw(th.booking_locked), "locked booking: " + MARKS["booking_locked"]),
+            (sw(th.error, "border:2px solid"), "error: " + MARKS["error"]),
+            (sw(th.warning, "border:2px dashed"), "warning: " + MARKS["warning"]),
+            (sw(th.burn), "burn: " + MARKS["burn"] + " (open triangle: momentum dump); green bar below: "
+                          "span that must be watched"),
+            (sw(th.slew), "slew: " + MARKS["slew"]), (sw(th.other), "other activity: " + MARKS["other"]),
+            (sw(th.keepout), "keep-out, no downlink: " + MARKS["keepout"]),
+            (sw(th.outage), "station out of service: " + MARKS["outage"]),
             (sw(th.foreground), "dark strip on top of the spacecraft lane: in the Earth's or Moon's shadow"),
             (sw(th.now, "border:2px dashed"), "dashed vertical line: now"),
             (sw(th.fill), "recorder fill; dashed line = capacity"),
-            (sw(th.overflow, "border:2px solid"), "recorder overflow: shaded span, thick bar on the capacity line, "
-                                                  "Gbit lost written at its start"),
+            (sw(th.overflow, "border:2px solid"), "recorder overflow: " + MARKS["overflow"] +
+                                                  ", Gbit lost written at its start"),
         ]
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
-                 "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Delete removes, double-click edits "
-                 "services. "
+                 "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Shift-drag draws an activity "
+                 "on the spacecraft lane or an outage on a station lane; right-click offers more. "
+                 "Delete removes, double-click edits services. "
                  "Arrows pan, +/- zoom, Page Up/Down or Alt+Left/Right change week, Ctrl+G goes to a given week, "
                  "Home shows the whole window.</p>")
         box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)
