@@ -120,6 +120,7 @@ def main() -> int:
         time.sleep(0.001)
     app.processEvents()
     win.ask = lambda *a, **k: None  # answer nothing: the proposal is measured, not applied
+    win.confirm_draft = lambda *a, **k: False
     state.update(last=None, phase="worker", worst=0.0, ticks=0)
     timer.start()
     t0 = time.perf_counter()

@@ -765,13 +765,15 @@ def test_draft_the_week_is_one_undo_step(win, demo_copy, demo_plan, qtbot):
     sc = _open_with(win, demo_copy, demo_plan)
     before = _bookings(sc)
     locked = [b.id for b in sc.bookings if b.locked]
-    win.answers = [B.Yes]
+    shown = []
+    win.confirm_draft = lambda text, details: shown.append((text, details)) or True
     assert win.draft_week() is not None
     _wait_job(win, qtbot, timeout=300_000)
-    assert win.asked and win.asked[-1][0] in ("Draft the week",)
-    summary = win.asked[-1][1]  # the drafter's summary comes before the question
-    assert "bookings added:" in summary and "station cost-hours:" in summary
-    assert "gap" in summary or "proven optimal" in summary
+    text, details = shown[-1]  # plain words first, the solver's terms behind Details
+    assert "Hours per station" in text and "Requirements:" in text and "gap" not in text
+    assert "bookings added:" in details and "station cost-hours:" in details
+    assert "gap" in details or "proven optimal" in details
+    assert sc.revision == load_scenario(demo_copy).revision + 1  # drafting raises the revision
     after = _bookings(sc)
     assert after != before
     assert all(any(b.id == i for b in sc.bookings) for i in locked)  # locked ones stay

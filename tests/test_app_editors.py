@@ -615,3 +615,58 @@ def test_one_day_of_year_switch_is_remembered_and_reaches_tables_axes_editors_an
     win.act_doy.setChecked(False)
     assert win.timeline.top_axis.tickStrings([24.0], 1, 1) == ["Wed 03-03"]
     assert win.bookings_model.index(0, 2).data() == "2027-03-02T10:00:00Z"
+
+
+# ---------------------------------------------------------------- drafting from the planner
+def test_draft_dialog_defaults_to_the_window_and_tells_the_result_in_plain_words(planner, qtbot, tmp_path):
+    from contactplan.plan.pipeline import compute_plan
+
+    win = planner
+    doc = win.doc
+    sc = doc.scenario
+    doc.set_result(compute_plan(sc), revision=doc.revision)
+    page = win.show_settings().pages["requirements"]
+    page.form.widgets["contact_per_day_min_h"].setText("4")  # something to draft for
+    assert page.apply()
+    doc.wait_checked()
+    win.timeline.zoom_to(sc.start_tt + 3600.0, sc.start_tt + 7200.0)  # the view is not what is drafted
+    seen = {}
+
+    def fill(dlg):
+        seen["span"] = (dlg.start.text(), dlg.end.text())
+        seen["minimal"] = dlg.minimal.isEnabled()
+        dlg.time_limit.setText("-1")
+        dlg.accept()
+        assert dlg.error.text() == "Time limit: give a positive number of seconds"
+        dlg.time_limit.setText("20")
+        dlg.recorder.setValue(90)
+        dlg.accept()
+        return dlg.result() == dlg.DialogCode.Accepted
+
+    shown = []
+    win.run_dialog = fill
+    win.confirm_draft = lambda text, details: shown.append((text, details)) or True
+    job = win.draft_dialog()
+    assert job is not None and win.progress.isVisible() and win.cancel_btn.isVisible()
+    qtbot.waitUntil(lambda: not job.running, timeout=60_000)
+    qtbot.wait(10)
+    assert seen["span"] == ("2027-03-02T00:00:00Z", "2027-03-05T00:00:00Z")  # the scenario's window
+    from contactplan.app.draftdialog import drafter_takes
+
+    assert seen["minimal"] == drafter_takes("minimal_change")
+    assert win.draft_options.recorder_limit == 0.9 and win.draft_options.time_limit_s == 20
+    text, details = shown[-1]
+    assert "Hours per station (locked and kept bookings included):" in text
+    assert "    HLM (Hollow Meadow): " in text
+    assert "    met: every booking at most 10 h" in text and "    met: contact each day at least 4 h" in text
+    assert "request HLM" in text and "release HLM 2027-03-02T10:00:00Z to 2027-03-02T14:00:00Z (B001)" in text
+    for solver_word in ("optimal", "gap", "cost-hours", "candidates"):
+        assert solver_word not in text
+    assert "station cost-hours:" in details
+    dr = win.last_draft
+    assert sc.revision == 1 and {b.id for b in sc.bookings} == {b.id for b in dr.bookings}
+    doc.undo_stack.undo()
+    assert sc.revision == 0 and [b.id for b in sc.bookings] == ["B001"]
+    doc.undo_stack.redo()
+    back = _saved_and_read(doc, tmp_path)
+    assert back.revision == 1 and sorted(b.id for b in back.bookings) == sorted(b.id for b in dr.bookings)

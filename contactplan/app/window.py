@@ -249,8 +249,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.act_now = self._act("Go to &now", self.goto_now, "Ctrl+T", "now")
         self.act_compute = self._act("&Compute passes", self.compute, K.Refresh, "revalidate",
                                      "Predict passes, link and recorder again")
-        self.act_draft = self._act("&Draft the week...", self.draft_week, "Ctrl+D", "draft",
-                                   "Propose bookings that meet every requirement")
+        self.act_draft = self._act("&Draft...", self.draft_dialog, "Ctrl+D", "draft",
+                                   "Propose bookings that meet every requirement (choose the span and limits)")
         if importlib.util.find_spec("contactplan.plan.drafter") is None:
             self.act_draft.setEnabled(False)
             self.act_draft.setToolTip("The drafter is not part of this build")
