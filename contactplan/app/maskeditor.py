@@ -102,10 +102,14 @@ class MaskPlot(QWidget):
         pts = [pt for pt in self.points if 0.0 <= pt[0] < 360.0]
         paint_mask(p, geo, SimpleNamespace(horizon_mask=sorted(pts), min_elevation_deg=self.min_elevation_deg), th)
         paint_grid(p, geo, th)
-        if self.points:
+        if pts:  # the mask as the planner reads it: interpolated in azimuth, all round
+            from contactplan.geometry.mask import mask_elevation_deg
+
+            az = np.arange(0.0, 360.5, 1.0)
+            el = mask_elevation_deg(sorted(pts), az)  # the engine's own interpolation
             p.setPen(QPen(th.foreground, 1.5))
-            ring = self.points + [self.points[0]]
-            p.drawPolyline(QPolygonF([QPointF(*geo.xy(a, e)) for a, e in ring]))
+            p.drawPolyline(QPolygonF([QPointF(*geo.xy(a, e)) for a, e in zip(az, el)]))
+        if self.points:
             for i, (a, e) in enumerate(self.points):
                 x, y = geo.xy(a, e)
                 p.setBrush(th.selection if i == self.dragging else th.background)
