@@ -58,3 +58,37 @@ services = ["telemetry", "playback"]
 [requirements]
 booking_max_h = 10.0
 """
+
+
+def planner_window(qtbot, tmp_path, monkeypatch, passes: bool = False):
+    """The main window at its default size on a copy of :data:`SCENARIO` in ``tmp_path``.
+
+    Passes are not computed in the background (``compute`` is a no-op); with ``passes`` they
+    are computed here once (a few milliseconds on the cached built-in orbit). Closing drops edits.
+    """
+    from PySide6.QtCore import QSettings
+    from PySide6.QtWidgets import QApplication, QMessageBox
+
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+    from contactplan.scenario import load_scenario
+
+    path = tmp_path / "week.toml"
+    path.write_text(SCENARIO, "utf-8")
+    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
+    w = MainWindow(settings=settings, autosaver=Autosaver(tmp_path / "autosave"))
+    monkeypatch.setattr(w, "compute", lambda *a, **k: None)
+    monkeypatch.setattr(w, "ask", lambda *a, **k: QMessageBox.StandardButton.Discard)
+    qtbot.addWidget(w)
+    w.resize(1400, 880)
+    w.show()
+    if passes:
+        from contactplan.plan.pipeline import compute_plan
+
+        sc = load_scenario(path)
+        w.set_scenario(sc, result=compute_plan(sc))
+    else:
+        assert w.open_path(path, compute=False)
+    w.doc.wait_checked()
+    QApplication.processEvents()
+    return w

@@ -15,7 +15,7 @@ pytest.importorskip("pyqtgraph")
 from PySide6.QtCore import QPoint, Qt  # noqa: E402
 
 from contactplan.scenario import load_scenario, save_scenario  # noqa: E402
-from editor_scenario import SCENARIO  # noqa: E402
+from editor_scenario import SCENARIO, planner_window  # noqa: E402
 
 
 @pytest.fixture
@@ -231,22 +231,7 @@ def test_mask_text_parser_takes_what_spreadsheets_give():
 @pytest.fixture
 def planner(qtbot, tmp_path, monkeypatch):
     """The main window on the small scenario, passes not computed (the lanes and editors only)."""
-    from PySide6.QtCore import QSettings
-
-    from contactplan.app.autosave import Autosaver
-    from contactplan.app.window import MainWindow
-
-    path = tmp_path / "week.toml"
-    path.write_text(SCENARIO, "utf-8")
-    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
-    w = MainWindow(settings=settings, autosaver=Autosaver(tmp_path / "autosave"))
-    monkeypatch.setattr(w, "compute", lambda *a, **k: None)
-    monkeypatch.setattr(w, "ask", lambda *a, **k: QMessageBox.StandardButton.Discard)
-    qtbot.addWidget(w)
-    w.resize(1400, 880)
-    w.show()
-    assert w.open_path(path, compute=False)
-    w.doc.wait_checked()
+    w = planner_window(qtbot, tmp_path, monkeypatch)
     yield w
     w.doc.undo_stack.setClean()
     w.cancel_job(wait=True)

@@ -16,7 +16,7 @@ pytest.importorskip("pyqtgraph")
 
 from PySide6.QtWidgets import QApplication  # noqa: E402
 
-from editor_scenario import SCENARIO  # noqa: E402
+from editor_scenario import planner_window  # noqa: E402
 
 # Colour-vision deficiency simulation, Machado, Oliveira & Fernandes (2009), "A physiologically-based
 # model for simulation of color vision deficiency", IEEE TVCG 15(6); severity 1.0 matrices, applied to
@@ -69,28 +69,7 @@ def test_the_six_kinds_that_were_all_orange_stay_apart_with_colour_vision_defici
 
 @pytest.fixture
 def planned(qtbot, tmp_path, monkeypatch):
-    from PySide6.QtCore import QSettings
-
-    from contactplan.app.autosave import Autosaver
-    from contactplan.app.window import MainWindow
-    from contactplan.plan.pipeline import compute_plan
-    from contactplan.scenario import load_scenario
-
-    path = tmp_path / "week.toml"
-    path.write_text(SCENARIO, "utf-8")
-    settings = QSettings(str(tmp_path / "settings.ini"), QSettings.Format.IniFormat)
-    w = MainWindow(settings=settings, autosaver=Autosaver(tmp_path / "autosave"))
-    monkeypatch.setattr(w, "compute", lambda *a, **k: None)
-    from PySide6.QtWidgets import QMessageBox
-
-    monkeypatch.setattr(w, "ask", lambda *a, **k: QMessageBox.StandardButton.Discard)  # closing: drop edits
-    qtbot.addWidget(w)
-    w.resize(1400, 880)
-    w.show()
-    sc = load_scenario(path)
-    w.set_scenario(sc, result=compute_plan(sc))
-    w.doc.wait_checked()
-    QApplication.processEvents()
+    w = planner_window(qtbot, tmp_path, monkeypatch, passes=True)
     yield w
     w.doc.undo_stack.setClean()
     w.doc.wait_checked()

@@ -13,7 +13,7 @@ import re
 from dataclasses import dataclass
 
 from PySide6.QtCore import Signal
-from PySide6.QtWidgets import QCheckBox, QComboBox, QFormLayout, QHBoxLayout, QLineEdit, QWidget
+from PySide6.QtWidgets import QCheckBox, QComboBox, QFormLayout, QHBoxLayout, QLabel, QLineEdit, QPushButton, QWidget
 
 _INT = re.compile(r"^[+-]?\d+$")
 
@@ -167,3 +167,21 @@ class TableForm(QWidget):
                 value = [parse_number(x) for x in re.split(r"[,;\s]+", value) if x]
             out[k.key] = value
         return out
+
+
+def apply_row(layout, on_apply, on_revert):
+    """The foot of an editor: the error line, then Revert and Apply on the right; returns the three widgets."""
+    error = QLabel("")
+    error.setWordWrap(True)
+    layout.addWidget(error)
+    row = QHBoxLayout()
+    row.addStretch(1)
+    revert = QPushButton("Revert")
+    revert.clicked.connect(on_revert)
+    apply = QPushButton("Apply")
+    apply.clicked.connect(on_apply)
+    row.addWidget(revert)
+    row.addWidget(apply)
+    layout.addLayout(row)
+    layout.addStretch(1)
+    return error, apply, revert

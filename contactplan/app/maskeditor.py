@@ -13,12 +13,12 @@ from types import SimpleNamespace
 
 import numpy as np
 from PySide6.QtCore import QPointF, Qt, Signal
-from PySide6.QtGui import QGuiApplication, QKeySequence, QPainter, QPen, QPolygonF
+from PySide6.QtGui import QGuiApplication, QKeySequence, QPen, QPolygonF
 from PySide6.QtWidgets import (QDialog, QDialogButtonBox, QFileDialog, QHBoxLayout, QLabel, QPushButton,
                                QTableWidget, QTableWidgetItem, QVBoxLayout, QWidget)
 
 from contactplan.app import theme
-from contactplan.app.skyview import Polar, paint_grid, paint_mask
+from contactplan.app.skyview import Polar, chart_painter, paint_grid, paint_mask
 from contactplan.errors import InputError
 
 GRAB_PX = 8.0
@@ -94,10 +94,7 @@ class MaskPlot(QWidget):
         self.dragging = None
 
     def paintEvent(self, _ev):
-        th = theme.current()
-        p = QPainter(self)
-        p.setRenderHint(QPainter.RenderHint.Antialiasing)
-        p.fillRect(self.rect(), th.background)
+        p, th = chart_painter(self)
         geo = self.polar()
         pts = [pt for pt in self.points if 0.0 <= pt[0] < 360.0]
         paint_mask(p, geo, SimpleNamespace(horizon_mask=sorted(pts), min_elevation_deg=self.min_elevation_deg), th)
@@ -231,8 +228,12 @@ class MaskEditor(QDialog):
 
         if text is None:
             text = QGuiApplication.clipboard().text()
+        return self._take(lambda: parse_mask_text(text, "pasted text"))
+
+    def _take(self, read) -> bool:
+        """Points from ``read()`` in place of the table's, sorted by azimuth; False (and the line) when refused."""
         try:
-            pts = parse_mask_text(text, "pasted text")
+            pts = read()
         except InputError as exc:
             self.error.setText(str(exc))
             return False
@@ -248,14 +249,7 @@ class MaskEditor(QDialog):
     def import_csv(self, path) -> bool:
         from contactplan.io.mask_text import read_mask_csv
 
-        try:
-            pts = read_mask_csv(path)
-        except InputError as exc:
-            self.error.setText(str(exc))
-            return False
-        self.error.setText("")
-        self.set_points(sorted(pts, key=lambda p: p[0]))
-        return True
+        return self._take(lambda: read_mask_csv(path))
 
     def accept(self) -> None:
         if self.validate is not None:

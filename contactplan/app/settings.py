@@ -14,7 +14,7 @@ from PySide6.QtWidgets import (QCheckBox, QDialog, QDialogButtonBox, QHBoxLayout
                                QPushButton, QTabWidget, QVBoxLayout, QWidget)
 
 from contactplan.app import records, theme
-from contactplan.app.forms import Key, TableForm
+from contactplan.app.forms import Key, TableForm, apply_row
 from contactplan.errors import InputError
 from contactplan.scenario.model import DIRECTIONS, SERVICES
 from contactplan.scenario.orbit_determination import OrbitDetermination
@@ -96,19 +96,7 @@ class SectionPage(QWidget):
         self.form = TableForm(keys)
         self.form.applyRequested.connect(self.apply)
         lay.addWidget(self.form)
-        self.error = QLabel("")
-        self.error.setWordWrap(True)
-        lay.addWidget(self.error)
-        row = QHBoxLayout()
-        row.addStretch(1)
-        self.revert_btn = QPushButton("Revert")
-        self.revert_btn.clicked.connect(self.reload)
-        self.apply_btn = QPushButton("Apply")
-        self.apply_btn.clicked.connect(self.apply)
-        row.addWidget(self.revert_btn)
-        row.addWidget(self.apply_btn)
-        lay.addLayout(row)
-        lay.addStretch(1)
+        self.error, self.apply_btn, self.revert_btn = apply_row(lay, self.apply, self.reload)
 
     # what the section is in the scenario, and where it goes
     def record(self):
@@ -185,19 +173,7 @@ class LinksPage(QWidget):
         self.form.applyRequested.connect(self.apply)
         self.form.widgets["direction"].currentTextChanged.connect(self._direction)
         right.addWidget(self.form)
-        self.error = QLabel("")
-        self.error.setWordWrap(True)
-        right.addWidget(self.error)
-        row = QHBoxLayout()
-        row.addStretch(1)
-        self.revert_btn = QPushButton("Revert")
-        self.revert_btn.clicked.connect(self.reload)
-        self.apply_btn = QPushButton("Apply")
-        self.apply_btn.clicked.connect(self.apply)
-        row.addWidget(self.revert_btn)
-        row.addWidget(self.apply_btn)
-        right.addLayout(row)
-        right.addStretch(1)
+        self.error, self.apply_btn, self.revert_btn = apply_row(right, self.apply, self.reload)
         lay.addLayout(right, 2)
 
     def link(self):

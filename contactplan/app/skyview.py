@@ -125,10 +125,7 @@ class SkyView(QWidget):
         return st
 
     def paintEvent(self, _ev):
-        th = theme.current()
-        p = QPainter(self)
-        p.setRenderHint(QPainter.RenderHint.Antialiasing)
-        p.fillRect(self.rect(), th.background)
+        p, th = chart_painter(self)
         geo = self.polar()
         if geo is None:
             return
@@ -191,6 +188,15 @@ class Polar:
         az = float(np.degrees(np.arctan2(dx, dy)) % 360.0)
         el = 90.0 - 90.0 * float(np.hypot(dx, dy)) / max(self.radius, 1e-9)
         return az, min(90.0, max(-5.0, el))
+
+
+def chart_painter(widget) -> tuple:
+    """(a QPainter on ``widget`` with its background filled, the theme) for a sky chart."""
+    th = theme.current()
+    p = QPainter(widget)
+    p.setRenderHint(QPainter.RenderHint.Antialiasing)
+    p.fillRect(widget.rect(), th.background)
+    return p, th
 
 
 def mask_limit_deg(st, az):

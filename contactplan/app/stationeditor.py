@@ -16,7 +16,7 @@ from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QHeaderView, QLabel, QPus
 
 from contactplan.app import records, theme
 from contactplan.app.document import Selection
-from contactplan.app.forms import Key, TableForm, number_text, parse_number, time_text
+from contactplan.app.forms import Key, TableForm, apply_row, number_text, parse_number, time_text
 from contactplan.errors import InputError
 
 STATION_KEYS = (
@@ -103,20 +103,7 @@ class StationEditor(QWidget):
         self.outages.verticalHeader().setVisible(False)
         self.outages.horizontalHeader().setStretchLastSection(True)
         lay.addWidget(self.outages)
-        self.error = QLabel("")
-        self.error.setWordWrap(True)
-        lay.addWidget(self.error)
-        row = QHBoxLayout()
-        row.addStretch(1)
-        self.revert_btn = QPushButton("Revert")
-        self.revert_btn.clicked.connect(self.reload)
-        self.apply_btn = QPushButton("Apply")
-        self.apply_btn.setDefault(True)
-        self.apply_btn.clicked.connect(self.apply)
-        row.addWidget(self.revert_btn)
-        row.addWidget(self.apply_btn)
-        lay.addLayout(row)
-        lay.addStretch(1)
+        self.error, self.apply_btn, self.revert_btn = apply_row(lay, self.apply, self.reload)
         doc.scenarioReplaced.connect(self._scenario_replaced)
         doc.recordsChanged.connect(self.reload)
         doc.selectionChanged.connect(self._selection)
