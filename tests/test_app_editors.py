@@ -655,3 +655,56 @@ def test_draft_dialog_defaults_to_the_window_and_tells_the_result_in_plain_words
     doc.undo_stack.redo()
     back = _saved_and_read(doc, tmp_path)
     assert back.revision == 1 and sorted(b.id for b in back.bookings) == sorted(b.id for b in dr.bookings)
+
+
+def test_busy_times_imported_from_icalendar_and_csv(doc, qtbot, tmp_path):
+    import datetime as dt
+
+    import icalendar  # an independent writer of the calendar (RFC 5545)
+
+    from contactplan.app.stationeditor import StationEditor
+    from contactplan.timescale import parse_utc
+
+    cal = icalendar.Calendar()
+    cal.add("prodid", "-//test//busy//EN")
+    cal.add("version", "2.0")
+    ev = icalendar.Event()
+    ev.add("uid", "a@test")
+    ev.add("summary", "feed swap")
+    from zoneinfo import ZoneInfo
+
+    berlin = ZoneInfo("Europe/Berlin")  # UTC+1 in early March (IANA time zone database)
+    ev.add("dtstart", dt.datetime(2027, 3, 3, 9, 0, tzinfo=berlin))  # 08:00 UTC
+    ev.add("dtend", dt.datetime(2027, 3, 3, 11, 30, tzinfo=berlin))
+    cal.add_component(ev)
+    ev = icalendar.Event()
+    ev.add("uid", "b@test")
+    ev.add("summary", "other user")
+    ev.add("dtstart", dt.datetime(2027, 3, 4, 1, 0, tzinfo=dt.timezone.utc))
+    ev.add("duration", dt.timedelta(hours=3))
+    cal.add_component(ev)
+    ics = tmp_path / "busy.ics"
+    ics.write_bytes(cal.to_ical())
+    ed = StationEditor(doc)
+    qtbot.addWidget(ed)
+    st = doc.scenario.station("HLM")
+    assert ed.import_outages(ics)
+    assert [(o.start_tt, o.end_tt, o.reason) for o in st.outages] == [
+        (parse_utc("2027-03-03T08:00:00Z"), parse_utc("2027-03-03T10:30:00Z"), "feed swap"),
+        (parse_utc("2027-03-04T01:00:00Z"), parse_utc("2027-03-04T04:00:00Z"), "other user")]
+    rows = tmp_path / "busy.csv"
+    rows.write_text("start,end,reason\n2027-062T20:00:00Z,2027-03-03T21:00:00Z,test, with comma\n", "utf-8")
+    assert ed.import_outages(rows)
+    assert len(st.outages) == 3 and st.outages[2].reason == "test, with comma"
+    rows.write_text("2027-03-03T20:00:00Z,2027-03-03T19:00:00Z\n", "utf-8")  # ends before it starts
+    assert not ed.import_outages(rows)
+    assert ed.error.text() == "stations[HLM].outages[#4].end: outage ends before it starts"
+    doc.undo_stack.undo()
+    doc.undo_stack.undo()
+    assert st.outages == []
+    bad = tmp_path / "bad.ics"  # a zone the reader cannot resolve is refused, not read as UTC
+    bad.write_text("BEGIN:VCALENDAR\r\nBEGIN:VEVENT\r\nDTSTART;TZID=Somewhere:20270303T100000\r\n"
+                   "DTEND;TZID=Somewhere:20270303T110000\r\nEND:VEVENT\r\nEND:VCALENDAR\r\n", "utf-8")
+    assert not ed.import_outages(bad)
+    assert ed.error.text() == (f"{bad}: event 1: time zone 'Somewhere' is not known; give UTC times or a zone "
+                               "name such as Europe/Madrid")

@@ -95,8 +95,12 @@ class StationEditor(QWidget):
         self.add_outage_btn.clicked.connect(self.add_outage_row)
         self.del_outage_btn = QPushButton("Remove outage")
         self.del_outage_btn.clicked.connect(self.remove_outage_row)
+        self.import_outages_btn = QPushButton("Import...")
+        self.import_outages_btn.setToolTip("Busy times from an iCalendar (.ics) or CSV file (start, end, reason)")
+        self.import_outages_btn.clicked.connect(self.import_outages_dialog)
         orow.addWidget(self.add_outage_btn)
         orow.addWidget(self.del_outage_btn)
+        orow.addWidget(self.import_outages_btn)
         lay.addLayout(orow)
         self.outages = QTableWidget(0, 3)
         self.outages.setHorizontalHeaderLabels(["Start (UTC)", "End (UTC)", "Reason"])
@@ -164,7 +168,7 @@ class StationEditor(QWidget):
         self._fill_picker()
         has = st is not None
         for w in (self.form, self.mask_btn, self.services, self.outages, self.apply_btn, self.revert_btn,
-                  self.dup_btn, self.del_btn, self.add_outage_btn, self.del_outage_btn):
+                  self.dup_btn, self.del_btn, self.add_outage_btn, self.del_outage_btn, self.import_outages_btn):
             w.setEnabled(has)
         self.new_btn.setEnabled(sc is not None)
         if not has:
@@ -347,6 +351,36 @@ class StationEditor(QWidget):
                      stale=True, bookings=bool(gone))
         self.station_id = None
         self.reload()
+
+    def import_outages_dialog(self) -> None:
+        from PySide6.QtWidgets import QFileDialog
+
+        path, _ = QFileDialog.getOpenFileName(self, "Import busy times", "",
+                                              "Calendars and tables (*.ics *.csv *.txt);;All files (*)")
+        if path:
+            self.import_outages(path)
+
+    def import_outages(self, path) -> bool:
+        """Add the busy times of an iCalendar or CSV file to the station's outages (one undo step)."""
+        from contactplan.io.busy_times import read_busy_times
+
+        st = self.station()
+        if st is None:
+            return False
+        try:
+            rows = read_busy_times(path)
+            d = records.station_table(st)
+            d["outages"] = list(d.get("outages", [])) + rows
+            new = self.validated(d)
+        except (InputError, ValueError) as exc:
+            self.error.setText(records.message(exc))
+            return False
+        from pathlib import Path
+
+        records.push(self.doc, f"Import {len(rows)} outage(s) at {st.id} from {Path(path).name}",
+                     [(st, {"outages": new.outages})])
+        self.reload()
+        return True
 
     # ------------------------------------------------------------ mask
     def edit_mask(self) -> bool:
