@@ -178,17 +178,21 @@ class StationEditor(QWidget):
             self.services.setRowCount(0)
             self.outages.setRowCount(0)
             return
-        table = records.station_table(st)
-        self.form.show_table(table)
-        self.mask = [list(p) for p in st.horizon_mask]
+        from contactplan.scenario.save import encode
+
+        self.form.show_table(encode(st, skip={"services", "horizon_mask"}))  # (a long mask is not copied)
+        self.mask = st.horizon_mask  # read only here: the mask editor and Apply make new lists
         self._mask_text()
         self._fill_services(st)
         self._fill_outages(st)
 
     def _mask_text(self) -> None:
         n = len(self.mask)
-        self.mask_label.setText("none" if not n else f"{n} point{'s' if n != 1 else ''}, highest "
-                                f"{max(e for _a, e in self.mask):g} deg")
+        if n:
+            import numpy as np
+
+            top = float(np.max(np.asarray(self.mask, dtype=float)[:, 1]))
+        self.mask_label.setText("none" if not n else f"{n} point{'s' if n != 1 else ''}, highest {top:g} deg")
 
     def _fill_services(self, st) -> None:
         links = self.doc.scenario.spacecraft.links

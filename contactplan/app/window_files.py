@@ -145,7 +145,8 @@ class FilesMixin:
         sc = self.doc.scenario
         if sc is None:
             return False
-        start = str(sc.path) if sc.path else str(Path(str(self.settings.value("last_dir", ""))) / "week.toml")
+        folder = str(self.settings.value("last_dir", "") or "") or str(Path.home())  # (never the installation)
+        start = str(sc.path) if sc.path else str(Path(folder) / "week.toml")
         path, _ = QFileDialog.getSaveFileName(self, "Save scenario as", start, "Scenarios (*.toml)")
         if not path:
             return False
