@@ -31,6 +31,13 @@ def utc_text(tt):
     return format_utc(tt, 0, doy=_DOY["on"])
 
 
+def short_text(tt) -> str:
+    """A time without its year and seconds, in the switch's form: ``01-12 19:05`` or ``012 19:05``."""
+    text = utc_text(tt)  # 2027-01-12T19:05:00Z or 2027-012T19:05:00Z
+    day, _, clock = text.partition("T")
+    return f"{day[5:]} {clock[:5]}"
+
+
 def hours_text(seconds: float) -> str:
     """Duration as ``H:MM`` (rounded to the minute)."""
     m = int(round(seconds / 60.0))

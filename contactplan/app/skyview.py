@@ -14,7 +14,6 @@ from PySide6.QtGui import QFont, QPainter, QPainterPath, QPen, QPolygonF
 from PySide6.QtWidgets import QSizePolicy, QWidget
 
 from contactplan.app import theme
-from contactplan.timescale import format_utc
 
 
 def pass_track(pass_, station, ephemeris, samples: int = 181):
@@ -140,7 +139,9 @@ class SkyView(QWidget):
                        "Select a pass or booking to see its track")
             return
         q = self.pass_
-        title = (f"{q.station}  {format_utc(q.aos_tt, 0)[5:16]} - {format_utc(q.los_tt, 0)[5:16]}  "
+        from contactplan.app.models import short_text
+
+        title = (f"{q.station}  {short_text(q.aos_tt)} - {short_text(q.los_tt)}  "
                  f"max {q.max_elevation_deg:.1f} deg")
         p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter), title)
         self.margins_line = self.margins_for(q)

@@ -20,7 +20,8 @@ from contactplan.app.document import NOTHING
 from contactplan.app.lanes import (EDGE_PX, GRID_S, MIN_BOOKING_S, SNAP_PX, WEEK_S, Drag, LanesCanvas,  # noqa: F401
                                    LanesViewBox)
 from contactplan.app.timeaxis import LaneAxis, TimeAxis, _weekday  # noqa: F401
-from contactplan.timescale import format_utc, now_tt, utc_day_start
+from contactplan.app.models import short_text
+from contactplan.timescale import now_tt, utc_day_start
 
 
 class Timeline(pg.GraphicsLayoutWidget):
@@ -240,7 +241,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.overflow_texts = []
         for (t0, t1, lost) in rec.overflow_spans or []:
             x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
-            a, b = (format_utc(t, 0)[5:16].replace("T", " ") for t in (t0, t1))
+            a, b = (short_text(t) for t in (t0, t1))
             text = f"full {a} to {b}: {lost:.1f} Gbit lost"
             reg = pg.LinearRegionItem(values=(x0, x1), movable=False,  # cross-hatched: read without colour
                                       brush=QBrush(th.overflow, Qt.BrushStyle.DiagCrossPattern),

@@ -11,7 +11,7 @@ from PySide6.QtWidgets import QFileDialog, QMessageBox
 from contactplan.app.models import utc_text
 from contactplan.app.worker import Job
 from contactplan.errors import InputError
-from contactplan.timescale import DAY_S, format_utc
+from contactplan.timescale import DAY_S
 
 log = logging.getLogger("contactplan.app")
 
@@ -313,7 +313,7 @@ class FilesMixin:
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
             self.statusBar().showMessage(
-                f"{Path(path).name} covers {format_utc(eph.start_tt, 0)} to {format_utc(eph.end_tt, 0)} only: "
+                f"{Path(path).name} covers {utc_text(eph.start_tt)} to {utc_text(eph.end_tt)} only: "
                 "passes outside it cannot be predicted", 10000)
         spec = EphemerisSpec(kind="oem", oem_path=Path(path).resolve())
         self.doc.undo_stack.push(SetEphemeris(self, spec, f"Fly {Path(path).name}"))

@@ -10,7 +10,6 @@ from PySide6.QtWidgets import QFileDialog, QMessageBox
 
 from contactplan.app.models import PassTable
 from contactplan.app.worker import Job
-from contactplan.timescale import format_utc
 
 #: export menu: (what, format, label, extension filter)
 EXPORTS = (
@@ -309,7 +308,9 @@ def revalidation_lines(rv, name: str, limit: int = 14) -> list:
     def shift(v):
         return "-" if v is None else f"{v:+.0f} s"
 
-    lines = [f"{name}: compared {format_utc(rv.start_tt, 0)} to {format_utc(rv.end_tt, 0)}.",
+    from contactplan.app.models import utc_text
+
+    lines = [f"{name}: compared {utc_text(rv.start_tt)} to {utc_text(rv.end_tt)}.",
              f"{len(rv.broken)} booking(s) now break a rule; {len(rv.appeared)} new finding(s), "
              f"{len(rv.resolved)} resolved."]
     for b in rv.bookings[:limit]:
