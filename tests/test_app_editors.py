@@ -597,9 +597,16 @@ def test_one_day_of_year_switch_is_remembered_and_reaches_tables_axes_editors_an
                         staticmethod(lambda *a, **k: (prompts.append((a[2], k["text"])), ("", False))[1]))
     win.goto_week()
     assert "2027-019" in prompts[-1][0] and prompts[-1][1].startswith("2027-0")
+    from contactplan.app.autosave import Autosaver
+    from contactplan.app.window import MainWindow
+
+    again = MainWindow(settings=win.settings, autosaver=Autosaver(win.autosaver.folder))  # remembered
+    qtbot.addWidget(again)
+    assert again.act_doy.isChecked()
     win.act_doy.setChecked(False)
     assert win.timeline.top_axis.tickStrings([24.0], 1, 1) == ["Wed 03-03"]
     assert win.bookings_model.index(0, 2).data() == "2027-03-02T10:00:00Z"
+    assert win.sky.doc is win.doc
 
 
 # ---------------------------------------------------------------- drafting from the planner
@@ -655,6 +662,29 @@ def test_draft_dialog_defaults_to_the_window_and_tells_the_result_in_plain_words
     doc.undo_stack.redo()
     back = _saved_and_read(doc, tmp_path)
     assert back.revision == 1 and sorted(b.id for b in back.bookings) == sorted(b.id for b in dr.bookings)
+
+
+def test_busy_times_csv_reader_takes_what_it_is_given():
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    from contactplan.io.busy_times import read_csv_rows
+
+    times = st.integers(0, 364 * 86400).map(lambda s: f"2027-{1 + s // 86400:03d}T{s % 86400 // 3600:02d}:00:00Z")
+    reasons = st.text(st.characters(whitelist_categories=("L", "N"), whitelist_characters=" -,"), max_size=20)
+
+    @settings(max_examples=40, deadline=None)
+    @given(st.lists(st.tuples(times, times, reasons), min_size=1, max_size=8))
+    def round_trip(rows):
+        import csv
+        import io
+
+        buf = io.StringIO()
+        csv.writer(buf).writerows([("start", "end", "reason")] + rows)  # the standard library's CSV writer
+        got = read_csv_rows("x.csv", buf.getvalue())
+        assert [(r["start"], r["end"], r["reason"]) for r in got] == [(a, b, c.strip()) for a, b, c in rows]
+
+    round_trip()
 
 
 def test_busy_times_imported_from_icalendar_and_csv(doc, qtbot, tmp_path):

@@ -165,7 +165,8 @@ class PropertyEditor(QWidget):
         gives = offered(self.doc.scenario, s.id)
         self.form.addRow("Gives", QLabel(", ".join(x for x in SERVICES if x in gives) or "no services"))
         self.form.addRow("Cost per hour", self.fields["cost_per_hour"])
-        self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes."))
+        self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes.\n"
+                                    "Every key, services, mask and outages: the Stations panel."))
 
     def _build_activity(self, a) -> None:
         self.title.setText(f"Activity {a.id} ({a.kind})")
