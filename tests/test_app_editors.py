@@ -555,7 +555,7 @@ def test_the_bundled_demo_opens_as_a_copy_and_save_asks_where(planner, qtbot, tm
     assert str(demo_scenario().resolve()) not in win.recent_files()
 
 
-def test_exports_start_in_the_last_export_folder_and_leave_a_lasting_line(planner, qtbot, tmp_path):
+def test_exports_start_in_the_last_export_folder_and_leave_a_lasting_line(planner, qtbot, tmp_path, monkeypatch):
     from contactplan.paths import resource_dir
 
     win = planner
@@ -575,6 +575,12 @@ def test_exports_start_in_the_last_export_folder_and_leave_a_lasting_line(planne
     assert win.export_line.isVisible()  # lasting: temporary messages do not take it away
     assert win.export_folder() == out_dir.resolve()
     assert win.export_open_btn.text() == "Open folder"
+    from PySide6.QtGui import QDesktopServices
+
+    opened = []
+    monkeypatch.setattr(QDesktopServices, "openUrl", staticmethod(lambda url: opened.append(url.toLocalFile()) or True))
+    win.export_open_btn.click()
+    assert opened == [str(out_dir.resolve())]
 
 
 def test_one_day_of_year_switch_is_remembered_and_reaches_tables_axes_editors_and_dialogs(planner, qtbot,

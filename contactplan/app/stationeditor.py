@@ -52,11 +52,12 @@ class StationEditor(QWidget):
         self.station_id: str | None = None
         self.mask: list = []
         lay = QVBoxLayout(self)
-        top = QHBoxLayout()
         self.picker = QComboBox()
         self.picker.setToolTip("the station shown below")
         self.picker.currentIndexChanged.connect(self._picked)
-        top.addWidget(self.picker, 1)
+        lay.addWidget(self.picker)
+        top = QHBoxLayout()
+        top.addStretch(1)
         self.new_btn = QPushButton("New")
         self.new_btn.setToolTip("Add a station (then fill in where it is and what it receives)")
         self.new_btn.clicked.connect(self.add_station)
