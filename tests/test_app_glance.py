@@ -170,3 +170,13 @@ def test_dragging_where_two_bookings_overlap_moves_the_one_under_the_cursor(plan
     d = c.begin_drag(x, lane)
     assert d.booking.id == a
     c.drag = None
+
+
+def test_the_legend_names_the_shape_of_every_element_kind(planned):
+    from contactplan.app.theme import MARKS
+
+    planned.legend()
+    text = planned.legend_box.text()
+    for kind, shape in MARKS.items():
+        assert shape in text, kind
+    assert "Shift-drag" in text
