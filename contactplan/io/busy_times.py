@@ -103,8 +103,6 @@ def read_busy_times(path: str | Path) -> list:
     data = read_input(Path(path))
     if data.lstrip()[:15].upper().startswith(b"BEGIN:VCALENDAR"):
         return read_ical(path, data)
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError("not UTF-8 text", path, data[: exc.start].count(b"\n") + 1) from None
-    return read_csv_rows(path, text)
+    from contactplan.io.mask_text import utf8_text
+
+    return read_csv_rows(path, utf8_text(data, path))

@@ -55,9 +55,12 @@ def read_mask_csv(path: str | Path) -> list:
     """The mask points of a two-column CSV file (see :func:`parse_mask_text`)."""
     from contactplan.fileio import read_input
 
-    data = read_input(Path(path))
+    return parse_mask_text(utf8_text(read_input(Path(path)), path), path)
+
+
+def utf8_text(data: bytes, path) -> str:
+    """The text of a file read as UTF-8 (a byte-order mark dropped); InputError naming the line otherwise."""
     try:
-        text = data.decode("utf-8-sig")
+        return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise InputError("not UTF-8 text", path, data[: exc.start].count(b"\n") + 1) from None
-    return parse_mask_text(text, path)
