@@ -765,13 +765,15 @@ def test_draft_the_week_is_one_undo_step(win, demo_copy, demo_plan, qtbot):
     sc = _open_with(win, demo_copy, demo_plan)
     before = _bookings(sc)
     locked = [b.id for b in sc.bookings if b.locked]
-    win.answers = [B.Yes]
+    shown = []
+    win.confirm_draft = lambda text, details: shown.append((text, details)) or True
     assert win.draft_week() is not None
     _wait_job(win, qtbot, timeout=300_000)
-    assert win.asked and win.asked[-1][0] in ("Draft the week",)
-    summary = win.asked[-1][1]  # the drafter's summary comes before the question
-    assert "bookings added:" in summary and "station cost-hours:" in summary
-    assert "gap" in summary or "proven optimal" in summary
+    text, details = shown[-1]  # plain words first, the solver's terms behind Details
+    assert "Hours per station" in text and "Requirements:" in text and "gap" not in text
+    assert "bookings added:" in details and "station cost-hours:" in details
+    assert "gap" in details or "proven optimal" in details
+    assert sc.revision == load_scenario(demo_copy).revision + 1  # drafting raises the revision
     after = _bookings(sc)
     assert after != before
     assert all(any(b.id == i for b in sc.bookings) for i in locked)  # locked ones stay
@@ -801,10 +803,13 @@ def test_keys_move_through_weeks_and_zoom(win, demo_copy, demo_plan, qtbot):
     assert w1 - w0 == pytest.approx(3.5 * DAY_S, abs=1.0)
     qtbot.keyClick(tl, Qt.Key.Key_Right)
     assert tl.visible_tt()[0] == pytest.approx(w0 + 0.35 * DAY_S, abs=1.0)
-    # the day-of-year axis labels the UTC midnights
+    # the axis labels the UTC midnights (day of year first with the day-of-year switch)
     axis = tl.top_axis
     labels = axis.tickStrings([tl.x_of(sc.start_tt)], 1.0, 24.0)
-    assert labels == ["012 Tue 01-12"]  # 2027-01-12 is a Tuesday, day 12 (calendar fact)
+    assert labels == ["Tue 01-12"]  # 2027-01-12 is a Tuesday, day 12 (calendar fact)
+    win.act_doy.setChecked(True)
+    assert axis.tickStrings([tl.x_of(sc.start_tt)], 1.0, 24.0) == ["012 Tue 01-12"]
+    win.act_doy.setChecked(False)
 
 
 def test_station_edit_marks_passes_stale_and_recomputes(win, demo_copy, demo_plan, qtbot):
@@ -1000,6 +1005,11 @@ def test_first_day_is_named_at_the_left_edge_of_the_time_axis(win, demo_copy, de
     win.grab()
     _settle()
     # 2027-01-12 is day 12 and a Tuesday (calendar fact); the name may shorten to fit before 013
+    assert tl.top_axis.edge_label in ("Tue 01-12", "01-12")  # calendar dates (the default)
+    assert tl.el_axis.edge_label == tl.top_axis.edge_label
+    win.act_doy.setChecked(True)  # the one day-of-year switch reaches the axes too
+    win.grab()
+    _settle()
     assert tl.top_axis.edge_label in ("012 Tue 01-12", "012 Tue", "012")
     assert tl.el_axis.edge_label == tl.top_axis.edge_label
     # a view starting mid-day names that day too
@@ -1007,6 +1017,7 @@ def test_first_day_is_named_at_the_left_edge_of_the_time_axis(win, demo_copy, de
     win.grab()
     _settle()
     assert tl.top_axis.edge_label is not None and tl.top_axis.edge_label.startswith("014")
+    win.act_doy.setChecked(False)
 
 
 def test_recorder_overflow_says_what_is_lost(win, demo_copy, demo_plan):
@@ -1288,8 +1299,9 @@ def test_drag_preview_names_its_snapped_times_and_length(win, demo_copy, demo_pl
     from contactplan.timescale import format_utc
 
     assert d.start_tt == pytest.approx(t0) and d.end_tt == pytest.approx(t0 + 2 * 3600.0 + 600.0)
-    assert c.drag_label == f"{format_utc(t0, 0)[5:16].replace('T', ' ')} - " \
-                           f"{format_utc(t0 + 7800.0, 0)[11:16]}  (2 h 10)"
+    # full start and end, each with its date (the end may fall on the next day)
+    assert c.drag_label == f"{format_utc(t0, 0)[:16].replace('T', ' ')} - " \
+                           f"{format_utc(t0 + 7800.0, 0)[:16].replace('T', ' ')}  (2 h 10)"
     c.drag = None
 
 

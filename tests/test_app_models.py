@@ -186,6 +186,14 @@ def test_time_axis_labels_every_tick_of_a_view(qapp):
     ax = TimeAxis(parse_utc("2027-01-12T00:00:00Z"))
     # calendar facts, checked with Python's datetime (proleptic Gregorian calendar):
     # 2027-01-12 is a Tuesday, day 12; 2027-03-01 is a Monday, day 60, 48 days later
+    from contactplan.app.models import set_day_of_year
+
     assert ax.tickStrings([0.0, 6.0, 24.0, 30.5, 48 * 24.0], 1.0, 6.0) == [
-        "012 Tue 01-12", "06:00", "013 Wed 01-13", "06:30", "060 Mon 03-01"]
+        "Tue 01-12", "06:00", "Wed 01-13", "06:30", "Mon 03-01"]
+    set_day_of_year(True)  # the planner's day-of-year switch puts the day of year first
+    try:
+        assert ax.tickStrings([0.0, 6.0, 24.0, 30.5, 48 * 24.0], 1.0, 6.0) == [
+            "012 Tue 01-12", "06:00", "013 Wed 01-13", "06:30", "060 Mon 03-01"]
+    finally:
+        set_day_of_year(False)
     assert ax.tickStrings([], 1.0, 6.0) == []

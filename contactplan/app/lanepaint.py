@@ -18,10 +18,10 @@ from contactplan.app.servicemarks import paint_marks
 from contactplan.app.spans import DETAIL_MAX, paint_runs
 from contactplan.app.statusmarks import VOID, body_fill, busy_brush, faded, ghost_pen, paint_status
 from contactplan.plan.status import status_of
-from contactplan.timescale import DAY_S, format_utc, utc_days
+from contactplan.timescale import DAY_S, utc_days
 
 #: activity kind -> code in the dense lane's colour arrays (0: any other kind)
-ACTIVITY_KINDS = {"burn": 1, "slew": 2}
+ACTIVITY_KINDS = {"burn": 1, "momentum-dump": 1, "slew": 2}
 
 
 class LanePainter:
@@ -76,6 +76,8 @@ class LanePainter:
         if sc is None or vb is None:
             return
         th = theme.current()
+        self.badges_drawn = {}  # subject -> (severity, QRectF of its badge)
+        self.blocks_drawn = {}  # booking id -> QRectF of its block (pixels)
         tr = painter.transform()
         (vx0, vx1), _ = vb.viewRange()
         t_lo, t_hi = self.t_of(vx0), self.t_of(vx1)
@@ -120,6 +122,9 @@ class LanePainter:
                 painter.fillRect(r, hatch)
                 painter.setPen(QPen(th.outage, 1, Qt.PenStyle.DashLine))
                 painter.drawRect(r)
+                if self.doc.selection.kind == "outage" and self.doc.selection.key is o:
+                    painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
+                    painter.drawRect(r.adjusted(-3, -3, 3, 3))
         # other users' time on the antenna (busy), dotted
         busy = busy_brush(th)
         for i, st in enumerate(self.stations, start=1):
@@ -152,8 +157,9 @@ class LanePainter:
                 if sel.kind == "pass" and sel.key is p:
                     painter.setPen(QPen(th.selection, 2, Qt.PenStyle.DotLine))
                     painter.drawRect(r.adjusted(-2, -2, 2, 2))
-        # keep-outs: faint over every lane (passes included), edges dashed
-        ko_pen = QPen(th.burn, 1, Qt.PenStyle.DashLine)
+        # keep-outs: a band of vertical lines over every lane (passes included), edges dashed
+        ko_pen = QPen(_opaque(th.keepout), 1, Qt.PenStyle.DashLine)
+        ko_brush = QBrush(th.keepout, Qt.BrushStyle.VerPattern)
         if dense_acts:  # from arrays kept with the index: no per-item work in a paint
             k0 = act_index.column("keepout_start", lambda a: a.keepout_span_tt[0])
             k1 = act_index.column("keepout_end", lambda a: a.keepout_span_tt[1])
@@ -164,7 +170,7 @@ class LanePainter:
             k0, k1 = a.keepout_span_tt
             if a.downlink_keepout_min > 0 or a.kind == "burn":
                 r = rect(k0, k1, 0, n)
-                painter.fillRect(r, th.keepout)
+                painter.fillRect(r, ko_brush)
                 if r.width() > 6:
                     painter.setPen(ko_pen)
                     painter.drawLine(r.topLeft(), r.bottomLeft())
@@ -187,18 +193,17 @@ class LanePainter:
             self._paint_dense(painter, tr, act_index, act_ix, kind[act_ix], 0, th,
                               {1: th.burn, 2: th.slew}, th.other, 0.2, 0.8)
         for a in sorted(acts, key=lambda a: a.start_tt):
-            colour = {"burn": th.burn, "slew": th.slew}.get(a.kind, th.other)
+            colour = {"burn": th.burn, "momentum-dump": th.burn, "slew": th.slew}.get(a.kind, th.other)
             if a.kind == "burn" and (a.monitor_before_min or a.monitor_after_min):
                 m0, m1 = a.monitor_span_tt
                 painter.fillRect(rect(m0, m1, 0.78, 0.92), th.monitor)
             k0, k1 = a.keepout_span_tt
             if k1 - k0 > a.end_tt - a.start_tt:
-                painter.fillRect(rect(k0, k1, 0.15, 0.85), QColor(th.keepout.red(), th.keepout.green(),
-                                                                th.keepout.blue(), 90))
+                painter.fillRect(rect(k0, k1, 0.15, 0.85), ko_brush)
             r = rect(a.start_tt, a.end_tt, 0.2, 0.8)
             if r.width() < 3:
                 r.adjust(-1.5, 0, 1.5, 0)
-            painter.fillRect(r, colour)
+            _paint_activity(painter, r, a.kind, colour, th)
             if (sel.kind == "activity" and sel.key == a.id) or self._concerned(a.id):
                 self._outline(painter, r, a.id, sel.kind == "activity" and sel.key == a.id, th)
             painter.setPen(QPen(th.foreground))
@@ -211,6 +216,8 @@ class LanePainter:
         bold.setBold(True)
         self.marks_drawn = {}
         self._marks_until = {}  # lane -> right edge (px) of the last mark row drawn in it
+        self.labels_drawn = {}  # booking id -> QRectF of its id label (inside the block or above it)
+        self._labels_until = {}  # lane -> right edge (px) of the last label above a block
         bk_index = self._booking_index
         bk_ix = bk_index.visible_index(sc.bookings, self.doc.revision, t_lo, t_hi)
         if bk_ix.size > DETAIL_MAX:  # merged runs per lane; the selected and the dragged one in full
@@ -261,7 +268,7 @@ class LanePainter:
             painter.drawRect(r)
             painter.setPen(QPen(th.foreground))
             minutes = int(round((d.end_tt - d.start_tt) / 60.0))
-            label = (f"{format_utc(d.start_tt, 0)[5:16].replace('T', ' ')} - {format_utc(d.end_tt, 0)[11:16]}"
+            label = (f"{_when(d.start_tt)} - {_when(d.end_tt)}"
                      f"  ({minutes // 60} h {minutes % 60:02d})")
             self.drag_label = label
             fm = painter.fontMetrics()
@@ -306,9 +313,11 @@ class LanePainter:
         if any(f.severity == "error" for f in fs):
             painter.setPen(QPen(fade(th.error), 3, Qt.PenStyle.SolidLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
+            self.badges_drawn[subject] = ("error", badge(painter, r, "error", fade(th.error), th.background))
         elif fs:
             painter.setPen(QPen(fade(th.warning), 2.5, Qt.PenStyle.DashLine))
             painter.drawRect(r.adjusted(-2, -2, 2, 2))
+            self.badges_drawn[subject] = ("warning", badge(painter, r, "warning", fade(th.warning), th.background))
         if selected:
             painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
             painter.drawRect(r.adjusted(-5, -5, 5, 5))
@@ -316,6 +325,7 @@ class LanePainter:
     def _draw_booking(self, painter, r: QRectF, b, th, font, selected: bool, track=None, spare=None) -> None:
         fill = th.booking_locked if b.locked else th.booking
         body = body_fill(b, fill, th)  # the status: fill and pattern (statusmarks)
+        self.blocks_drawn[b.id] = QRectF(r)
         if track is not None and track.width() < r.width():  # pre-pass and post-pass: lighter, dotted edge
             if status_of(b) not in VOID:
                 painter.fillRect(r, faded(fill, th.background))
@@ -326,17 +336,33 @@ class LanePainter:
                             track.width() < r.width() else Qt.PenStyle.SolidLine))
         painter.setBrush(Qt.BrushStyle.NoBrush)
         painter.drawRect(r)
-        if b.locked:  # a second cue besides the darker fill: a bar across the top
+        if b.locked:  # cues besides the lavender fill: a bar across the top, a cross in the top-right corner
             painter.fillRect(QRectF(r.left(), r.top(), r.width(), 3), th.booking_edge)
+            if r.width() >= 10:
+                painter.setPen(QPen(th.booking_edge, 1.5))
+                x1, y0 = r.right() - 2, r.top() + 5
+                painter.drawLine(QPointF(x1 - 5, y0), QPointF(x1, y0 + 5))
+                painter.drawLine(QPointF(x1 - 5, y0 + 5), QPointF(x1, y0))
         self._outline(painter, r, b.id, selected, th)
         paint_status(painter, r, b, th.booking_edge)
         if selected:
             painter.fillRect(QRectF(r.left() - 2, r.center().y() - 5, 4, 10), th.selection)
             painter.fillRect(QRectF(r.right() - 2, r.center().y() - 5, 4, 10), th.selection)
-        if r.width() > 34:
-            painter.setFont(font)
+        painter.setFont(font)
+        fm = painter.fontMetrics()
+        if r.width() > fm.horizontalAdvance(b.id) + 8:
             painter.setPen(QPen(QColor("#1A1A1A")))
             painter.drawText(r.adjusted(4, 1, -2, 0), int(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft), b.id)
+            self.labels_drawn[b.id] = r
+        else:  # too narrow at this zoom: a short label above the block, unless the last one is in the way
+            lane = self.lane_of_station(b.station)
+            box = QRectF(r.left(), r.top() - fm.height() - 1, fm.horizontalAdvance(b.id) + 4, fm.height())
+            if box.left() > self._labels_until.get(lane, -1e9):
+                painter.fillRect(box, th.background)
+                painter.setPen(QPen(th.foreground))
+                painter.drawText(box, int(Qt.AlignmentFlag.AlignCenter), b.id)
+                self._labels_until[lane] = box.right() + 3
+                self.labels_drawn[b.id] = box
         # one mark per booked service (T P C R D), inside the block or beside it at week zoom
         lane = self.lane_of_station(b.station)
         drawn = paint_marks(painter, r, b.services, spare if spare is not None else r, th.booking_edge,
@@ -345,3 +371,63 @@ class LanePainter:
             self._marks_until[lane] = drawn[-1][1].right() + 2
         self.marks_drawn[b.id] = drawn
 
+
+def _when(tt: float) -> str:
+    """A time in the drag label: date and time to the minute, in the form of the day-of-year switch."""
+    from contactplan.app.models import utc_text
+
+    return utc_text(tt)[:-4].replace("T", " ")  # 2027-01-12 19:05 (or 2027-012 19:05)
+
+
+def _opaque(c: QColor) -> QColor:
+    out = QColor(c)
+    out.setAlpha(255)
+    return out
+
+
+BADGE_PX = 9.0
+
+
+def badge(painter, r: QRectF, kind: str, colour: QColor, background: QColor) -> QRectF:
+    """The mark of a finding at the top-left corner of a block: a filled triangle (error) or an open
+    diamond (warning), so that the severity reads without its colour. Returns the badge's box."""
+    from PySide6.QtGui import QPolygonF
+
+    x, y, s = r.left() - 4, r.top() - 4, BADGE_PX
+    box = QRectF(x, y, s, s)
+    if kind == "error":
+        tri = QPolygonF([QPointF(x + s / 2, y), QPointF(x + s, y + s), QPointF(x, y + s)])
+        painter.setPen(QPen(background, 1))
+        painter.setBrush(colour)
+        painter.drawPolygon(tri)
+    else:
+        dia = QPolygonF([QPointF(x + s / 2, y), QPointF(x + s, y + s / 2), QPointF(x + s / 2, y + s),
+                         QPointF(x, y + s / 2)])
+        painter.setBrush(background)
+        painter.setPen(QPen(colour, 1.5))
+        painter.drawPolygon(dia)
+    painter.setBrush(Qt.BrushStyle.NoBrush)
+    return box
+
+
+def _paint_activity(painter, r: QRectF, kind: str, colour: QColor, th) -> None:
+    """An activity block with the shape of its kind: burn and momentum dump filled with a triangle at the
+    start (filled for a burn, open for a dump), slew striped, other hollow."""
+    from PySide6.QtGui import QPolygonF
+
+    if kind == "other":
+        painter.fillRect(r, th.background)
+        painter.setPen(QPen(colour, 2))
+        painter.setBrush(Qt.BrushStyle.NoBrush)
+        painter.drawRect(r)
+        return
+    painter.fillRect(r, colour)
+    if kind == "slew":
+        painter.fillRect(r, QBrush(th.background, Qt.BrushStyle.BDiagPattern))
+        return
+    x, y = r.left(), r.top()
+    tri = QPolygonF([QPointF(x, y - 1), QPointF(x + 6, y - 1), QPointF(x, y - 8)])  # a flag-like flame
+    painter.setPen(QPen(colour, 1.5))
+    painter.setBrush(colour if kind == "burn" else th.background)
+    painter.drawPolygon(tri)
+    painter.setBrush(Qt.BrushStyle.NoBrush)

@@ -15,15 +15,19 @@ from PySide6.QtCore import QRectF, Qt
 
 from contactplan.app.document import NOTHING, Selection
 from contactplan.app.lanepaint import LanePainter
+from contactplan.app.models import utc_text
 from contactplan.app.servicemarks import letters, margins_text, services_text
 from contactplan.app.spans import SpanIndex
-from contactplan.timescale import DAY_S, format_utc, utc_day_start
+from contactplan.errors import InputError
+from contactplan.timescale import DAY_S, utc_day_start
 
 GRID_S = 300.0  # bookings snap to a 5-minute grid ...
 SNAP_PX = 8.0  # ... or to a pass edge closer than this many pixels
 EDGE_PX = 5.0  # grab a booking's edge within this many pixels
 MIN_BOOKING_S = 300.0
 WEEK_S = 7 * DAY_S
+#: held while dragging, draws a new span: an activity on the spacecraft lane, an outage on a station lane
+SPAN_MODIFIER = Qt.KeyboardModifier.ShiftModifier
 
 _CANCELLED = object()  # a gesture dropped with Escape
 
@@ -67,7 +71,8 @@ class LanesViewBox(pg.ViewBox):
             return super().mouseDragEvent(ev, axis)
         if ev.isStart():
             p = self.mapSceneToView(ev.buttonDownScenePos())
-            self._drag = self.canvas.begin_drag(p.x(), p.y())
+            span = bool(ev.modifiers() & SPAN_MODIFIER)
+            self._drag = self.canvas.begin_drag(p.x(), p.y(), span=span)
         if self._drag is _CANCELLED:
             ev.accept()
             if ev.isFinish():
@@ -84,17 +89,20 @@ class LanesViewBox(pg.ViewBox):
 
 
 class Drag:
-    """A gesture in progress: mode is create, move, start or end (the edge being dragged)."""
+    """A gesture in progress: mode is create, move, start or end (the edge being dragged) for bookings,
+    activity (a new one), move-activity, or outage (a new one)."""
 
-    def __init__(self, mode: str, lane: int, x0: float, booking=None):
+    def __init__(self, mode: str, lane: int, x0: float, booking=None, activity=None):
         self.mode = mode
         self.lane = lane
         self.x0 = x0
         self.booking = booking
+        self.activity = activity
         self.pass_ = None
         self.station = None
-        self.start_tt = booking.start_tt if booking is not None else None
-        self.end_tt = booking.end_tt if booking is not None else None
+        rec = booking if booking is not None else activity
+        self.start_tt = rec.start_tt if rec is not None else None
+        self.end_tt = rec.end_tt if rec is not None else None
 
 
 class LanesCanvas(LanePainter, pg.GraphicsObject):
@@ -121,6 +129,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self.doc.recordsChanged.connect(self._records_edited)
         self.doc.scenarioReplaced.connect(self._records_edited)
         self.marks_drawn: dict = {}  # booking id -> [(letter, QRectF in pixels)] of its last paint
+        self.labels_drawn: dict = {}  # booking id -> QRectF of its id label in its last paint
+        self.badges_drawn: dict = {}  # subject -> (severity, QRectF of its badge) in the last paint
+        self.blocks_drawn: dict = {}  # booking id -> QRectF of its block in the last paint
+        self._labels_until: dict = {}
         self._marks_until: dict = {}
         self.setZValue(10)
 
@@ -220,10 +232,14 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 part = "body"
             else:
                 continue
-            best = (b, part)
             if part != "body":
-                break
-        return best if best else (None, None)
+                return b, part
+            # of overlapping bookings, the one drawn on top (painted by start: the latest start) is under
+            # the cursor; the selected one first, as it is the one being worked on
+            rank = (self.doc.selection.kind == "booking" and self.doc.selection.key == b.id, b.start_tt)
+            if best is None or rank >= best[2]:
+                best = (b, part, rank)
+        return (best[0], best[1]) if best else (None, None)
 
     def pass_at(self, x: float, y: float):
         st = self.station_of_lane(self.lane_of(y))
@@ -239,19 +255,30 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 return a
         return None
 
+    def outage_at(self, x: float, y: float):
+        """(station, outage) under a point of a station lane, else (None, None)."""
+        st = self.station_of_lane(self.lane_of(y))
+        if st is None:
+            return None, None
+        t = self.t_of(x)
+        for o in st.outages:
+            if o.start_tt <= t <= o.end_tt:
+                return st, o
+        return None, None
+
     def describe(self, x: float, y: float) -> str:
         """Plain text about what lies under a point (for the hover tip)."""
         sc = self.doc.scenario
         if sc is None:
             return ""
         t = self.t_of(x)
-        lines = [format_utc(t, 0)]
+        lines = [utc_text(t)]
         b, part = self.booking_at(x, y)
         if b is not None:
             bot, eot = sc.track_span_tt(b)
-            lines.append(f"booking {b.id} at {b.station}: {format_utc(b.start_tt, 0)} to {format_utc(b.end_tt, 0)}"
+            lines.append(f"booking {b.id} at {b.station}: {utc_text(b.start_tt)} to {utc_text(b.end_tt)}"
                          f"{', locked' if b.locked else ''}")
-            lines.append(f"track (BOT to EOT) {format_utc(bot, 0)} to {format_utc(eot, 0)}")
+            lines.append(f"track (BOT to EOT) {utc_text(bot)} to {utc_text(eot)}")
             lines.append(f"services: {services_text(sc, b)} [{letters(b.services)}]")
             if b.handover_from:
                 lines.append(f"continues {b.handover_from} (handover)")
@@ -264,23 +291,23 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if self.lane_of(y) == 0:
             for sh in (getattr(self.doc.result, "shadows", None) or []):
                 if len(sh) >= 4 and sh[0] <= t <= sh[1]:
-                    lines.append(f"in the {sh[2]}'s {sh[3]} {format_utc(sh[0], 0)} to {format_utc(sh[1], 0)}")
+                    lines.append(f"in the {sh[2]}'s {sh[3]} {utc_text(sh[0])} to {utc_text(sh[1])}")
         if a is not None:
             k0, k1 = a.keepout_span_tt
-            lines.append(f"{a.kind} {a.id}: {format_utc(a.start_tt, 0)}, {a.duration_min:g} min; "
-                         f"no downlink {format_utc(k0, 0)[11:16]} to {format_utc(k1, 0)[11:16]}")
+            lines.append(f"{a.kind} {a.id}: {utc_text(a.start_tt)}, {a.duration_min:g} min; "
+                         f"no downlink {_hm(k0)} to {_hm(k1)}")
             return "\n".join(lines)
         st = self.station_of_lane(self.lane_of(y))
         if st is not None:
             for o in st.outages:
                 if o.start_tt <= t <= o.end_tt:
-                    lines.append(f"{st.id} out of service {format_utc(o.start_tt, 0)} to {format_utc(o.end_tt, 0)}"
+                    lines.append(f"{st.id} out of service {utc_text(o.start_tt)} to {utc_text(o.end_tt)}"
                                  + (f": {o.reason}" if o.reason else ""))
             p = self.pass_at(x, y)
             if p is not None:
                 rate = "" if p.max_rate_kbps is None else f", best {p.max_rate_kbps:,.0f} kbit/s"
                 vol = "" if p.volume_gbit is None else f", {p.volume_gbit:.1f} Gbit"
-                lines.append(f"pass {p.station} {format_utc(p.aos_tt, 0)} to {format_utc(p.los_tt, 0)}, "
+                lines.append(f"pass {p.station} {utc_text(p.aos_tt)} to {utc_text(p.los_tt)}, "
                              f"max {p.max_elevation_deg:.1f} deg{rate}{vol}")
                 margins = margins_text(self.doc.result, p)
                 if margins:
@@ -324,6 +351,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if p is not None:
             self.doc.select(Selection("pass", p))
             return
+        _st, o = self.outage_at(x, y)
+        if o is not None:
+            self.doc.select(Selection("outage", o))
+            return
         st = self.station_of_lane(self.lane_of(y))
         self.doc.select(Selection("station", st.id) if st is not None else NOTHING)
 
@@ -333,7 +364,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         b, _ = self.booking_at(x, y)
         p = self.pass_at(x, y)
         menu = QMenu()
-        if b is not None:
+        self.last_menu = menu  # (tests read it)
+        if self.lane_of(y) == 0:
+            self._spacecraft_menu(menu, x, y)
+        elif b is not None:
             self.doc.select(Selection("booking", b.id))
             menu.addAction("Edit services...", lambda: self.tl.editPurposesRequested.emit(b.id))
             menu.addAction("Unlock" if b.locked else "Lock",
@@ -341,14 +375,55 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
             menu.addAction("Delete", lambda: self.doc.delete_bookings([b.id]))
         elif p is not None:
             menu.addAction("Book the whole pass", lambda: self.doc.add_booking(p.station, p.aos_tt, p.los_tt))
-        else:
-            return
-        menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+        if self.lane_of(y) > 0:
+            st, o = self.outage_at(x, y)
+            if o is not None:
+                from contactplan.app.activities import delete_outage
 
-    def begin_drag(self, x: float, y: float):
+                if b is None:
+                    self.doc.select(Selection("outage", o))
+                menu.addAction(f"Delete the outage at {st.id}", lambda: delete_outage(self.doc, o))
+        if menu.isEmpty():
+            return
+        if screen_pos is not None:
+            menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+
+    def _spacecraft_menu(self, menu, x: float, y: float) -> None:
+        """Right click on the spacecraft lane: new activities there, or the activity's own actions."""
+        from contactplan.app import activities as acts
+        from contactplan.scenario.model import ACTIVITY_KINDS
+
+        a = self.activity_at(x, y)
+        doc = self.doc
+        if a is not None:
+            doc.select(Selection("activity", a.id))
+            menu.addAction(f"Delete {a.id}", lambda: acts.delete_activity(doc, a))
+            s = acts.series_of(doc.scenario, a)
+            if s is not None:
+                menu.addAction(f"Delete the whole series {s.id}", lambda: acts.delete_series(doc, s))
+            return
+        t = self.snap(self.t_of(x), None)
+        for kind in ACTIVITY_KINDS:
+            menu.addAction(f"New {kind.replace('-', ' ')} here", lambda k=kind: acts.add_activity(doc, k, t))
+        menu.addAction("New weekly series of burns from here", lambda: acts.add_series(doc, t))
+
+    def begin_drag(self, x: float, y: float, span: bool = False):
         if self.doc.scenario is None:
             return None
         lane = self.lane_of(y)
+        if span and 0 <= lane < self.lanes():  # a new activity or outage drawn as a span
+            d = Drag("activity" if lane == 0 else "outage", lane, x)
+            st = self.station_of_lane(lane)
+            d.station = None if st is None else st.id
+            self.drag = d
+            return d
+        if lane == 0:
+            a = self.activity_at(x, y)
+            if a is not None:
+                self.doc.select(Selection("activity", a.id))
+                self.drag = Drag("move-activity", 0, x, activity=a)
+                return self.drag
+            return None
         b, part = self.booking_at(x, y)
         if b is not None:
             self.doc.select(Selection("booking", b.id))
@@ -367,7 +442,13 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
 
     def update_drag(self, d: Drag, x: float, y: float) -> None:
         t = self.t_of(x)
-        if d.mode == "create":
+        if d.mode in ("activity", "outage"):
+            d.start_tt, d.end_tt = sorted((self.snap(self.t_of(d.x0), None), self.snap(t, None)))
+        elif d.mode == "move-activity":
+            a = d.activity
+            d.start_tt = self.snap(a.start_tt + t - self.t_of(d.x0), None)
+            d.end_tt = d.start_tt + (a.end_tt - a.start_tt)
+        elif d.mode == "create":
             a, b = sorted((self.snap(self.t_of(d.x0), d.station), self.snap(t, d.station)))
             p = d.pass_  # a new booking stays inside the pass it was drawn on
             d.start_tt, d.end_tt = min(max(a, p.aos_tt), p.los_tt), min(max(b, p.aos_tt), p.los_tt)
@@ -401,7 +482,9 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         try:
             if d.start_tt is None or d.end_tt is None:
                 return
-            if d.mode == "create":
+            if d.mode in ("activity", "outage", "move-activity"):
+                self._finish_span(d)
+            elif d.mode == "create":
                 if d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
                     self.doc.add_booking(d.station, d.start_tt, d.end_tt)
             else:
@@ -409,11 +492,29 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 if d.station and d.station != d.booking.station:
                     changes["station"] = d.station
                 self.doc.edit_booking(d.booking.id, **changes)
-        except (ValueError, KeyError) as exc:
+        except (ValueError, KeyError) as exc:  # (InputError is a ValueError's sibling: caught below)
+            self.doc.message.emit(str(exc))
+        except InputError as exc:
             self.doc.message.emit(str(exc))
         finally:
             self.update()
 
+    def _finish_span(self, d: Drag) -> None:
+        from contactplan.app import activities as acts
+
+        if d.mode == "move-activity":
+            acts.move_activity(self.doc, d.activity, d.start_tt)
+        elif d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
+            if d.mode == "activity":
+                acts.add_activity(self.doc, "other", d.start_tt, (d.end_tt - d.start_tt) / 60.0)
+            else:
+                acts.add_outage(self.doc, d.station, d.start_tt, d.end_tt)
+
     def show_finding_span(self, span) -> None:
         self._finding_span = span
         self.update()
+
+
+def _hm(tt: float) -> str:
+    """HH:MM of a time (either date form)."""
+    return utc_text(tt).split("T")[1][:5]

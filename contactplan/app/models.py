@@ -23,9 +23,21 @@ def set_day_of_year(on: bool) -> None:
     _DOY["on"] = bool(on)
 
 
+def day_of_year_on() -> bool:
+    """The one day-of-year / calendar switch (View menu) every table, axis and dialog follows."""
+    return _DOY["on"]
+
+
 def utc_text(tt):
     """Table time text (scalar or list): calendar or day-of-year UTC, whole seconds."""
     return format_utc(tt, 0, doy=_DOY["on"])
+
+
+def short_text(tt) -> str:
+    """A time without its year and seconds, in the switch's form: ``01-12 19:05`` or ``012 19:05``."""
+    text = utc_text(tt)  # 2027-01-12T19:05:00Z or 2027-012T19:05:00Z
+    day, _, clock = text.partition("T")
+    return f"{day[5:]} {clock[:5]}"
 
 
 def hours_text(seconds: float) -> str:

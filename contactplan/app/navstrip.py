@@ -73,6 +73,7 @@ class NavigationStrip(QObject):
         doc.scenarioReplaced.connect(self._scenario_replaced)
         doc.resultChanged.connect(self._result_changed)
         doc.findingsChanged.connect(self._findings_changed)
+        doc.recordsChanged.connect(self._records_changed)
         self._scenario_replaced()
 
     # ------------------------------------------------------------ view
@@ -92,10 +93,24 @@ class NavigationStrip(QObject):
 
     def _scenario_replaced(self) -> None:
         on = self._enabled()
-        self.plot.setVisible(on)
+        self._show(on)
         if on:
             self.axis.origin_tt = self.timeline.origin_tt
         self.draw(None)
+
+    def _show(self, on: bool) -> None:
+        """Show the strip, or hide it and give its row back to the other strips (no empty band)."""
+        self.plot.setVisible(on)
+        layout = self.timeline.ci.layout
+        layout.setRowStretchFactor(2, 2 if on else 0)
+        layout.setRowMinimumHeight(2, 80 if on else 0)
+        layout.setRowMaximumHeight(2, 1e6 if on else 0)
+        layout.setRowSpacing(2, layout.rowSpacing(1) if on else 0)
+
+    def _records_changed(self) -> None:
+        """The orbit-determination settings may have been switched on or off."""
+        if self.plot.isVisible() != self._enabled():
+            self._scenario_replaced()
 
     def draw(self, nav) -> None:
         """Show a NavigationResult (None: clear)."""

@@ -27,6 +27,13 @@ def _spin(value: float, lo: float, hi: float, decimals: int = 2, suffix: str = "
 NO_HANDOVER = "(none)"
 
 
+def later(fn) -> None:
+    """Run ``fn`` from the event loop: a widget's own signal must not delete the widget under it."""
+    from PySide6.QtCore import QTimer
+
+    QTimer.singleShot(0, fn)
+
+
 class PropertyEditor(QWidget):
     """Shows the fields of what is selected; edits go through the document's undo stack."""
 
@@ -88,17 +95,21 @@ class PropertyEditor(QWidget):
                     rec = sc.station(sel.key)
                 elif sel.kind == "activity":
                     rec = sc.activity(sel.key)
+                elif sel.kind == "outage":
+                    from contactplan.app.activities import station_of_outage
+
+                    rec = sel.key if station_of_outage(sc, sel.key) is not None else None
                 elif sel.kind == "pass":
                     rec = sc.station(sel.key.station)
                     sel = type(sel)("station", rec.id)
             except KeyError:
                 rec = None
         if rec is None:
-            self.title.setText("Select a booking, station or activity to edit it here.")
+            self.title.setText("Select a booking, station, activity or outage to edit it here.")
             self.apply_btn.setEnabled(False)
             self.revert_btn.setEnabled(False)
             return
-        self.kind, self.key = sel.kind, rec.id
+        self.kind, self.key = sel.kind, getattr(rec, "id", rec)  # (an outage has no id: the record itself)
         self.apply_btn.setEnabled(True)
         self.revert_btn.setEnabled(True)
         getattr(self, f"_build_{sel.kind}")(rec)
@@ -154,10 +165,14 @@ class PropertyEditor(QWidget):
         gives = offered(self.doc.scenario, s.id)
         self.form.addRow("Gives", QLabel(", ".join(x for x in SERVICES if x in gives) or "no services"))
         self.form.addRow("Cost per hour", self.fields["cost_per_hour"])
-        self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes."))
+        self.form.addRow("", QLabel("Changing the lowest elevation recomputes the passes.\n"
+                                    "Every key, services, mask and outages: the Stations panel."))
 
     def _build_activity(self, a) -> None:
         self.title.setText(f"Activity {a.id} ({a.kind})")
+        self.fields["id"] = QLineEdit(a.id)
+        self.fields["id"].returnPressed.connect(self.apply_later)
+        self.form.addRow("Id", self.fields["id"])
         kind = QComboBox()
         kind.addItems(list(ACTIVITY_KINDS))
         kind.setCurrentText(a.kind)
@@ -182,11 +197,60 @@ class PropertyEditor(QWidget):
         self.fields["command_backup"] = backup
         self.form.addRow("Command lead", lead)
         self.form.addRow("Backup", backup)
-        if a.series is not None:
-            for w in self.fields.values():
-                w.setEnabled(False)
-            self.form.addRow("", QLabel(f"Part of the repeating series {a.series!r}: edit the series in the file."))
-            self.apply_btn.setEnabled(False)
+        self.fields["start_tt"].returnPressed.connect(self.apply_later)
+        from contactplan.app.activities import series_of
+
+        series = series_of(self.doc.scenario, a)
+        if series is not None:
+            self._build_series(series)
+
+    def _build_series(self, series) -> None:
+        """The series the activity belongs to, with its own Apply (its members are made again from it)."""
+        from contactplan.app.activities import series_table
+        from contactplan.app.forms import TableForm
+        from contactplan.app.activities import SERIES_KEYS
+
+        note = QLabel(f"Member of the series {series.id}: Apply above changes this member only "
+                      "(the series is then saved as single activities); the series itself:")
+        note.setWordWrap(True)
+        self.form.addRow(note)
+        self.series_form = TableForm(SERIES_KEYS)
+        self.series_form.show_table(series_table(series))
+        self.series_form.applyRequested.connect(lambda: later(self.apply_series))
+        self.form.addRow(self.series_form)
+        btn = QPushButton("Apply to the series")
+        btn.clicked.connect(lambda: later(self.apply_series))
+        self.form.addRow("", btn)
+        self.series = series
+
+    def apply_series(self) -> None:
+        from contactplan.app.activities import edit_series, series_table
+
+        self.error.setText("")
+        try:
+            edit_series(self.doc, self.series, self.series_form.read_into(series_table(self.series)))
+        except (InputError, ValueError, KeyError) as exc:
+            self.error.setText(str(exc))
+
+    def _build_outage(self, o) -> None:
+        from contactplan.app.activities import station_of_outage
+
+        st = station_of_outage(self.doc.scenario, o)
+        self.title.setText(f"Outage at {st.id}")
+        self.fields["start_tt"] = QLineEdit(utc_text(o.start_tt))
+        self.fields["end_tt"] = QLineEdit(utc_text(o.end_tt))
+        self.fields["reason"] = QLineEdit(o.reason)
+        for k, label in (("start_tt", "Start (UTC)"), ("end_tt", "End (UTC)"), ("reason", "Reason")):
+            self.fields[k].returnPressed.connect(self.apply_later)
+            self.form.addRow(label, self.fields[k])
+        delete = QPushButton("Delete this outage")
+        delete.clicked.connect(lambda: later(self.delete_outage))
+        self.form.addRow("", delete)
+
+    def delete_outage(self) -> None:
+        from contactplan.app.activities import delete_outage
+
+        delete_outage(self.doc, self.key)
 
     # ------------------------------------------------------------ apply
     def values(self) -> dict:
@@ -211,13 +275,57 @@ class PropertyEditor(QWidget):
             out["command_lead_h"] = out["command_lead_h"] or None
         return out
 
+    def apply_later(self) -> None:
+        """Apply once the event that asked for it is over (applying rebuilds the form and its widgets)."""
+        later(self.apply)
+
     def apply(self) -> None:
         self.error.setText("")
         try:
+            if self.kind == "outage":
+                self._apply_outage()
+                return
             vals = self.values()
             if self.kind == "booking":
                 self.doc.edit_booking(self.key, **vals)
-            elif self.kind in ("station", "activity"):
+            elif self.kind == "activity":
+                self._apply_activity(vals)
+            elif self.kind == "station":
                 self.doc.edit_record(self.kind, self.key, **vals)
         except (InputError, ValueError, KeyError) as exc:
             self.error.setText(str(exc))
+
+    def _apply_activity(self, vals: dict) -> None:
+        """The activity's table with the edited values, read by the loader's activity reader."""
+        from contactplan.app.activities import activity_table, edit_activity
+        from contactplan.scenario.save import format_time
+
+        a = self.doc.scenario.activity(self.key)
+        table = activity_table(a)
+        for k, v in vals.items():
+            if k == "start_tt":
+                if abs(v - a.start_tt) > 5e-4:
+                    table["start"] = format_time(v)
+            elif v is None:
+                table.pop(k, None)
+            elif k == "command_backup" and not v and k not in table:
+                continue
+            else:
+                table[k] = v
+        if table.get("kind") not in ("burn", "momentum-dump"):  # a command load only for those kinds
+            if not table.get("command_backup"):
+                table.pop("command_backup", None)
+        edit_activity(self.doc, a, table)
+
+    def _apply_outage(self) -> None:
+        from contactplan.app.activities import edit_outage
+        from contactplan.app.records import encode_record
+
+        o = self.key
+        table = encode_record(o)
+        for k, key, old in (("start_tt", "start", o.start_tt), ("end_tt", "end", o.end_tt)):
+            text = self.fields[k].text().strip()
+            if text != utc_text(old):
+                table[key] = text
+        table["reason"] = self.fields["reason"].text()
+        edit_outage(self.doc, o, table)

@@ -2,9 +2,10 @@
 
     python -m contactplan.app.screenshots docs/images
 
-Writes ``planner.png`` (light), ``planner-dark.png`` and ``report-page1.png``
-(when the report writer and a PDF rasteriser, ``pypdfium2`` or poppler's
-``pdftoppm``, are available). The demo is an invented mission.
+Writes ``planner.png`` (light), ``planner-dark.png``, ``mask-editor.png`` (a demo
+station's horizon mask), ``draft-dialog.png`` and ``report-page1.png`` (when the
+report writer and a PDF rasteriser, ``pypdfium2`` or poppler's ``pdftoppm``, are
+available). The demo is an invented mission.
 """
 
 from __future__ import annotations
@@ -36,19 +37,14 @@ def render_window(plan, out: Path, dark: bool = False, size=(1500, 920)) -> Path
     import copy
 
     from PySide6.QtCore import QSettings, QStandardPaths
-    from PySide6.QtWidgets import QApplication
 
-    from contactplan.app import icons, theme
     from contactplan.app.autosave import Autosaver
     from contactplan.app.document import Selection
     from contactplan.app.window import MainWindow
     from contactplan.scenario import load_scenario
 
-    app = QApplication.instance()
     QStandardPaths.setTestModeEnabled(True)  # never touch the user's settings or autosave folder
-    app.setPalette(_dark_palette() if dark else app.style().standardPalette())
-    theme.set_theme(theme.dark_theme() if dark else theme.light_theme())
-    icons.icon.cache_clear()
+    app = _themed(dark)
     tmp = Path(tempfile.mkdtemp(prefix="contactplan-shot-"))
     try:
         win = MainWindow(settings=QSettings(str(tmp / "s.ini"), QSettings.Format.IniFormat),
@@ -63,6 +59,7 @@ def render_window(plan, out: Path, dark: bool = False, size=(1500, 920)) -> Path
         booked = [b for b in sc.bookings if win.doc.pass_at(b.station, 0.5 * (b.start_tt + b.end_tt))]
         if booked:
             win.doc.select(Selection("booking", booked[0].id))
+        win.doc.wait_checked()  # the findings of the plan shown, not "checking..."
         win.findings_dock.raise_()
         win.timeline.show_week(sc.start_tt)
         for _ in range(5):
@@ -76,6 +73,52 @@ def render_window(plan, out: Path, dark: bool = False, size=(1500, 920)) -> Path
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
     return out
+
+
+def _themed(dark: bool):
+    from PySide6.QtWidgets import QApplication
+
+    from contactplan.app import icons, theme
+
+    app = QApplication.instance()
+    app.setPalette(_dark_palette() if dark else app.style().standardPalette())
+    theme.set_theme(theme.dark_theme() if dark else theme.light_theme())
+    icons.icon.cache_clear()
+    return app
+
+
+def render_dialog(dlg, out: Path, size=None) -> Path:
+    """Show a dialog, let it lay out and paint, save it as PNG and close it."""
+    from PySide6.QtWidgets import QApplication
+
+    app = QApplication.instance()
+    if size is not None:
+        dlg.resize(*size)
+    dlg.show()
+    for _ in range(5):
+        app.processEvents()
+    out.parent.mkdir(parents=True, exist_ok=True)
+    dlg.grab().save(str(out))
+    dlg.close()
+    dlg.deleteLater()
+    app.processEvents()
+    return out
+
+
+def render_mask_editor(sc, out: Path, dark: bool = False) -> Path:
+    """The mask editor on the demo station with the most mask points."""
+    from contactplan.app.maskeditor import MaskEditor
+
+    _themed(dark)
+    st = max(sc.stations, key=lambda s: len(s.horizon_mask))
+    return render_dialog(MaskEditor(st.id, st.horizon_mask, st.min_elevation_deg), out, (820, 480))
+
+
+def render_draft_dialog(sc, out: Path, dark: bool = False) -> Path:
+    from contactplan.app.draftdialog import DraftDialog
+
+    _themed(dark)
+    return render_dialog(DraftDialog(sc), out)
 
 
 def pdf_first_page_png(pdf: Path, out: Path, dpi: int = 110) -> Path | None:
@@ -124,6 +167,8 @@ def main(argv=None) -> int:
     plan = compute_plan(load_scenario(demo_scenario()))
     for name, dark in (("planner.png", False), ("planner-dark.png", True)):
         print(f"wrote {render_window(plan, folder / name, dark=dark)}")
+    print(f"wrote {render_mask_editor(plan.scenario, folder / 'mask-editor.png')}")
+    print(f"wrote {render_draft_dialog(plan.scenario, folder / 'draft-dialog.png')}")
     rep = render_report(plan, folder / "report-page1.png")
     print(f"wrote {rep}" if rep else "report page not rendered (no report writer or PDF rasteriser)")
     return 0

@@ -14,7 +14,6 @@ from PySide6.QtGui import QFont, QPainter, QPainterPath, QPen, QPolygonF
 from PySide6.QtWidgets import QSizePolicy, QWidget
 
 from contactplan.app import theme
-from contactplan.timescale import format_utc
 
 
 def pass_track(pass_, station, ephemeris, samples: int = 181):
@@ -50,7 +49,23 @@ class SkyView(QWidget):
         self.margins_line = ""  # the margin per link shown under the title (last paint)
         doc.selectionChanged.connect(self._selection)
         doc.scenarioReplaced.connect(self.clear)
-        doc.resultChanged.connect(self.clear)
+        # the chart follows the selected booking when it moves, and new passes when they are computed
+        doc.resultChanged.connect(self.follow)
+        doc.bookingsChanged.connect(self.follow)
+        doc.recordsChanged.connect(self.follow)
+
+    def follow(self) -> None:
+        """Show again what the selection is on now (a moved booking, recomputed passes, an edited mask)."""
+        sel = self.doc.selection
+        if sel.kind == "pass" and self.doc.result is not None and not any(
+                p is sel.key for p in self.doc.passes_for(sel.key.station)):
+            self.clear()  # a pass of an older computation
+        elif sel.kind in ("pass", "booking"):
+            self._selection(sel)
+        elif self.pass_ is not None:
+            self.clear()
+        else:
+            self.update()
 
     def _selection(self, sel) -> None:
         if sel.kind == "pass":
@@ -91,73 +106,42 @@ class SkyView(QWidget):
         text = margins_text(self.doc.result, q)
         return f"margin {text}" if text else ""
 
-    def paintEvent(self, _ev):
-        th = theme.current()
-        p = QPainter(self)
-        p.setRenderHint(QPainter.RenderHint.Antialiasing)
-        p.fillRect(self.rect(), th.background)
+    def polar(self) -> "Polar | None":
+        """Where the chart lies in the widget (None when it is too small to draw)."""
         side = min(self.width(), self.height() - 36) - 30  # room for N, E, S, W outside the horizon
         if side < 60:
-            return
-        cx, cy = self.width() / 2.0, 22 + (self.height() - 36) / 2.0
-        radius = side / 2.0
+            return None
+        return Polar(self.width() / 2.0, 22 + (self.height() - 36) / 2.0, side / 2.0)
 
-        def xy(az, el):
-            rr = radius * (90.0 - np.clip(el, -5, 90)) / 90.0
-            a = np.radians(az)
-            return cx + rr * np.sin(a), cy - rr * np.cos(a)
-
-        # horizon mask (and min elevation) as a filled region between the horizon and the limit
+    def mask_station(self):
+        """The station whose mask is drawn: the pass's, else the selected station."""
         st = self.station
         if st is None and self.doc.selection.kind == "station" and self.doc.scenario is not None:
             try:
                 st = self.doc.scenario.station(self.doc.selection.key)
             except KeyError:
                 st = None
-        if st is not None:
-            az = np.arange(0.0, 360.5, 1.0)
-            lim = np.full_like(az, float(st.min_elevation_deg))
-            if st.horizon_mask:
-                try:
-                    from contactplan.geometry.mask import effective_limit_deg
+        return st
 
-                    lim = np.asarray(effective_limit_deg(st, az), dtype=float)
-                except Exception:
-                    m = np.array(st.horizon_mask, dtype=float)
-                    lim = np.maximum(lim, np.interp(az, m[:, 0], m[:, 1], period=360.0))
-            outer = QPolygonF([QPointF(*xy(a, 0.0)) for a in az])
-            inner = QPolygonF([QPointF(*xy(a, e)) for a, e in zip(az[::-1], lim[::-1])])
-            path = QPainterPath()
-            path.addPolygon(outer)
-            path.addPolygon(inner)
-            path.setFillRule(Qt.FillRule.OddEvenFill)
-            p.fillPath(path, th.mask)
-        # grid
-        p.setPen(QPen(th.grid, 1))
-        p.setBrush(Qt.BrushStyle.NoBrush)
-        for el in (0, 30, 60):
-            r = radius * (90 - el) / 90.0
-            p.drawEllipse(QPointF(cx, cy), r, r)
-        for a in range(0, 360, 30):
-            x, y = xy(a, 0)
-            p.drawLine(QPointF(cx, cy), QPointF(x, y))
-        p.setPen(QPen(th.foreground))
-        f = QFont()
-        f.setPointSizeF(8)
-        p.setFont(f)
-        for a, lab in ((0, "N"), (90, "E"), (180, "S"), (270, "W")):
-            x, y = xy(a, -4.5)
-            p.drawText(QRectF(x - 10, y - 8, 20, 16), int(Qt.AlignmentFlag.AlignCenter), lab)
-        for el in (30, 60):
-            x, y = xy(45, el)
-            p.drawText(QPointF(x + 2, y - 2), f"{el}")
+    def paintEvent(self, _ev):
+        p, th = chart_painter(self)
+        geo = self.polar()
+        if geo is None:
+            return
+        xy = geo.xy
+        st = self.mask_station()
+        if st is not None:
+            paint_mask(p, geo, st, th)
+        paint_grid(p, geo, th)
         # title
         if self.pass_ is None:
             p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter),
                        "Select a pass or booking to see its track")
             return
         q = self.pass_
-        title = (f"{q.station}  {format_utc(q.aos_tt, 0)[5:16]} - {format_utc(q.los_tt, 0)[5:16]}  "
+        from contactplan.app.models import short_text
+
+        title = (f"{q.station}  {short_text(q.aos_tt)} - {short_text(q.los_tt)}  "
                  f"max {q.max_elevation_deg:.1f} deg")
         p.drawText(QRectF(0, 2, self.width(), 18), int(Qt.AlignmentFlag.AlignCenter), title)
         self.margins_line = self.margins_for(q)
@@ -186,3 +170,81 @@ class SkyView(QWidget):
         p.drawText(QRectF(0, self.height() - 16, self.width(), 16), int(Qt.AlignmentFlag.AlignCenter),
                    "filled dot: AOS, square: LOS, grey: below mask" if not self.note else self.note)
         p.end()
+
+
+class Polar:
+    """A sky chart's place in a widget: centre and horizon radius in pixels; ``xy(az, el)`` maps to pixels."""
+
+    def __init__(self, cx: float, cy: float, radius: float):
+        self.cx, self.cy, self.radius = cx, cy, radius
+
+    def xy(self, az, el):
+        rr = self.radius * (90.0 - np.clip(el, -5, 90)) / 90.0
+        a = np.radians(az)
+        return self.cx + rr * np.sin(a), self.cy - rr * np.cos(a)
+
+    def az_el(self, x: float, y: float) -> tuple[float, float]:
+        """Azimuth (0 to <360) and elevation (-5 to 90) of a pixel (the inverse of ``xy``)."""
+        dx, dy = x - self.cx, self.cy - y
+        az = float(np.degrees(np.arctan2(dx, dy)) % 360.0)
+        el = 90.0 - 90.0 * float(np.hypot(dx, dy)) / max(self.radius, 1e-9)
+        return az, min(90.0, max(-5.0, el))
+
+
+def chart_painter(widget) -> tuple:
+    """(a QPainter on ``widget`` with its background filled, the theme) for a sky chart."""
+    th = theme.current()
+    p = QPainter(widget)
+    p.setRenderHint(QPainter.RenderHint.Antialiasing)
+    p.fillRect(widget.rect(), th.background)
+    return p, th
+
+
+def mask_limit_deg(st, az):
+    """The elevation limit (mask and lowest elevation) of ``st`` at the azimuths ``az``, degrees."""
+    lim = np.full_like(az, float(st.min_elevation_deg))
+    if st.horizon_mask:
+        try:
+            from contactplan.geometry.mask import effective_limit_deg
+
+            lim = np.asarray(effective_limit_deg(st, az), dtype=float)
+        except Exception:
+            m = np.array(st.horizon_mask, dtype=float)
+            lim = np.maximum(lim, np.interp(az, m[:, 0], m[:, 1], period=360.0))
+    return lim
+
+
+def paint_mask(p: QPainter, geo: Polar, st, th) -> None:
+    """The horizon mask (and lowest elevation) as a filled region between the horizon and the limit."""
+    az = np.arange(0.0, 360.5, 1.0)
+    lim = mask_limit_deg(st, az)
+    outer = QPolygonF([QPointF(*geo.xy(a, 0.0)) for a in az])
+    inner = QPolygonF([QPointF(*geo.xy(a, e)) for a, e in zip(az[::-1], lim[::-1])])
+    path = QPainterPath()
+    path.addPolygon(outer)
+    path.addPolygon(inner)
+    path.setFillRule(Qt.FillRule.OddEvenFill)
+    p.fillPath(path, th.mask)
+
+
+def paint_grid(p: QPainter, geo: Polar, th) -> None:
+    """Elevation circles every 30 deg, azimuth spokes every 30 deg, N E S W and the circle values."""
+    xy = geo.xy
+    p.setPen(QPen(th.grid, 1))
+    p.setBrush(Qt.BrushStyle.NoBrush)
+    for el in (0, 30, 60):
+        r = geo.radius * (90 - el) / 90.0
+        p.drawEllipse(QPointF(geo.cx, geo.cy), r, r)
+    for a in range(0, 360, 30):
+        x, y = xy(a, 0)
+        p.drawLine(QPointF(geo.cx, geo.cy), QPointF(x, y))
+    p.setPen(QPen(th.foreground))
+    f = QFont()
+    f.setPointSizeF(8)
+    p.setFont(f)
+    for a, lab in ((0, "N"), (90, "E"), (180, "S"), (270, "W")):
+        x, y = xy(a, -4.5)
+        p.drawText(QRectF(x - 10, y - 8, 20, 16), int(Qt.AlignmentFlag.AlignCenter), lab)
+    for el in (30, 60):
+        x, y = xy(45, el)
+        p.drawText(QPointF(x + 2, y - 2), f"{el}")

@@ -22,7 +22,7 @@ from contactplan.plan.status import status_of
 
 #: what each status looks like, in words (the legend and the tooltips)
 STATUS_LOOKS = {
-    "draft": "faded fill, open ring: not sent to the network yet",
+    "draft": "faded fill, open ring (bottom right): not sent to the network yet",
     "requested": "half-filled ring: sent, no answer yet",
     "confirmed": "filled disc: confirmed by the network",
     "declined": "cross-hatched, X: declined by the network (counts nowhere)",
@@ -53,12 +53,12 @@ def body_fill(booking, fill: QColor, th):
 
 
 def paint_status(painter, r: QRectF, booking, colour: QColor) -> QRectF | None:
-    """The status mark at the top right inside block ``r`` (beside it when the block is narrow);
+    """The status mark at the bottom right inside block ``r`` (beside it when the block is narrow);
     returns where it was drawn."""
     st = status_of(booking)
     d = GLYPH_PX
     x = r.right() - d - 2 if r.width() > d + 6 else r.right() + 2
-    box = QRectF(x, r.top() + 2, d, d)
+    box = QRectF(x, r.bottom() - d - 2, d, d)  # bottom right: the lock cross holds the top right
     painter.save()
     painter.setRenderHint(painter.RenderHint.Antialiasing, True)
     pen = QPen(colour, 1.3)

@@ -1,9 +1,13 @@
-"""Colours of the planner: one palette of our own, safe for colour-blind readers.
+"""Colours and marks of the planner: a palette of its own, readable with the common colour-vision deficiencies.
 
-The hues come from the Okabe-Ito set (Okabe & Ito, "Color Universal Design",
-2008), chosen because it stays distinguishable under the common colour-vision
-deficiencies. Every meaning also has a second cue (hatching, outline style,
-position in the lane) so that no information rests on colour alone.
+Every element kind has its own hue family and its own shape (:data:`MARKS`), so no
+meaning rests on colour alone: bookings are a mid-lane block (warm yellow), a locked
+booking a lavender block with a bar along its top and a cross on its corner, an
+error a thick outline with a filled triangle badge, a warning a dashed outline with
+an open diamond, a burn a red block with a flame triangle at its start, a keep-out
+a band of vertical lines across every lane, an overflow a cross-hatched span with a
+heavy bar on the capacity line. ``tests/test_app_editors.py`` checks that these six
+stay apart under simulated protanopia, deuteranopia and tritanopia.
 """
 
 from __future__ import annotations
@@ -13,14 +17,29 @@ from dataclasses import dataclass
 from PySide6.QtCore import Qt
 from PySide6.QtGui import QColor, QGuiApplication, QPalette
 
-# Okabe-Ito hues (Okabe & Ito 2008, "Color Universal Design").
-ORANGE = "#E69F00"
-SKY = "#56B4E9"
-GREEN = "#009E73"
-YELLOW = "#F0E442"
-BLUE = "#0072B2"
-VERMILLION = "#D55E00"
-PURPLE = "#CC79A7"
+# accent hues used by the icons (the booking's yellow, the passes' blue, the burns' red)
+ORANGE = "#F5C451"
+SKY = "#63B3E6"
+VERMILLION = "#B3261E"
+GREEN = "#2F7D4A"
+BLUE = "#1D5B86"
+YELLOW = "#E8CB5E"
+PURPLE = "#8E1F6F"
+
+#: the shape that tells each element kind apart without its colour
+MARKS = {
+    "pass": "band across the lane, darker with rate or elevation, black ticks at AOS and LOS",
+    "booking": "block in the middle of the lane, thin solid edge",
+    "booking_locked": "block with a dark bar along its top and a cross in its top-right corner",
+    "error": "thick solid outline with a filled triangle badge at the top-left corner",
+    "warning": "dashed outline with an open diamond badge at the top-left corner",
+    "burn": "block on the spacecraft lane with a flame triangle at its start",
+    "slew": "block on the spacecraft lane with diagonal stripes",
+    "other": "hollow block on the spacecraft lane",
+    "keepout": "band of vertical lines across every lane",
+    "outage": "diagonal hatching on the station lane, dashed edge",
+    "overflow": "cross-hatched span on the recorder strip, heavy bar on the capacity line",
+}
 
 
 def _c(hex_: str, alpha: int = 255) -> QColor:
@@ -78,17 +97,16 @@ def light_theme() -> Theme:
     return Theme(
         dark=False,
         background=_c("#FFFFFF"), foreground=_c("#1A1A1A"),
-        lane_a=_c("#F4F6F8"), lane_b=_c("#FFFFFF"), grid=_c("#D0D4D8"), day_line=_c("#7A8088"),
-        pass_low=_c("#CFE6F5"), pass_high=_c(BLUE), pass_edge=_c("#1A1A1A"),
-        booking=_c(ORANGE), booking_edge=_c("#3A2A00"), booking_locked=_c("#B88400"),
+        lane_a=_c("#F3F5F7"), lane_b=_c("#FFFFFF"), grid=_c("#CFD4DA"), day_line=_c("#7A8088"),
+        pass_low=_c("#D6E6F0"), pass_high=_c("#1D5B86"), pass_edge=_c("#1A1A1A"),
+        booking=_c("#F5C451"), booking_edge=_c("#4A3800"), booking_locked=_c("#BFA8E0"),
         selection=_c("#1A1A1A"),
-        burn=_c(VERMILLION), slew=_c(PURPLE), other=_c(GREEN),
-        keepout=_c(VERMILLION, 38), monitor=_c(GREEN, 60), outage=_c("#5A5A5A", 150),
-        # a darker vermillion and sky than Okabe-Ito's: the error text and the now line need their
-        # WCAG 2.1 contrast on white (4.5:1 for text, 1.4.3; 3:1 for a line, 1.4.11)
-        error=_c("#B34A00"), warning=_c("#8A6D00"),
-        now=_c("#3A8CC0"), fill=_c(GREEN), capacity=_c("#1A1A1A"), overflow=_c(VERMILLION, 90),
-        mask=_c("#8C8C8C", 120), track=_c(BLUE),
+        burn=_c("#B3261E"), slew=_c("#2F7D4A"), other=_c("#6B6B6B"),
+        keepout=_c("#4E8FA8", 150), monitor=_c("#2F7D4A", 70), outage=_c("#5A5A5A", 150),
+        # text colours: 4.5:1 on white (WCAG 2.1, 1.4.3)
+        error=_c("#8E1F6F"), warning=_c("#735800"),
+        now=_c("#2C7FB8"), fill=_c("#2F7D4A"), capacity=_c("#1A1A1A"), overflow=_c("#2B2B2B", 140),
+        mask=_c("#8C8C8C", 120), track=_c("#1D5B86"),
     )
 
 
@@ -97,14 +115,14 @@ def dark_theme() -> Theme:
         dark=True,
         background=_c("#1E2226"), foreground=_c("#E8EAED"),
         lane_a=_c("#262B30"), lane_b=_c("#1E2226"), grid=_c("#3A4047"), day_line=_c("#9AA0A8"),
-        pass_low=_c("#1F3A4D"), pass_high=_c(SKY), pass_edge=_c("#E8EAED"),
-        booking=_c(ORANGE), booking_edge=_c("#FFF2CC"), booking_locked=_c("#B88400"),
+        pass_low=_c("#1C3547"), pass_high=_c("#63B3E6"), pass_edge=_c("#E8EAED"),
+        booking=_c("#F5C451"), booking_edge=_c("#FFF0C2"), booking_locked=_c("#C7B4E6"),
         selection=_c("#FFFFFF"),
-        burn=_c(VERMILLION), slew=_c(PURPLE), other=_c(GREEN),
-        keepout=_c(VERMILLION, 48), monitor=_c(GREEN, 70), outage=_c("#B0B0B0", 150),
-        error=_c("#FF7A3D"), warning=_c(YELLOW),
-        now=_c(SKY), fill=_c(GREEN), capacity=_c("#E8EAED"), overflow=_c(VERMILLION, 110),
-        mask=_c("#8C8C8C", 130), track=_c(SKY),
+        burn=_c("#F2675F"), slew=_c("#5CC28A"), other=_c("#A8A8A8"),
+        keepout=_c("#2F6F8F", 170), monitor=_c("#5CC28A", 80), outage=_c("#B0B0B0", 150),
+        error=_c("#E85FB8"), warning=_c("#E8CB5E"),
+        now=_c("#63B3E6"), fill=_c("#5CC28A"), capacity=_c("#E8EAED"), overflow=_c("#E0E0E0", 140),
+        mask=_c("#8C8C8C", 130), track=_c("#63B3E6"),
     )
 
 

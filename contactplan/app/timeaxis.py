@@ -59,16 +59,16 @@ class TimeAxis(pg.AxisItem):
         out = []
         for text, doy, wd in zip(texts, doys, days):
             if text[11:19] == "00:00:00":
-                out.append(f"{int(doy):03d} {_WEEKDAYS[int(wd)]} {text[5:10]}")
+                out.append(_day_text(int(doy), int(wd), text[5:10]))
             else:
                 out.append(text[11:16])
         return out
 
 
     def day_label(self, tt: float) -> str:
-        """Label of the UTC day holding ``tt``: day of year, weekday, month-day (012 Tue 01-12)."""
+        """Label of the UTC day holding ``tt``: with day-of-year dates 012 Tue 01-12, else Tue 01-12."""
         day0 = float(utc_day_start(tt))
-        return f"{day_of_year(day0):03d} {_WEEKDAYS[_weekday(day0)]} {format_utc(day0, 0)[5:10]}"
+        return _day_text(day_of_year(day0), _weekday(day0), format_utc(day0, 0)[5:10])
 
     def generateDrawSpecs(self, p):
         """As pyqtgraph draws it, plus the day at the left edge when its midnight label is not on screen.
@@ -92,7 +92,7 @@ class TimeAxis(pg.AxisItem):
         y, height = text_specs[0][0].top(), text_specs[0][0].height()
         # the next day's label limits the room: the name shortens (012 Tue 01-12, 012 Tue, 012) to fit
         limit = min((r.left() for r, _f, s in text_specs if ":" not in s and s != full), default=bounds.right())
-        for text in (full, full[:7], full[:3]):
+        for text in _shorter(full):
             edge = QRectF(bounds.left() + 2, y, p.fontMetrics().horizontalAdvance(text) + 6, height)
             if edge.right() + 4 <= limit:
                 break
@@ -107,6 +107,23 @@ class TimeAxis(pg.AxisItem):
         kept.insert(0, (edge, flags, text))
         self.edge_label = text
         return axis_spec, tick_specs, kept
+
+
+def _day_text(doy: int, weekday: int, month_day: str) -> str:
+    """A day on the axis as the day-of-year switch says: 012 Tue 01-12 (day of year first) or Tue 01-12."""
+    from contactplan.app.models import day_of_year_on
+
+    if day_of_year_on():
+        return f"{doy:03d} {_WEEKDAYS[weekday]} {month_day}"
+    return f"{_WEEKDAYS[weekday]} {month_day}"
+
+
+def _shorter(full: str) -> tuple:
+    """The day label and its shorter forms, longest first (012 Tue 01-12, 012 Tue, 012; Tue 01-12, 01-12)."""
+    parts = full.split(" ")
+    if len(parts) == 3:
+        return full, " ".join(parts[:2]), parts[0]
+    return full, parts[-1]
 
 
 def _weekday(tt):

@@ -13,14 +13,15 @@ from __future__ import annotations
 import numpy as np
 import pyqtgraph as pg
 from PySide6.QtCore import Qt, QTimer, Signal
-from PySide6.QtGui import QColor, QFont
+from PySide6.QtGui import QBrush, QColor, QFont
 
 from contactplan.app import theme
 from contactplan.app.document import NOTHING
 from contactplan.app.lanes import (EDGE_PX, GRID_S, MIN_BOOKING_S, SNAP_PX, WEEK_S, Drag, LanesCanvas,  # noqa: F401
                                    LanesViewBox)
 from contactplan.app.timeaxis import LaneAxis, TimeAxis, _weekday  # noqa: F401
-from contactplan.timescale import format_utc, now_tt, utc_day_start
+from contactplan.app.models import short_text
+from contactplan.timescale import now_tt, utc_day_start
 
 
 class Timeline(pg.GraphicsLayoutWidget):
@@ -174,14 +175,7 @@ class Timeline(pg.GraphicsLayoutWidget):
             ax.origin_tt = self.origin_tt
             ax.picture = None
             ax.update()
-        names = ["Spacecraft"] + [s.id for s in sc.stations]
-        self.lane_axis.set_lanes(names)
-        self.ci.layout.setRowMinimumHeight(0, 30 + 20 * len(names))  # lanes stay readable when short
-        self.lanes_vb.setYRange(0, len(names), padding=0)
-        span_h = (sc.end_tt - sc.start_tt) / 3600.0
-        x0, x1 = self.x_of(sc.start_tt), self.x_of(sc.end_tt)
-        self.lanes_vb.setLimits(xMin=x0 - max(24.0, 0.1 * span_h), xMax=x1 + max(24.0, 0.1 * span_h),
-                                minXRange=0.25, yMin=0, yMax=len(names))
+        self._set_lanes()
         self.set_range_tt(sc.start_tt, min(sc.end_tt, sc.start_tt + WEEK_S))
         self.canvas.invalidate()
         self.update_now()
@@ -192,11 +186,30 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.canvas.invalidate()
         self._selection_changed(self.doc.selection)
 
+    def redraw_axes(self) -> None:
+        """Draw the time axes again (after the day-of-year switch)."""
+        for ax in (self.top_axis, self.rec_axis, self.el_axis):
+            ax.picture = None
+            ax.update()
+        self.canvas.update()
+
+    def _set_lanes(self) -> None:
+        """One lane for the spacecraft and one per station (after opening, or a station added or deleted)."""
+        sc = self.doc.scenario
+        names = ["Spacecraft"] + [s.id for s in sc.stations]
+        self.lane_axis.set_lanes(names)
+        self.ci.layout.setRowMinimumHeight(0, 30 + 20 * len(names))  # lanes stay readable when short
+        self.lanes_vb.setYRange(0, len(names), padding=0)
+        span_h = (sc.end_tt - sc.start_tt) / 3600.0
+        x0, x1 = self.x_of(sc.start_tt), self.x_of(sc.end_tt)
+        self.lanes_vb.setLimits(xMin=x0 - max(24.0, 0.1 * span_h), xMax=x1 + max(24.0, 0.1 * span_h),
+                                minXRange=0.25, yMin=0, yMax=len(names))
+
     def _records_changed(self) -> None:
         sc = self.doc.scenario
         if sc is not None:
-            self.lane_axis.set_lanes(["Spacecraft"] + [s.id for s in sc.stations])
-        self.canvas.update()
+            self._set_lanes()
+        self.canvas.invalidate()
 
     def set_shade(self, mode: str) -> None:
         self.canvas.shade = mode
@@ -231,15 +244,16 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.overflow_texts = []
         for (t0, t1, lost) in rec.overflow_spans or []:
             x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
-            a, b = (format_utc(t, 0)[5:16].replace("T", " ") for t in (t0, t1))
+            a, b = (short_text(t) for t in (t0, t1))
             text = f"full {a} to {b}: {lost:.1f} Gbit lost"
-            reg = pg.LinearRegionItem(values=(x0, x1), movable=False,
-                                      brush=th.overflow, pen=pg.mkPen(th.error, width=1))
+            reg = pg.LinearRegionItem(values=(x0, x1), movable=False,  # cross-hatched: read without colour
+                                      brush=QBrush(th.overflow, Qt.BrushStyle.DiagCrossPattern),
+                                      pen=pg.mkPen(th.capacity, width=1))
             reg.setToolTip(f"recorder {text}")
             self.rec_plot.addItem(reg, ignoreBounds=True)
             self.overflow_items.append(reg)
             # a second cue besides the shading: a thick bar on the capacity line, and the loss in words
-            bar = pg.PlotDataItem([x0, x1], [cap, cap], pen=pg.mkPen(th.error, width=5))
+            bar = pg.PlotDataItem([x0, x1], [cap, cap], pen=pg.mkPen(th.capacity, width=5))
             self.rec_plot.addItem(bar, ignoreBounds=True)
             self.overflow_items.append(bar)
             label = pg.TextItem(f"{lost:.1f} Gbit lost", color=th.foreground, anchor=(0, 0),
@@ -373,9 +387,9 @@ class Timeline(pg.GraphicsLayoutWidget):
     def keyPressEvent(self, ev):
         k = ev.key()
         if k in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace):
-            b = self.doc.selected_booking()
-            if b is not None:
-                self.doc.delete_bookings([b.id])
+            from contactplan.app.activities import delete_selected
+
+            if delete_selected(self.doc):
                 ev.accept()
                 return
         elif k == Qt.Key.Key_Left:

@@ -9,15 +9,14 @@ from __future__ import annotations
 
 import importlib.util
 import logging
-from pathlib import Path
 
 from PySide6.QtCore import QSettings, Qt, QTimer
 from PySide6.QtGui import QAction, QActionGroup, QIcon, QKeySequence
-from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QDialog, QDockWidget, QFrame, QHBoxLayout,
+from PySide6.QtWidgets import (QComboBox, QDialog, QDockWidget, QFrame, QHBoxLayout,
                                QInputDialog, QLabel, QLineEdit, QMainWindow, QMessageBox, QProgressBar,
                                QPushButton, QScrollArea, QSizePolicy, QUndoView, QVBoxLayout, QWidget)
 
-from contactplan import CAUTION, __version__
+from contactplan import CAUTION
 from contactplan.app import icons, theme
 from contactplan.app.autosave import Autosaver
 from contactplan.app.cycle import NetworkCycle
@@ -26,23 +25,23 @@ from contactplan.app.models import OBJECT_ROLE, BookingsModel, FilterProxy, Find
 from contactplan.app.navstrip import NavigationStrip
 from contactplan.app.properties import PropertyEditor
 from contactplan.app.skyview import SkyView
-from contactplan.app.statusmarks import STATUS_LOOKS
 from contactplan.app.timeline import Timeline
 from contactplan.app.widgets import (CautionLabel, ServicesDialog, StationDelegate, _marks_legend,  # noqa: F401
                                      _table)
 from contactplan.app.window_files import (MAX_RECENT, READ_IN_WORKER_BYTES, FilesMixin, SetEphemeris,  # noqa: F401
                                           _looks_oem)
+from contactplan.app.window_help import HelpMixin
 from contactplan.app.window_jobs import EXPORTS, JobsMixin, ReplaceBookings, revalidation_lines  # noqa: F401
 from contactplan.app.worker import Job  # noqa: F401
 from contactplan.errors import InputError
-from contactplan.timescale import format_utc, parse_utc
+from contactplan.timescale import parse_utc
 
 log = logging.getLogger("contactplan.app")
 APP_NAME = "contactplan"
 AUTOSAVE_MS = 2000  # a snapshot this long after the last edit (debounced; written in a background thread)
 
 
-class MainWindow(FilesMixin, JobsMixin, QMainWindow):
+class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
     """The planner's window; files and background jobs are in the two mixins."""
 
     def __init__(self, settings: QSettings | None = None, autosaver: Autosaver | None = None):
@@ -150,6 +149,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         lay.addWidget(self.passes_view)
         self.passes_dock = self._dock("Passes", "dock-passes", host, Qt.DockWidgetArea.BottomDockWidgetArea)
         doc.scenarioReplaced.connect(self._fill_station_filter)
+        doc.recordsChanged.connect(self._fill_station_filter)
 
         self.bookings_model = BookingsModel(doc, self)
         self.bookings_proxy = FilterProxy(self)
@@ -182,17 +182,19 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.sky = SkyView(doc)
         self.sky_dock = self._dock("Sky", "dock-sky", self.sky, Qt.DockWidgetArea.RightDockWidgetArea)
         self.props = PropertyEditor(doc)
-        props_scroll = QScrollArea()  # a short dock scrolls the form instead of squeezing it
-        props_scroll.setWidget(self.props)
-        props_scroll.setWidgetResizable(True)
-        props_scroll.setFrameShape(QFrame.Shape.NoFrame)
-        self.props_dock = self._dock("Properties", "dock-properties", props_scroll,
+        self.props_dock = self._dock("Properties", "dock-properties", _scrolled(self.props),
                                      Qt.DockWidgetArea.RightDockWidgetArea)
+        from contactplan.app.stationeditor import StationEditor
+
+        self.stations_editor = StationEditor(doc)
+        self.stations_dock = self._dock("Stations", "dock-stations", _scrolled(self.stations_editor),
+                                        Qt.DockWidgetArea.RightDockWidgetArea)
         self.history = QUndoView(doc.undo_stack)
         self.history.setEmptyLabel("(as opened)")
         self.history_dock = self._dock("Edit history", "dock-history", self.history,
                                        Qt.DockWidgetArea.RightDockWidgetArea)
-        self.tabifyDockWidget(self.props_dock, self.history_dock)
+        self.tabifyDockWidget(self.props_dock, self.stations_dock)
+        self.tabifyDockWidget(self.stations_dock, self.history_dock)
         self.props_dock.raise_()
 
     def _act(self, text, slot, shortcut=None, icon=None, tip=None) -> QAction:
@@ -210,8 +212,10 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
 
     def _build_actions(self) -> None:
         K = QKeySequence.StandardKey
-        self.act_new = self._act("&New week", self.new_scenario, K.New, "new",
-                                 "Start a new week with the same spacecraft and stations")
+        self.act_new = self._act("&New mission...", self.new_mission, K.New, "new",
+                                 "Start a new mission from an OEM file or the built-in orbit, with no stations yet")
+        self.act_next_week = self._act("New &week after this one", self.new_scenario, None, None,
+                                       "Start the next week with the same spacecraft, stations and settings")
         self.act_open = self._act("&Open...", self.open_dialog, K.Open, "open", "Open a scenario or an OEM file")
         self.act_save = self._act("&Save", self.save, K.Save, "save", "Save the scenario")
         self.act_save_as = self._act("Save &as...", self.save_as, K.SaveAs, "save-as", "Save under a new name")
@@ -228,11 +232,14 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.act_redo.setShortcut(QKeySequence(K.Redo))
         self.act_redo.setIcon(icons.icon("redo"))
         self.act_redo.setProperty("icon_name", "redo")
-        self.act_delete = self._act("&Delete booking", self.delete_selected, K.Delete)
+        self.act_delete = self._act("&Delete", self.delete_selected, K.Delete, tip="Delete the selected booking, "
+                                                                              "activity or outage")
         self.act_delete.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
         self.timeline.addAction(self.act_delete)
         self.bookings_view.addAction(self.act_delete)
         self.act_purposes = self._act("Edit &services...", lambda: self.edit_purposes(None), "Ctrl+E")
+        self.act_settings = self._act("Mission &settings...", self.show_settings, "Ctrl+,", None,
+                                      "Links, recorder, requirements, geometry and orbit determination")
         self.act_book_pass = self._act("&Book the selected pass", self.book_selected_pass, "Ctrl+B")
         self.act_zoom_in = self._act("Zoom &in", lambda: self.timeline.zoom(0.5), K.ZoomIn, "zoom-in")
         self.act_zoom_out = self._act("Zoom &out", lambda: self.timeline.zoom(2.0), K.ZoomOut, "zoom-out")
@@ -243,8 +250,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.act_now = self._act("Go to &now", self.goto_now, "Ctrl+T", "now")
         self.act_compute = self._act("&Compute passes", self.compute, K.Refresh, "revalidate",
                                      "Predict passes, link and recorder again")
-        self.act_draft = self._act("&Draft the week...", self.draft_week, "Ctrl+D", "draft",
-                                   "Propose bookings that meet every requirement")
+        self.act_draft = self._act("&Draft...", self.draft_dialog, "Ctrl+D", "draft",
+                                   "Propose bookings that meet every requirement (choose the span and limits)")
         if importlib.util.find_spec("contactplan.plan.drafter") is None:
             self.act_draft.setEnabled(False)
             self.act_draft.setToolTip("The drafter is not part of this build")
@@ -259,7 +266,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         if str(self.settings.value("view/shade", "rate")) == "elevation":
             self.act_shade_el.setChecked(True)
             self.timeline.set_shade("elevation")
-        self.act_doy = QAction("&Day-of-year dates in tables", self, checkable=True)
+        self.act_doy = QAction("&Day-of-year dates", self, checkable=True)
+        self.act_doy.setToolTip("Times as 2027-012T19:00:00Z instead of 2027-01-12T19:00:00Z in every table, "
+                                "axis, editor and dialog")
         self.act_doy.toggled.connect(self.set_day_of_year)
         self.export_actions = []
         for what, fmt, label, filt in EXPORTS:
@@ -269,7 +278,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
     def _build_menus(self) -> None:
         mb = self.menuBar()
         m = mb.addMenu("&File")
-        for a in (self.act_new, self.act_open):
+        for a in (self.act_new, self.act_next_week, self.act_open):
             m.addAction(a)
         self.recent_menu = m.addMenu("Open &recent")
         self.recent_menu.aboutToShow.connect(self._fill_recent)
@@ -290,6 +299,8 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         m.addSeparator()
         for a in (self.act_book_pass, self.act_purposes, self.act_delete):
             m.addAction(a)
+        m.addSeparator()
+        m.addAction(self.act_settings)
         m = mb.addMenu("&View")
         for a in (self.act_zoom_in, self.act_zoom_out, self.act_window):
             m.addAction(a)
@@ -302,7 +313,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         m.addAction(self.act_doy)
         m.addSeparator()
         for d in (self.passes_dock, self.bookings_dock, self.findings_dock, self.sky_dock, self.props_dock,
-                  self.history_dock):
+                  self.stations_dock, self.history_dock):
             m.addAction(d.toggleViewAction())
         m = mb.addMenu("&Plan")
         m.addAction(self.act_compute)
@@ -341,6 +352,22 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.progress.setMaximumWidth(220)
         self.progress.setVisible(False)
         sb.addPermanentWidget(self.progress)
+        self.export_line = QWidget()  # the last export: stays until the next one or until closed
+        row = QHBoxLayout(self.export_line)
+        row.setContentsMargins(0, 0, 0, 0)
+        self.export_label = QLabel("")
+        self.export_label.setObjectName("export_line")
+        row.addWidget(self.export_label)
+        self.export_open_btn = QPushButton("Open folder")
+        self.export_open_btn.clicked.connect(self.open_export_folder)
+        row.addWidget(self.export_open_btn)
+        close = QPushButton("x")
+        close.setToolTip("Hide this line")
+        close.setFixedWidth(24)
+        close.clicked.connect(lambda: self.export_line.setVisible(False))
+        row.addWidget(close)
+        self.export_line.setVisible(False)
+        sb.addPermanentWidget(self.export_line)
         self.cancel_btn = QPushButton(icons.icon("cancel"), "Cancel")
         self.cancel_btn.setVisible(False)
         self.cancel_btn.clicked.connect(self.cancel_job)
@@ -376,49 +403,6 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
     def ask(self, title: str, text: str, buttons, default):
         return QMessageBox.question(self, title, text, buttons, default)
 
-    def choose_recovery(self, snaps, requested=None):
-        """Ask what to do with the snapshots left by planners that did not close cleanly.
-
-        Returns ``("recover", [snap])``, ``("discard", [snaps...])`` or ``("keep", [])`` (open
-        ``requested`` or the demo, and offer the snapshots again at the next start)."""
-        from PySide6.QtWidgets import QDialog, QDialogButtonBox, QListWidget, QVBoxLayout
-
-        from contactplan.app.main import recovery_label
-
-        dlg = QDialog(self)
-        dlg.setWindowTitle("Recover unsaved edits?")
-        lay = QVBoxLayout(dlg)
-        n = len(snaps)
-        lay.addWidget(QLabel(f"contactplan did not close cleanly: {n} autosaved plan{'s' if n != 1 else ''} "
-                             "with unsaved edits. Choose one to recover, discard the ones you do not need, "
-                             "or keep them for later."))
-        lst = QListWidget()
-        lst.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
-        for snap in snaps:
-            lst.addItem(recovery_label(snap))
-        lst.setCurrentRow(0)
-        lay.addWidget(lst)
-        box = QDialogButtonBox()
-        recover = box.addButton("Recover selected", QDialogButtonBox.ButtonRole.AcceptRole)
-        discard = box.addButton("Discard selected", QDialogButtonBox.ButtonRole.DestructiveRole)
-        later = box.addButton(f"Open {Path(requested).name} instead" if requested else "Keep for later",
-                              QDialogButtonBox.ButtonRole.RejectRole)
-        lay.addWidget(box)
-        clicked = []
-        box.clicked.connect(lambda b: (clicked.append(b), dlg.accept()))
-        dlg.exec()
-        rows = sorted(i.row() for i in lst.selectedIndexes())
-        chosen = [snaps[r] for r in rows]
-        b = clicked[0] if clicked else later
-        if b is recover and chosen:
-            return "recover", chosen[:1]
-        if b is discard and chosen:
-            ans = self.ask("Discard autosaved edits?", f"Discard {len(chosen)} autosaved plan(s)? "
-                           "Their unsaved edits are lost.", QMessageBox.StandardButton.Yes
-                           | QMessageBox.StandardButton.No, QMessageBox.StandardButton.No)
-            return ("discard", chosen) if ans == QMessageBox.StandardButton.Yes else ("keep", [])
-        return "keep", []
-
     def info(self, title: str, text: str) -> None:
         box = QMessageBox(QMessageBox.Icon.Information, title, text, QMessageBox.StandardButton.Ok, self)
         box.open()
@@ -447,6 +431,13 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         for m in (self.passes_model, self.bookings_model, self.findings_model):
             m.refresh()
         self.props.reload()
+        self.stations_editor.reload()
+        self.timeline.redraw_axes()
+        self.nav_strip.axis.picture = None
+        self.nav_strip.axis.update()
+        dlg = getattr(self, "settings_dialog", None)
+        if dlg is not None:
+            dlg.reload()
 
     def set_shade(self, mode: str) -> None:
         self.timeline.set_shade(mode)
@@ -469,7 +460,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         has = self.doc.scenario is not None
         busy = self.job is not None and self.job.running
         for a in (self.act_save, self.act_save_as, self.act_import, self.act_revalidate, *self.export_actions,
-                  self.act_book_pass, self.act_purposes):
+                  self.act_book_pass, self.act_purposes, self.act_settings, self.act_next_week):
             a.setEnabled(has)
         self.act_compute.setEnabled(has and not busy)
         if importlib.util.find_spec("contactplan.plan.drafter") is not None:
@@ -508,13 +499,16 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
             self.compute()
 
     def _fill_station_filter(self) -> None:
+        keep = self.pass_station.currentData()  # (kept through a station edit while it still exists)
         self.pass_station.blockSignals(True)
         self.pass_station.clear()
         self.pass_station.addItem("All stations", None)
         for s in (self.doc.scenario.stations if self.doc.scenario else []):
             self.pass_station.addItem(f"{s.id} ({s.name})", s.id)
+        i = max(self.pass_station.findData(keep), 0) if keep is not None else 0
+        self.pass_station.setCurrentIndex(i)
         self.pass_station.blockSignals(False)
-        self.passes_proxy.set_station(None)
+        self.passes_proxy.set_station(self.pass_station.currentData())
 
     # ------------------------------------------------------------ selection <-> tables
     def _pass_clicked(self, index) -> None:
@@ -587,9 +581,9 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
 
     # ------------------------------------------------------------ edits
     def delete_selected(self) -> None:
-        b = self.doc.selected_booking()
-        if b is not None:
-            self.doc.delete_bookings([b.id])
+        from contactplan.app.activities import delete_selected
+
+        delete_selected(self.doc)
 
     def edit_purposes(self, booking_id: str | None) -> None:
         b = self.doc.selected_booking() if booking_id is None else self.doc.scenario.booking(booking_id)
@@ -605,6 +599,20 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
             except ValueError as exc:
                 self.show_error(str(exc))
 
+    def show_settings(self):
+        """The mission settings beside the planner (one dialog, kept)."""
+        if self.doc.scenario is None:
+            return None
+        dlg = getattr(self, "settings_dialog", None)
+        if dlg is None:
+            from contactplan.app.settings import SettingsDialog
+
+            dlg = self.settings_dialog = SettingsDialog(self.doc, self)
+            dlg.resize(900, 640)
+        dlg.show()
+        dlg.raise_()
+        return dlg
+
     def book_selected_pass(self) -> None:
         sel = self.doc.selection
         if sel.kind != "pass":
@@ -616,8 +624,11 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
     # ------------------------------------------------------------ navigation
     def goto_week(self) -> None:
         t0, _ = self.timeline.visible_tt()
-        text, ok = QInputDialog.getText(self, "Go to week", "First day (UTC), e.g. 2027-01-19 or 2027-019:",
-                                        text=format_utc(t0, 0)[:10])
+        from contactplan.app.models import day_of_year_on, utc_text
+
+        example = "2027-019" if day_of_year_on() else "2027-01-19"
+        text, ok = QInputDialog.getText(self, "Go to week", f"First day (UTC), e.g. {example}:",
+                                        text=utc_text(t0).split("T")[0])
         if ok and text.strip():
             try:
                 self.timeline.show_week(parse_utc(text))
@@ -631,57 +642,7 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         n = now_tt()
         self.timeline.set_range_tt(n - (t1 - t0) / 2, n + (t1 - t0) / 2)
 
-    # ------------------------------------------------------------ about, close
-    def about(self) -> QMessageBox:
-        box = QMessageBox(QMessageBox.Icon.NoIcon, "About contactplan",
-                          f"<b>contactplan {__version__}</b><br>Ground contact and downlink planner for "
-                          f"spacecraft on libration-point orbits.<br><br><b>Caution.</b> {CAUTION}",
-                          QMessageBox.StandardButton.Ok, self)
-        box.setTextFormat(Qt.TextFormat.RichText)
-        box.setIconPixmap(self.windowIcon().pixmap(64, 64))
-        box.open()
-        self.about_box = box
-        return box
-
-    def legend(self) -> None:
-        """What each mark on the timeline means (every colour also has a second cue)."""
-        th = theme.current()
-
-        def sw(c, style=""):
-            return (f'<span style="background:{c.name()};{style}">&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;&nbsp;</span>')
-
-        rows = [
-            (sw(th.pass_low) + sw(th.pass_colour(0.5)) + sw(th.pass_high),
-             "pass; darker = higher rate (or elevation, View menu); black ticks = AOS and LOS"),
-            (sw(th.booking), "booking track (BOT to EOT); lighter, dotted ends: pre-pass and post-pass; "
-                             "lettered boxes: its services (" + _marks_legend() + ")"),
-            (sw(th.booking_locked), "locked booking (also a dark bar along its top)"),
-        ] + [("", f"{st}: {look}") for st, look in STATUS_LOOKS.items()] + [
-            (sw(th.outage), "dotted across a station lane: other users' time on the antenna (busy)"),
-            ("", "dashed outline without fill: a booking as the latest issued revision had it (Plan menu)"),
-            (sw(th.error, "border:2px solid"), "thick solid outline: the block breaks a rule (error)"),
-            (sw(th.warning, "border:2px dashed"), "dashed outline: a warning names the block"),
-            (sw(th.burn), "burn; green bar below: span that must be watched"),
-            (sw(th.slew), "slew"), (sw(th.other), "other activity"),
-            (sw(th.keepout), "keep-out: no downlink (shaded across every lane)"),
-            (sw(th.outage), "hatched: station out of service"),
-            (sw(th.foreground), "dark strip on top of the spacecraft lane: in the Earth's or Moon's shadow"),
-            (sw(th.now, "border:2px dashed"), "dashed vertical line: now"),
-            (sw(th.fill), "recorder fill; dashed line = capacity"),
-            (sw(th.overflow, "border:2px solid"), "recorder overflow: shaded span, thick bar on the capacity line, "
-                                                  "Gbit lost written at its start"),
-        ]
-        html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
-        html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
-                 "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Delete removes, double-click edits "
-                 "services. "
-                 "Arrows pan, +/- zoom, Page Up/Down or Alt+Left/Right change week, Ctrl+G goes to a given week, "
-                 "Home shows the whole window.</p>")
-        box = QMessageBox(QMessageBox.Icon.NoIcon, "Legend", html, QMessageBox.StandardButton.Ok, self)
-        box.setTextFormat(Qt.TextFormat.RichText)
-        box.open()
-        self.legend_box = box
-
+    # ------------------------------------------------------------ close
     def closeEvent(self, ev) -> None:
         if not self._dirty_ok():
             ev.ignore()
@@ -693,3 +654,12 @@ class MainWindow(FilesMixin, JobsMixin, QMainWindow):
         self.autosave_timer.stop()
         self.autosaver.clear()
         ev.accept()
+
+
+def _scrolled(widget) -> QScrollArea:
+    """A dock's form in a scroll area: a short dock scrolls the form instead of squeezing it."""
+    area = QScrollArea()
+    area.setWidget(widget)
+    area.setWidgetResizable(True)
+    area.setFrameShape(QFrame.Shape.NoFrame)
+    return area

@@ -8,9 +8,10 @@ from pathlib import Path
 from PySide6.QtGui import QUndoCommand
 from PySide6.QtWidgets import QFileDialog, QMessageBox
 
+from contactplan.app.models import utc_text
 from contactplan.app.worker import Job
 from contactplan.errors import InputError
-from contactplan.timescale import DAY_S, format_utc
+from contactplan.timescale import DAY_S
 
 log = logging.getLogger("contactplan.app")
 
@@ -80,6 +81,11 @@ class FilesMixin:
         sc = self._read_or_say(load_scenario, path, "Cannot open the scenario")
         if sc is None:
             return False
+        if _is_demo(path):  # the installation's file is never written: Save asks where to put the copy
+            sc.path = None
+            self.set_scenario(sc, compute=compute)
+            self.statusBar().showMessage("The bundled demo is open as a copy: Save asks where to keep it", 10000)
+            return True
         self.set_scenario(sc, compute=compute)
         self._add_recent(path)
         return True
@@ -139,7 +145,8 @@ class FilesMixin:
         sc = self.doc.scenario
         if sc is None:
             return False
-        start = str(sc.path) if sc.path else str(Path(str(self.settings.value("last_dir", ""))) / "week.toml")
+        folder = str(self.settings.value("last_dir", "") or "") or str(Path.home())  # (never the installation)
+        start = str(sc.path) if sc.path else str(Path(folder) / "week.toml")
         path, _ = QFileDialog.getSaveFileName(self, "Save scenario as", start, "Scenarios (*.toml)")
         if not path:
             return False
@@ -183,22 +190,33 @@ class FilesMixin:
         except Exception:  # an autosave failing must never disturb the user
             log.exception("autosave failed")
 
+    def new_mission(self):
+        """Ask for a name, a window and an orbit; open the new mission (no stations, links or bookings)."""
+        if not self._dirty_ok():
+            return None
+        from contactplan.app.newmission import NewMissionDialog
+
+        dlg = self.new_mission_dialog = NewMissionDialog(self, str(self.settings.value("last_dir", "")))
+        if self.run_dialog(dlg) and dlg.scenario is not None:
+            self.set_scenario(dlg.scenario)
+            self.statusBar().showMessage("New mission: add its stations (Stations panel) and links "
+                                         "(Edit > Mission settings)", 10000)
+            return dlg.scenario
+        return None
+
+    def run_dialog(self, dlg) -> bool:
+        """``dlg.exec()`` accepted (tests replace it)."""
+        return dlg.exec() == dlg.DialogCode.Accepted
+
     def new_scenario(self) -> None:
         """A new week after the open one: same spacecraft and stations, no bookings, not saved yet."""
+        sc = self.doc.scenario
+        if sc is None:
+            self.new_mission()
+            return
         if not self._dirty_ok():
             return
         from contactplan.scenario import dump_document, parse_document
-
-        sc = self.doc.scenario
-        if sc is None:
-            from contactplan.paths import demo_scenario
-            from contactplan.scenario import load_scenario
-
-            try:
-                sc = load_scenario(demo_scenario())
-            except InputError as exc:
-                self.show_error(str(exc))
-                return
         doc = dump_document(sc)
         length = sc.end_tt - sc.start_tt
         from contactplan.scenario.save import format_time
@@ -226,18 +244,15 @@ class FilesMixin:
                             on_failed=lambda text: self.show_error(text, "Cannot read the ephemeris"))
 
     def _offer_around_oem(self, oem_path: Path, eph) -> bool:
+        """A new scenario flying the OEM: with the stations and links of the open scenario, or (none open)
+        a new mission with no stations and no links (nothing is taken from the demo)."""
         base = self.doc.scenario
-        source = "the open scenario"
-        if base is None:
-            from contactplan.paths import demo_scenario
-            from contactplan.scenario import load_scenario
-
-            base = load_scenario(demo_scenario())
-            source = "the bundled demo (invented stations: replace them with yours)"
         B = QMessageBox.StandardButton
+        offer = ("with the stations and links of the open scenario" if base is not None
+                 else "as a new mission (no stations and no links yet)")
         if self.ask("New scenario from an ephemeris",
-                    f"{oem_path.name} covers {format_utc(eph.start_tt, 0)} to {format_utc(eph.end_tt, 0)}.\n"
-                    f"Start a new scenario flying it, with the stations and link of {source}?",
+                    f"{oem_path.name} covers {utc_text(eph.start_tt)} to {utc_text(eph.end_tt)}.\n"
+                    f"Start a new scenario flying it, {offer}?",
                     B.Yes | B.No, B.Yes) != B.Yes:
             return False
         if not self._dirty_ok():
@@ -246,7 +261,12 @@ class FilesMixin:
         from contactplan.scenario.save import format_time
         from contactplan.timescale import utc_day_start
 
-        doc = dump_document(base)
+        if base is None:
+            from contactplan.app.newmission import mission_document
+
+            doc = mission_document(Path(oem_path).stem, "Spacecraft", format_time(eph.start_tt), 1, {})
+        else:
+            doc = dump_document(base)
         start = float(utc_day_start(eph.start_tt)) + DAY_S
         end = min(start + 7 * DAY_S, float(utc_day_start(eph.end_tt)))
         if end <= start:
@@ -293,7 +313,7 @@ class FilesMixin:
         sc = self.doc.scenario
         if eph.start_tt > sc.start_tt or eph.end_tt < sc.end_tt:
             self.statusBar().showMessage(
-                f"{Path(path).name} covers {format_utc(eph.start_tt, 0)} to {format_utc(eph.end_tt, 0)} only: "
+                f"{Path(path).name} covers {utc_text(eph.start_tt)} to {utc_text(eph.end_tt)} only: "
                 "passes outside it cannot be predicted", 10000)
         spec = EphemerisSpec(kind="oem", oem_path=Path(path).resolve())
         self.doc.undo_stack.push(SetEphemeris(self, spec, f"Fly {Path(path).name}"))
@@ -318,3 +338,12 @@ def _looks_oem(path: Path) -> bool:
     finally:
         os.close(fd)
     return "CCSDS_OEM_VERS" in head
+
+
+def _is_demo(path) -> bool:
+    from contactplan.paths import demo_scenario
+
+    try:
+        return Path(path).resolve() == demo_scenario().resolve()
+    except OSError:
+        return False

@@ -10,7 +10,6 @@ from PySide6.QtWidgets import QFileDialog, QMessageBox
 
 from contactplan.app.models import PassTable
 from contactplan.app.worker import Job
-from contactplan.timescale import format_utc
 
 #: export menu: (what, format, label, extension filter)
 EXPORTS = (
@@ -29,21 +28,26 @@ EXPORTS = (
 class ReplaceBookings(QUndoCommand):
     """Put drafted bookings in place of the unlocked ones they replace (one undo step)."""
 
-    def __init__(self, doc, removed_ids, new_bookings, text="Draft the week"):
+    def __init__(self, doc, removed_ids, new_bookings, text="Draft the week", raise_revision: bool = False):
         super().__init__(text)
         self.doc = doc
         self.removed_ids = set(removed_ids)
         self.new = list(new_bookings)
         self.before: list = []
+        self.revision = doc.scenario.revision
+        self.raise_revision = raise_revision  # a drafted plan is a new revision of the plan
 
     def redo(self):
         sc = self.doc.scenario
         self.before = list(sc.bookings)
         sc.bookings[:] = [b for b in sc.bookings if b.id not in self.removed_ids] + self.new
+        if self.raise_revision:
+            sc.revision = self.revision + 1
         self.doc._after_bookings()
 
     def undo(self):
         self.doc.scenario.bookings[:] = self.before
+        self.doc.scenario.revision = self.revision
         self.doc._after_bookings()
 
 
@@ -166,46 +170,112 @@ class JobsMixin:
 
         return self.run_job("Re-validation", fn, done)
 
-    def draft_week(self) -> Job | None:
+    def draft_dialog(self) -> Job | None:
+        """"Draft...": ask for the span, grid, limits and options, then draft in the worker."""
         sc = self.doc.scenario
         if sc is None:
             return None
-        from contactplan.plan.drafter import draft, summary_lines
+        from contactplan.app.draftdialog import DraftDialog
 
+        last = getattr(self, "draft_options", None)
+        if last is not None and not (sc.start_tt <= last.start_tt < last.end_tt <= sc.end_tt):
+            last = None
+        dlg = self.draft_options_dialog = DraftDialog(sc, self, last)
+        if not self.run_dialog(dlg) or dlg.options is None:
+            return None
+        self.draft_options = dlg.options
+        return self.draft_week(dlg.options)
+
+    def draft_week(self, options=None) -> Job | None:
+        """Draft in the worker (progress and Cancel in the status bar); ``options``: a DraftOptions, by
+        default the scenario's whole window and the drafter's defaults."""
+        sc = self.doc.scenario
+        if sc is None:
+            return None
+        from contactplan.app.draftdialog import default_options, result_text
+        from contactplan.plan.drafter import draft
+
+        options = options or default_options(sc)
         snapshot = copy.copy(sc)
         snapshot.bookings = list(sc.bookings)
         result = self.doc.result if self.doc.result is not None and self.doc.result.passes else None
-        t0, t1 = self.timeline.visible_tt()
-        start, end = max(t0, sc.start_tt), min(t1, sc.end_tt)
-        if end - start < 3600:
-            start, end = sc.start_tt, sc.end_tt
+        kwargs = options.kwargs()
 
         def fn(progress, cancel):
             progress(0.02)
             # the drafter reports its stages and stops between solves when Cancel is pressed
-            return draft(snapshot, result=result, start_tt=start, end_tt=end, progress=progress, cancel=cancel)
+            return draft(snapshot, result=result, progress=progress, cancel=cancel, **kwargs)
 
         def done(dr):
-            lines = summary_lines(snapshot, dr)
-            if not dr.bookings:
-                self.info("Draft", "\n".join(lines))
+            self.last_draft = dr
+            text, details, offer = result_text(snapshot, dr, options)
+            if not offer:
+                self.info_details("Draft", text, details)
                 return
-            B = QMessageBox.StandardButton
-            if self.ask("Draft the week", "\n".join(lines) + "\n\nPut these bookings in the plan? (Undo takes them out.)",
-                        B.Yes | B.No, B.Yes) == B.Yes:
-                self.doc.undo_stack.push(ReplaceBookings(self.doc, dr.removed, dr.bookings))
+            if self.confirm_draft(text, details):
+                self.doc.undo_stack.push(ReplaceBookings(self.doc, dr.removed, dr.bookings, raise_revision=True))
 
         return self.run_job("Drafting", fn, done)
+
+    def confirm_draft(self, text: str, details: str) -> bool:
+        """Show the drafted plan in plain words (solver terms behind Details); True: put it in the plan."""
+        B = QMessageBox.StandardButton
+        box = QMessageBox(QMessageBox.Icon.Question, "Draft the week",
+                          text + "\n\nPut this plan in place? It becomes the next revision; Undo takes it out.",
+                          B.Yes | B.No, self)
+        box.setDefaultButton(B.Yes)
+        box.setDetailedText(details)
+        self.draft_box = box
+        return box.exec() == B.Yes
+
+    def info_details(self, title: str, text: str, details: str) -> None:
+        box = QMessageBox(QMessageBox.Icon.Information, title, text, QMessageBox.StandardButton.Ok, self)
+        box.setDetailedText(details)
+        box.open()
+        self.info_box = box
 
     def export_dialog(self, what: str, fmt: str, filt: str) -> None:
         sc = self.doc.scenario
         if sc is None:
             return
-        base = sc.path.parent if sc.path else Path(str(self.settings.value("last_dir", "")) or ".")
+        base = self.export_folder()
         stem = sc.path.stem if sc.path else "week"
         path, _ = QFileDialog.getSaveFileName(self, f"Export {what}", str(base / f"{stem}-{what}.{fmt}"), filt)
         if path:
             self.export_to(path, what)
+
+    def export_folder(self) -> Path:
+        """Where an export dialog starts: the last export's folder, else the scenario's, else the home
+        folder; never inside the installation (the bundled demo's folder)."""
+        from contactplan.paths import resource_dir
+
+        sc = self.doc.scenario
+        install = resource_dir().resolve()
+        for cand in (str(self.settings.value("export_dir", "") or ""),
+                     str(sc.path.parent) if sc is not None and sc.path else ""):
+            if cand and Path(cand).is_dir():
+                p = Path(cand).resolve()
+                if p != install and install not in p.parents:
+                    return p
+        return Path.home()
+
+    def _exported(self, path, line: str) -> None:
+        """The lasting status-bar line of the last export: its path and a button opening its folder."""
+        path = Path(path).resolve()
+        self.last_export = line
+        self.settings.setValue("export_dir", str(path.parent))
+        self.export_label.setText(f"Exported {path}")
+        self.export_label.setToolTip(line)
+        self.export_line.setVisible(True)
+        self.statusBar().showMessage(line, 10000)
+
+    def open_export_folder(self) -> bool:
+        """Show the last export's folder in the desktop's file manager."""
+        from PySide6.QtCore import QUrl
+        from PySide6.QtGui import QDesktopServices
+
+        text = self.export_label.text().removeprefix("Exported ")
+        return bool(text) and QDesktopServices.openUrl(QUrl.fromLocalFile(str(Path(text).parent)))
 
     def export_to(self, path, what: str | None = None) -> Job | None:
         """Write one export in the background; the status bar says what was written."""
@@ -228,8 +298,7 @@ class JobsMixin:
             return export(sc, path, what, plan=plan, progress=progress, cancel=cancel)
 
         def done(line):
-            self.last_export = line
-            self.statusBar().showMessage(line, 10000)
+            self._exported(path, line)
 
         return self.run_job("Export", fn, done)
 
@@ -239,7 +308,9 @@ def revalidation_lines(rv, name: str, limit: int = 14) -> list:
     def shift(v):
         return "-" if v is None else f"{v:+.0f} s"
 
-    lines = [f"{name}: compared {format_utc(rv.start_tt, 0)} to {format_utc(rv.end_tt, 0)}.",
+    from contactplan.app.models import utc_text
+
+    lines = [f"{name}: compared {utc_text(rv.start_tt)} to {utc_text(rv.end_tt)}.",
              f"{len(rv.broken)} booking(s) now break a rule; {len(rv.appeared)} new finding(s), "
              f"{len(rv.resolved)} resolved."]
     for b in rv.bookings[:limit]:

@@ -599,7 +599,21 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
             t.fail("requested_revision", f"{b.requested_revision} is after the plan's revision {revision} "
                                          "([scenario] revision)")
 
-    rq = root.sub("requirements", required=False) or Table({}, path, "requirements")
+    req = read_requirements(root.sub("requirements", required=False) or Table({}, path, "requirements"))
+    geo = read_geometry(root.sub("geometry", required=False) or Table({}, path, "geometry"))
+    scen = m.Scenario(
+        name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
+        activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
+        format_version=fv, revision=revision, freeze_tt=freeze, freeze_before_start_h=freeze_h, path=path,
+        document=doc, orbit_determination=read_orbit_determination(root), link_planning=lp.read_link_planning(root),
+    )
+    sc.keep(scen)  # raw/loaded of the [scenario] table
+    scen.unknown_keys = unknown_keys(tables, path)
+    return scen
+
+
+def read_requirements(rq: Table) -> m.Requirements:
+    """The ``[requirements]`` table (also used by the planner's settings page)."""
     req = rq.keep(m.Requirements(
         contact_per_day_min_h=rq.num("contact_per_day_min_h", None, lo=0, hi=24),
         ranging_per_day_min=rq.num("ranging_per_day_min", None, lo=0, hi=48, integer=True),
@@ -611,21 +625,16 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     ))
     read_tracking_requirements(rq, req)
     lp.read_weather_requirements(rq, req)
-    gt = root.sub("geometry", required=False) or Table({}, path, "geometry")
-    geo = gt.keep(m.GeometryOptions(
+    return req
+
+
+def read_geometry(gt: Table) -> m.GeometryOptions:
+    """The ``[geometry]`` table (also used by the planner's settings page)."""
+    return gt.keep(m.GeometryOptions(
         refraction=gt.bool("refraction", False),
         moon_separation_min_deg=gt.num("moon_separation_min_deg", 5.0, lo=0, hi=180),
         sun_separation_min_deg=gt.num("sun_separation_min_deg", 5.0, lo=0, hi=180),
     ))
-    scen = m.Scenario(
-        name=name, start_tt=start, end_tt=end, spacecraft=spacecraft, stations=stations,
-        activities=activities, series=series, bookings=bookings, requirements=req, geometry=geo,
-        format_version=fv, revision=revision, freeze_tt=freeze, freeze_before_start_h=freeze_h, path=path,
-        document=doc, orbit_determination=read_orbit_determination(root), link_planning=lp.read_link_planning(root),
-    )
-    sc.keep(scen)  # raw/loaded of the [scenario] table
-    scen.unknown_keys = unknown_keys(tables, path)
-    return scen
 
 
 class UnknownKeyWarning(UserWarning):

@@ -155,22 +155,7 @@ def dump_document(sc: m.Scenario) -> dict:
         sp["recorder"] = encode(craft.recorder)
     doc["spacecraft"] = sp
 
-    stations = []
-    for st in _in_file_order(sc.stations, src, "stations"):
-        t = encode(st, skip={"services", "busy", "busy_files"})
-        raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
-        if st.services:
-            t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services},
-                                                                  "services")]
-        else:
-            t.pop("services", None)
-        if st.outages:
-            t["outages"] = [encode(o) for o in st.outages]
-        else:
-            t.pop("outages", None)
-        _put_list(t, "busy", _busy_tables(st, sc))
-        stations.append(t)
-    _put_list(doc, "stations", stations)
+    _put_list(doc, "stations", [station_table(st, sc) for st in _in_file_order(sc.stations, src, "stations")])
 
     kept_series, loose = [], []
     for s in _in_file_order(sc.series, src, "activity_series"):
@@ -195,6 +180,10 @@ def dump_document(sc: m.Scenario) -> dict:
             doc[key] = t
         else:
             doc.pop(key, None)
+    if sc.orbit_determination is None:  # (set or taken away in the planner: written as it now is)
+        doc.pop("orbit_determination", None)
+    else:
+        doc["orbit_determination"] = encode(sc.orbit_determination)
     return doc
 
 
@@ -208,7 +197,7 @@ def _encode_booking(b: m.Booking) -> dict:
     return t
 
 
-def _busy_tables(st: m.Station, sc: m.Scenario) -> list:
+def _busy_tables(st: m.Station, sc: m.Scenario | None) -> list:
     """A station's ``busy`` list: its iCalendar files (path rewritten when the scenario moves folder) and its
     inline spans, in file order (new ones last); spans read from a file are not written (the file is re-read)."""
     inline = [sp for sp in st.busy if getattr(sp, "file", None) is None]
@@ -218,10 +207,11 @@ def _busy_tables(st: m.Station, sc: m.Scenario) -> list:
         t = dict(rec.raw)
         if isinstance(rec, m.BusyFile):
             written = t.get("ics") if isinstance(t.get("ics"), str) else None
-            same = (written is not None and sc.path is not None
-                    and (sc.path.parent / written).resolve() == Path(rec.path).resolve())
+            where = None if sc is None else sc.path
+            same = (written is not None and where is not None
+                    and (where.parent / written).resolve() == Path(rec.path).resolve())
             if not same:
-                t["ics"] = _path_text(rec.path, sc)
+                t["ics"] = _path_text(rec.path, sc) if sc is not None else str(Path(rec.path).resolve())
         else:
             for key, value in (("start", rec.start_tt), ("end", rec.end_tt)):
                 if key not in rec.loaded or not _same(rec.loaded[key], value, True):
@@ -233,6 +223,23 @@ def _busy_tables(st: m.Station, sc: m.Scenario) -> list:
                     t.pop("note", None)
         out.append(t)
     return out
+
+
+def station_table(st: m.Station, sc: m.Scenario | None = None) -> dict:
+    """The ``[[stations]]`` table of one station, its services, outages and busy time included (``sc``: the
+    scenario it is saved in, for the busy calendars' relative paths; None: absolute paths)."""
+    t = encode(st, skip={"services", "busy", "busy_files"})
+    raw_services = st.raw.get("services") if isinstance(st.raw.get("services"), list) else []
+    if st.services:
+        t["services"] = [encode(sv) for sv in _in_file_order(st.services, {"services": raw_services}, "services")]
+    else:
+        t.pop("services", None)
+    if st.outages:
+        t["outages"] = [encode(o) for o in st.outages]
+    else:
+        t.pop("outages", None)
+    _put_list(t, "busy", _busy_tables(st, sc))
+    return t
 
 
 def eph_doc(src: dict) -> dict:
