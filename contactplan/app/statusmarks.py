@@ -2,7 +2,7 @@
 
 Status is read by shape and fill, never by hue alone:
 
-- ``draft`` (not sent): the booking's colour faded, and an open ring at its top right;
+- ``draft`` (not sent): full colour, an open ring at its bottom right;
 - ``requested`` (sent, no answer): full colour, a half-filled ring;
 - ``confirmed``: full colour, a filled disc;
 - ``declined``: no fill, cross-hatched in the booking's colour, an X;
@@ -22,7 +22,7 @@ from contactplan.plan.status import status_of
 
 #: what each status looks like, in words (the legend and the tooltips)
 STATUS_LOOKS = {
-    "draft": "faded fill, open ring (bottom right): not sent to the network yet",
+    "draft": "open ring (bottom right): not sent to the network yet",
     "requested": "half-filled ring: sent, no answer yet",
     "confirmed": "filled disc: confirmed by the network",
     "declined": "cross-hatched, X: declined by the network (counts nowhere)",
@@ -47,9 +47,7 @@ def body_fill(booking, fill: QColor, th):
         return QBrush(fill, Qt.BrushStyle.DiagCrossPattern)
     if st == "cancelled":
         return QBrush(fill, Qt.BrushStyle.BDiagPattern)
-    if st == "draft":
-        return QBrush(faded(fill, th.background, 0.6))
-    return QBrush(fill)
+    return QBrush(fill)  # draft, requested, confirmed: the ring, half ring or disc tells them apart
 
 
 def paint_status(painter, r: QRectF, booking, colour: QColor) -> QRectF | None:
