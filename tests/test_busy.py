@@ -61,6 +61,8 @@ def _spans(spans):
 
 # ---------------------------------------------------------------- the reader
 def test_vfreebusy_periods_in_both_forms_and_the_fbtypes_that_count(tmp_path):
+    # RFC 5545 section 3.6.4: a VFREEBUSY component carries FREEBUSY properties (section 3.8.2.6), each with
+    # an FBTYPE parameter (sections 3.8.2.6 and 3.2.9) and PERIOD values in UTC
     fb = FreeBusy()
     fb.add("uid", "fb-1@network.invalid")
     fb.add("dtstamp", dt.datetime(2027, 1, 1, tzinfo=UTC))
@@ -441,3 +443,30 @@ def test_import_busy_refuses_its_inputs_and_unknown_stations(tmp_path):
              str(tmp_path / "x.toml"))
     assert r.returncode == 2 and f"{CORPUS / 'bad_period.ics'}:7: not a period" in r.stderr
     assert (scen.read_bytes(), ics.read_bytes()) == before and not (tmp_path / "x.toml").exists()
+
+
+_VALID = ("BEGIN:VCALENDAR\r\nVERSION:2.0\r\nPRODID:-//Invented network//busy export//EN\r\nBEGIN:VFREEBUSY\r\n"
+          "UID:fb@network.invalid\r\nFREEBUSY;FBTYPE=BUSY:20270112T100000Z/PT1H,20270112T140000Z/20270112T150000Z\r\n"
+          "END:VFREEBUSY\r\nBEGIN:VEVENT\r\nUID:ev@network.invalid\r\nDTSTART;TZID=Europe/Berlin:20270116T100000\r\n"
+          "DURATION:PT2H\r\nSUMMARY:Array test\r\nEND:VEVENT\r\nEND:VCALENDAR\r\n")
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, len(_VALID) - 1), st.sampled_from(":;=,/\"\\ \tZTPDH0-9X\r\n\x00"),
+                          st.sampled_from(["set", "drop", "insert"])), min_size=1, max_size=6))
+def test_a_mangled_calendar_gives_spans_or_one_line_never_a_crash(edits):
+    text = list(_VALID)
+    for k, ch, op in edits:
+        k = min(k, len(text) - 1)
+        if op == "set":
+            text[k] = ch
+        elif op == "drop":
+            del text[k]
+        else:
+            text.insert(k, ch)
+    try:
+        spans = parse_busy_text("".join(text), Path("net.ics"))
+    except InputError as exc:
+        assert "\n" not in str(exc) and str(exc).startswith("net.ics")
+    else:
+        assert all(s.end_tt > s.start_tt for s in spans)
