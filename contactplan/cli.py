@@ -34,6 +34,7 @@ examples:
   contactplan passes week.toml               passes of every station, as a table
   contactplan check week.toml                check the plan (exit status 1 when it has errors)
   contactplan export week.toml --out week.pdf
+  contactplan diff week.r4.toml week.toml    what changed since revision 4 (exit status 1 when anything did)
   contactplan COMMAND --help                 options and examples of one command"""
 
 
