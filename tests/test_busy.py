@@ -416,7 +416,9 @@ def test_import_busy_round_trip(tmp_path):
     out = tmp_path / "with_busy.toml"
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        assert main(["import-busy", str(scen), str(ics), "--station", "NRV", "--out", str(out)]) == 0
+        r = _run("import-busy", scen, ics, "--station", "NRV", "--out", out)
+    assert r.returncode == 0
+    assert r.stdout == f"added 3 busy periods from {ics} to station NRV (2 inline spans after merging); wrote {out}\n"
     sc = _load(out)
     busy = sc.station("NRV").busy
     assert _spans(busy) == [("2027-01-13T00:00:00Z", "2027-01-13T01:30:00Z"),
@@ -476,3 +478,16 @@ def test_a_mangled_calendar_gives_spans_or_one_line_never_a_crash(edits):
         assert "\n" not in str(exc) and str(exc).startswith("net.ics")
     else:
         assert all(s.end_tt > s.start_tt for s in spans)
+
+
+def test_import_busy_keeps_periods_outside_the_window_and_counts_them(tmp_path):
+    from contactplan.commands.import_busy import import_busy
+
+    fb = FreeBusy()
+    fb.add("uid", "fb@network.invalid")
+    fb.add("freebusy", (dt.datetime(2027, 1, 14, 6, tzinfo=UTC), dt.timedelta(hours=1)))
+    fb.add("freebusy", (dt.datetime(2027, 3, 2, 6, tzinfo=UTC), dt.timedelta(hours=1)))  # the window ends 19 Jan
+    sc = _load(_scenario_file(tmp_path, ""))
+    assert import_busy(sc, "KAL", _write(tmp_path, _calendar(fb))) == (2, 1, 2)
+    assert _spans(sc.station("KAL").busy) == [("2027-01-14T06:00:00Z", "2027-01-14T07:00:00Z"),
+                                              ("2027-03-02T06:00:00Z", "2027-03-02T07:00:00Z")]
