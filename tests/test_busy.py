@@ -385,19 +385,7 @@ def test_busy_look_up_by_bisection_equals_a_scan():
 
 
 # ---------------------------------------------------------------- import-busy
-def _run(*args):
-    """``contactplan ARGS`` in this process (cheaper than a subprocess): exit status, stdout, stderr."""
-    import io
-    from contextlib import redirect_stderr, redirect_stdout
-    from types import SimpleNamespace
-
-    from contactplan.cli import main
-
-    out, err = io.StringIO(), io.StringIO()
-    with redirect_stdout(out), redirect_stderr(err), warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        code = main([str(a) for a in args])
-    return SimpleNamespace(returncode=code, stdout=out.getvalue(), stderr=err.getvalue())
+from cli_in_process import run_cli as _run  # noqa: E402
 
 
 def test_import_busy_round_trip(tmp_path):

@@ -168,19 +168,7 @@ def test_saved_and_loaded_again_is_equal_and_a_member_written_out_is_one_move(tm
     assert (d.old_revision, d.new_revision) == (0, 3)
 
 
-def _run(*args):
-    """``contactplan ARGS`` in this process (cheaper than a subprocess): exit status, stdout, stderr."""
-    import io
-    from contextlib import redirect_stderr, redirect_stdout
-    from types import SimpleNamespace
-
-    from contactplan.cli import main
-
-    out, err = io.StringIO(), io.StringIO()
-    with redirect_stdout(out), redirect_stderr(err), warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        code = main([str(a) for a in args])
-    return SimpleNamespace(returncode=code, stdout=out.getvalue(), stderr=err.getvalue())
+from cli_in_process import run_cli as _run  # noqa: E402
 
 
 def _revisions(tmp_path):
