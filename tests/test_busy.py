@@ -221,6 +221,18 @@ def test_period_parser_gives_the_period_the_icalendar_writer_wrote(start, length
         assert t1 - t0 == pytest.approx(length_s, abs=1e-6)
 
 
+@pytest.mark.parametrize("text, message", [
+    ("19500101T000000Z/PT1H", "the period start 1950-01-01T00:00:00Z is before 1972-01-01 (UTC had no leap-second "
+                              "rule then)"),  # the leap-second rule began in 1972 (from memory)
+    ("99991231T230000Z/PT2H", "period '99991231T230000Z/PT2H' ends past the year 9999"),
+    ("20270112T100000Z/P99999999D", "period '20270112T100000Z/P99999999D' ends past the year 9999"),
+])
+def test_periods_out_of_the_time_tables_are_refused_with_the_line(text, message):
+    with pytest.raises(InputError) as info:
+        parse_period(text, "x.ics", 4)
+    assert str(info.value) == f"x.ics:4: {message}"
+
+
 @settings(max_examples=80, deadline=None)
 @given(st.text(alphabet="0123456789TZPDHMS/-+:, .x", max_size=40))
 def test_period_parser_refuses_anything_else_with_one_line(text):
