@@ -15,7 +15,8 @@ Two kinds of content count as busy time of a station's antenna:
 Times: UTC (``Z``) or a ``TZID`` naming an IANA time zone. A *floating* time (no ``Z``, no ``TZID``,
 section 3.3.5) is refused with one line: it means "local time wherever you are", and a station
 schedule read in the wrong zone would block the wrong hours. An all-day event (``VALUE=DATE``)
-blocks whole UTC days. Repeating events (``RRULE``, ``RDATE``) are refused too: expand them first.
+blocks whole UTC days. Repeating events (``RRULE``, ``RDATE``) are refused too: expand them first, and so
+are times before 1972 (no leap-second rule) or past the year 9999.
 
 Lines are unfolded here (section 3.1) so that every error names the file and the line the
 property starts on; content lines and values are parsed by the ``icalendar`` library
