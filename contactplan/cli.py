@@ -38,6 +38,7 @@ examples:
   contactplan export week.toml --out week.pdf
   contactplan export week.toml --what requests --out req.ics
   contactplan reconcile week.toml reply.ics --out week.toml
+  contactplan diff week.r4.toml week.toml    what changed since revision 4 (exit status 1 when anything did)
   contactplan COMMAND --help                 options and examples of one command"""
 
 

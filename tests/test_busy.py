@@ -5,9 +5,7 @@ with the ``icalendar`` library (the independent writer and, where said, reader).
 from __future__ import annotations
 
 import datetime as dt
-import os
 import random
-import subprocess
 import sys
 import warnings
 from pathlib import Path
@@ -27,7 +25,6 @@ from contactplan.scenario.save import save_scenario
 from contactplan.timescale import format_utc, parse_utc
 
 HERE = Path(__file__).resolve().parent
-ROOT = HERE.parent
 CORPUS = HERE / "corpus" / "ics"
 sys.path.insert(0, str(HERE))
 from test_rules import PASSES, T0, booking, make_scenario, rules_of  # noqa: E402
@@ -61,6 +58,8 @@ def _spans(spans):
 
 # ---------------------------------------------------------------- the reader
 def test_vfreebusy_periods_in_both_forms_and_the_fbtypes_that_count(tmp_path):
+    # RFC 5545 section 3.6.4: a VFREEBUSY component carries FREEBUSY properties (section 3.8.2.6), each with
+    # an FBTYPE parameter (sections 3.8.2.6 and 3.2.9) and PERIOD values in UTC
     fb = FreeBusy()
     fb.add("uid", "fb-1@network.invalid")
     fb.add("dtstamp", dt.datetime(2027, 1, 1, tzinfo=UTC))
@@ -220,6 +219,18 @@ def test_period_parser_gives_the_period_the_icalendar_writer_wrote(start, length
     # the length is the civil length: UTC days without leap seconds here (none scheduled after 2016)
     if start.year > 2016:
         assert t1 - t0 == pytest.approx(length_s, abs=1e-6)
+
+
+@pytest.mark.parametrize("text, message", [
+    ("19500101T000000Z/PT1H", "the period start 1950-01-01T00:00:00Z is before 1972-01-01 (UTC had no leap-second "
+                              "rule then)"),  # the leap-second rule began in 1972 (from memory)
+    ("99991231T230000Z/PT2H", "period '99991231T230000Z/PT2H' ends past the year 9999"),
+    ("20270112T100000Z/P99999999D", "period '20270112T100000Z/P99999999D' ends past the year 9999"),
+])
+def test_periods_out_of_the_time_tables_are_refused_with_the_line(text, message):
+    with pytest.raises(InputError) as info:
+        parse_period(text, "x.ics", 4)
+    assert str(info.value) == f"x.ics:4: {message}"
 
 
 @settings(max_examples=80, deadline=None)
@@ -386,10 +397,7 @@ def test_busy_look_up_by_bisection_equals_a_scan():
 
 
 # ---------------------------------------------------------------- import-busy
-def _run(*args, cwd=None):
-    env = dict(os.environ, PYTHONPATH=str(ROOT))
-    return subprocess.run([sys.executable, "-m", "contactplan", *args], capture_output=True, text=True, env=env,
-                          cwd=cwd or ROOT, timeout=120)
+from cli_in_process import run_cli as _run  # noqa: E402
 
 
 def test_import_busy_round_trip(tmp_path):
@@ -408,7 +416,9 @@ def test_import_busy_round_trip(tmp_path):
     out = tmp_path / "with_busy.toml"
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        assert main(["import-busy", str(scen), str(ics), "--station", "NRV", "--out", str(out)]) == 0
+        r = _run("import-busy", scen, ics, "--station", "NRV", "--out", out)
+    assert r.returncode == 0
+    assert r.stdout == f"added 3 busy periods from {ics} to station NRV (2 inline spans after merging); wrote {out}\n"
     sc = _load(out)
     busy = sc.station("NRV").busy
     assert _spans(busy) == [("2027-01-13T00:00:00Z", "2027-01-13T01:30:00Z"),
@@ -441,3 +451,43 @@ def test_import_busy_refuses_its_inputs_and_unknown_stations(tmp_path):
              str(tmp_path / "x.toml"))
     assert r.returncode == 2 and f"{CORPUS / 'bad_period.ics'}:7: not a period" in r.stderr
     assert (scen.read_bytes(), ics.read_bytes()) == before and not (tmp_path / "x.toml").exists()
+
+
+_VALID = ("BEGIN:VCALENDAR\r\nVERSION:2.0\r\nPRODID:-//Invented network//busy export//EN\r\nBEGIN:VFREEBUSY\r\n"
+          "UID:fb@network.invalid\r\nFREEBUSY;FBTYPE=BUSY:20270112T100000Z/PT1H,20270112T140000Z/20270112T150000Z\r\n"
+          "END:VFREEBUSY\r\nBEGIN:VEVENT\r\nUID:ev@network.invalid\r\nDTSTART;TZID=Europe/Berlin:20270116T100000\r\n"
+          "DURATION:PT2H\r\nSUMMARY:Array test\r\nEND:VEVENT\r\nEND:VCALENDAR\r\n")
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, len(_VALID) - 1), st.sampled_from(":;=,/\"\\ \tZTPDH0-9X\r\n\x00"),
+                          st.sampled_from(["set", "drop", "insert"])), min_size=1, max_size=6))
+def test_a_mangled_calendar_gives_spans_or_one_line_never_a_crash(edits):
+    text = list(_VALID)
+    for k, ch, op in edits:
+        k = min(k, len(text) - 1)
+        if op == "set":
+            text[k] = ch
+        elif op == "drop":
+            del text[k]
+        else:
+            text.insert(k, ch)
+    try:
+        spans = parse_busy_text("".join(text), Path("net.ics"))
+    except InputError as exc:
+        assert "\n" not in str(exc) and str(exc).startswith("net.ics")
+    else:
+        assert all(s.end_tt > s.start_tt for s in spans)
+
+
+def test_import_busy_keeps_periods_outside_the_window_and_counts_them(tmp_path):
+    from contactplan.commands.import_busy import import_busy
+
+    fb = FreeBusy()
+    fb.add("uid", "fb@network.invalid")
+    fb.add("freebusy", (dt.datetime(2027, 1, 14, 6, tzinfo=UTC), dt.timedelta(hours=1)))
+    fb.add("freebusy", (dt.datetime(2027, 3, 2, 6, tzinfo=UTC), dt.timedelta(hours=1)))  # the window ends 19 Jan
+    sc = _load(_scenario_file(tmp_path, ""))
+    assert import_busy(sc, "KAL", _write(tmp_path, _calendar(fb))) == (2, 1, 2)
+    assert _spans(sc.station("KAL").busy) == [("2027-01-14T06:00:00Z", "2027-01-14T07:00:00Z"),
+                                              ("2027-03-02T06:00:00Z", "2027-03-02T07:00:00Z")]

@@ -5,8 +5,6 @@ from __future__ import annotations
 
 import copy
 import json
-import os
-import subprocess
 import sys
 import warnings
 from pathlib import Path
@@ -22,7 +20,6 @@ from contactplan.scenario.save import save_scenario
 from contactplan.timescale import parse_utc
 
 HERE = Path(__file__).resolve().parent
-ROOT = HERE.parent
 sys.path.insert(0, str(HERE))
 from test_rules import T0, make_scenario  # noqa: E402
 
@@ -171,10 +168,7 @@ def test_saved_and_loaded_again_is_equal_and_a_member_written_out_is_one_move(tm
     assert (d.old_revision, d.new_revision) == (0, 3)
 
 
-def _run(*args):
-    env = dict(os.environ, PYTHONPATH=str(ROOT))
-    return subprocess.run([sys.executable, "-m", "contactplan", *args], capture_output=True, text=True, env=env,
-                          cwd=ROOT, timeout=300)
+from cli_in_process import run_cli as _run  # noqa: E402
 
 
 def _revisions(tmp_path):
@@ -241,3 +235,19 @@ def test_report_has_the_changes_page_with_the_moved_booking(tmp_path):
     assert r.returncode == 2 and "refusing to overwrite it" in r.stderr and old.read_bytes() == before
     r = _run("export", str(new), "--out", str(tmp_path / "p.csv"), "--since", str(old))
     assert r.returncode == 2 and "--since applies to the report only, not to passes" in r.stderr
+
+
+def test_change_lines_for_people():
+    from contactplan.io.changes import change_line
+
+    old = _base()
+    new = copy.deepcopy(old)
+    new.station("KAL").busy = [m.BusySpan(start_tt=parse_utc("2027-01-13T10:00:00Z"),
+                                          end_tt=parse_utc("2027-01-13T11:30:00Z"), source="net.ics line 7")]
+    new.booking("B001").services = ["telemetry", "ranging", "doppler"]
+    new.booking("B002").start_tt -= 90.0 * 60.0
+    lines = [change_line(c) for c in diff_scenarios(old, new).changes]
+    assert lines == [
+        "booking B001 changed: services telemetry, playback -> telemetry, ranging, doppler",
+        "booking B002 moved -90 min: start 2027-01-13T17:00:00Z -> 2027-01-13T15:30:00Z",
+        "station KAL changed: busy none -> 2027-01-13T10:00:00Z to 2027-01-13T11:30:00Z (net.ics line 7)"]

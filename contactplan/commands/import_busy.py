@@ -60,9 +60,9 @@ def merge_busy(spans: list, added: list) -> list:
     return out
 
 
-def import_busy(scenario, station_id: str, ics_path) -> tuple[int, int]:
+def import_busy(scenario, station_id: str, ics_path) -> tuple[int, int, int]:
     """Add the busy periods of ``ics_path`` to the station's inline spans (in place); returns (periods read,
-    inline spans after merging)."""
+    of them outside the planning window (kept all the same), inline spans after merging)."""
     from contactplan.errors import InputError, show_id
     from contactplan.io.freebusy import read_busy
 
@@ -75,7 +75,8 @@ def import_busy(scenario, station_id: str, ics_path) -> tuple[int, int]:
     from_files = [s for s in st.busy if s.file is not None]
     inline = merge_busy([s for s in st.busy if s.file is None], added)
     st.busy = sorted(from_files + inline, key=lambda s: (s.start_tt, s.end_tt))
-    return len(added), len(inline)
+    outside = sum(s.end_tt <= scenario.start_tt or s.start_tt >= scenario.end_tt for s in added)
+    return len(added), outside, len(inline)
 
 
 def run(args) -> int:
@@ -87,8 +88,9 @@ def run(args) -> int:
     check_output(args.out, [args.scenario, args.ics])
     scenario = load_scenario(args.scenario)
     check_output(args.out, scenario_inputs(scenario) + [args.ics])
-    n, kept = import_busy(scenario, args.station, args.ics)
+    n, outside, kept = import_busy(scenario, args.station, args.ics)
     save_scenario(scenario, args.out)
-    print(f"added {n} busy period{'s' if n != 1 else ''} from {args.ics} to station {args.station} "
+    away = f", {outside} of them outside the planning window" if outside else ""
+    print(f"added {n} busy period{'s' if n != 1 else ''} from {args.ics} to station {args.station}{away} "
           f"({kept} inline span{'s' if kept != 1 else ''} after merging); wrote {args.out}")
     return 0

@@ -47,11 +47,20 @@ def to_json(diff, old_path=None, new_path=None) -> dict:
     }
 
 
+def _item(x) -> str:
+    """A list item for people: a span (outage, busy time) as ``start to end (note)``, other tables as JSON."""
+    if isinstance(x, dict) and isinstance(x.get("start"), str) and isinstance(x.get("end"), str):
+        note = next((x[k] for k in ("source", "reason", "note") if x.get(k)), "")
+        text = f"{x['start'].replace('.000Z', 'Z')} to {x['end'].replace('.000Z', 'Z')}"
+        return f"{text} ({note})" if note else text
+    return json.dumps(x, ensure_ascii=False) if isinstance(x, (dict, list)) else str(x)
+
+
 def _shown(key: str, value) -> str:
     v = json_value(key, value)
     if isinstance(v, list):
-        return ", ".join(json.dumps(x, ensure_ascii=False) if isinstance(x, (dict, list)) else str(x)
-                         for x in v) or "none"
+        return "; ".join(_item(x) for x in v) if any(isinstance(x, dict) for x in v) else \
+            (", ".join(map(str, v)) or "none")
     if isinstance(v, str) and key in ("start", "end", "first_start"):
         return v.replace(".000Z", "Z")
     return "none" if v is None else (json.dumps(v, ensure_ascii=False) if isinstance(v, dict) else str(v))

@@ -15,7 +15,8 @@ Two kinds of content count as busy time of a station's antenna:
 Times: UTC (``Z``) or a ``TZID`` naming an IANA time zone. A *floating* time (no ``Z``, no ``TZID``,
 section 3.3.5) is refused with one line: it means "local time wherever you are", and a station
 schedule read in the wrong zone would block the wrong hours. An all-day event (``VALUE=DATE``)
-blocks whole UTC days. Repeating events (``RRULE``, ``RDATE``) are refused too: expand them first.
+blocks whole UTC days. Repeating events (``RRULE``, ``RDATE``) are refused too: expand them first, and so
+are times before 1972 (no leap-second rule) or past the year 9999.
 
 Lines are unfolded here (section 3.1) so that every error names the file and the line the
 property starts on; content lines and values are parsed by the ``icalendar`` library
@@ -62,56 +63,86 @@ def _parts(line: str, path, n: int):
     return str(name).upper(), params, str(value)
 
 
-def _to_tt(value, path, n: int, what: str, floating_ok: bool = False) -> float:
-    """TT seconds of a date or an aware datetime from the icalendar value types."""
-    from contactplan.timescale import from_datetime
+#: UTC before this has no leap-second rule: refused, as the scenario times are (contactplan.timescale)
+FIRST_YEAR = 1972
 
+
+def _to_utc(value, path, n: int, what: str) -> _dt.datetime:
+    """A date (midnight) or an aware datetime from the icalendar value types as a naive UTC datetime."""
     if isinstance(value, _dt.datetime):
         if value.tzinfo is None or value.utcoffset() is None:
-            if not floating_ok:
-                raise InputError(f"{what} is a floating local time (no Z and no TZID, RFC 5545 section 3.3.5): "
-                                 "its time zone is unknown; give it in UTC (ending in Z) or with a TZID", path, n)
-            value = value.replace(tzinfo=_dt.timezone.utc)
-        utc = value.astimezone(_dt.timezone.utc).replace(tzinfo=None)
-        return from_datetime(utc)
-    if isinstance(value, _dt.date):
-        return from_datetime(value)  # midnight UTC
-    raise InputError(f"{what} is not a date or a date-time", path, n)
+            raise InputError(f"{what} is a floating local time (no Z and no TZID, RFC 5545 section 3.3.5): "
+                             "its time zone is unknown; give it in UTC (ending in Z) or with a TZID", path, n)
+        try:
+            out = value.astimezone(_dt.timezone.utc).replace(tzinfo=None)
+        except OverflowError:
+            raise InputError(f"{what} lies past the year 9999", path, n) from None
+    elif isinstance(value, _dt.date):
+        out = _dt.datetime(value.year, value.month, value.day)
+    else:
+        raise InputError(f"{what} is not a date or a date-time", path, n)
+    if out.year < FIRST_YEAR:
+        raise InputError(f"{what} {out.isoformat()}Z is before {FIRST_YEAR}-01-01 (UTC had no leap-second rule then)",
+                         path, n)
+    return out
+
+
+def _later(start: _dt.datetime, step: _dt.timedelta, what: str, path, n: int) -> _dt.datetime:
+    try:
+        return start + step
+    except OverflowError:
+        raise InputError(f"{what} ends past the year 9999", path, n) from None
+
+
+def _tt(times: list) -> "np.ndarray":
+    """TT seconds of naive UTC datetimes, in one vectorised call."""
+    import numpy as np
+
+    from contactplan.timescale import utc_to_tt
+
+    if not times:
+        return np.zeros(0)
+    f = np.array([(t.year, t.month, t.day, t.hour, t.minute, t.second + t.microsecond * 1e-6) for t in times])
+    return np.asarray(utc_to_tt(f[:, 0].astype(np.int64), f[:, 1].astype(np.int64), f[:, 2].astype(np.int64),
+                                f[:, 3], f[:, 4], f[:, 5]), dtype=float)
+
+
+def _period_utc(text: str, path, line) -> tuple[_dt.datetime, _dt.datetime]:
+    from icalendar.prop import vPeriod
+
+    text = str(text).strip()
+    shown = show_id(text, 60)
+    try:
+        start, second = vPeriod.from_ical(text)
+    except (ValueError, TypeError, OverflowError, IndexError):
+        raise InputError(f"not a period (start/end or start/duration, RFC 5545 section 3.3.9): {shown!r}",
+                         path, line) from None
+    if not isinstance(start, _dt.datetime):
+        raise InputError(f"period {shown!r} must start with a date-time", path, line)
+    for t, label in ((start, "start"), (second, "end")):
+        if isinstance(t, _dt.datetime) and (t.tzinfo is None or t.utcoffset() != _dt.timedelta(0)):
+            raise InputError(f"period {shown!r}: the {label} must be in UTC (ending in Z; "
+                             "RFC 5545 section 3.8.2.6)", path, line)
+    if isinstance(second, _dt.timedelta):
+        if second <= _dt.timedelta(0):
+            raise InputError(f"period {shown!r}: the duration must be positive", path, line)
+        end = _later(start, second, f"period {shown!r}", path, line)
+    elif isinstance(second, _dt.datetime):
+        end = second
+    else:
+        raise InputError(f"period {shown!r} must end with a date-time or a duration", path, line)
+    t0 = _to_utc(start, path, line, "the period start")
+    t1 = _to_utc(end, path, line, "the period end")
+    if t1 <= t0:
+        raise InputError(f"period {shown!r} ends before it starts", path, line)
+    return t0, t1
 
 
 def parse_period(text: str, path=None, line: int | None = None) -> tuple[float, float]:
     """One RFC 5545 PERIOD value (section 3.3.9), in UTC as FREEBUSY requires (section 3.8.2.6):
     ``20270112T100000Z/20270112T120000Z`` or ``20270112T100000Z/PT1H30M``. Returns (start_tt, end_tt)."""
-    from icalendar.prop import vPeriod
-
-    text = str(text).strip()
-    try:
-        start, second = vPeriod.from_ical(text)
-    except (ValueError, TypeError, OverflowError, IndexError):
-        raise InputError(f"not a period (start/end or start/duration, RFC 5545 section 3.3.9): "
-                         f"{show_id(text, 60)!r}", path, line) from None
-    if not isinstance(start, _dt.datetime):
-        raise InputError(f"period {show_id(text, 60)!r} must start with a date-time", path, line)
-    for t, label in ((start, "start"), (second, "end")):
-        if isinstance(t, _dt.datetime) and (t.tzinfo is None or t.utcoffset() != _dt.timedelta(0)):
-            raise InputError(f"period {show_id(text, 60)!r}: the {label} must be in UTC (ending in Z; "
-                             "RFC 5545 section 3.8.2.6)", path, line)
-    try:
-        if isinstance(second, _dt.timedelta):
-            if second <= _dt.timedelta(0):
-                raise InputError(f"period {show_id(text, 60)!r}: the duration must be positive", path, line)
-            end = start + second
-        elif isinstance(second, _dt.datetime):
-            end = second
-        else:
-            raise InputError(f"period {show_id(text, 60)!r} must end with a date-time or a duration", path, line)
-    except OverflowError:
-        raise InputError(f"period {show_id(text, 60)!r} ends past the year 9999", path, line) from None
-    t0 = _to_tt(start, path, line, "the period start")
-    t1 = _to_tt(end, path, line, "the period end")
-    if t1 <= t0:
-        raise InputError(f"period {show_id(text, 60)!r} ends before it starts", path, line)
-    return t0, t1
+    t0, t1 = _tt(list(_period_utc(text, path, line)))
+    return float(t0), float(t1)
 
 
 def _date_value(prop: str, params, value: str, path, n: int):
@@ -212,7 +243,8 @@ def _source(path, line: int, summary: str | None = None) -> str:
     return text
 
 
-def _freebusy_spans(c: _Component, path) -> list[BusySpan]:
+def _freebusy_spans(c: _Component, path) -> list[tuple]:
+    """(start, end, source) of the busy periods of a VFREEBUSY (naive UTC datetimes)."""
     out = []
     for n, name, params, value in c.props:
         if name != "FREEBUSY":
@@ -223,12 +255,12 @@ def _freebusy_spans(c: _Component, path) -> list[BusySpan]:
         if not value.strip():
             raise InputError("FREEBUSY without a period", path, n)
         for piece in value.split(","):
-            t0, t1 = parse_period(piece, path, n)
-            out.append(BusySpan(start_tt=t0, end_tt=t1, source=_source(path, n), file=path))
+            out.append((*_period_utc(piece, path, n), _source(path, n)))
     return out
 
 
-def _event_span(c: _Component, path) -> BusySpan | None:
+def _event_span(c: _Component, path) -> tuple | None:
+    """(start, end, source) of an opaque VEVENT (naive UTC datetimes), or None when it takes no time."""
     for key in ("RRULE", "RDATE"):
         p = c.first(key)
         if p is not None:
@@ -253,37 +285,39 @@ def _event_span(c: _Component, path) -> BusySpan | None:
         raise InputError("VEVENT gives both DTEND and DURATION (RFC 5545 section 3.6.1 allows one)", path, dur[0])
     s = _date_value("DTSTART", start[2], start[3], path, start[0])
     all_day = not isinstance(s, _dt.datetime)
-    t0 = _to_tt(s, path, start[0], "DTSTART")
+    t0 = _to_utc(s, path, start[0], "DTSTART")
     if end is not None:
         e = _date_value("DTEND", end[2], end[3], path, end[0])
         if isinstance(e, _dt.datetime) == all_day:
             raise InputError("DTEND must be a date when DTSTART is a date, a date-time when it is a date-time "
                              "(RFC 5545 section 3.8.2.2)", path, end[0])
-        t1 = _to_tt(e, path, end[0], "DTEND")
+        t1 = _to_utc(e, path, end[0], "DTEND")
         if t1 < t0:
             raise InputError("DTEND is before DTSTART", path, end[0])
     elif dur is not None:
-        d = _duration(dur[3], path, dur[0])
-        t1 = t0 + d.total_seconds()
-    else:
-        t1 = t0 + (86400.0 if all_day else 0.0)  # section 3.6.1: one day, or an instant
+        t1 = _later(t0, _duration(dur[3], path, dur[0]), "DURATION", path, dur[0])
+    else:  # section 3.6.1: one day, or an instant
+        t1 = _later(t0, _dt.timedelta(days=1 if all_day else 0), "DTSTART", path, start[0])
     if t1 <= t0:
         return None  # an instant takes no antenna time
     summary = c.first("SUMMARY")
-    return BusySpan(start_tt=t0, end_tt=t1, source=_source(path, c.line, summary[3] if summary else None), file=path)
+    return t0, t1, _source(path, c.line, summary[3] if summary else None)
 
 
 def parse_busy_text(text: str, path=None) -> list[BusySpan]:
     """Busy spans of iCalendar text, sorted by start (see the module doc). ``path`` names the file in errors
     and in each span's source."""
-    out: list[BusySpan] = []
+    found: list[tuple] = []
     for c in _components(text, path):
         if c.name == "VFREEBUSY":
-            out.extend(_freebusy_spans(c, path))
+            found.extend(_freebusy_spans(c, path))
         else:
-            sp = _event_span(c, path)
-            if sp is not None:
-                out.append(sp)
+            got = _event_span(c, path)
+            if got is not None:
+                found.append(got)
+    t0, t1 = _tt([f[0] for f in found]), _tt([f[1] for f in found])
+    out = [BusySpan(start_tt=a, end_tt=b, source=f[2], file=path)
+           for a, b, f in zip(t0.tolist(), t1.tolist(), found)]
     out.sort(key=lambda s: (s.start_tt, s.end_tt))
     return out
 

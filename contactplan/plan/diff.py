@@ -10,7 +10,8 @@ names (``start``, ``end``, ``services``...). Activities are compared as expanded
 
 Times are equal when within half a millisecond (what the scenario text keeps); the ``services`` of a
 booking are compared as a set. Fields a later version adds to a record (a booking's status, say) are
-compared without any change here: every dataclass field but ``raw`` and ``loaded`` counts.
+compared without any change here: every dataclass field but ``raw`` and ``loaded`` counts. A station's
+busy spans read from an iCalendar file are those of the file as it is when each revision is loaded.
 """
 
 from __future__ import annotations
