@@ -16,7 +16,16 @@ of per-pass fades giving the probability that the recorder overflows in the wind
   drawn one's), and u above 50 % takes the 50 % level. The fill over the draws is the recorder's own
   recursion (same arithmetic, vectorised over draws): with fades off every draw is the deterministic
   recorder to the last bit. Overflow: more than :data:`LOST_TOLERANCE_GBIT` lost. Standard error of the
-  probability: sqrt(P (1 - P) / N).
+  probability: sqrt(P (1 - P) / N). The draws of a pass are column ``i`` of :func:`draw_levels` over all
+  passes of the plan, ``i`` its place in ``result.passes`` (AOS order): the same seed gives the same draws
+  in every process, and an edit changes the draws of no other pass.
+- **cost** (a year of 2,000 bookings in a check): one list of booked downlink pieces serves the plan's
+  recorder, the band and the draws; the rate steps of every (piece, level) come from one vectorised
+  bisection (:func:`contactplan.link.recorder.steps_of`); a band edge on the plan's own profiles reuses the
+  plan's recorder; the draws per pass are kept on the result. In the recursion a cell where every draw
+  stays clear of empty and full by far more than rounding takes the plain step (each branch would choose
+  it: the same bits), and for the probability a draw is no longer followed once its loss is certain to
+  stay above the tolerance; the recursion stops when every draw is decided.
 """
 
 from __future__ import annotations
@@ -143,10 +152,17 @@ def in_weather(result) -> bool:
 
 
 # ---------------------------------------------------------------- the forecast
-def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=None) -> RecorderForecast | None:
+def _same_profiles(a: dict, b: dict) -> bool:
+    return a is b or (len(a) == len(b) and all(b.get(k) is v for k, v in a.items()))
+
+
+def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=None, recorder=None,
+                 pieces=None) -> RecorderForecast | None:
     """The recorder forecast of a plan result (None without a recorder or without weather); ``scenario``:
-    the plan whose bookings count (default ``result.scenario``)."""
-    from contactplan.link.recorder import simulate_recorder
+    the plan whose bookings count (default ``result.scenario``). ``recorder``: the plan's own recorder of
+    that scenario (reused for a band edge whose profiles are the plan's own); ``pieces``: the booked
+    downlink pieces (:func:`contactplan.link.recorder.booked_pieces`) of that scenario's window."""
+    from contactplan.link.recorder import booked_pieces, simulate_recorder
     from contactplan.scenario.link_planning import DEFAULT_OVERFLOW_AVAILABILITY_PCT, planning_of
 
     sc = result.scenario if scenario is None else scenario
@@ -154,7 +170,13 @@ def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=No
         return None
     lp = planning_of(sc)
     p1, p2 = (float(x) for x in lp.band_availability_pct)
-    recs = [simulate_recorder(sc, result.passes, cached_profiles_at(result, a)) for a in (None, p1, p2)]
+    if pieces is None:
+        pieces = booked_pieces(sc, result.passes, sc.bookings, float(sc.start_tt), float(sc.end_tt))
+    recs = []
+    for a in (None, p1, p2):
+        prof = cached_profiles_at(result, a)
+        same = recorder is not None and _same_profiles(prof, result.profiles)
+        recs.append(recorder if same else simulate_recorder(sc, result.passes, prof, pieces=pieces))
     t = np.unique(np.concatenate([r.t_tt for r in recs]))
     req = getattr(sc, "requirements", None)
     over = getattr(req, "recorder_overflow_availability_pct", None) or DEFAULT_OVERFLOW_AVAILABILITY_PCT
@@ -164,27 +186,12 @@ def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=No
                           seed=int(lp.forecast_seed), overflow_availability_pct=float(over),
                           clear_lost_gbit=recs[0].lost_gbit, band_lost_gbit=(recs[1].lost_gbit, recs[2].lost_gbit))
     if lp.forecast_draws > 0:
-        lost = draw_losses(result, lp.forecast_draws, lp.forecast_seed, fades=fades, scenario=sc)
+        lost = draw_losses(result, lp.forecast_draws, lp.forecast_seed, fades=fades, scenario=sc, pieces=pieces,
+                           decide=True)
         prob = float(np.mean(lost > LOST_TOLERANCE_GBIT))
         fc.overflow_probability_pct = 100.0 * prob
         fc.standard_error_pct = 100.0 * float(np.sqrt(prob * (1.0 - prob) / lost.size))
     return fc
-
-
-def _pieces(scenario, passes, bookings, t0, t1):
-    """Booked downlink pieces [(s0, s1, pass, booking index)] clipped to [t0, t1]."""
-    from contactplan.link.windows import DownlinkIndex, downlink_pieces
-
-    index = DownlinkIndex(scenario, passes)
-    out = []
-    for k, b in enumerate(bookings):
-        if b.end_tt <= t0 or b.start_tt >= t1:
-            continue
-        for s0, s1, p in downlink_pieces(scenario, b, passes, index):
-            a, z = max(s0, t0), min(s1, t1)
-            if z > a:
-                out.append((a, z, p, k))
-    return out
 
 
 def draw_levels(n_draws: int, n_passes: int, seed: int) -> np.ndarray:
@@ -197,59 +204,125 @@ def draw_levels(n_draws: int, n_passes: int, seed: int) -> np.ndarray:
     return np.minimum(k, levels.size - 1)
 
 
-def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenario=None) -> np.ndarray:
+def _memo(result) -> dict:
+    """The per-result store of :func:`cached_profiles_at` (shared by the planner's snapshots)."""
+    cached_profiles_at(result, None)
+    return result.weather_profiles
+
+
+def _pass_draws(result, n: int, seed: int) -> np.ndarray:
+    """Level index of every (pass, draw), shape (passes, draws), one column of :func:`draw_levels` per pass of
+    ``result.passes`` in their order (AOS); kept on the result (passes do not change between checks)."""
+    memo = _memo(result)
+    key = ("draws", n, int(seed), len(result.passes))
+    got = memo.get(key)
+    if got is None:
+        got = np.ascontiguousarray(draw_levels(n, len(result.passes), seed).T.astype(np.intp))
+        memo[key] = got
+    return got
+
+
+def _pass_index(result) -> dict:
+    memo = _memo(result)
+    got = memo.get("pass_index")
+    if got is None or got[0] is not result.passes or len(got[1]) != len(result.passes):
+        got = (result.passes, {id(p): i for i, p in enumerate(result.passes)})
+        memo["pass_index"] = got
+    return got[1]
+
+
+def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenario=None, pieces=None,
+                decide: bool = False) -> np.ndarray:
     """Gigabits lost in each of ``n_draws`` draws (see the module doc). ``fades=False``: every pass on the
-    plan's own profiles (each draw is then the deterministic recorder)."""
-    from contactplan.link.recorder import downlink_rate_steps, plan_steps
+    plan's own profiles (each draw is then the deterministic recorder). ``pieces``: the booked downlink
+    pieces of the scenario's window (:func:`contactplan.link.recorder.booked_pieces`). ``decide=True``: a
+    draw whose loss is certain to stay above :data:`LOST_TOLERANCE_GBIT` is no longer followed (the loss
+    returned for it is then only a lower bound; whether it overflows is exact); the recursion stops when
+    every draw is decided."""
+    from contactplan.link.recorder import booked_pieces, downlink_rate_steps, steps_of
 
     sc = result.scenario if scenario is None else scenario
     rec = sc.spacecraft.recorder
     t0, t1 = float(sc.start_tt), float(sc.end_tt)
     bookings = list(sc.bookings)
     n = int(n_draws)
+    own = result.profiles or {}
+    if pieces is None:
+        pieces = booked_pieces(sc, result.passes, bookings, t0, t1)
     if not fades:
-        edges, rates, _ = downlink_rate_steps(sc, result.passes, result.profiles or {}, bookings, t0, t1)
-        return fill_over_draws(edges, np.broadcast_to(rates, (n, rates.size)), rec)
+        edges, rates, _ = downlink_rate_steps(sc, result.passes, own, bookings, t0, t1, pieces=pieces)
+        return fill_over_draws(edges, np.broadcast_to(rates, (n, rates.size)), rec, decide=decide)
     levels = [cached_profiles_at(result, 100.0 - p) for p in LEVELS_P]
-    pieces = _pieces(sc, result.passes, bookings, t0, t1)
-    weather = sorted({id(p) for _, _, p, _ in pieces
-                      if getattr((result.profiles or {}).get(id(p)), "clear_level_db", None) is not None})
-    col = {pid: j for j, pid in enumerate(weather)}
-    # per piece and level: steps (a, b, rate) of the plan in use
-    steps = []
-    for s0, s1, p, k in pieces:
-        if id(p) in col:
-            per = [plan_steps(lv[id(p)], s0, s1) if id(p) in lv else [] for lv in levels]
+    n_lv = len(levels)
+    pidx = _pass_index(result)
+    # queries: (profile, s0, s1, piece, level; -1 = every level: a profile not in weather)
+    q_prof, q_a, q_b, q_piece, q_level, piece_col = [], [], [], [], [], []
+    for j, (s0, s1, p, _k) in enumerate(pieces):
+        prof = own.get(id(p))
+        if prof is not None and prof.clear_level_db is not None:
+            piece_col.append(pidx[id(p)])
+            for li, lv in enumerate(levels):
+                pr = lv.get(id(p))
+                if pr is not None:
+                    q_prof.append(pr), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(li)
         else:
-            prof = (result.profiles or {}).get(id(p))
-            one = plan_steps(prof, s0, s1) if prof is not None else []
-            per = [one] * len(levels)
-        steps.append((p, per))
-    cuts = [t0, t1] + [x for _, per in steps for lv in per for a, b, _ in lv for x in (a, b)]
-    grid = np.unique(np.asarray(cuts, dtype=float))
+            piece_col.append(-1)
+            if prof is not None:
+                q_prof.append(prof), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(-1)
+    if q_prof:
+        e0, e1, r, qj = steps_of(q_prof, q_a, q_b)
+    else:
+        e0 = e1 = r = np.zeros(0)
+        qj = np.zeros(0, dtype=np.int64)
+    grid = np.unique(np.concatenate(([t0, t1], e0, e1)))
     cells = grid.size - 1
-    k_draw = draw_levels(n, len(weather), seed) if weather else np.zeros((n, 0), dtype=np.int64)
-    rate = np.zeros((n, cells))
-    for p, per in steps:
-        table = np.zeros((len(levels), cells))  # rate of this piece per level and cell
-        for li, lv in enumerate(per):
-            for a, b, r in lv:
-                if r > 0:
-                    i0, i1 = np.searchsorted(grid, a), np.searchsorted(grid, b)
-                    table[li, i0:i1] = r
-        lo, hi = np.flatnonzero(table.any(axis=0))[[0, -1]] if table.any() else (0, -1)
-        if hi < lo:
-            continue
-        pick = k_draw[:, col[id(p)]] if id(p) in col else np.zeros(n, dtype=np.int64)
-        np.maximum(rate[:, lo:hi + 1], table[pick, lo:hi + 1], out=rate[:, lo:hi + 1])  # one transmitter
-    return fill_over_draws(grid, rate, rec)
+    pos = r > 0
+    piece = np.asarray(q_piece, dtype=np.int64)[qj[pos]]
+    level = np.asarray(q_level, dtype=np.int64)[qj[pos]]
+    rr = r[pos]
+    i0, i1 = np.searchsorted(grid, e0[pos]), np.searchsorted(grid, e1[pos])
+    cnt = np.maximum(i1 - i0, 0)
+    rep = np.repeat(np.arange(rr.size), cnt)
+    cell = np.arange(rep.size) - np.repeat(np.cumsum(cnt) - cnt, cnt) + i0[rep]
+    key = cell * max(len(pieces), 1) + piece[rep]  # (cell, piece) pairs, cell-major
+    uniq, pair = np.unique(key, return_inverse=True)
+    table = np.zeros((uniq.size, n_lv))  # rate (kbit/s) of each (cell, piece) at each level
+    lv_r = level[rep]
+    every = lv_r < 0
+    table[pair[every]] = rr[rep[every]][:, None]
+    table[pair[~every], lv_r[~every]] = rr[rep[~every]]
+    pair_cell = uniq // max(len(pieces), 1)
+    pair_col = np.asarray(piece_col, dtype=np.int64)[uniq % max(len(pieces), 1)] if uniq.size else np.zeros(0, int)
+    start = np.searchsorted(pair_cell, np.arange(cells + 1))
+    draws = _pass_draws(result, n, seed) if uniq.size and (pair_col >= 0).any() else None
+    cols = pair_col.tolist()
+
+    def column(k):
+        lo, hi = int(start[k]), int(start[k + 1])
+        out = 0.0
+        for q in range(lo, hi):
+            v = table[q].take(draws[cols[q]]) if cols[q] >= 0 else float(table[q, 0])
+            out = v if q == lo else np.maximum(out, v)  # one transmitter: the higher rate
+        return out
+
+    return _recursion(grid, column, n, rec, decide)
 
 
-def fill_over_draws(edges, rates_kbps, rec) -> np.ndarray:
+def fill_over_draws(edges, rates_kbps, rec, decide: bool = False) -> np.ndarray:
     """Gigabits lost per draw: :func:`contactplan.link.recorder.simulate_recorder`'s recursion (same
     operations in the same order) over the cells ``edges`` with ``rates_kbps`` of shape (draws, cells)."""
     rates = np.asarray(rates_kbps, dtype=float)
-    n = rates.shape[0]
+    return _recursion(edges, lambda k: rates[:, k], rates.shape[0], rec, decide)
+
+
+#: cells between two looks at whether every draw is decided (``decide=True``)
+_DECIDE_EVERY = 32
+
+
+def _recursion(edges, column, n: int, rec, decide: bool = False) -> np.ndarray:
+    """The recorder's recursion over draws: ``column(k)`` gives cell k's rates (kbit/s) per draw (an array of
+    ``n``, or one number for every draw). A cell where every draw stays clear of empty and full by far more
+    than rounding (:func:`_clear_margin`) takes the plain step only: the branches would all choose it."""
     cap = float(rec.capacity_gbit)
     gen = float(rec.generation_kbps) * 1e-6
     fill = np.full(n, float(rec.initial_gbit))
@@ -257,21 +330,41 @@ def fill_over_draws(edges, rates_kbps, rec) -> np.ndarray:
     if fill[0] > cap if n else False:
         lost += fill - cap
         fill[:] = cap
-    d_rates = rates * 1e-6
     e = np.asarray(edges, dtype=float)
+    cells = e.size - 1
+    # a loss above this stays above the tolerance whatever rounding the remaining cells add (each cell's
+    # increment is rounded by a few ulps of the capacity plus the cell's generation)
+    span = float(e[-1] - e[0]) if e.size else 0.0
+    sure = LOST_TOLERANCE_GBIT + 16 * np.finfo(float).eps * (cells * (cap + 1.0) + gen * span)
+    look = _DECIDE_EVERY
     with np.errstate(divide="ignore", invalid="ignore"):
-        for k in range(e.size - 1):
+        for k in range(cells):
             dt = float(e[k + 1]) - float(e[k])
             if dt <= 0:
                 continue
-            d = d_rates[:, k]
+            d = column(k) * 1e-6
             net = gen - d
             f0 = fill
+            plain = f0 + net * dt
+            margin = _clear_margin(cap, gen, d, dt)
+            if plain.min() > margin and plain.max() < cap - margin:
+                fill = plain
+                continue
             full = (net > 0) & ((cap - f0) / net < dt)
             empty = ~full & (net < 0) & (f0 / -net < dt)
             seg_down = d * dt
-            plain = f0 + net * dt
             over = ~full & ~empty & (plain > cap)
             lost = lost + np.where(full, f0 + gen * dt - seg_down - cap, 0.0) + np.where(over, plain - cap, 0.0)
             fill = np.where(full, cap, np.where(empty, 0.0, np.clip(plain, 0.0, cap)))
+            if decide and k >= look:
+                look = k + _DECIDE_EVERY
+                if lost.min() > sure:
+                    break
     return lost
+
+
+def _clear_margin(cap: float, gen: float, d, dt: float) -> float:
+    """Gigabits from empty and from full beyond which no branch of the recursion can differ from the plain
+    step f + (gen - d) dt: a million times the rounding of the comparisons (cap, the cell's volumes)."""
+    dmax = float(np.max(d)) if np.ndim(d) else float(d)
+    return 1e-9 * (cap + (gen + dmax) * dt) + 1e-12
