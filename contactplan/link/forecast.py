@@ -293,36 +293,42 @@ def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenari
     table[pair[~every], lv_r[~every]] = rr[rep[~every]]
     pair_cell = uniq // max(len(pieces), 1)
     pair_col = np.asarray(piece_col, dtype=np.int64)[uniq % max(len(pieces), 1)] if uniq.size else np.zeros(0, int)
-    start = np.searchsorted(pair_cell, np.arange(cells + 1))
     draws = _pass_draws(result, n, seed) if uniq.size and (pair_col >= 0).any() else None
-    cols = pair_col.tolist()
+    table_g = table * 1e-6  # Gbit/s, as the recorder turns its rates
+    terms: list = [[] for _ in range(cells)]  # per cell: its pieces' rates, one number or (level rates, draws)
+    for q, (c, col) in enumerate(zip(pair_cell.tolist(), pair_col.tolist())):
+        terms[c].append((table_g[q], draws[col]) if col >= 0 else float(table_g[q, 0]))
+    dmax = np.zeros(cells)
+    if uniq.size:
+        np.maximum.at(dmax, pair_cell, table_g.max(axis=1))
 
     def column(k):
-        lo, hi = int(start[k]), int(start[k + 1])
         out = 0.0
-        for q in range(lo, hi):
-            v = table[q].take(draws[cols[q]]) if cols[q] >= 0 else float(table[q, 0])
-            out = v if q == lo else np.maximum(out, v)  # one transmitter: the higher rate
+        for i, t in enumerate(terms[k]):
+            v = t if isinstance(t, float) else t[0].take(t[1])
+            out = v if i == 0 else np.maximum(out, v)  # one transmitter: the higher rate
         return out
 
-    return _recursion(grid, column, n, rec, decide)
+    return _recursion(grid, column, n, rec, decide, dmax)
 
 
 def fill_over_draws(edges, rates_kbps, rec, decide: bool = False) -> np.ndarray:
     """Gigabits lost per draw: :func:`contactplan.link.recorder.simulate_recorder`'s recursion (same
     operations in the same order) over the cells ``edges`` with ``rates_kbps`` of shape (draws, cells)."""
-    rates = np.asarray(rates_kbps, dtype=float)
-    return _recursion(edges, lambda k: rates[:, k], rates.shape[0], rec, decide)
+    d_rates = np.asarray(rates_kbps, dtype=float) * 1e-6
+    dmax = d_rates.max(axis=0) if d_rates.size else np.zeros(max(len(edges) - 1, 0))
+    return _recursion(edges, lambda k: d_rates[:, k], d_rates.shape[0], rec, decide, dmax)
 
 
 #: cells between two looks at whether every draw is decided (``decide=True``)
 _DECIDE_EVERY = 32
 
 
-def _recursion(edges, column, n: int, rec, decide: bool = False) -> np.ndarray:
-    """The recorder's recursion over draws: ``column(k)`` gives cell k's rates (kbit/s) per draw (an array of
-    ``n``, or one number for every draw). A cell where every draw stays clear of empty and full by far more
-    than rounding (:func:`_clear_margin`) takes the plain step only: the branches would all choose it."""
+def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None) -> np.ndarray:
+    """The recorder's recursion over draws: ``column(k)`` gives cell k's downlink rates (Gbit/s) per draw (an
+    array of ``n``, or one number for every draw), ``dmax_gbps`` their highest per cell. A cell where every
+    draw stays clear of empty and full by far more than rounding (:func:`_clear_margin`) takes the plain
+    step only (the branches would all choose it); branches no draw takes are not evaluated."""
     cap = float(rec.capacity_gbit)
     gen = float(rec.generation_kbps) * 1e-6
     fill = np.full(n, float(rec.initial_gbit))
@@ -332,30 +338,51 @@ def _recursion(edges, column, n: int, rec, decide: bool = False) -> np.ndarray:
         fill[:] = cap
     e = np.asarray(edges, dtype=float)
     cells = e.size - 1
+    if cells <= 0 or n == 0:
+        return lost
+    dts = np.diff(e)
+    margins = _clear_margin(cap, gen, np.zeros(cells) if dmax_gbps is None else dmax_gbps, dts).tolist()
     # a loss above this stays above the tolerance whatever rounding the remaining cells add (each cell's
     # increment is rounded by a few ulps of the capacity plus the cell's generation)
-    span = float(e[-1] - e[0]) if e.size else 0.0
+    span = float(e[-1] - e[0])
     sure = LOST_TOLERANCE_GBIT + 16 * np.finfo(float).eps * (cells * (cap + 1.0) + gen * span)
     look = _DECIDE_EVERY
+    el = e.tolist()
     with np.errstate(divide="ignore", invalid="ignore"):
         for k in range(cells):
-            dt = float(e[k + 1]) - float(e[k])
+            dt = el[k + 1] - el[k]
             if dt <= 0:
                 continue
-            d = column(k) * 1e-6
+            d = column(k)
             net = gen - d
             f0 = fill
             plain = f0 + net * dt
-            margin = _clear_margin(cap, gen, d, dt)
-            if plain.min() > margin and plain.max() < cap - margin:
+            m = margins[k]
+            if plain.min() > m and plain.max() < cap - m:
                 fill = plain
                 continue
-            full = (net > 0) & ((cap - f0) / net < dt)
-            empty = ~full & (net < 0) & (f0 / -net < dt)
-            seg_down = d * dt
-            over = ~full & ~empty & (plain > cap)
-            lost = lost + np.where(full, f0 + gen * dt - seg_down - cap, 0.0) + np.where(over, plain - cap, 0.0)
-            fill = np.where(full, cap, np.where(empty, 0.0, np.clip(plain, 0.0, cap)))
+            if isinstance(net, float):  # one rate for every draw: only its sign's branch can be taken
+                full = (cap - f0) / net < dt if net > 0 else None
+                empty = f0 / -net < dt if net < 0 else None
+            else:
+                full = (net > 0) & ((cap - f0) / net < dt)
+                empty = ~full & (net < 0) & (f0 / -net < dt)
+            if full is not None and not full.any():
+                full = None
+            over = plain > cap
+            if full is not None:
+                over &= ~full
+            if empty is not None:
+                over &= ~empty
+            if full is not None or over.any():
+                inc = np.where(full, f0 + gen * dt - d * dt - cap, 0.0) if full is not None else 0.0
+                lost = lost + inc + np.where(over, plain - cap, 0.0)
+            new = np.clip(plain, 0.0, cap)
+            if empty is not None:
+                new = np.where(empty, 0.0, new)
+            if full is not None:
+                new = np.where(full, cap, new)
+            fill = new
             if decide and k >= look:
                 look = k + _DECIDE_EVERY
                 if lost.min() > sure:
@@ -363,8 +390,8 @@ def _recursion(edges, column, n: int, rec, decide: bool = False) -> np.ndarray:
     return lost
 
 
-def _clear_margin(cap: float, gen: float, d, dt: float) -> float:
-    """Gigabits from empty and from full beyond which no branch of the recursion can differ from the plain
-    step f + (gen - d) dt: a million times the rounding of the comparisons (cap, the cell's volumes)."""
-    dmax = float(np.max(d)) if np.ndim(d) else float(d)
-    return 1e-9 * (cap + (gen + dmax) * dt) + 1e-12
+def _clear_margin(cap: float, gen: float, d, dt):
+    """Gigabits from empty and from full (per cell: highest rate ``d`` Gbit/s, length ``dt`` s) beyond which no
+    branch of the recursion can differ from the plain step f + (gen - d) dt: about a million times the
+    rounding of its comparisons (of the capacity and the cell's volumes)."""
+    return 1e-9 * (cap + (gen + np.asarray(d, dtype=float)) * dt) + 1e-12
