@@ -239,7 +239,7 @@ def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenari
     draw whose loss is certain to stay above :data:`LOST_TOLERANCE_GBIT` is no longer followed (the loss
     returned for it is then only a lower bound; whether it overflows is exact); the recursion stops when
     every draw is decided."""
-    from contactplan.link.recorder import booked_pieces, downlink_rate_steps, steps_of
+    from contactplan.link.recorder import booked_pieces, downlink_rate_steps
 
     sc = result.scenario if scenario is None else scenario
     rec = sc.spacecraft.recorder
@@ -252,34 +252,15 @@ def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenari
     if not fades:
         edges, rates, _ = downlink_rate_steps(sc, result.passes, own, bookings, t0, t1, pieces=pieces)
         return fill_over_draws(edges, np.broadcast_to(rates, (n, rates.size)), rec, decide=decide)
-    levels = [cached_profiles_at(result, 100.0 - p) for p in LEVELS_P]
-    n_lv = len(levels)
+    n_lv = len(LEVELS_P)
     pidx = _pass_index(result)
-    # queries: (profile, s0, s1, piece, level; -1 = every level: a profile not in weather)
-    q_prof, q_a, q_b, q_piece, q_level, piece_col = [], [], [], [], [], []
-    for j, (s0, s1, p, _k) in enumerate(pieces):
-        prof = own.get(id(p))
-        if prof is not None and prof.clear_level_db is not None:
-            piece_col.append(pidx[id(p)])
-            for li, lv in enumerate(levels):
-                pr = lv.get(id(p))
-                if pr is not None:
-                    q_prof.append(pr), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(li)
-        else:
-            piece_col.append(-1)
-            if prof is not None:
-                q_prof.append(prof), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(-1)
-    if q_prof:
-        e0, e1, r, qj = steps_of(q_prof, q_a, q_b)
-    else:
-        e0 = e1 = r = np.zeros(0)
-        qj = np.zeros(0, dtype=np.int64)
+    piece_col = [pidx[id(p)] if getattr(own.get(id(p)), "clear_level_db", None) is not None else -1
+                 for _s0, _s1, p, _k in pieces]
+    e0, e1, r, level, piece = _level_steps(result, pieces, piece_col)
     grid = np.unique(np.concatenate(([t0, t1], e0, e1)))
     cells = grid.size - 1
     pos = r > 0
-    piece = np.asarray(q_piece, dtype=np.int64)[qj[pos]]
-    level = np.asarray(q_level, dtype=np.int64)[qj[pos]]
-    rr = r[pos]
+    piece, level, rr = piece[pos], level[pos], r[pos]
     i0, i1 = np.searchsorted(grid, e0[pos]), np.searchsorted(grid, e1[pos])
     cnt = np.maximum(i1 - i0, 0)
     rep = np.repeat(np.arange(rr.size), cnt)
@@ -309,7 +290,130 @@ def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenari
             out = v if i == 0 else np.maximum(out, v)  # one transmitter: the higher rate
         return out
 
-    return _recursion(grid, column, n, rec, decide, dmax)
+    memo = _memo(result)
+    inputs = _RunInputs((float(rec.capacity_gbit), float(rec.generation_kbps), float(rec.initial_gbit), n, int(seed),
+                         bool(decide), id(draws)), grid, pair_cell, pair_col, table_g)
+    last = memo.get("recursion")
+    resume = inputs.resume_from(last) if last is not None else None
+    if resume is not None and resume[0] == "done":  # nothing it read has changed: the same losses
+        last.inputs = inputs
+        return last.lost.copy()
+    run = _Run()
+    if resume is not None:
+        run.states = {c: v for c, v in last.states.items() if c <= resume[0]}
+    lost = _recursion(grid, column, n, rec, decide, dmax, resume=resume, run=run)
+    run.inputs = inputs
+    memo["recursion"] = run
+    return lost.copy()
+
+
+#: cells between two kept states of the recursion (a check after an edit resumes from the last one before it)
+CHECKPOINT_CELLS = 128
+
+
+@dataclass(eq=False)
+class _Run:
+    """One recursion of :func:`draw_losses`: its inputs, the state before every :data:`CHECKPOINT_CELLS`-th
+    cell ``{k: (fill, lost, next look)}``, the cell it stopped at and its losses."""
+
+    inputs: object = None
+    states: dict = field(default_factory=dict)
+    stopped: int = 0
+    lost: object = None
+
+
+@dataclass(eq=False)
+class _RunInputs:
+    """What a recursion reads: recorder, draws, seed and mode; the cells and their (cell, piece) rates."""
+
+    key: tuple
+    grid: np.ndarray
+    pair_cell: np.ndarray
+    pair_col: np.ndarray
+    table: np.ndarray
+
+    def first_change(self, old: "_RunInputs") -> int:
+        """The first cell whose inputs differ from ``old``'s (the number of cells when none does)."""
+        cells = self.grid.size - 1
+        m = min(self.grid.size, old.grid.size)
+        diff = np.flatnonzero(self.grid[:m] != old.grid[:m])
+        k = int(diff[0]) - 1 if diff.size else (m - 1 if self.grid.size != old.grid.size else cells)
+        m = min(self.pair_cell.size, old.pair_cell.size)
+        same = (self.pair_cell[:m] == old.pair_cell[:m]) & (self.pair_col[:m] == old.pair_col[:m]) & \
+            np.all(self.table[:m] == old.table[:m], axis=1)
+        bad = np.flatnonzero(~same)
+        if bad.size:
+            q = int(bad[0])
+            k = min(k, int(self.pair_cell[q]), int(old.pair_cell[q]))
+        elif self.pair_cell.size != old.pair_cell.size:
+            longer = self if self.pair_cell.size > m else old
+            k = min(k, int(longer.pair_cell[m]))
+        return max(k, 0)
+
+    def resume_from(self, last: _Run):
+        """(cell, fill, lost, next look) to start from, or ("done", losses) when ``last`` ran the same inputs
+        as far as it went; None: start afresh."""
+        old = last.inputs
+        if old is None or old.key != self.key:
+            return None
+        k = self.first_change(old)
+        if k >= last.stopped and last.lost is not None:
+            return ("done", last.lost)
+        best = max((c for c in last.states if c <= k), default=None)
+        if best is None:
+            return None
+        fill, lost, look = last.states[best]
+        return (best, fill, lost, look)
+
+
+#: pieces whose level steps are kept per result (a few plans' worth; cleared beyond)
+_STEP_MEMO_MAX = 50000
+
+
+def _level_steps(result, pieces, piece_col):
+    """Rate steps of every piece at every Monte Carlo level: arrays (e0, e1, rate kbit/s, level index or -1
+    for a piece not in weather (the same steps at every level), piece index), pieces in order, each piece's
+    levels in order. Kept per piece on the result (its passes and profiles do not change between checks),
+    so a check after an edit computes only the pieces that changed."""
+    from contactplan.link.recorder import steps_of
+
+    memo = _memo(result).setdefault("level_steps", {})
+    if len(memo) > _STEP_MEMO_MAX:
+        memo.clear()
+    own = result.profiles or {}
+    keys = [(s0, s1, id(p)) for s0, s1, p, _k in pieces]
+    missing = [j for j, key in enumerate(keys) if key not in memo]
+    if missing:
+        levels = [cached_profiles_at(result, 100.0 - p) for p in LEVELS_P]
+        q_prof, q_a, q_b, q_piece, q_level = [], [], [], [], []
+        for j in missing:
+            s0, s1, p, _k = pieces[j]
+            if piece_col[j] >= 0:
+                for li, lv in enumerate(levels):
+                    pr = lv.get(id(p))
+                    if pr is not None:
+                        q_prof.append(pr), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(li)
+            elif own.get(id(p)) is not None:
+                q_prof.append(own[id(p)]), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(-1)
+        if q_prof:
+            a, b, rate, qj = steps_of(q_prof, q_a, q_b)
+            pj = np.asarray(q_piece, dtype=np.int64)[qj]
+            lv = np.asarray(q_level, dtype=np.int64)[qj]
+        else:
+            a = b = rate = np.zeros(0)
+            pj = lv = np.zeros(0, dtype=np.int64)
+        cut = np.searchsorted(pj, missing + [len(pieces)])
+        for i, j in enumerate(missing):
+            lo, hi = cut[i], cut[i + 1]
+            memo[keys[j]] = (a[lo:hi], b[lo:hi], rate[lo:hi], lv[lo:hi])
+    got = [memo[key] for key in keys]
+    if not got:
+        z = np.zeros(0)
+        return z, z, z, np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    counts = [g[0].size for g in got]
+    piece = np.repeat(np.arange(len(got)), counts)
+    return (np.concatenate([g[0] for g in got]), np.concatenate([g[1] for g in got]),
+            np.concatenate([g[2] for g in got]), np.concatenate([g[3] for g in got]), piece)
 
 
 def fill_over_draws(edges, rates_kbps, rec, decide: bool = False) -> np.ndarray:
@@ -324,11 +428,14 @@ def fill_over_draws(edges, rates_kbps, rec, decide: bool = False) -> np.ndarray:
 _DECIDE_EVERY = 32
 
 
-def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None) -> np.ndarray:
+def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None, resume=None,
+               run: _Run | None = None) -> np.ndarray:
     """The recorder's recursion over draws: ``column(k)`` gives cell k's downlink rates (Gbit/s) per draw (an
     array of ``n``, or one number for every draw), ``dmax_gbps`` their highest per cell. A cell where every
     draw stays clear of empty and full by far more than rounding (:func:`_clear_margin`) takes the plain
-    step only (the branches would all choose it); branches no draw takes are not evaluated."""
+    step only (the branches would all choose it); branches no draw takes are not evaluated. ``resume``: a
+    state kept by an earlier ``run`` on the same cells up to there (see :class:`_RunInputs`); ``run`` keeps
+    this one's states (the same numbers as a run from the start: the states are those it would reach)."""
     cap = float(rec.capacity_gbit)
     gen = float(rec.generation_kbps) * 1e-6
     fill = np.full(n, float(rec.initial_gbit))
@@ -347,9 +454,16 @@ def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None)
     span = float(e[-1] - e[0])
     sure = LOST_TOLERANCE_GBIT + 16 * np.finfo(float).eps * (cells * (cap + 1.0) + gen * span)
     look = _DECIDE_EVERY
+    first = 0
+    if resume is not None:
+        first, fill, lost, look = resume[0], resume[1].copy(), resume[2].copy(), resume[3]
     el = e.tolist()
+    stopped = cells
+    keep = run.states if run is not None else None
     with np.errstate(divide="ignore", invalid="ignore"):
-        for k in range(cells):
+        for k in range(first, cells):
+            if keep is not None and k % CHECKPOINT_CELLS == 0:
+                keep[k] = (fill, lost, look)  # arrays are never changed in place below
             dt = el[k + 1] - el[k]
             if dt <= 0:
                 continue
@@ -386,7 +500,10 @@ def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None)
             if decide and k >= look:
                 look = k + _DECIDE_EVERY
                 if lost.min() > sure:
+                    stopped = k + 1
                     break
+    if run is not None:
+        run.stopped, run.lost = stopped, lost
     return lost
 
 
