@@ -83,3 +83,37 @@ def test_vectorised_steps_equal_plan_steps_query_by_query():
     assert len(want) > 200 and len({j for *_, j in want}) > 100  # many queries give steps
     for col, ref in zip(got, zip(*want)):
         assert np.array_equal(col, np.array(ref))
+
+
+def test_booked_pieces_kept_between_checks_follow_every_edit(data_dir):
+    # the pieces kept per booking (link/recorder.booked_pieces with a memo) equal the pieces cut afresh
+    # after each kind of edit they depend on: the booking, its station's outages, a keep-out, the pre-pass
+    from contactplan.link.recorder import booked_pieces
+    from contactplan.scenario import model as m
+    from test_export_plan import make_plan
+
+    plan = make_plan(data_dir)
+    sc, passes = plan.scenario, plan.passes
+    memo: dict = {}
+
+    def same():
+        got = booked_pieces(sc, passes, sc.bookings, sc.start_tt, sc.end_tt, memo=memo)
+        want = booked_pieces(sc, passes, sc.bookings, sc.start_tt, sc.end_tt)
+        assert got == want
+        return got
+
+    first = same()
+    assert first and same() == first and len(memo["pieces"]) == 3
+    b1 = sc.booking("B001")
+    b1.start_tt += 3600.0  # the booking moved
+    moved = same()
+    assert moved != first and min(a for a, _z, _p, k in moved if k == 0) >= b1.start_tt
+    nrv = sc.station("NRV")
+    nrv.outages.append(m.Outage(start_tt=b1.start_tt + 7200.0, end_tt=b1.start_tt + 9000.0, reason="test"))
+    cut = same()
+    assert len(cut) == len(moved) + 1  # the outage splits the piece
+    sc.activities.append(m.Activity(id="SLW-X", kind="slew", start_tt=b1.start_tt + 14400.0, duration_min=30,
+                                    downlink_keepout_min=10))
+    assert len(same()) == len(cut) + 1
+    nrv.pre_pass_min += 30.0
+    assert same()[0][0] == b1.start_tt + nrv.pre_pass_min * 60.0

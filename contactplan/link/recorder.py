@@ -131,16 +131,47 @@ def steps_of(profs, starts_tt, ends_tt):
     return a[order], b[order], r[order].astype(float), j[order].astype(np.int64)
 
 
-def booked_pieces(scenario, passes, bookings, start_tt: float, end_tt: float) -> list:
+def _pieces_context(scenario, passes) -> tuple:
+    """Everything :func:`downlink_pieces` reads besides the booking itself: the passes, every keep-out,
+    and per station its pre/post-pass, whether it takes playback and its outages."""
+    return (id(passes), len(passes), tuple(a.keepout_span_tt for a in scenario.activities),
+            tuple((st.id, st.pre_pass_min, st.post_pass_min, st.takes_downlink,
+                   tuple((o.start_tt, o.end_tt) for o in st.outages)) for st in scenario.stations))
+
+
+def booked_pieces(scenario, passes, bookings, start_tt: float, end_tt: float, memo: dict | None = None) -> list:
     """``[(s0, s1, pass, booking index)]``: the booked downlink pieces
     (:func:`contactplan.link.windows.downlink_pieces`) of ``bookings`` in their order, clipped to
-    [start_tt, end_tt], empty ones left out. One list serves every recorder of a check."""
-    index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once for all bookings
+    [start_tt, end_tt], empty ones left out. One list serves every recorder of a check.
+
+    ``memo``: a dict kept between checks of one plan; the pieces of a booking whose station, times and
+    services are as before are taken from it while nothing else they depend on has changed
+    (:func:`_pieces_context`), so a check after an edit cuts only the edited bookings."""
+    index = None
+    if memo is not None:
+        context = _pieces_context(scenario, passes)
+        if memo.get("context") != context:
+            memo.clear()
+            memo["context"] = context
+        kept = memo.setdefault("pieces", {})
+        if len(kept) > 4 * len(bookings) + 1000:
+            kept.clear()
     out = []
     for k, booking in enumerate(bookings):
         if booking.end_tt <= start_tt or booking.start_tt >= end_tt:
             continue
-        for s0, s1, p in downlink_pieces(scenario, booking, passes, index):
+        key = None
+        got = None
+        if memo is not None:
+            key = (booking.station, booking.start_tt, booking.end_tt, tuple(booking.services or ()))
+            got = kept.get(key)
+        if got is None:
+            if index is None:
+                index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once
+            got = downlink_pieces(scenario, booking, passes, index)
+            if key is not None:
+                kept[key] = got
+        for s0, s1, p in got:
             a, z = max(s0, start_tt), min(s1, end_tt)
             if z > a:
                 out.append((a, z, p, k))

@@ -99,14 +99,19 @@ def _recorder(scenario, passes, profiles, pieces=None):
     return simulate_recorder(scenario, passes, profiles, pieces=pieces)
 
 
-def _booked_pieces(view, passes):
+def _booked_pieces(result, view):
     """The booked downlink pieces of the bookings that count, shared by every recorder of one check
-    (the plan's, the weather band's, the Monte Carlo's); None without a recorder."""
+    (the plan's, the weather band's, the Monte Carlo's); None without a recorder. The pieces of
+    unchanged bookings are kept on the result between checks (``result.pieces_memo``, shared by the
+    planner's background snapshots)."""
     if view.spacecraft.recorder is None:
         return None
     from contactplan.link.recorder import booked_pieces
 
-    return booked_pieces(view, passes, view.bookings, float(view.start_tt), float(view.end_tt))
+    memo = getattr(result, "pieces_memo", None)
+    if memo is None:
+        memo = result.pieces_memo = {}
+    return booked_pieces(view, result.passes, view.bookings, float(view.start_tt), float(view.end_tt), memo=memo)
 
 
 def _shadows(scenario, ephemeris) -> list:
@@ -160,7 +165,7 @@ def check(result: PlanResult) -> PlanResult:
     from contactplan.plan.status import active_view
 
     view = active_view(sc)  # declined and cancelled bookings count nowhere: not in the recorder either
-    pieces = _booked_pieces(view, result.passes)
+    pieces = _booked_pieces(result, view)
     result.recorder = _recorder(view, result.passes, result.profiles, pieces)
     # result.forecast: the recorder in weather
     rule_recorder, forecast = weather_stage(result, result.recorder, scenario=view, pieces=pieces)
