@@ -366,6 +366,28 @@ class _RunInputs:
         return (best, fill, lost, look)
 
 
+def _level_plans(result):
+    """The rate plans of every pass at every Monte Carlo level, packed (:func:`contactplan.link.recorder.
+    pack_plans`; row ``level * passes + pass index``), and {row: profile} of the level profiles without a
+    plan (left to :func:`contactplan.link.recorder.plan_steps`); kept on the result."""
+    from contactplan.link.recorder import pack_plans
+
+    memo = _memo(result)
+    got = memo.get("level_plans")
+    if got is None or got[0] != len(result.passes):
+        profs, bare = [], {}
+        for li, p_pct in enumerate(LEVELS_P):
+            lv = cached_profiles_at(result, 100.0 - p_pct)
+            for i, p in enumerate(result.passes):
+                pr = lv.get(id(p))
+                if pr is not None and pr.plan_rates_kbps is None:
+                    bare[li * len(result.passes) + i] = pr
+                profs.append(pr)
+        got = (len(result.passes), *pack_plans(profs), bare)
+        memo["level_plans"] = got
+    return got[1:]
+
+
 #: pieces whose level steps are kept per result (a few plans' worth; cleared beyond)
 _STEP_MEMO_MAX = 50000
 
@@ -375,7 +397,7 @@ def _level_steps(result, pieces, piece_col):
     for a piece not in weather (the same steps at every level), piece index), pieces in order, each piece's
     levels in order. Kept per piece on the result (its passes and profiles do not change between checks),
     so a check after an edit computes only the pieces that changed."""
-    from contactplan.link.recorder import steps_of
+    from contactplan.link.recorder import _merge_steps, steps_of, steps_of_rows
 
     memo = _memo(result).setdefault("level_steps", {})
     if len(memo) > _STEP_MEMO_MAX:
@@ -384,24 +406,37 @@ def _level_steps(result, pieces, piece_col):
     keys = [(s0, s1, id(p)) for s0, s1, p, _k in pieces]
     missing = [j for j, key in enumerate(keys) if key not in memo]
     if missing:
-        levels = [cached_profiles_at(result, 100.0 - p) for p in LEVELS_P]
-        q_prof, q_a, q_b, q_piece, q_level = [], [], [], [], []
+        n_lv, n_p = len(LEVELS_P), len(result.passes)
+        E, R, ne, nr, bare = _level_plans(result)
+        # queries in (piece, level) order: weather pieces on the packed plans of every level, the rest
+        # (a piece not in weather on its own profile; a level profile without a plan) one by one
+        rows, q_a, q_b, q_id = [], [], [], []
+        o_prof, o_a, o_b, o_id = [], [], [], []
+        q_piece, q_level = [], []
         for j in missing:
             s0, s1, p, _k = pieces[j]
-            if piece_col[j] >= 0:
-                for li, lv in enumerate(levels):
-                    pr = lv.get(id(p))
-                    if pr is not None:
-                        q_prof.append(pr), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(li)
+            col = piece_col[j]
+            if col >= 0:
+                for li in range(n_lv):
+                    row = li * n_p + col
+                    if row in bare:
+                        o_prof.append(bare[row]), o_a.append(s0), o_b.append(s1), o_id.append(len(q_piece))
+                    else:
+                        rows.append(row), q_a.append(s0), q_b.append(s1), q_id.append(len(q_piece))
+                    q_piece.append(j), q_level.append(li)
             elif own.get(id(p)) is not None:
-                q_prof.append(own[id(p)]), q_a.append(s0), q_b.append(s1), q_piece.append(j), q_level.append(-1)
-        if q_prof:
-            a, b, rate, qj = steps_of(q_prof, q_a, q_b)
-            pj = np.asarray(q_piece, dtype=np.int64)[qj]
-            lv = np.asarray(q_level, dtype=np.int64)[qj]
-        else:
-            a = b = rate = np.zeros(0)
-            pj = lv = np.zeros(0, dtype=np.int64)
+                o_prof.append(own[id(p)]), o_a.append(s0), o_b.append(s1), o_id.append(len(q_piece))
+                q_piece.append(j), q_level.append(-1)
+        parts = []
+        if rows:
+            ix = np.asarray(rows, dtype=np.int64)
+            parts.append(steps_of_rows(E[ix], R[ix], ne[ix], nr[ix], np.asarray(q_a), np.asarray(q_b), q_id))
+        if o_prof:
+            a, b, rate, qj = steps_of(o_prof, o_a, o_b)
+            parts.append((a, b, rate, np.asarray(o_id, dtype=np.int64)[qj]))
+        a, b, rate, qj = _merge_steps(parts)
+        pj = np.asarray(q_piece, dtype=np.int64)[qj]
+        lv = np.asarray(q_level, dtype=np.int64)[qj]
         cut = np.searchsorted(pj, missing + [len(pieces)])
         for i, j in enumerate(missing):
             lo, hi = cut[i], cut[i + 1]

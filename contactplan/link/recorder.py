@@ -75,59 +75,77 @@ def _plan_rows(prof):
 _ROWS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 
 
+def pack_plans(profs):
+    """The rate plans of ``profs`` padded into rows: (edges (+inf beyond each plan), rates, edge count,
+    rate count). A profile that is None or has no plan gets an empty row (no steps)."""
+    rows = [_plan_rows(p) if p is not None and p.plan_rates_kbps is not None else (np.zeros(0), np.zeros(0))
+            for p in profs]
+    ne = np.array([r[0].size for r in rows], dtype=np.int64)
+    nr = np.array([r[1].size for r in rows], dtype=np.int64)
+    m = max(int(ne.max()) if ne.size else 1, 1)
+    E = np.full((len(rows), m), np.inf)
+    R = np.zeros((len(rows), max(int(nr.max()) if nr.size else 1, 1)))
+    if ne.sum():
+        E[np.arange(m) < ne[:, None]] = np.concatenate([r[0] for r in rows])
+    if nr.sum():
+        R[np.arange(R.shape[1]) < nr[:, None]] = np.concatenate([r[1] for r in rows])
+    return E, R, ne, nr
+
+
+def steps_of_rows(E, R, ne, nr, s0, s1, qid):
+    """:func:`plan_steps` of queries given as padded plan rows (:func:`pack_plans`, one row per query) and
+    windows [s0, s1]: ``(e0, e1, rate_kbps, query id)`` arrays, each query's steps in time order, the
+    queries in the order given. Every bisection is a count of the row's edges below the point."""
+    m = E.shape[1]
+    ok = nr > 0
+    first = E[:, 0]
+    last_e = E[np.arange(E.shape[0]), np.maximum(ne - 1, 0)]
+    lo = np.maximum(s0, first)
+    hi = np.minimum(s1, last_e)
+    ok &= hi > lo
+    br_lo = (E <= lo[:, None]).sum(axis=1)  # bisect_right(e, lo)
+    bl_hi = (E < hi[:, None]).sum(axis=1)  # bisect_left(e, hi)
+    k = np.where(ok, np.maximum(bl_hi - br_lo, 0) + 1, 0)  # steps per query
+    rep = np.repeat(np.arange(E.shape[0]), k)
+    i = np.arange(rep.size) - np.repeat(np.cumsum(k) - k, k)
+    col = np.minimum(br_lo[rep] + i - 1, m - 1)
+    a = np.where(i == 0, lo[rep], E[rep, np.maximum(col, 0)])
+    col_b = np.minimum(br_lo[rep] + i, m - 1)
+    b = np.where(i == k[rep] - 1, hi[rep], E[rep, col_b])
+    idx = (E[rep] <= a[:, None]).sum(axis=1) - 1  # bisect_right(e, a) - 1
+    idx = np.minimum(np.maximum(idx, 0), nr[rep] - 1)
+    return a, b, R[rep, idx], np.asarray(qid)[rep]
+
+
 def steps_of(profs, starts_tt, ends_tt):
     """:func:`plan_steps` of many (profile, start, end) at once, the same numbers in the same order:
     ``(e0, e1, rate_kbps, j)`` arrays, ``j`` the index of the query each step belongs to.
 
-    Vectorised over the queries: each profile's plan edges padded into one row (+inf), every bisection
-    a count of the row's edges below the point. Profiles without a plan go through :func:`plan_steps`."""
+    Vectorised over the queries (:func:`steps_of_rows`); profiles without a plan go through
+    :func:`plan_steps`."""
     n = len(profs)
     s0 = np.asarray(starts_tt, dtype=float).reshape(-1)
     s1 = np.asarray(ends_tt, dtype=float).reshape(-1)
     planned = [j for j in range(n) if profs[j].plan_rates_kbps is not None]
-    rows = [_plan_rows(profs[j]) for j in planned]
     parts = []
     if planned:
-        ne = np.array([r[0].size for r in rows])
-        nr = np.array([r[1].size for r in rows])
-        m = max(int(ne.max()), 1)
-        E = np.full((len(rows), m), np.inf)
-        R = np.zeros((len(rows), max(int(nr.max()), 1)))
-        mask = np.arange(m) < ne[:, None]
-        if ne.sum():
-            E[mask] = np.concatenate([r[0] for r in rows])
-        rmask = np.arange(R.shape[1]) < nr[:, None]
-        if nr.sum():
-            R[rmask] = np.concatenate([r[1] for r in rows])
         jj = np.asarray(planned)
-        ok = nr > 0
-        first = E[:, 0]
-        last_e = E[np.arange(len(rows)), np.maximum(ne - 1, 0)]
-        lo = np.maximum(s0[jj], first)
-        hi = np.minimum(s1[jj], last_e)
-        ok &= hi > lo
-        br_lo = (E <= lo[:, None]).sum(axis=1)  # bisect_right(e, lo)
-        bl_hi = (E < hi[:, None]).sum(axis=1)  # bisect_left(e, hi)
-        inner = np.where(ok, np.maximum(bl_hi - br_lo, 0), -1)
-        k = inner + 1  # steps per query
-        rep = np.repeat(np.arange(len(rows)), np.maximum(k, 0))
-        i = np.arange(rep.size) - np.repeat(np.cumsum(np.maximum(k, 0)) - np.maximum(k, 0), np.maximum(k, 0))
-        col = np.minimum(br_lo[rep] + i - 1, m - 1)
-        a = np.where(i == 0, lo[rep], E[rep, np.maximum(col, 0)])
-        col_b = np.minimum(br_lo[rep] + i, m - 1)
-        b = np.where(i == k[rep] - 1, hi[rep], E[rep, col_b])
-        idx = (E[rep] <= a[:, None]).sum(axis=1) - 1  # bisect_right(e, a) - 1
-        idx = np.minimum(np.maximum(idx, 0), nr[rep] - 1)
-        parts.append((a, b, R[rep, idx], jj[rep]))
+        E, R, ne, nr = pack_plans([profs[j] for j in planned])
+        parts.append(steps_of_rows(E, R, ne, nr, s0[jj], s1[jj], jj))
     if len(planned) < n:
         done = set(planned)
         rest = [(a, b, r, j) for j in range(n) if j not in done for a, b, r in plan_steps(profs[j], s0[j], s1[j])]
         if rest:
             parts.append(tuple(np.array(x) for x in zip(*rest)))
+    return _merge_steps(parts)
+
+
+def _merge_steps(parts):
+    """Steps of several batches in query order (each query's steps in time order)."""
     if not parts:
         return np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0, dtype=np.int64)
     a, b, r, j = (np.concatenate(x) for x in zip(*parts))
-    order = np.argsort(j, kind="stable")  # query order, each query's steps in time order
+    order = np.argsort(j, kind="stable")
     return a[order], b[order], r[order].astype(float), j[order].astype(np.int64)
 
 
