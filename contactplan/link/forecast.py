@@ -21,11 +21,17 @@ of per-pass fades giving the probability that the recorder overflows in the wind
   in every process, and an edit changes the draws of no other pass.
 - **cost** (a year of 2,000 bookings in a check): one list of booked downlink pieces serves the plan's
   recorder, the band and the draws; the rate steps of every (piece, level) come from one vectorised
-  bisection (:func:`contactplan.link.recorder.steps_of`); a band edge on the plan's own profiles reuses the
+  bisection on the rate plans of every pass at every level, packed once per result
+  (:func:`contactplan.link.recorder.steps_of_rows`); a band edge on the plan's own profiles reuses the
   plan's recorder; the draws per pass are kept on the result. In the recursion a cell where every draw
   stays clear of empty and full by far more than rounding takes the plain step (each branch would choose
   it: the same bits), and for the probability a draw is no longer followed once its loss is certain to
   stay above the tolerance; the recursion stops when every draw is decided.
+- **between checks** (kept in ``result.weather_profiles``, shared by the planner's snapshots; passes and
+  profiles never change on a result): the level steps per piece, and the last recursion's inputs with its
+  state every :data:`CHECKPOINT_CELLS` cells. A check after an edit computes the steps of the new pieces
+  only and resumes the recursion from the last state before the first cell whose inputs changed (nothing
+  changed: the same losses); the numbers are those of a run from the start.
 """
 
 from __future__ import annotations
