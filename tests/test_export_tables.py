@@ -123,7 +123,9 @@ def test_bookings_without_plan(plan, tmp_path):
     from contactplan.io.bookings import bookings_csv
 
     rows = list(csv.reader(io.StringIO(bookings_csv(plan.scenario), newline="")))
-    assert len(rows) == 4 and all(r[-2] == "" and r[-1] == "" for r in rows[1:])
+    recs = [dict(zip(rows[0], r)) for r in rows[1:]]
+    assert len(rows) == 4 and all(r["clear_volume_gbit"] == "" and r["availability_pct"] == "" for r in recs)
+    assert all(r["status"] == "draft" and r["network_ref"] == "" for r in recs)
 
 
 def test_header_labels_carry_units():

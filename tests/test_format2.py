@@ -21,6 +21,7 @@ from contactplan.plan.pipeline import check, compute_plan
 from contactplan.scenario import load_scenario, parse_text
 from contactplan.scenario import model as m
 from contactplan.timescale import parse_utc
+from scenario_text import booking, header, link, scenario_text, service, spacecraft, station
 
 ROOT = Path(__file__).resolve().parents[1]
 DATA = Path(__file__).parent / "data"
@@ -376,34 +377,13 @@ def test_downlink_in_keepout_only_where_the_station_receives(demo):
 
 
 # ---------------------------------------------------------------- loading format 2
-BASE2 = """
-format_version = 2
-[scenario]
-name = "f2"
-start = "2027-01-12T00:00:00Z"
-end = "2027-01-13T00:00:00Z"
-[spacecraft]
-name = "Invented probe"
-ephemeris = { libration = { epoch = "2027-01-01T00:00:00Z" } }
-[[spacecraft.links]]
-id = "X-DN"
-direction = "down"
-frequency_mhz = 8450.0
-eirp_dbw = 30.0
-required_ebn0_db = 2.0
-rates_kbps = [2, 16]
-[[spacecraft.links]]
-id = "X-UP"
-direction = "up"
-frequency_mhz = 7190.0
-required_pt_dbhz = 30.0
-spacecraft_g_over_t_dbk = -20.0
-[[stations]]
-id = "NRV"
-latitude_deg = 47.0
-longitude_deg = 8.0
-services = [{ link = "X-DN", g_over_t_dbk = 40.0 }, { link = "X-UP", eirp_dbw = 80.0 }]
-"""
+BASE2 = scenario_text(
+    header("f2", "2027-01-12T00:00:00Z", "2027-01-13T00:00:00Z"),
+    spacecraft(),
+    link("X-DN", "down", 8450.0, eirp_dbw=30.0, required_ebn0_db=2.0, rates_kbps=[2, 16]),
+    link("X-UP", "up", 7190.0, required_pt_dbhz=30.0, spacecraft_g_over_t_dbk=-20.0),
+    station("NRV", 47.0, 8.0, services=[service("X-DN", g_over_t_dbk=40.0), service("X-UP", eirp_dbw=80.0)]),
+)
 
 
 @pytest.mark.parametrize("edit,where,words", [
@@ -435,20 +415,9 @@ def test_format2_bad_input_is_one_line(edit, where, words):
 def test_format2_loads_services_and_round_trips():
     from contactplan.scenario.save import dumps
 
-    text = BASE2 + """
-[[bookings]]
-id = "B001"
-station = "NRV"
-start = "2027-01-12T10:00:00Z"
-end = "2027-01-12T12:00:00Z"
-services = ["telemetry", "ranging", "doppler"]
-[[bookings]]
-id = "B002"
-station = "NRV"
-start = "2027-01-12T12:00:00Z"
-end = "2027-01-12T13:00:00Z"
-handover_from = "B001"
-"""
+    text = BASE2 + booking("B001", "NRV", "2027-01-12T10:00:00Z", "2027-01-12T12:00:00Z",
+                           services=["telemetry", "ranging", "doppler"]) + \
+        booking("B002", "NRV", "2027-01-12T12:00:00Z", "2027-01-12T13:00:00Z", handover_from="B001")
     sc = parse_text(text)
     assert sc.format_version == 2 and sc.spacecraft.link.id == "X-DN"
     assert sc.station("NRV").g_over_t_dbk == 40.0 and sc.station("NRV").service("X-UP").eirp_dbw == 80.0

@@ -7,58 +7,22 @@ from contactplan.plan.rules import RuleContext
 from contactplan.plan.twoway import manoeuvres, two_way_stations, two_way_tracks
 from contactplan.scenario.load import parse_text
 from contactplan.timescale import parse_utc
+from scenario_text import activity, booking, header, link, scenario_text, service, spacecraft, station, table
 
-F2 = """
-format_version = 2
-[scenario]
-name = "f2"
-start = "2027-01-12T00:00:00Z"
-end = "2027-01-14T00:00:00Z"
-[spacecraft]
-name = "Invented probe"
-ephemeris = { libration = { epoch = "2027-01-01T00:00:00Z" } }
-[[spacecraft.links]]
-id = "X-DN"
-direction = "down"
-frequency_mhz = 8450.0
-carries = ["telemetry", "ranging", "doppler"]
-[[spacecraft.links]]
-id = "X-UP"
-direction = "up"
-frequency_mhz = 7190.0
-carries = ["commanding", "ranging", "doppler"]
-[[stations]]
-id = "NRV"
-latitude_deg = 47.0
-longitude_deg = 8.0
-pre_pass_min = 30
-post_pass_min = 15
-services = [{ link = "X-DN", g_over_t_dbk = 40.0 }, { link = "X-UP", eirp_dbw = 80.0 }]
-[[stations]]
-id = "RCV"
-latitude_deg = -30.0
-longitude_deg = 20.0
-services = [{ link = "X-DN", g_over_t_dbk = 40.0 }]
-[[activities]]
-id = "DUMP1"
-kind = "momentum-dump"
-start = "2027-01-13T06:00:00Z"
-duration_min = 10
-[[bookings]]
-id = "B1"
-station = "NRV"
-start = "2027-01-12T02:00:00Z"
-end = "2027-01-12T10:00:00Z"
-services = ["telemetry", "doppler"]
-[[bookings]]
-id = "B2"
-station = "RCV"
-start = "2027-01-12T02:00:00Z"
-end = "2027-01-12T10:00:00Z"
-services = ["telemetry", "ranging", "doppler"]
-[orbit_determination]
-momentum_dump_sigma_mm_s = 0.3
-"""
+F2 = scenario_text(
+    header("f2", "2027-01-12T00:00:00Z", "2027-01-14T00:00:00Z"),
+    spacecraft(),
+    link("X-DN", "down", 8450.0, carries=["telemetry", "ranging", "doppler"]),
+    link("X-UP", "up", 7190.0, carries=["commanding", "ranging", "doppler"]),
+    station("NRV", 47.0, 8.0, pre_pass_min=30, post_pass_min=15,
+            services=[service("X-DN", g_over_t_dbk=40.0), service("X-UP", eirp_dbw=80.0)]),
+    station("RCV", -30.0, 20.0, services=[service("X-DN", g_over_t_dbk=40.0)]),
+    activity("DUMP1", "momentum-dump", "2027-01-13T06:00:00Z", 10),
+    booking("B1", "NRV", "2027-01-12T02:00:00Z", "2027-01-12T10:00:00Z", services=["telemetry", "doppler"]),
+    booking("B2", "RCV", "2027-01-12T02:00:00Z", "2027-01-12T10:00:00Z",
+            services=["telemetry", "ranging", "doppler"]),
+    table("orbit_determination", momentum_dump_sigma_mm_s=0.3),
+)
 
 
 def test_services_the_track_and_momentum_dumps():

@@ -496,3 +496,37 @@ def test_link_planning_values_load_or_name_their_field():
         assert sc.link_planning.availability_pct == a and sc.link_planning.forecast_draws == draws
 
     check()
+
+
+def test_monte_carlo_after_an_edit_resumes_to_the_same_numbers(tight_plan, monkeypatch):
+    # a check after an edit resumes the draws from the last kept state before the edit: the same losses
+    # as a run from the start (link/forecast.py _RunInputs)
+    from contactplan.link import forecast as F
+
+    monkeypatch.setattr(F, "CHECKPOINT_CELLS", 4)
+    seen = []
+    real = F._recursion
+    monkeypatch.setattr(F, "_recursion", lambda *a, **k: seen.append(k.get("resume")) or real(*a, **k))
+    sc = tight_plan.scenario
+    fc = tight_plan.forecast
+    monkeypatch.setattr(sc.spacecraft.recorder, "capacity_gbit", 0.9 * float(np.max(fc.band_low_gbit)))
+    F._memo(tight_plan).pop("recursion", None)
+    F.draw_losses(tight_plan, 400, seed=2)
+    again = F.draw_losses(tight_plan, 400, seed=2)  # nothing changed: the kept losses, no recursion
+    assert len(seen) == 1 and seen[0] is None
+    mid = sc.start_tt + 0.4 * (sc.end_tt - sc.start_tt)
+    inside = [x for x in sc.bookings if "playback" in x.services and mid < x.start_tt < sc.end_tt]
+    b = min(inside, key=lambda x: x.start_tt)
+    services = list(b.services)
+    b.services = [x for x in services if x != "playback"]  # the first playback after 40 % of the window
+    try:
+        got = F.draw_losses(tight_plan, 400, seed=2)
+        assert len(seen) == 2 and seen[1] is not None and seen[1][0] > 0  # resumed after the first cells
+        F._memo(tight_plan).pop("recursion")
+        F._memo(tight_plan).pop("level_steps")
+        want = F.draw_losses(tight_plan, 400, seed=2)
+        assert seen[2] is None and np.array_equal(got, want)
+        assert np.all(got >= again) and np.any(got > again)  # less playback: more lost
+    finally:
+        b.services = services
+        F._memo(tight_plan).pop("recursion", None)

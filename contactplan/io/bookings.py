@@ -11,7 +11,10 @@ end, rate) with the volume of that plan (``plan_volume_gbit``), the volume the
 recorder actually gives up (``downlinked_gbit``) and the rule codes of the findings
 that name the booking. On a link planned in weather ``plan_volume_gbit`` is at the link's availability
 (``availability_pct``) and ``clear_volume_gbit`` gives the clear-sky plan's volume beside it (both empty
-without weather).
+without weather). ``status`` is where the booking stands with the station network (``draft``,
+``requested``, ``confirmed``, ``declined``, ``cancelled``; declined and cancelled bookings are listed but
+count nowhere: no downlink, no findings of their own) and ``network_ref`` the network's own id of it
+(empty when it has none).
 """
 
 from __future__ import annotations
@@ -46,6 +49,8 @@ BOOKING_COLUMNS = (
     "findings",
     "clear_volume_gbit",
     "availability_pct",
+    "status",
+    "network_ref",
 )
 
 
@@ -172,6 +177,8 @@ def booking_record(scenario, booking, plan=None, index=None) -> dict:
         "findings": rules,
         "clear_volume_gbit": clear_gbit,
         "availability_pct": avail,
+        "status": getattr(booking, "status", None) or "draft",
+        "network_ref": getattr(booking, "network_ref", None) or None,
     }
 
 

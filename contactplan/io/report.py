@@ -154,7 +154,13 @@ def timeline_figure(plan, width_in: float):
         except KeyError:
             outs, setup_s, tear_s = [], 0.0, 0.0
         bars(sid, outs, 0.8, facecolors="none", edgecolors=COLOURS["outage"], hatch="xxx", lw=0.5, zorder=2)
-        mine = [b for b in sc.bookings if b.station == sid]
+        from contactplan.io.report_network import counting
+
+        every = [b for b in sc.bookings if b.station == sid]
+        mine = counting(every)
+        gone = [b for b in every if b not in mine]  # declined or cancelled: outlined, counted nowhere
+        bars(sid, [(b.start_tt, b.end_tt) for b in gone], 0.46, facecolors="none", edgecolors=COLOURS["booking"],
+             hatch="////", lw=0.5, zorder=3)
         bars(sid, [(b.start_tt, b.end_tt) for b in mine], 0.46, facecolors=COLOURS["setup"],
              edgecolors=COLOURS["booking"], lw=0.6, zorder=3)
         bars(sid, [(min(b.start_tt + setup_s, b.end_tt), max(b.end_tt - tear_s, b.start_tt)) for b in mine], 0.46,
@@ -188,6 +194,7 @@ def timeline_figure(plan, width_in: float):
         Patch(facecolor=COLOURS["booking"], edgecolor=COLOURS["booking"], label="booking track (BOT-EOT)"),
         Patch(facecolor=COLOURS["setup"], edgecolor=COLOURS["booking"], label="pre-pass / post-pass"),
         Patch(facecolor="none", edgecolor=COLOURS["error"], lw=1.4, label="booking with an error"),
+        Patch(facecolor="none", edgecolor=COLOURS["booking"], hatch="////", label="declined / cancelled"),
         Patch(facecolor="none", edgecolor=COLOURS["outage"], hatch="xxx", label="station outage"),
         Patch(facecolor=COLOURS["burn"], edgecolor="black", hatch="////", label="burn"),
         Patch(facecolor=COLOURS["burn"], edgecolor="black", hatch="xx", label="momentum dump"),
@@ -219,7 +226,9 @@ def recorder_figure(plan, width_in: float):
     for k, (a, b, _lost) in enumerate(rec.overflow_spans or []):
         ax.axvspan((a - t0) / 86400.0, (b - t0) / 86400.0, color=COLOURS["error"], alpha=0.25, hatch="//",
                    lw=0, label="overflow (data lost)" if k == 0 else None)
-    for b in sc.bookings:
+    from contactplan.io.report_network import counting
+
+    for b in counting(sc.bookings):
         if "playback" in b.services:
             ax.axvspan((b.start_tt - t0) / 86400.0, (b.end_tt - t0) / 86400.0, ymin=0, ymax=0.04,
                        color=COLOURS["booking"], lw=0)
@@ -366,7 +375,7 @@ def _plan_texts(plan) -> list:
         texts += [st.id, st.name] + [getattr(o, "reason", "") for o in st.outages]
     texts += [a.id for a in sc.activities]
     for b in sc.bookings:
-        texts += [b.id, b.station] + list(b.services)
+        texts += [b.id, b.station] + list(b.services) + [str(getattr(b, "network_ref", None) or "")]
     texts += [f"{lk.id} {lk.band}" for lk in sc.spacecraft.links]
     texts += [f.message for f in plan.findings] + [str(x) for f in plan.findings for x in f.subjects]
     return texts
@@ -407,6 +416,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
     wide_h = wide[1] - 2 * margin - 4 * mm
 
     from contactplan.io.report_changes import change_texts, changes_story
+    from contactplan.io.report_network import bookings_fact, bookings_heading, frozen_story, status_cell
 
     fonts = report_fonts(_plan_texts(plan) + change_texts(changes))
     ss = getSampleStyleSheet()
@@ -446,7 +456,6 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
 
     records = booking_records(sc, plan)
     rec = plan.recorder
-    booked_s = sum(b.duration_s for b in sc.bookings)
     acts = [a for a in sc.activities if a.end_tt > sc.start_tt and a.start_tt < sc.end_tt]
     findings_text = f"{_count(plan.errors, 'error')}, {_count(plan.warnings, 'warning')}"
     story = []
@@ -463,7 +472,7 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
         ["Generated (UTC)", _fmt(gen_tt)],
         ["Stations", ", ".join(f"{s.id} ({s.name})" for s in sc.stations) or "none"],
         ["Passes", str(len(plan.passes))],
-        ["Bookings", f"{len(sc.bookings)} ({booked_s / 3600.0:.1f} station hours)"],
+        ["Bookings", bookings_fact(sc.bookings)],  # declined and cancelled count nowhere
         ["Activities in the window", f"{_count(sum(a.kind == 'burn' for a in acts), 'burn')}, "
                                      f"{_count(sum(a.kind == 'momentum-dump' for a in acts), 'momentum dump')}, "
                                      f"{_count(sum(a.kind == 'slew' for a in acts), 'slew')}, "
@@ -509,14 +518,15 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
               NextPageTemplate("tall"), PageBreak()]
 
     # ---- bookings
-    story.append(P(f"Bookings ({len(records)})", h2))
+    story.append(P(bookings_heading(sc.bookings), h2))
     if records:
-        head = ["Id", "Station", "Start (UTC)", "End (UTC)", "Track (UTC)", "Services", "Rate plan (kbit/s)",
-                "Plan / down (Gbit)", "Findings"]
+        head = ["Id", "Station", "Status", "Start (UTC)", "End (UTC)", "Track (UTC)", "Services",
+                "Rate plan (kbit/s)", "Plan / down (Gbit)", "Findings"]
         rows = [head]
         for r in records:
             rows.append([P(r["id"] + (" (locked)" if r["locked"] else "")
                            + (f", after {r['handover_from']}" if r["handover_from"] else ""), small), r["station"],
+                         P(status_cell(r), small),
                          P(f"{r['start_utc'][:16]}Z {r['start_doy'][5:8]}", small),
                          P(f"{r['end_utc'][:16]}Z {r['end_doy'][5:8]}", small),
                          P(f"{r['bot_utc'][11:16]} to {r['eot_utc'][11:16]}", small),
@@ -524,15 +534,18 @@ def write_report(plan, path, paper: str = "a4", now_tt: float | None = None, cha
                          f"{_num(r['plan_volume_gbit'])} / {_num(r['downlinked_gbit'])}",
                          P(", ".join(r["findings"]) or "-", small)])
         w = frame_w
-        story.append(table(rows, [0.08 * w, 0.065 * w, 0.13 * w, 0.13 * w, 0.1 * w, 0.15 * w, 0.16 * w, 0.085 * w,
-                                  0.1 * w]))
+        story.append(table(rows, [0.08 * w, 0.065 * w, 0.09 * w, 0.115 * w, 0.115 * w, 0.1 * w, 0.12 * w,
+                                  0.14 * w, 0.085 * w, 0.09 * w]))
         story.append(P("Start and end include the station's pre-pass and post-pass; the track (BOT to EOT) lies "
                        "between; the three digits after the time are the day of year. Rate plan: the time-tagged "
                        "rate steps of the booking's down link over its track (start-end UTC: rate); plan: the "
-                       "volume of that plan; down: what the recorder gives up (playback only).", small))
+                       "volume of that plan; down: what the recorder gives up (playback only). Status: where the "
+                       "booking stands with the station network (the network's id in brackets); declined and "
+                       "cancelled bookings are listed but count nowhere.", small))
     else:
         story.append(P("No bookings in this plan yet."))
     story.append(Spacer(1, 6 * mm))
+    story += frozen_story(plan, P, table, small, h2, frame_w)
 
     # ---- links per band and station services
     links = list(sc.spacecraft.links)

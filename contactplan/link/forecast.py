@@ -16,7 +16,22 @@ of per-pass fades giving the probability that the recorder overflows in the wind
   drawn one's), and u above 50 % takes the 50 % level. The fill over the draws is the recorder's own
   recursion (same arithmetic, vectorised over draws): with fades off every draw is the deterministic
   recorder to the last bit. Overflow: more than :data:`LOST_TOLERANCE_GBIT` lost. Standard error of the
-  probability: sqrt(P (1 - P) / N).
+  probability: sqrt(P (1 - P) / N). The draws of a pass are column ``i`` of :func:`draw_levels` over all
+  passes of the plan, ``i`` its place in ``result.passes`` (AOS order): the same seed gives the same draws
+  in every process, and an edit changes the draws of no other pass.
+- **cost** (a year of 2,000 bookings in a check): one list of booked downlink pieces serves the plan's
+  recorder, the band and the draws; the rate steps of every (piece, level) come from one vectorised
+  bisection on the rate plans of every pass at every level, packed once per result
+  (:func:`contactplan.link.recorder.steps_of_rows`); a band edge on the plan's own profiles reuses the
+  plan's recorder; the draws per pass are kept on the result. In the recursion a cell where every draw
+  stays clear of empty and full by far more than rounding takes the plain step (each branch would choose
+  it: the same bits), and for the probability a draw is no longer followed once its loss is certain to
+  stay above the tolerance; the recursion stops when every draw is decided.
+- **between checks** (kept in ``result.weather_profiles``, shared by the planner's snapshots; passes and
+  profiles never change on a result): the level steps per piece, and the last recursion's inputs with its
+  state every :data:`CHECKPOINT_CELLS` cells. A check after an edit computes the steps of the new pieces
+  only and resumes the recursion from the last state before the first cell whose inputs changed (nothing
+  changed: the same losses); the numbers are those of a run from the start.
 """
 
 from __future__ import annotations
@@ -143,10 +158,17 @@ def in_weather(result) -> bool:
 
 
 # ---------------------------------------------------------------- the forecast
-def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=None) -> RecorderForecast | None:
+def _same_profiles(a: dict, b: dict) -> bool:
+    return a is b or (len(a) == len(b) and all(b.get(k) is v for k, v in a.items()))
+
+
+def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=None, recorder=None,
+                 pieces=None) -> RecorderForecast | None:
     """The recorder forecast of a plan result (None without a recorder or without weather); ``scenario``:
-    the plan whose bookings count (default ``result.scenario``)."""
-    from contactplan.link.recorder import simulate_recorder
+    the plan whose bookings count (default ``result.scenario``). ``recorder``: the plan's own recorder of
+    that scenario (reused for a band edge whose profiles are the plan's own); ``pieces``: the booked
+    downlink pieces (:func:`contactplan.link.recorder.booked_pieces`) of that scenario's window."""
+    from contactplan.link.recorder import booked_pieces, simulate_recorder
     from contactplan.scenario.link_planning import DEFAULT_OVERFLOW_AVAILABILITY_PCT, planning_of
 
     sc = result.scenario if scenario is None else scenario
@@ -154,7 +176,13 @@ def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=No
         return None
     lp = planning_of(sc)
     p1, p2 = (float(x) for x in lp.band_availability_pct)
-    recs = [simulate_recorder(sc, result.passes, cached_profiles_at(result, a)) for a in (None, p1, p2)]
+    if pieces is None:
+        pieces = booked_pieces(sc, result.passes, sc.bookings, float(sc.start_tt), float(sc.end_tt))
+    recs = []
+    for a in (None, p1, p2):
+        prof = cached_profiles_at(result, a)
+        same = recorder is not None and _same_profiles(prof, result.profiles)
+        recs.append(recorder if same else simulate_recorder(sc, result.passes, prof, pieces=pieces))
     t = np.unique(np.concatenate([r.t_tt for r in recs]))
     req = getattr(sc, "requirements", None)
     over = getattr(req, "recorder_overflow_availability_pct", None) or DEFAULT_OVERFLOW_AVAILABILITY_PCT
@@ -164,27 +192,12 @@ def forecast_for(result, overflow_recorder=None, fades: bool = True, scenario=No
                           seed=int(lp.forecast_seed), overflow_availability_pct=float(over),
                           clear_lost_gbit=recs[0].lost_gbit, band_lost_gbit=(recs[1].lost_gbit, recs[2].lost_gbit))
     if lp.forecast_draws > 0:
-        lost = draw_losses(result, lp.forecast_draws, lp.forecast_seed, fades=fades, scenario=sc)
+        lost = draw_losses(result, lp.forecast_draws, lp.forecast_seed, fades=fades, scenario=sc, pieces=pieces,
+                           decide=True)
         prob = float(np.mean(lost > LOST_TOLERANCE_GBIT))
         fc.overflow_probability_pct = 100.0 * prob
         fc.standard_error_pct = 100.0 * float(np.sqrt(prob * (1.0 - prob) / lost.size))
     return fc
-
-
-def _pieces(scenario, passes, bookings, t0, t1):
-    """Booked downlink pieces [(s0, s1, pass, booking index)] clipped to [t0, t1]."""
-    from contactplan.link.windows import DownlinkIndex, downlink_pieces
-
-    index = DownlinkIndex(scenario, passes)
-    out = []
-    for k, b in enumerate(bookings):
-        if b.end_tt <= t0 or b.start_tt >= t1:
-            continue
-        for s0, s1, p in downlink_pieces(scenario, b, passes, index):
-            a, z = max(s0, t0), min(s1, t1)
-            if z > a:
-                out.append((a, z, p, k))
-    return out
 
 
 def draw_levels(n_draws: int, n_passes: int, seed: int) -> np.ndarray:
@@ -197,59 +210,273 @@ def draw_levels(n_draws: int, n_passes: int, seed: int) -> np.ndarray:
     return np.minimum(k, levels.size - 1)
 
 
-def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenario=None) -> np.ndarray:
+def _memo(result) -> dict:
+    """The per-result store of :func:`cached_profiles_at` (shared by the planner's snapshots)."""
+    cached_profiles_at(result, None)
+    return result.weather_profiles
+
+
+def _pass_draws(result, n: int, seed: int) -> np.ndarray:
+    """Level index of every (pass, draw), shape (passes, draws), one column of :func:`draw_levels` per pass of
+    ``result.passes`` in their order (AOS); kept on the result (passes do not change between checks)."""
+    memo = _memo(result)
+    key = ("draws", n, int(seed), len(result.passes))
+    got = memo.get(key)
+    if got is None:
+        got = np.ascontiguousarray(draw_levels(n, len(result.passes), seed).T.astype(np.intp))
+        memo[key] = got
+    return got
+
+
+def _pass_index(result) -> dict:
+    memo = _memo(result)
+    got = memo.get("pass_index")
+    if got is None or got[0] is not result.passes or len(got[1]) != len(result.passes):
+        got = (result.passes, {id(p): i for i, p in enumerate(result.passes)})
+        memo["pass_index"] = got
+    return got[1]
+
+
+def draw_losses(result, n_draws: int, seed: int = 0, fades: bool = True, scenario=None, pieces=None,
+                decide: bool = False) -> np.ndarray:
     """Gigabits lost in each of ``n_draws`` draws (see the module doc). ``fades=False``: every pass on the
-    plan's own profiles (each draw is then the deterministic recorder)."""
-    from contactplan.link.recorder import downlink_rate_steps, plan_steps
+    plan's own profiles (each draw is then the deterministic recorder). ``pieces``: the booked downlink
+    pieces of the scenario's window (:func:`contactplan.link.recorder.booked_pieces`). ``decide=True``: a
+    draw whose loss is certain to stay above :data:`LOST_TOLERANCE_GBIT` is no longer followed (the loss
+    returned for it is then only a lower bound; whether it overflows is exact); the recursion stops when
+    every draw is decided."""
+    from contactplan.link.recorder import booked_pieces, downlink_rate_steps
 
     sc = result.scenario if scenario is None else scenario
     rec = sc.spacecraft.recorder
     t0, t1 = float(sc.start_tt), float(sc.end_tt)
     bookings = list(sc.bookings)
     n = int(n_draws)
+    own = result.profiles or {}
+    if pieces is None:
+        pieces = booked_pieces(sc, result.passes, bookings, t0, t1)
     if not fades:
-        edges, rates, _ = downlink_rate_steps(sc, result.passes, result.profiles or {}, bookings, t0, t1)
-        return fill_over_draws(edges, np.broadcast_to(rates, (n, rates.size)), rec)
-    levels = [cached_profiles_at(result, 100.0 - p) for p in LEVELS_P]
-    pieces = _pieces(sc, result.passes, bookings, t0, t1)
-    weather = sorted({id(p) for _, _, p, _ in pieces
-                      if getattr((result.profiles or {}).get(id(p)), "clear_level_db", None) is not None})
-    col = {pid: j for j, pid in enumerate(weather)}
-    # per piece and level: steps (a, b, rate) of the plan in use
-    steps = []
-    for s0, s1, p, k in pieces:
-        if id(p) in col:
-            per = [plan_steps(lv[id(p)], s0, s1) if id(p) in lv else [] for lv in levels]
-        else:
-            prof = (result.profiles or {}).get(id(p))
-            one = plan_steps(prof, s0, s1) if prof is not None else []
-            per = [one] * len(levels)
-        steps.append((p, per))
-    cuts = [t0, t1] + [x for _, per in steps for lv in per for a, b, _ in lv for x in (a, b)]
-    grid = np.unique(np.asarray(cuts, dtype=float))
+        edges, rates, _ = downlink_rate_steps(sc, result.passes, own, bookings, t0, t1, pieces=pieces)
+        return fill_over_draws(edges, np.broadcast_to(rates, (n, rates.size)), rec, decide=decide)
+    n_lv = len(LEVELS_P)
+    pidx = _pass_index(result)
+    piece_col = [pidx[id(p)] if getattr(own.get(id(p)), "clear_level_db", None) is not None else -1
+                 for _s0, _s1, p, _k in pieces]
+    e0, e1, r, level, piece = _level_steps(result, pieces, piece_col)
+    grid = np.unique(np.concatenate(([t0, t1], e0, e1)))
     cells = grid.size - 1
-    k_draw = draw_levels(n, len(weather), seed) if weather else np.zeros((n, 0), dtype=np.int64)
-    rate = np.zeros((n, cells))
-    for p, per in steps:
-        table = np.zeros((len(levels), cells))  # rate of this piece per level and cell
-        for li, lv in enumerate(per):
-            for a, b, r in lv:
-                if r > 0:
-                    i0, i1 = np.searchsorted(grid, a), np.searchsorted(grid, b)
-                    table[li, i0:i1] = r
-        lo, hi = np.flatnonzero(table.any(axis=0))[[0, -1]] if table.any() else (0, -1)
-        if hi < lo:
-            continue
-        pick = k_draw[:, col[id(p)]] if id(p) in col else np.zeros(n, dtype=np.int64)
-        np.maximum(rate[:, lo:hi + 1], table[pick, lo:hi + 1], out=rate[:, lo:hi + 1])  # one transmitter
-    return fill_over_draws(grid, rate, rec)
+    pos = r > 0
+    piece, level, rr = piece[pos], level[pos], r[pos]
+    i0, i1 = np.searchsorted(grid, e0[pos]), np.searchsorted(grid, e1[pos])
+    cnt = np.maximum(i1 - i0, 0)
+    rep = np.repeat(np.arange(rr.size), cnt)
+    cell = np.arange(rep.size) - np.repeat(np.cumsum(cnt) - cnt, cnt) + i0[rep]
+    key = cell * max(len(pieces), 1) + piece[rep]  # (cell, piece) pairs, cell-major
+    uniq, pair = np.unique(key, return_inverse=True)
+    table = np.zeros((uniq.size, n_lv))  # rate (kbit/s) of each (cell, piece) at each level
+    lv_r = level[rep]
+    every = lv_r < 0
+    table[pair[every]] = rr[rep[every]][:, None]
+    table[pair[~every], lv_r[~every]] = rr[rep[~every]]
+    pair_cell = uniq // max(len(pieces), 1)
+    pair_col = np.asarray(piece_col, dtype=np.int64)[uniq % max(len(pieces), 1)] if uniq.size else np.zeros(0, int)
+    draws = _pass_draws(result, n, seed) if uniq.size and (pair_col >= 0).any() else None
+    table_g = table * 1e-6  # Gbit/s, as the recorder turns its rates
+    terms: list = [[] for _ in range(cells)]  # per cell: its pieces' rates, one number or (level rates, draws)
+    for q, (c, col) in enumerate(zip(pair_cell.tolist(), pair_col.tolist())):
+        terms[c].append((table_g[q], draws[col]) if col >= 0 else float(table_g[q, 0]))
+    dmax = np.zeros(cells)
+    if uniq.size:
+        np.maximum.at(dmax, pair_cell, table_g.max(axis=1))
+
+    def column(k):
+        out = 0.0
+        for i, t in enumerate(terms[k]):
+            v = t if isinstance(t, float) else t[0].take(t[1])
+            out = v if i == 0 else np.maximum(out, v)  # one transmitter: the higher rate
+        return out
+
+    memo = _memo(result)
+    inputs = _RunInputs((float(rec.capacity_gbit), float(rec.generation_kbps), float(rec.initial_gbit), n, int(seed),
+                         bool(decide), id(draws)), grid, pair_cell, pair_col, table_g)
+    last = memo.get("recursion")
+    resume = inputs.resume_from(last) if last is not None else None
+    if resume is not None and resume[0] == "done":  # nothing it read has changed: the same losses
+        last.inputs = inputs
+        return last.lost.copy()
+    run = _Run()
+    if resume is not None:
+        run.states = {c: v for c, v in last.states.items() if c <= resume[0]}
+    lost = _recursion(grid, column, n, rec, decide, dmax, resume=resume, run=run)
+    run.inputs = inputs
+    memo["recursion"] = run
+    return lost.copy()
 
 
-def fill_over_draws(edges, rates_kbps, rec) -> np.ndarray:
+#: cells between two kept states of the recursion (a check after an edit resumes from the last one before it)
+CHECKPOINT_CELLS = 128
+
+
+@dataclass(eq=False)
+class _Run:
+    """One recursion of :func:`draw_losses`: its inputs, the state before every :data:`CHECKPOINT_CELLS`-th
+    cell ``{k: (fill, lost, next look)}``, the cell it stopped at and its losses."""
+
+    inputs: object = None
+    states: dict = field(default_factory=dict)
+    stopped: int = 0
+    lost: object = None
+
+
+@dataclass(eq=False)
+class _RunInputs:
+    """What a recursion reads: recorder, draws, seed and mode; the cells and their (cell, piece) rates."""
+
+    key: tuple
+    grid: np.ndarray
+    pair_cell: np.ndarray
+    pair_col: np.ndarray
+    table: np.ndarray
+
+    def first_change(self, old: "_RunInputs") -> int:
+        """The first cell whose inputs differ from ``old``'s (the number of cells when none does)."""
+        cells = self.grid.size - 1
+        m = min(self.grid.size, old.grid.size)
+        diff = np.flatnonzero(self.grid[:m] != old.grid[:m])
+        k = int(diff[0]) - 1 if diff.size else (m - 1 if self.grid.size != old.grid.size else cells)
+        m = min(self.pair_cell.size, old.pair_cell.size)
+        same = (self.pair_cell[:m] == old.pair_cell[:m]) & (self.pair_col[:m] == old.pair_col[:m]) & \
+            np.all(self.table[:m] == old.table[:m], axis=1)
+        bad = np.flatnonzero(~same)
+        if bad.size:
+            q = int(bad[0])
+            k = min(k, int(self.pair_cell[q]), int(old.pair_cell[q]))
+        elif self.pair_cell.size != old.pair_cell.size:
+            longer = self if self.pair_cell.size > m else old
+            k = min(k, int(longer.pair_cell[m]))
+        return max(k, 0)
+
+    def resume_from(self, last: _Run):
+        """(cell, fill, lost, next look) to start from, or ("done", losses) when ``last`` ran the same inputs
+        as far as it went; None: start afresh."""
+        old = last.inputs
+        if old is None or old.key != self.key:
+            return None
+        k = self.first_change(old)
+        if k >= last.stopped and last.lost is not None:
+            return ("done", last.lost)
+        best = max((c for c in last.states if c <= k), default=None)
+        if best is None:
+            return None
+        fill, lost, look = last.states[best]
+        return (best, fill, lost, look)
+
+
+def _level_plans(result):
+    """The rate plans of every pass at every Monte Carlo level, packed (:func:`contactplan.link.recorder.
+    pack_plans`; row ``level * passes + pass index``), and {row: profile} of the level profiles without a
+    plan (left to :func:`contactplan.link.recorder.plan_steps`); kept on the result."""
+    from contactplan.link.recorder import pack_plans
+
+    memo = _memo(result)
+    got = memo.get("level_plans")
+    if got is None or got[0] != len(result.passes):
+        profs, bare = [], {}
+        for li, p_pct in enumerate(LEVELS_P):
+            lv = cached_profiles_at(result, 100.0 - p_pct)
+            for i, p in enumerate(result.passes):
+                pr = lv.get(id(p))
+                if pr is not None and pr.plan_rates_kbps is None:
+                    bare[li * len(result.passes) + i] = pr
+                profs.append(pr)
+        got = (len(result.passes), *pack_plans(profs), bare)
+        memo["level_plans"] = got
+    return got[1:]
+
+
+#: pieces whose level steps are kept per result (a few plans' worth; cleared beyond)
+_STEP_MEMO_MAX = 50000
+
+
+def _level_steps(result, pieces, piece_col):
+    """Rate steps of every piece at every Monte Carlo level: arrays (e0, e1, rate kbit/s, level index or -1
+    for a piece not in weather (the same steps at every level), piece index), pieces in order, each piece's
+    levels in order. Kept per piece on the result (its passes and profiles do not change between checks),
+    so a check after an edit computes only the pieces that changed."""
+    from contactplan.link.recorder import _merge_steps, steps_of, steps_of_rows
+
+    memo = _memo(result).setdefault("level_steps", {})
+    if len(memo) > _STEP_MEMO_MAX:
+        memo.clear()
+    own = result.profiles or {}
+    keys = [(s0, s1, id(p)) for s0, s1, p, _k in pieces]
+    missing = [j for j, key in enumerate(keys) if key not in memo]
+    if missing:
+        n_lv, n_p = len(LEVELS_P), len(result.passes)
+        E, R, ne, nr, bare = _level_plans(result)
+        # queries in (piece, level) order: weather pieces on the packed plans of every level, the rest
+        # (a piece not in weather on its own profile; a level profile without a plan) one by one
+        rows, q_a, q_b, q_id = [], [], [], []
+        o_prof, o_a, o_b, o_id = [], [], [], []
+        q_piece, q_level = [], []
+        for j in missing:
+            s0, s1, p, _k = pieces[j]
+            col = piece_col[j]
+            if col >= 0:
+                for li in range(n_lv):
+                    row = li * n_p + col
+                    if row in bare:
+                        o_prof.append(bare[row]), o_a.append(s0), o_b.append(s1), o_id.append(len(q_piece))
+                    else:
+                        rows.append(row), q_a.append(s0), q_b.append(s1), q_id.append(len(q_piece))
+                    q_piece.append(j), q_level.append(li)
+            elif own.get(id(p)) is not None:
+                o_prof.append(own[id(p)]), o_a.append(s0), o_b.append(s1), o_id.append(len(q_piece))
+                q_piece.append(j), q_level.append(-1)
+        parts = []
+        if rows:
+            ix = np.asarray(rows, dtype=np.int64)
+            parts.append(steps_of_rows(E[ix], R[ix], ne[ix], nr[ix], np.asarray(q_a), np.asarray(q_b), q_id))
+        if o_prof:
+            a, b, rate, qj = steps_of(o_prof, o_a, o_b)
+            parts.append((a, b, rate, np.asarray(o_id, dtype=np.int64)[qj]))
+        a, b, rate, qj = _merge_steps(parts)
+        pj = np.asarray(q_piece, dtype=np.int64)[qj]
+        lv = np.asarray(q_level, dtype=np.int64)[qj]
+        cut = np.searchsorted(pj, missing + [len(pieces)])
+        for i, j in enumerate(missing):
+            lo, hi = cut[i], cut[i + 1]
+            memo[keys[j]] = (a[lo:hi], b[lo:hi], rate[lo:hi], lv[lo:hi])
+    got = [memo[key] for key in keys]
+    if not got:
+        z = np.zeros(0)
+        return z, z, z, np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    counts = [g[0].size for g in got]
+    piece = np.repeat(np.arange(len(got)), counts)
+    return (np.concatenate([g[0] for g in got]), np.concatenate([g[1] for g in got]),
+            np.concatenate([g[2] for g in got]), np.concatenate([g[3] for g in got]), piece)
+
+
+def fill_over_draws(edges, rates_kbps, rec, decide: bool = False) -> np.ndarray:
     """Gigabits lost per draw: :func:`contactplan.link.recorder.simulate_recorder`'s recursion (same
     operations in the same order) over the cells ``edges`` with ``rates_kbps`` of shape (draws, cells)."""
-    rates = np.asarray(rates_kbps, dtype=float)
-    n = rates.shape[0]
+    d_rates = np.asarray(rates_kbps, dtype=float) * 1e-6
+    dmax = d_rates.max(axis=0) if d_rates.size else np.zeros(max(len(edges) - 1, 0))
+    return _recursion(edges, lambda k: d_rates[:, k], d_rates.shape[0], rec, decide, dmax)
+
+
+#: cells between two looks at whether every draw is decided (``decide=True``)
+_DECIDE_EVERY = 32
+
+
+def _recursion(edges, column, n: int, rec, decide: bool = False, dmax_gbps=None, resume=None,
+               run: _Run | None = None) -> np.ndarray:
+    """The recorder's recursion over draws: ``column(k)`` gives cell k's downlink rates (Gbit/s) per draw (an
+    array of ``n``, or one number for every draw), ``dmax_gbps`` their highest per cell. A cell where every
+    draw stays clear of empty and full by far more than rounding (:func:`_clear_margin`) takes the plain
+    step only (the branches would all choose it); branches no draw takes are not evaluated. ``resume``: a
+    state kept by an earlier ``run`` on the same cells up to there (see :class:`_RunInputs`); ``run`` keeps
+    this one's states (the same numbers as a run from the start: the states are those it would reach)."""
     cap = float(rec.capacity_gbit)
     gen = float(rec.generation_kbps) * 1e-6
     fill = np.full(n, float(rec.initial_gbit))
@@ -257,21 +484,72 @@ def fill_over_draws(edges, rates_kbps, rec) -> np.ndarray:
     if fill[0] > cap if n else False:
         lost += fill - cap
         fill[:] = cap
-    d_rates = rates * 1e-6
     e = np.asarray(edges, dtype=float)
+    cells = e.size - 1
+    if cells <= 0 or n == 0:
+        return lost
+    dts = np.diff(e)
+    margins = _clear_margin(cap, gen, np.zeros(cells) if dmax_gbps is None else dmax_gbps, dts).tolist()
+    # a loss above this stays above the tolerance whatever rounding the remaining cells add (each cell's
+    # increment is rounded by a few ulps of the capacity plus the cell's generation)
+    span = float(e[-1] - e[0])
+    sure = LOST_TOLERANCE_GBIT + 16 * np.finfo(float).eps * (cells * (cap + 1.0) + gen * span)
+    look = _DECIDE_EVERY
+    first = 0
+    if resume is not None:
+        first, fill, lost, look = resume[0], resume[1].copy(), resume[2].copy(), resume[3]
+    el = e.tolist()
+    stopped = cells
+    keep = run.states if run is not None else None
     with np.errstate(divide="ignore", invalid="ignore"):
-        for k in range(e.size - 1):
-            dt = float(e[k + 1]) - float(e[k])
+        for k in range(first, cells):
+            if keep is not None and k % CHECKPOINT_CELLS == 0:
+                keep[k] = (fill, lost, look)  # arrays are never changed in place below
+            dt = el[k + 1] - el[k]
             if dt <= 0:
                 continue
-            d = d_rates[:, k]
+            d = column(k)
             net = gen - d
             f0 = fill
-            full = (net > 0) & ((cap - f0) / net < dt)
-            empty = ~full & (net < 0) & (f0 / -net < dt)
-            seg_down = d * dt
             plain = f0 + net * dt
-            over = ~full & ~empty & (plain > cap)
-            lost = lost + np.where(full, f0 + gen * dt - seg_down - cap, 0.0) + np.where(over, plain - cap, 0.0)
-            fill = np.where(full, cap, np.where(empty, 0.0, np.clip(plain, 0.0, cap)))
+            m = margins[k]
+            if plain.min() > m and plain.max() < cap - m:
+                fill = plain
+                continue
+            if isinstance(net, float):  # one rate for every draw: only its sign's branch can be taken
+                full = (cap - f0) / net < dt if net > 0 else None
+                empty = f0 / -net < dt if net < 0 else None
+            else:
+                full = (net > 0) & ((cap - f0) / net < dt)
+                empty = ~full & (net < 0) & (f0 / -net < dt)
+            if full is not None and not full.any():
+                full = None
+            over = plain > cap
+            if full is not None:
+                over &= ~full
+            if empty is not None:
+                over &= ~empty
+            if full is not None or over.any():
+                inc = np.where(full, f0 + gen * dt - d * dt - cap, 0.0) if full is not None else 0.0
+                lost = lost + inc + np.where(over, plain - cap, 0.0)
+            new = np.clip(plain, 0.0, cap)
+            if empty is not None:
+                new = np.where(empty, 0.0, new)
+            if full is not None:
+                new = np.where(full, cap, new)
+            fill = new
+            if decide and k >= look:
+                look = k + _DECIDE_EVERY
+                if lost.min() > sure:
+                    stopped = k + 1
+                    break
+    if run is not None:
+        run.stopped, run.lost = stopped, lost
     return lost
+
+
+def _clear_margin(cap: float, gen: float, d, dt):
+    """Gigabits from empty and from full (per cell: highest rate ``d`` Gbit/s, length ``dt`` s) beyond which no
+    branch of the recursion can differ from the plain step f + (gen - d) dt: about a million times the
+    rounding of its comparisons (of the capacity and the cell's volumes)."""
+    return 1e-9 * (cap + (gen + np.asarray(d, dtype=float)) * dt) + 1e-12

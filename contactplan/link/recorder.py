@@ -62,27 +62,160 @@ def plan_steps(prof, start_tt: float, end_tt: float) -> list:
             for i in range(len(out_e) - 1)]
 
 
-def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, end_tt: float):
-    """The spacecraft's downlink rate over [start_tt, end_tt] as merged steps.
+def _plan_rows(prof):
+    """(edges, rates) of ``prof``'s rate plan as float arrays, kept per profile (see :data:`_PLANS`)."""
+    pe, pr = prof.plan_edges_tt, prof.plan_rates_kbps
+    got = _ROWS.get(prof)
+    if got is None or got[0] is not pe or got[1] is not pr:
+        got = (pe, pr, np.asarray(pe, dtype=float), np.asarray(pr, dtype=float))
+        _ROWS[prof] = got
+    return got[2], got[3]
 
-    Returns (edges_tt, rate_kbps, booking_index) with len(edges) = len(rates) + 1;
-    booking_index is -1 where nothing is downlinked.
-    """
-    parts = []  # per piece: (step starts, step ends, rates, booking index), steps of rate > 0 only
-    index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once for all bookings
+
+_ROWS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def pack_plans(profs):
+    """The rate plans of ``profs`` padded into rows: (edges (+inf beyond each plan), rates, edge count,
+    rate count). A profile that is None or has no plan gets an empty row (no steps)."""
+    rows = [_plan_rows(p) if p is not None and p.plan_rates_kbps is not None else (np.zeros(0), np.zeros(0))
+            for p in profs]
+    ne = np.array([r[0].size for r in rows], dtype=np.int64)
+    nr = np.array([r[1].size for r in rows], dtype=np.int64)
+    m = max(int(ne.max()) if ne.size else 1, 1)
+    E = np.full((len(rows), m), np.inf)
+    R = np.zeros((len(rows), max(int(nr.max()) if nr.size else 1, 1)))
+    if ne.sum():
+        E[np.arange(m) < ne[:, None]] = np.concatenate([r[0] for r in rows])
+    if nr.sum():
+        R[np.arange(R.shape[1]) < nr[:, None]] = np.concatenate([r[1] for r in rows])
+    return E, R, ne, nr
+
+
+def steps_of_rows(E, R, ne, nr, s0, s1, qid):
+    """:func:`plan_steps` of queries given as padded plan rows (:func:`pack_plans`, one row per query) and
+    windows [s0, s1]: ``(e0, e1, rate_kbps, query id)`` arrays, each query's steps in time order, the
+    queries in the order given. Every bisection is a count of the row's edges below the point."""
+    m = E.shape[1]
+    ok = nr > 0
+    first = E[:, 0]
+    last_e = E[np.arange(E.shape[0]), np.maximum(ne - 1, 0)]
+    lo = np.maximum(s0, first)
+    hi = np.minimum(s1, last_e)
+    ok &= hi > lo
+    br_lo = (E <= lo[:, None]).sum(axis=1)  # bisect_right(e, lo)
+    bl_hi = (E < hi[:, None]).sum(axis=1)  # bisect_left(e, hi)
+    k = np.where(ok, np.maximum(bl_hi - br_lo, 0) + 1, 0)  # steps per query
+    rep = np.repeat(np.arange(E.shape[0]), k)
+    i = np.arange(rep.size) - np.repeat(np.cumsum(k) - k, k)
+    col = np.minimum(br_lo[rep] + i - 1, m - 1)
+    a = np.where(i == 0, lo[rep], E[rep, np.maximum(col, 0)])
+    col_b = np.minimum(br_lo[rep] + i, m - 1)
+    b = np.where(i == k[rep] - 1, hi[rep], E[rep, col_b])
+    idx = (E[rep] <= a[:, None]).sum(axis=1) - 1  # bisect_right(e, a) - 1
+    idx = np.minimum(np.maximum(idx, 0), nr[rep] - 1)
+    return a, b, R[rep, idx], np.asarray(qid)[rep]
+
+
+def steps_of(profs, starts_tt, ends_tt):
+    """:func:`plan_steps` of many (profile, start, end) at once, the same numbers in the same order:
+    ``(e0, e1, rate_kbps, j)`` arrays, ``j`` the index of the query each step belongs to.
+
+    Vectorised over the queries (:func:`steps_of_rows`); profiles without a plan go through
+    :func:`plan_steps`."""
+    n = len(profs)
+    s0 = np.asarray(starts_tt, dtype=float).reshape(-1)
+    s1 = np.asarray(ends_tt, dtype=float).reshape(-1)
+    planned = [j for j in range(n) if profs[j].plan_rates_kbps is not None]
+    parts = []
+    if planned:
+        jj = np.asarray(planned)
+        E, R, ne, nr = pack_plans([profs[j] for j in planned])
+        parts.append(steps_of_rows(E, R, ne, nr, s0[jj], s1[jj], jj))
+    if len(planned) < n:
+        done = set(planned)
+        rest = [(a, b, r, j) for j in range(n) if j not in done for a, b, r in plan_steps(profs[j], s0[j], s1[j])]
+        if rest:
+            parts.append(tuple(np.array(x) for x in zip(*rest)))
+    return _merge_steps(parts)
+
+
+def _merge_steps(parts):
+    """Steps of several batches in query order (each query's steps in time order)."""
+    if not parts:
+        return np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0, dtype=np.int64)
+    a, b, r, j = (np.concatenate(x) for x in zip(*parts))
+    order = np.argsort(j, kind="stable")
+    return a[order], b[order], r[order].astype(float), j[order].astype(np.int64)
+
+
+def _pieces_context(scenario, passes) -> tuple:
+    """Everything :func:`downlink_pieces` reads besides the booking itself: the passes, every keep-out,
+    and per station its pre/post-pass, whether it takes playback and its outages."""
+    return (id(passes), len(passes), tuple(a.keepout_span_tt for a in scenario.activities),
+            tuple((st.id, st.pre_pass_min, st.post_pass_min, st.takes_downlink,
+                   tuple((o.start_tt, o.end_tt) for o in st.outages)) for st in scenario.stations))
+
+
+def booked_pieces(scenario, passes, bookings, start_tt: float, end_tt: float, memo: dict | None = None) -> list:
+    """``[(s0, s1, pass, booking index)]``: the booked downlink pieces
+    (:func:`contactplan.link.windows.downlink_pieces`) of ``bookings`` in their order, clipped to
+    [start_tt, end_tt], empty ones left out. One list serves every recorder of a check.
+
+    ``memo``: a dict kept between checks of one plan; the pieces of a booking whose station, times and
+    services are as before are taken from it while nothing else they depend on has changed
+    (:func:`_pieces_context`), so a check after an edit cuts only the edited bookings."""
+    index = None
+    if memo is not None:
+        context = _pieces_context(scenario, passes)
+        if memo.get("context") != context:
+            memo.clear()
+            memo["context"] = context
+        kept = memo.setdefault("pieces", {})
+        if len(kept) > 4 * len(bookings) + 1000:
+            kept.clear()
+    out = []
     for k, booking in enumerate(bookings):
         if booking.end_tt <= start_tt or booking.start_tt >= end_tt:
             continue
-        for s0, s1, p in downlink_pieces(scenario, booking, passes, index):
-            prof = profiles.get(id(p))
-            if prof is None:
-                continue
-            for a, b, rate in plan_steps(prof, max(s0, start_tt), min(s1, end_tt)):
-                if rate > 0:
-                    parts.append((a, b, rate, k))
-    if not parts:
+        key = None
+        got = None
+        if memo is not None:
+            key = (booking.station, booking.start_tt, booking.end_tt, tuple(booking.services or ()))
+            got = kept.get(key)
+        if got is None:
+            if index is None:
+                index = DownlinkIndex(scenario, passes)  # passes and keep-outs by time, built once
+            got = downlink_pieces(scenario, booking, passes, index)
+            if key is not None:
+                kept[key] = got
+        for s0, s1, p in got:
+            a, z = max(s0, start_tt), min(s1, end_tt)
+            if z > a:
+                out.append((a, z, p, k))
+    return out
+
+
+def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, end_tt: float, pieces=None):
+    """The spacecraft's downlink rate over [start_tt, end_tt] as merged steps.
+
+    Returns (edges_tt, rate_kbps, booking_index) with len(edges) = len(rates) + 1;
+    booking_index is -1 where nothing is downlinked. ``pieces``: :func:`booked_pieces` of the same
+    bookings and window (computed here when None).
+    """
+    if pieces is None:
+        pieces = booked_pieces(scenario, passes, bookings, start_tt, end_tt)
+    use = [(a, z, profiles[id(p)], k) for a, z, p, k in pieces if id(p) in profiles]
+    parts = None
+    if use:
+        a0, a1, pr, bk = zip(*use)
+        e0, e1, r, j = steps_of(pr, a0, a1)
+        keep = r > 0
+        if keep.any():
+            parts = (e0[keep], e1[keep], r[keep], np.asarray(bk)[j[keep]])
+    if parts is None:
         return np.array([start_tt, end_tt]), np.zeros(1), np.full(1, -1)
-    e0, e1, r, bi = (np.array(x) for x in zip(*parts))
+    e0, e1, r, bi = parts
     r = r.astype(float)
     n_steps = e0.size
     grid = np.unique(np.concatenate(([start_tt, end_tt], e0, e1)))
@@ -105,12 +238,14 @@ def downlink_rate_steps(scenario, passes, profiles, bookings, start_tt: float, e
 
 
 def simulate_recorder(scenario, passes, profiles, bookings=None, start_tt=None, end_tt=None,
-                      sample_s: float = SAMPLE_S) -> RecorderResult | None:
+                      sample_s: float = SAMPLE_S, pieces=None) -> RecorderResult | None:
     """Recorder fill, losses and oldest-data age over [start_tt, end_tt] (default the scenario window).
 
     ``profiles`` maps ``id(pass)`` to :class:`PassProfile` (from
     :func:`contactplan.link.volume.annotate_passes`); ``bookings`` defaults to the
-    scenario's. Returns None when the scenario has no ``[spacecraft.recorder]``.
+    scenario's. Returns None when the scenario has no ``[spacecraft.recorder]``. ``pieces``: the
+    :func:`booked_pieces` of the same bookings and window when the caller has them (several recorders
+    of one check share them).
     """
     rec = scenario.spacecraft.recorder
     if rec is None:
@@ -125,7 +260,8 @@ def simulate_recorder(scenario, passes, profiles, bookings=None, start_tt=None, 
     was = gc.isenabled()  # many small objects, no cycles: no collector walks over the whole plan meanwhile
     gc.disable()
     try:
-        edges, rates_kbps, owner = downlink_rate_steps(scenario, passes, profiles or {}, bookings, t0, t1)
+        edges, rates_kbps, owner = downlink_rate_steps(scenario, passes, profiles or {}, bookings, t0, t1,
+                                                       pieces=pieces)
     finally:
         if was:
             gc.enable()

@@ -88,7 +88,7 @@ def _annotate(scenario, ephemeris, passes, progress, cancel) -> tuple[dict, dict
     return out
 
 
-def _recorder(scenario, passes, profiles):
+def _recorder(scenario, passes, profiles, pieces=None):
     """Recorder fill for the scenario's current bookings (None without a recorder model)."""
     if scenario.spacecraft.recorder is None:
         return None
@@ -96,7 +96,22 @@ def _recorder(scenario, passes, profiles):
         from contactplan.link.recorder import simulate_recorder
     except ImportError:
         return None
-    return simulate_recorder(scenario, passes, profiles)
+    return simulate_recorder(scenario, passes, profiles, pieces=pieces)
+
+
+def _booked_pieces(result, view):
+    """The booked downlink pieces of the bookings that count, shared by every recorder of one check
+    (the plan's, the weather band's, the Monte Carlo's); None without a recorder. The pieces of
+    unchanged bookings are kept on the result between checks (``result.pieces_memo``, shared by the
+    planner's background snapshots)."""
+    if view.spacecraft.recorder is None:
+        return None
+    from contactplan.link.recorder import booked_pieces
+
+    memo = getattr(result, "pieces_memo", None)
+    if memo is None:
+        memo = result.pieces_memo = {}
+    return booked_pieces(view, result.passes, view.bookings, float(view.start_tt), float(view.end_tt), memo=memo)
 
 
 def _shadows(scenario, ephemeris) -> list:
@@ -150,9 +165,10 @@ def check(result: PlanResult) -> PlanResult:
     from contactplan.plan.status import active_view
 
     view = active_view(sc)  # declined and cancelled bookings count nowhere: not in the recorder either
-    result.recorder = _recorder(view, result.passes, result.profiles)
+    pieces = _booked_pieces(result, view)
+    result.recorder = _recorder(view, result.passes, result.profiles, pieces)
     # result.forecast: the recorder in weather
-    rule_recorder, forecast = weather_stage(result, result.recorder, scenario=view)
+    rule_recorder, forecast = weather_stage(result, result.recorder, scenario=view, pieces=pieces)
     ctx = RuleContext.build(sc, result.passes, result.profiles, rule_recorder, coverage=result.coverage,
                             link_profiles=result.link_profiles)
     ctx.forecast = forecast

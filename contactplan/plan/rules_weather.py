@@ -11,9 +11,10 @@ from __future__ import annotations
 from contactplan.plan.findings import WARNING, Finding
 
 
-def weather_stage(result, recorder, scenario=None):
+def weather_stage(result, recorder, scenario=None, pieces=None):
     """(recorder for the recorder rules, forecast or None); sets ``result.forecast``. ``scenario``: the
-    plan as the recorder sees it (only the bookings that count; default ``result.scenario``)."""
+    plan as the recorder sees it (only the bookings that count; default ``result.scenario``); ``pieces``: its
+    booked downlink pieces (:func:`contactplan.link.recorder.booked_pieces`), shared by every recorder here."""
     from contactplan.link.forecast import cached_profiles_at, forecast_for, in_weather
     from contactplan.link.recorder import simulate_recorder
     from contactplan.scenario.link_planning import DEFAULT_OVERFLOW_AVAILABILITY_PCT
@@ -24,8 +25,9 @@ def weather_stage(result, recorder, scenario=None):
     sc = result.scenario if scenario is None else scenario
     a = sc.requirements.recorder_overflow_availability_pct or DEFAULT_OVERFLOW_AVAILABILITY_PCT
     own = all(pr.availability_pct == a for pr in result.profiles.values() if pr.clear_level_db is not None)
-    rule_recorder = recorder if own else simulate_recorder(sc, result.passes, cached_profiles_at(result, a))
-    result.forecast = forecast_for(result, scenario=sc)
+    rule_recorder = recorder if own else simulate_recorder(sc, result.passes, cached_profiles_at(result, a),
+                                                           pieces=pieces)
+    result.forecast = forecast_for(result, scenario=sc, recorder=recorder, pieces=pieces)
     return rule_recorder, result.forecast
 
 
