@@ -85,7 +85,7 @@ def run(args) -> int:
 
     result = compute_plan(scenario)
     dr = draft(scenario, result=result, start_tt=start, end_tt=end, time_limit_s=args.time_limit,
-               grid_min=args.grid, recorder_limit=args.recorder_limit / 100.0)
+               grid_min=args.grid, recorder_limit=args.recorder_limit / 100.0, best_effort=args.best_effort)
     lines = [f"{scenario.name}:"] + summary_lines(scenario, dr)
     if dr.status == INFEASIBLE or not dr.bookings and dr.explanations:
         lines.append(f"nothing written to {out}")

@@ -57,6 +57,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from contactplan.errors import InputError
+from contactplan.timescale import format_utc
 from contactplan.plan.drafter_cands import _Cands, _candidates, _cands_from  # noqa: F401  (for tests and callers)
 from contactplan.plan.drafter_explain import _explain, _explain_combination
 from contactplan.plan.drafter_model import (  # noqa: F401  (the model's names, for tests and callers)
@@ -72,7 +73,8 @@ from contactplan.plan.drafter_solve import _lp_bound, _solve  # noqa: F401
 
 #: warning rules that state the week's requirements: a draft meets them or says it could not
 REQUIREMENT_RULES = ("contact-per-day", "no-ranging", "recorder-end", "station-hours", "booking-too-short",
-                     "booking-too-long")
+                     "booking-too-long", "tracking-per-day", "tracking-spread", "post-manoeuvre-tracking",
+                     "cutoff-arc")
 
 @dataclass(eq=False)
 class DraftResult:
@@ -111,6 +113,8 @@ class DraftResult:
     notes: list = field(default_factory=list)
     reused: list = field(default_factory=list)  # ids of replaced bookings the draft proposes again unchanged
     gap_basis: str = ""  # the bound ``gap`` is measured against, in words
+    # predicted 1-sigma position of the drafted plan at each check time: (label, t_tt, sigma_km, required_km)
+    od_checks: list = field(default_factory=list)
 
     @property
     def unmet(self) -> list:
@@ -170,7 +174,7 @@ def _bookings_from(P: _Plan, xval, C: _Cands, scenario, removed):
 
 
 # ---------------------------------------------------------------- verification
-def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
+def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None, ephemeris=None):
     """Run the real recorder and plan rules on the drafted scenario; fill the check fields.
 
     Returns the findings (None when the plan stage is not available)."""
@@ -178,13 +182,16 @@ def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
     try:
         from contactplan.plan.pipeline import PlanResult, check
 
-        pr = check(PlanResult(scenario=new_sc, ephemeris=None, passes=list(passes), profiles=dict(profiles),
+        pr = check(PlanResult(scenario=new_sc, ephemeris=ephemeris, passes=list(passes), profiles=dict(profiles),
                               link_profiles=dict(link_profiles or {})))
     except (NotImplementedError, ImportError):
         return None
     draft.check_errors = pr.errors
     draft.check_warnings = pr.warnings
     draft.findings = list(pr.findings)
+    nav = getattr(pr, "navigation", None)
+    draft.od_checks = [] if nav is None else [
+        (c.label, c.t_tt, c.position_sigma_km, c.required_position_km) for c in nav.checks]
     rec = pr.recorder
     if rec is not None:
         draft.recorder_end_gbit = float(rec.end_gbit)
@@ -195,7 +202,7 @@ def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
 # ---------------------------------------------------------------- entry point
 def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, grid_min=10.0,
           passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
-          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None) -> DraftResult:
+          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None, best_effort=False) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
 
     ``result`` is a :class:`~contactplan.plan.pipeline.PlanResult` of the scenario
@@ -211,7 +218,9 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
     fill (0.9 keeps clear of the rules' ``recorder-high`` warning).
     ``progress(fraction)`` is called between stages; ``cancel()`` returning True
     raises :class:`~contactplan.errors.Cancelled` between solves (a running solve
-    ends at its time limit).
+    ends at its time limit). With ``best_effort`` the orbit-determination tracking requirements may
+    fall short (at a high cost per hour short) instead of making the week infeasible; the check of
+    the drafted plan then lists what is missed (``unmet``).
     Nothing in ``scenario`` is modified.
     """
     t_start = time.perf_counter()
@@ -257,10 +266,12 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
         tick(0.0)
         P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin,
                                         float(recorder_limit), link_profiles=link_profiles)
+        if P.tracking is not None:
+            P.tracking.soft = bool(best_effort)
         base = DraftResult(status=INFEASIBLE, start_tt=d_start, end_tt=d_end,
                            kept=[bk.id for bk in keeps], n_candidates=0, notes=notes)
         if attempt == 0:
-            why = _explain(scenario, P)
+            why = _explain(scenario, P, tracking=not best_effort)
             if why:
                 base.explanations = why
                 base.solve_time_s = time.perf_counter() - t_start
@@ -314,7 +325,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
             notes.append("a solve stopped on the wall-clock safety limit before its work limit: this plan may "
                          "differ from run to run; give --time-limit more seconds")
         out = base
-        findings = _verify(scenario, passes, profiles, out, link_profiles)
+        findings = _verify(scenario, passes, profiles, out, link_profiles,
+                           ephemeris=getattr(result, "ephemeris", None))
         if findings is None:
             break
         again = False
@@ -367,6 +379,10 @@ def summary_lines(scenario, dr: DraftResult) -> list:
         lines.append(f"check of the drafted plan: {dr.check_errors} errors, {dr.check_warnings} warnings")
     for f in dr.unmet:
         lines.append(f"  not met: {f.rule}: {f.message}")
+    for label, t_tt, sig, need in dr.od_checks:
+        lines.append(f"  predicted 1-sigma position at the {label} ({format_utc(t_tt, 0)}): {sig:.2f} km "
+                     f"({'met' if sig <= need else 'above'} the {need:g} km required; od-accuracy is reported, "
+                     "not drafted for)")
     if dr.recorder_end_gbit is not None:
         lines.append(f"recorder at the end: {dr.recorder_end_gbit:.1f} Gbit, lost {dr.recorder_lost_gbit:.1f} Gbit")
     lines += [f"  note: {n}" for n in dr.notes]

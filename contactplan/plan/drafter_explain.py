@@ -13,11 +13,13 @@ from contactplan.plan.drafter_rows import _build_model, _command_ok
 from contactplan.plan.drafter_model import MAX_CANDIDATES
 from contactplan.plan.drafter_search import NODES_STAGE, _choose_candidates
 from contactplan.plan.drafter_solve import _solve
+from contactplan.plan.drafter_tracking import explain_tracking
 from contactplan.timescale import format_utc
 
 
-def _explain(scenario, P: _Plan) -> list:
-    """Requirements that cannot be met each on its own, in plain words."""
+def _explain(scenario, P: _Plan, tracking: bool = True) -> list:
+    """Requirements that cannot be met each on its own, in plain words (``tracking``: the
+    orbit-determination tracking ones too; best effort leaves them to the check's list)."""
     out = []
     t = P.t
     a, b = t[:-1], t[1:]
@@ -59,6 +61,8 @@ def _explain(scenario, P: _Plan) -> list:
         if have < P.day_need_s[j] - 1.0:
             out.append(f"UTC day {format_utc(P.days[j], 0)[:10]} has only {_hm(have)} of pass time over all free "
                        f"stations (setup and teardown taken off), {_hm(P.day_need_s[j])} of contact is asked")
+    if tracking:
+        out += explain_tracking(P, trackable)
     for j in np.flatnonzero(P.day_ranging_need > 0):
         d0, d1 = P.days[j], P.days[j] + 86400.0
         ok = False
@@ -123,6 +127,7 @@ _GROUP_WORDS = {
     "length": "the booking lengths (booking_min_h, booking_max_h, setup and teardown)",
     "week": "the station hours per week (max_hours_per_week)",
     "command": "the command loads (command_lead_h, command_backup)",
+    "tracking": "the two-way tracking for orbit determination (tracking_*, post_manoeuvre_*, cutoff_*)",
 }
 
 

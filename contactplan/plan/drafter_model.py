@@ -195,6 +195,7 @@ class _Plan:
     ko_tel: tuple | None = None  # _cover_fn of slew/other keep-outs (no telemetry track there)
     commands: list = field(default_factory=list)  # (activity id, deadline_tt, loads needed, kept (station, pass))
     lock_spans: list = field(default_factory=list)  # union of the kept bookings' tracked time
+    tracking: object = None  # drafter_tracking.Tracking: the orbit-determination tracking requirements
 
 
 def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keeps, extra_edges):
@@ -236,6 +237,7 @@ def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keep
 def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0,
                 link_profiles=None):
     from contactplan.link.services import offers
+    from contactplan.plan.drafter_tracking import tracking_plan
     from contactplan.plan.rules import RuleContext
     from contactplan.scenario.model import VELOCITY_KINDS
 
@@ -429,6 +431,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
         need_pieces=_merge_pieces(need_pieces), rates=rates, lock_tracked_day_s=lock_day,
         week0=scenario.start_tt, inpass=inpass, pass_aos=pass_aos, pass_los=pass_los, services=services,
         ko_play=ko_play, ko_tel=ko_tel, commands=commands, lock_spans=kept_union,
+        tracking=tracking_plan(scenario, ctx, stations, keeps, tracked_keep, d_start, d_end, services),
     )
     return plan, keeps, removed
 

@@ -52,62 +52,90 @@ class _Model:
 
 
 def _contact_rows(M: _Model, P: _Plan, C: _Cands, x, day_extra: dict) -> None:
-    """Rows asking each whole UTC day for its contact hours over the union of tracks.
-
-    The tracks' edges cut time into pieces; ``n[m]`` counts the chosen tracks over piece m (one row per
-    piece: its change from the piece before is the tracks starting there less those ending there) and
-    ``w[m]`` in [0, 1], at most ``n[m]``, is whether piece m is tracked at all. Exact for any plan, with
-    two non-zeros per candidate. Two implied rows per day (a track gives at most the need; the day
-    needs at least this many tracks) tighten the LP."""
-    need = {}
+    """Rows asking each whole UTC day for its contact hours over the union of tracks (all stations)."""
+    reqs = []
     for j in np.flatnonzero(P.day_need_s > 0):
         v = P.day_need_s[j] - P.lock_tracked_day_s[j] + day_extra.get(int(j), 0.0)
-        if v > 0:
-            need[int(j)] = v
-    if not need:
+        reqs.append(([(float(P.days[j]), float(P.days[j]) + 86400.0)], v))
+    _union_rows(M, P, C, x, np.ones(len(C), dtype=bool), P.lock_spans, reqs)
+
+
+def _union_rows(M: _Model, P: _Plan, C: _Cands, x, counts: np.ndarray, kept: list, reqs: list,
+                soft_cost: float | None = None) -> None:
+    """Rows asking time windows for hours over the union of the chosen tracks of ``counts`` (bool per
+    candidate), time inside ``kept`` spans excluded: ``reqs`` is [(windows, seconds still needed)].
+
+    The tracks' edges (and the windows' and kept spans') cut time into pieces; ``n[m]`` counts the
+    chosen tracks over piece m (one row per piece: its change from the piece before is the tracks
+    starting there less those ending there) and ``w[m]`` in [0, 1], at most ``n[m]``, is whether
+    piece m is tracked at all (one "tracked" variable per piece, shared by every window). Exact for
+    any plan, with two non-zeros per candidate. Two implied rows per window (a track gives at most
+    the need; the window needs at least this many tracks) tighten the LP. With ``soft_cost`` each
+    window may fall short at that cost per hour (best effort; the count row is left out then)."""
+    reqs = [(list(w), float(v)) for w, v in reqs if v > 1e-6]
+    if not reqs:
         return
-    n = len(C)
-    if n == 0:  # nothing can give contact: an empty row states the need (infeasible)
-        for j, v in need.items():
-            M.rows(1, v / 3600.0, np.inf)
+    sel = np.flatnonzero(counts)
+    if not len(sel):  # nothing can give the time: an empty row states the need (infeasible)
+        for _w, v in reqs:
+            r = M.rows(1, v / 3600.0, np.inf)
+            if soft_cost is not None:
+                M.coef(r, M.vars(1, 0, np.inf, False, soft_cost), 1.0)
         return
-    kept = np.array(P.lock_spans, dtype=float).reshape(-1, 2)
-    edges = np.unique(np.round(np.concatenate([P.t, C.track0, C.track1, kept.ravel(), P.days]), 3))
-    m0 = np.searchsorted(edges, np.round(C.track0, 3))
-    m1 = np.searchsorted(edges, np.round(C.track1, 3))
+    kept = np.array(kept, dtype=float).reshape(-1, 2)
+    wins = np.array([w for ws, _ in reqs for w in ws], dtype=float).reshape(-1, 2)
+    t0, t1, xs = C.track0[sel], C.track1[sel], x[sel]
+    edges = np.unique(np.round(np.concatenate([P.t, t0, t1, kept.ravel(), wins.ravel()]), 3))
+    m0 = np.searchsorted(edges, np.round(t0, 3))
+    m1 = np.searchsorted(edges, np.round(t1, 3))
     lo, hi = int(m0.min()), int(m1.max())
     npc = hi - lo  # pieces lo .. hi-1
     cnt = M.vars(npc, 0, np.inf, False)
     rows = M.rows(npc, 0.0, 0.0)
     M.coef(rows, cnt, 1.0)
     M.coef(rows[1:], cnt[:-1], -1.0)
-    M.coef(rows[m0 - lo], x, -1.0)
+    M.coef(rows[m0 - lo], xs, -1.0)
     ends = m1 < hi
-    M.coef(rows[m1[ends] - lo], x[ends], 1.0)
+    M.coef(rows[m1[ends] - lo], xs[ends], 1.0)
     mid = 0.5 * (edges[lo:hi] + edges[lo + 1:hi + 1])
     plen = edges[lo + 1:hi + 1] - edges[lo:hi]
-    day = np.searchsorted(P.days, mid, side="right") - 1
     in_kept = np.zeros(npc, dtype=bool)
     if len(kept):
         k = np.searchsorted(kept[:, 0], mid, side="right") - 1
         in_kept = (k >= 0) & (kept[np.clip(k, 0, None), 1] > mid)
-    for j, v in need.items():
-        d0, d1 = P.days[j], P.days[j] + 86400.0
-        sel = np.flatnonzero((day == j) & ~in_kept & (mid > d0) & (mid < d1))
+    masks = []
+    for ws, _v in reqs:
+        m = np.zeros(npc, dtype=bool)
+        for w0, w1 in ws:
+            m |= (mid > w0) & (mid < w1)
+        masks.append(m & ~in_kept)
+    used = np.flatnonzero(np.logical_or.reduce(masks))
+    pos = np.full(npc, -1)
+    if len(used):
+        w = M.vars(len(used), 0, 1, False)
+        pos[used] = w
+        rw = M.rows(len(used), -np.inf, 0.0)
+        M.coef(rw, w, 1.0)
+        M.coef(rw, cnt[used], -1.0)
+    for (ws, v), m in zip(reqs, masks):
+        pieces = np.flatnonzero(m)
         r = M.rows(1, v / 3600.0, np.inf)
-        if len(sel):
-            w = M.vars(len(sel), 0, 1, False)
-            rw = M.rows(len(sel), -np.inf, 0.0)
-            M.coef(rw, w, 1.0)
-            M.coef(rw, cnt[sel], -1.0)
-            M.coef(np.full(len(sel), r[0]), w, plen[sel] / 3600.0)
-        ov = np.maximum(0.0, np.minimum(C.track1, d1) - np.maximum(C.track0, d0))
+        short = None
+        if soft_cost is not None:
+            short = M.vars(1, 0, np.inf, False, soft_cost)
+            M.coef(r, short, 1.0)
+        if len(pieces):
+            M.coef(np.full(len(pieces), r[0]), pos[pieces], plen[pieces] / 3600.0)
+        ov = sum(np.maximum(0.0, np.minimum(t1, w1) - np.maximum(t0, w0)) for w0, w1 in ws)
         cs = np.flatnonzero(ov > 0)
         if len(cs):
             r = M.rows(1, v / 3600.0, np.inf)
-            M.coef(np.full(len(cs), r[0]), x[cs], np.minimum(ov[cs], v) / 3600.0)
+            M.coef(np.full(len(cs), r[0]), xs[cs], np.minimum(ov[cs], v) / 3600.0)
+            if short is not None:
+                M.coef(r, short, 1.0)
+                continue
             r = M.rows(1, math.ceil(v / float(ov[cs].max()) - 1e-9), np.inf)
-            M.coef(np.full(len(cs), r[0]), x[cs], 1.0)
+            M.coef(np.full(len(cs), r[0]), xs[cs], 1.0)
 
 
 def _command_ok(P: _Plan, C: _Cands, deadline: float) -> np.ndarray:
@@ -158,7 +186,11 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
     C = cands if cands is not None else _candidates(P, "length" not in drop)
     n = len(C)
     M = _Model()
-    x = M.vars(n, 0, 1, True, C.cost + BOOKING_CHARGE)
+    cost = C.cost + BOOKING_CHARGE
+    if P.tracking is not None and P.tracking.prefer:
+        two = C.services["ranging"] | C.services["doppler"]
+        cost = cost - P.tracking.prefer * np.where(two, C.track1 - C.track0, 0.0) / 3600.0
+    x = M.vars(n, 0, 1, True, cost)
 
     # a path per station and free run: flow balance at every edge of the run
     for i in range(len(P.stations)):
@@ -190,6 +222,12 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
     # tracked contact per whole UTC day, all stations together (the union, as the rules measure it)
     if "contact" not in drop:
         _contact_rows(M, P, C, x, day_extra or {})
+
+    # two-way tracking for orbit determination: arc hours over the union, stations spread in latitude
+    if "tracking" not in drop:
+        from contactplan.plan.drafter_tracking import tracking_rows
+
+        tracking_rows(M, P, C, x)
 
     # ranging bookings per whole UTC day: tracked time overlapping the day
     if "ranging" not in drop:
