@@ -59,6 +59,7 @@ import numpy as np
 from contactplan.errors import InputError
 from contactplan.timescale import format_utc
 from contactplan.plan.drafter_cands import _Cands, _candidates, _cands_from  # noqa: F401  (for tests and callers)
+from contactplan.plan.drafter_cycle import CHANGE_COST, change_requests, wants_minimal_change
 from contactplan.plan.drafter_explain import _explain, _explain_combination
 from contactplan.plan.drafter_model import (  # noqa: F401  (the model's names, for tests and callers)
     _TOL, BOOKING_CHARGE, FILL_GUARD_GBIT, MAX_CANDIDATES, _build_plan, _hm, _Plan, _runs, _span_text,
@@ -115,6 +116,7 @@ class DraftResult:
     gap_basis: str = ""  # the bound ``gap`` is measured against, in words
     # predicted 1-sigma position of the drafted plan at each check time: (label, t_tt, sigma_km, required_km)
     od_checks: list = field(default_factory=list)
+    changes: list = field(default_factory=list)  # request changes: [("add" | "cancel", Booking)]
 
     @property
     def unmet(self) -> list:
@@ -202,7 +204,8 @@ def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None, 
 # ---------------------------------------------------------------- entry point
 def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, grid_min=10.0,
           passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
-          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None, best_effort=False) -> DraftResult:
+          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None, best_effort=False,
+          minimal_change=None) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
 
     ``result`` is a :class:`~contactplan.plan.pipeline.PlanResult` of the scenario
@@ -220,7 +223,9 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
     raises :class:`~contactplan.errors.Cancelled` between solves (a running solve
     ends at its time limit). With ``best_effort`` the orbit-determination tracking requirements may
     fall short (at a high cost per hour short) instead of making the week infeasible; the check of
-    the drafted plan then lists what is missed (``unmet``).
+    the drafted plan then lists what is missed (``unmet``). Confirmed, frozen and locked bookings
+    stay; declined slots and busy spans are never booked; ``minimal_change`` (default: when any
+    booking is confirmed) first minimises the request changes (``changes``), then station hours.
     Nothing in ``scenario`` is modified.
     """
     t_start = time.perf_counter()
@@ -268,6 +273,10 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
                                         float(recorder_limit), link_profiles=link_profiles)
         if P.tracking is not None:
             P.tracking.soft = bool(best_effort)
+        P.minimal_change = wants_minimal_change(scenario, minimal_change)
+        if P.minimal_change and attempt == 0:
+            notes.append("minimal change: request changes minimised first, then station hours (the gap counts "
+                         f"{CHANGE_COST:g} cost-hours per change)")
         base = DraftResult(status=INFEASIBLE, start_tt=d_start, end_tt=d_end,
                            kept=[bk.id for bk in keeps], n_candidates=0, notes=notes)
         if attempt == 0:
@@ -308,6 +317,7 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
         books, reused = _bookings_from(P, xval, C, scenario, removed)
         base.bookings = books
         base.reused = reused
+        base.changes = change_requests(removed, books, reused)
         base.removed = [bk.id for bk in removed]
         hours: dict = {}
         cost_h = 0.0
@@ -379,6 +389,12 @@ def summary_lines(scenario, dr: DraftResult) -> list:
         lines.append(f"check of the drafted plan: {dr.check_errors} errors, {dr.check_warnings} warnings")
     for f in dr.unmet:
         lines.append(f"  not met: {f.rule}: {f.message}")
+    if dr.changes:
+        lines.append(f"change requests for the network: {len(dr.changes)}")
+        for what, b in dr.changes:
+            lines.append(f"  {what:<6} {b.id} {b.station} {_span_text(b.start_tt, b.end_tt)}")
+    else:
+        lines.append("change requests for the network: none")
     for label, t_tt, sig, need in dr.od_checks:
         lines.append(f"  predicted 1-sigma position at the {label} ({format_utc(t_tt, 0)}): {sig:.2f} km "
                      f"({'met' if sig <= need else 'above'} the {need:g} km required; od-accuracy is reported, "

@@ -196,6 +196,8 @@ class _Plan:
     commands: list = field(default_factory=list)  # (activity id, deadline_tt, loads needed, kept (station, pass))
     lock_spans: list = field(default_factory=list)  # union of the kept bookings' tracked time
     tracking: object = None  # drafter_tracking.Tracking: the orbit-determination tracking requirements
+    requested: list = field(default_factory=list)  # replaced bookings the network knows (requested)
+    minimal_change: bool = False  # the objective first minimises request changes (drafter_cycle)
 
 
 def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keeps, extra_edges):
@@ -237,6 +239,7 @@ def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keep
 def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0,
                 link_profiles=None):
     from contactplan.link.services import offers
+    from contactplan.plan.drafter_cycle import REQUESTED, split_bookings, status
     from contactplan.plan.drafter_tracking import tracking_plan
     from contactplan.plan.rules import RuleContext
     from contactplan.scenario.model import VELOCITY_KINDS
@@ -252,14 +255,16 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     def in_range(bk):
         return bk.end_tt > d_start + _TOL and bk.start_tt < d_end - _TOL
 
-    keeps = [bk for bk in scenario.bookings if bk.locked or not in_range(bk)]
-    removed = [bk for bk in scenario.bookings if not bk.locked and in_range(bk)]
+    # confirmed, frozen and locked bookings stay; declined ones and busy spans are taken (drafter_cycle)
+    keeps, removed, taken = split_bookings(scenario, in_range)
+    requested = [bk for bk in removed if status(bk) in REQUESTED]
     keepouts = _keepout_spans(scenario)
     burns = [a for a in scenario.activities if a.kind in VELOCITY_KINDS]
     commanded = [a for a in burns if a.command_lead_h is not None]
     deadlines = [(a.start_tt - a.command_lead_h * 3600.0,) * 2 + (a.id,) for a in commanded]
-    spans = keepouts + [(*a.monitor_span_tt, a.id) for a in burns] + deadlines
-    t = _grid(scenario, model_start, model_end, d_start, d_end, grid_min * 60.0, passes, keeps, spans)
+    spans = keepouts + [(*a.monitor_span_tt, a.id) for a in burns] + deadlines + [(s0, s1, sid_) for sid_, s0, s1
+                                                                                  in taken]
+    t = _grid(scenario, model_start, model_end, d_start, d_end, grid_min * 60.0, passes, keeps + requested, spans)
     a, b = t[:-1], t[1:]
     K, S = len(a), len(stations)
     length = b - a
@@ -291,6 +296,9 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     for kb in keeps:
         if kb.station in sid:
             avail[sid[kb.station]] &= ~((a < kb.end_tt - _TOL) & (b > kb.start_tt + _TOL))
+    for st_id, s0, s1 in taken:
+        if st_id in sid:
+            avail[sid[st_id]] &= ~((a < s1 - _TOL) & (b > s0 + _TOL))
     avail &= in_draft[None, :]
     inpass &= avail
 
@@ -432,6 +440,7 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
         week0=scenario.start_tt, inpass=inpass, pass_aos=pass_aos, pass_los=pass_los, services=services,
         ko_play=ko_play, ko_tel=ko_tel, commands=commands, lock_spans=kept_union,
         tracking=tracking_plan(scenario, ctx, stations, keeps, tracked_keep, d_start, d_end, services),
+        requested=requested,
     )
     return plan, keeps, removed
 

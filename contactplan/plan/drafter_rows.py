@@ -190,6 +190,10 @@ def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclus
     if P.tracking is not None and P.tracking.prefer:
         two = C.services["ranging"] | C.services["doppler"]
         cost = cost - P.tracking.prefer * np.where(two, C.track1 - C.track0, 0.0) / 3600.0
+    if P.minimal_change:
+        from contactplan.plan.drafter_cycle import change_costs
+
+        cost = cost + change_costs(P, C)
     x = M.vars(n, 0, 1, True, cost)
 
     # a path per station and free run: flow balance at every edge of the run
