@@ -21,6 +21,7 @@ EXAMPLES = """\
   contactplan draft week.toml --time-limit 30 --grid 5 --out week-fine.toml
   contactplan draft week.toml --recorder-limit 90 --out week-margin.toml   # keep a 10 % margin
   contactplan draft week.toml --best-effort --out week-partial.toml   # write it even if a requirement is missed
+  contactplan draft week.toml --no-minimal-change --out week-cheapest.toml   # ignore what was requested
 """
 
 
