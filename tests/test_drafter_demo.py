@@ -25,7 +25,7 @@ def demo_plan():
 
 
 def test_demo_week_drafted_passes_check_and_never_overflows(demo_plan):
-    from contactplan.plan.drafter import INFEASIBLE, draft
+    from contactplan.plan.drafter import INFEASIBLE, REQUIREMENT_RULES, draft
     from contactplan.plan.pipeline import PlanResult, check
 
     sc, result = demo_plan
@@ -46,9 +46,12 @@ def test_demo_week_drafted_passes_check_and_never_overflows(demo_plan):
     assert pr.recorder.lost_gbit == 0.0
     assert not pr.recorder.overflow_spans
     assert float(pr.recorder.fill_gbit.max()) <= sc.spacecraft.recorder.capacity_gbit
-    # the requirements are met too (they are warnings in the rules)
-    assert not [f for f in pr.findings if f.rule in ("contact-per-day", "no-ranging", "booking-too-short",
-                                                     "booking-too-long", "station-hours", "recorder-end")]
+    # the requirements are met too (they are warnings in the rules), the tracking for orbit determination too
+    assert not [f for f in pr.findings if f.rule in REQUIREMENT_RULES]
+    assert {"tracking-per-day", "tracking-spread", "post-manoeuvre-tracking", "cutoff-arc"} <= set(REQUIREMENT_RULES)
+    assert {f.rule for f in result.findings} >= {"tracking-per-day", "tracking-spread"}  # the half-drafted week
+    # the predicted accuracy is reported for the drafted plan (cut-off of SK-01 and the window end)
+    assert [label for label, *_ in dr.od_checks] == ["cut-off for SK-01", "window end"]
     # new ids continue the scenario's numbering
     old_ids = {b.id for b in sc.bookings}
     fresh = [b.id for b in dr.bookings if b.id not in old_ids]

@@ -21,10 +21,13 @@ EXAMPLES = """\
   contactplan draft week.toml --time-limit 30 --grid 5 --out week-fine.toml
   contactplan draft week.toml --recorder-limit 90 --out week-margin.toml   # keep a 10 % margin
   contactplan draft week.toml --best-effort --out week-partial.toml   # write it even if a requirement is missed
+  contactplan draft week.toml --no-minimal-change --out week-cheapest.toml   # ignore what was requested
 """
 
 
 def add_arguments(parser) -> None:
+    import argparse
+
     parser.add_argument("scenario", metavar="SCENARIO", help="scenario file (TOML)")
     parser.add_argument("--out", metavar="FILE.toml", required=True,
                         help="where to write the scenario with the drafted bookings")
@@ -41,6 +44,9 @@ def add_arguments(parser) -> None:
     parser.add_argument("--recorder-limit", metavar="PCT", type=float, default=100.0,
                         help="fill the recorder to at most this percentage of its capacity, 50 to 100 "
                              "(default 100; 90 keeps clear of the recorder-high warning)")
+    parser.add_argument("--minimal-change", action=argparse.BooleanOptionalAction, default=None,
+                        help="first minimise the request changes (added and dropped requested bookings), then "
+                             "station hours (default: on when any booking is confirmed)")
     parser.add_argument("--best-effort", action="store_true",
                         help="write the plan even when it misses a requirement warning (each one listed)")
 
@@ -85,7 +91,8 @@ def run(args) -> int:
 
     result = compute_plan(scenario)
     dr = draft(scenario, result=result, start_tt=start, end_tt=end, time_limit_s=args.time_limit,
-               grid_min=args.grid, recorder_limit=args.recorder_limit / 100.0)
+               grid_min=args.grid, recorder_limit=args.recorder_limit / 100.0, best_effort=args.best_effort,
+               minimal_change=args.minimal_change)
     lines = [f"{scenario.name}:"] + summary_lines(scenario, dr)
     if dr.status == INFEASIBLE or not dr.bookings and dr.explanations:
         lines.append(f"nothing written to {out}")

@@ -57,20 +57,25 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from contactplan.errors import InputError
-from contactplan.intervals import union
-from contactplan.plan.drafter_model import (  # noqa: F401  (the model's names, for tests and callers)
-    _TOL, BOOKING_CHARGE, FILL_GUARD_GBIT, MAX_CANDIDATES, _build_model, _build_plan, _Cands, _candidates,
-    _cands_from, _command_ok, _hm, _lp_bound, _Plan, _runs, _solve, _span_text, _track_window,
-)
 from contactplan.timescale import format_utc
-
-OPTIMAL = "optimal"
-TIME_LIMIT = "time-limit"
-INFEASIBLE = "infeasible"
+from contactplan.plan.drafter_cands import _Cands, _candidates, _cands_from  # noqa: F401  (for tests and callers)
+from contactplan.plan.drafter_cycle import CHANGE_COST, change_requests, wants_minimal_change
+from contactplan.plan.drafter_explain import _explain, _explain_combination
+from contactplan.plan.drafter_model import (  # noqa: F401  (the model's names, for tests and callers)
+    _TOL, BOOKING_CHARGE, FILL_GUARD_GBIT, MAX_CANDIDATES, _build_plan, _hm, _Plan, _runs, _span_text,
+    _track_window,
+)
+from contactplan.plan.drafter_rows import _build_model, _command_ok  # noqa: F401
+from contactplan.plan.drafter_search import (  # noqa: F401
+    INFEASIBLE, NODES_EXACT, NODES_POLISH, NODES_STAGE, OPTIMAL, TIME_LIMIT, _choose_candidates, _neighbourhood,
+    _optimise, _Solved,
+)
+from contactplan.plan.drafter_solve import _lp_bound, _solve  # noqa: F401
 
 #: warning rules that state the week's requirements: a draft meets them or says it could not
 REQUIREMENT_RULES = ("contact-per-day", "no-ranging", "recorder-end", "station-hours", "booking-too-short",
-                     "booking-too-long")
+                     "booking-too-long", "tracking-per-day", "tracking-spread", "post-manoeuvre-tracking",
+                     "cutoff-arc")
 
 @dataclass(eq=False)
 class DraftResult:
@@ -109,6 +114,9 @@ class DraftResult:
     notes: list = field(default_factory=list)
     reused: list = field(default_factory=list)  # ids of replaced bookings the draft proposes again unchanged
     gap_basis: str = ""  # the bound ``gap`` is measured against, in words
+    # predicted 1-sigma position of the drafted plan at each check time: (label, t_tt, sigma_km, required_km)
+    od_checks: list = field(default_factory=list)
+    changes: list = field(default_factory=list)  # request changes: [("add" | "cancel", Booking)]
 
     @property
     def unmet(self) -> list:
@@ -134,137 +142,6 @@ def apply_draft(scenario, result: DraftResult):
     gone = set(result.removed)
     out.bookings = [b for b in scenario.bookings if b.id not in gone] + list(result.bookings)
     return out
-
-
-# ---------------------------------------------------------------- explanations
-def _explain(scenario, P: _Plan) -> list:
-    """Requirements that cannot be met each on its own, in plain words."""
-    out = []
-    t = P.t
-    a, b = t[:-1], t[1:]
-    K = len(a)
-    length = b - a
-    S = len(P.stations)
-    runs = [_runs(P.avail[i]) for i in range(S)]
-    # slots each station could track (setup before and teardown after fit in its free run)
-    trackable = np.zeros((S, K), dtype=bool)
-    for i in range(S):
-        for k in np.flatnonzero(P.inpass[i]):
-            trackable[i, k] = _track_window(P, i, k, *runs[i]) is not None
-    any_track = trackable.any(axis=0)
-    monitors = np.array([(i, "telemetry") in P.services and (i, "doppler") in P.services for i in range(S)],
-                        dtype=bool)
-    mon_track = (trackable & monitors[:, None]).any(axis=0)
-    for bid, start, m0, m1 in P.burn_spans:
-        idx = np.flatnonzero(P.need_cover & (a < m1) & (b > m0) & ~mon_track)
-        if not len(idx):
-            continue
-        gaps = union([(max(a[k], m0), min(b[k], m1)) for k in idx], join_gap=_TOL)
-        where = "; ".join(_span_text(g0, g1) for g0, g1 in gaps[:3])
-        seen = np.zeros(K, dtype=bool)
-        for i in np.flatnonzero(monitors):
-            seen |= P.inpass[i]
-        span = (a < m1) & (b > m0)
-        if not np.any(P.inpass.any(axis=0) & span):
-            what = "is visible from no station during its monitor span"
-        elif not np.any(seen & span):
-            what = "is visible from no station giving telemetry and doppler during its monitor span"
-        else:
-            what = ("cannot be tracked throughout its monitor span by any free station giving telemetry and "
-                    "doppler (pre-pass and post-pass included)")
-        out.append(f"burn {bid} at {format_utc(start, 0)} {what}: uncovered {where}; "
-                   "move the burn, add a station or free one")
-    for j in np.flatnonzero(P.day_need_s > 0):
-        sel = P.day_of_slot == j
-        have = float(np.sum(np.maximum(any_track[sel].astype(float), P.lock_cover[sel]) * length[sel]))
-        if have < P.day_need_s[j] - 1.0:
-            out.append(f"UTC day {format_utc(P.days[j], 0)[:10]} has only {_hm(have)} of pass time over all free "
-                       f"stations (setup and teardown taken off), {_hm(P.day_need_s[j])} of contact is asked")
-    for j in np.flatnonzero(P.day_ranging_need > 0):
-        d0, d1 = P.days[j], P.days[j] + 86400.0
-        ok = False
-        for i in range(S):
-            d = np.diff(np.concatenate(([0], P.avail[i].astype(np.int8), [0])))
-            for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
-                if t[k1] - t[k0] < P.min_s[i] - _TOL:
-                    continue
-                # the most a booking in this run can track
-                if t[k0] + P.setup_s[i] < d1 and t[k1] - P.teardown_s[i] > d0:
-                    ok = True
-                    break
-            if ok:
-                break
-        if not ok:
-            out.append(f"UTC day {format_utc(d0, 0)[:10]} has no free pass long enough for a ranging "
-                       f"booking of {_hm(float(P.min_s.min()))} that tracks on that day")
-    # command loads: a commanding track long enough before the deadline, at another station or pass for
-    # the backup (a rough count over every candidate on the grid)
-    if P.commands:
-        C = _candidates(P)
-        for aid, deadline, need, _kept in P.commands:
-            ok = _command_ok(P, C, deadline)
-            groups = len(set(zip(C.station[ok].tolist(), C.pass_idx[ok].tolist())))
-            if groups < need:
-                out.append(f"the command load of {aid} must be sent by {format_utc(deadline, 0)} and only "
-                           f"{groups} free pass{'es' if groups != 1 else ''} of a commanding station can carry "
-                           f"{'a load' if need == 1 else 'a prime and a backup'} before then: book earlier "
-                           "passes, free a station or shorten command_lead_h")
-    if P.max_s is not None and np.all(P.min_s > P.max_s):
-        out.append(f"bookings must last at least {_hm(float(P.min_s.min()))} (booking_min_h, or setup plus "
-                   f"teardown) but at most {_hm(P.max_s)} (booking_max_h)")
-    if math.isfinite(P.capacity):
-        if P.fill0 > P.capacity + FILL_GUARD_GBIT:
-            out.append(f"the recorder starts at {P.fill0:.1f} Gbit, above the {P.capacity:.1f} Gbit the plan may fill")
-        else:
-            # best case: every free downlink slot used at the best station, setup and teardown ignored
-            best = np.where(P.avail & P.downlink[:, None] & ~P.keepout[None, :], P.vol, 0.0).max(axis=0)
-            out_v = best + P.lock_data_gbit
-            fill = P.fill0
-            over_at = None
-            for k in range(min(K, P.fill_end_index)):
-                fill = max(0.0, fill + P.gen_gbit_s * length[k] - out_v[k])
-                if fill > P.capacity + 1e-6 and over_at is None:
-                    over_at = b[k]
-                    fill = P.capacity
-            if over_at is not None:
-                out.append(f"the recorder overflows by {format_utc(over_at, 0)} even with every downlink pass "
-                           f"booked end to end: production ({P.gen_gbit_s * 1e6:.0f} kbit/s) outruns what the "
-                           "passes before then can return")
-            elif P.end_max is not None and fill > P.end_max + 1e-6:
-                out.append(f"even with every downlink pass booked end to end the recorder ends the window at "
-                           f"{fill:.1f} Gbit, above recorder_end_max_gbit = {P.end_max:g}")
-    return out
-
-
-_GROUP_WORDS = {
-    "burns": "the burn monitor spans",
-    "contact": "the daily contact hours (contact_per_day_min_h)",
-    "ranging": "the daily ranging bookings (ranging_per_day_min)",
-    "recorder": "the recorder limits (capacity and recorder_end_max_gbit)",
-    "length": "the booking lengths (booking_min_h, booking_max_h, setup and teardown)",
-    "week": "the station hours per week (max_hours_per_week)",
-    "command": "the command loads (command_lead_h, command_backup)",
-}
-
-
-def _explain_combination(P: _Plan, C, time_limit_s: float) -> list:
-    """Which requirement groups, when dropped, make the plan possible (each is possible alone)."""
-    groups = [g for g in _GROUP_WORDS]
-    culprits = []
-    per = max(2.0, time_limit_s / len(groups))
-    for g in groups:
-        M, *_ = _build_model(P, drop={g}, cands=C if (C is not None and g != "length") else
-                             (_choose_candidates(P, MAX_CANDIDATES)[0] if g != "length" else None))
-        M.cost = [np.zeros_like(c) for c in M.cost]  # feasibility only: the first plan found will do
-        res = _solve(M, per, node_limit=NODES_STAGE)
-        if res.status == 0 or (res.status == 1 and res.x is not None):
-            culprits.append(g)
-    if culprits:
-        names = ", ".join(_GROUP_WORDS[g] for g in culprits)
-        return [f"each requirement can be met on its own but not all together; relaxing any of these would "
-                f"make a plan possible: {names}"]
-    return ["each requirement can be met on its own but not all together, and no single one of them is to blame; "
-            "relax several (contact hours, ranging, booking lengths, recorder limits) or add stations"]
 
 
 # ---------------------------------------------------------------- extraction
@@ -299,7 +176,7 @@ def _bookings_from(P: _Plan, xval, C: _Cands, scenario, removed):
 
 
 # ---------------------------------------------------------------- verification
-def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
+def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None, ephemeris=None):
     """Run the real recorder and plan rules on the drafted scenario; fill the check fields.
 
     Returns the findings (None when the plan stage is not available)."""
@@ -307,13 +184,16 @@ def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
     try:
         from contactplan.plan.pipeline import PlanResult, check
 
-        pr = check(PlanResult(scenario=new_sc, ephemeris=None, passes=list(passes), profiles=dict(profiles),
+        pr = check(PlanResult(scenario=new_sc, ephemeris=ephemeris, passes=list(passes), profiles=dict(profiles),
                               link_profiles=dict(link_profiles or {})))
     except (NotImplementedError, ImportError):
         return None
     draft.check_errors = pr.errors
     draft.check_warnings = pr.warnings
     draft.findings = list(pr.findings)
+    nav = getattr(pr, "navigation", None)
+    draft.od_checks = [] if nav is None else [
+        (c.label, c.t_tt, c.position_sigma_km, c.required_position_km) for c in nav.checks]
     rec = pr.recorder
     if rec is not None:
         draft.recorder_end_gbit = float(rec.end_gbit)
@@ -322,196 +202,10 @@ def _verify(scenario, passes, profiles, draft: DraftResult, link_profiles=None):
 
 
 # ---------------------------------------------------------------- entry point
-def _neighbourhood(P: _Plan, C: _Cands, chosen, step: int, also=(), swap: int = 0) -> _Cands:
-    """Bookings on the full grid whose edges lie within ``step`` edges of a chosen booking's edges
-    (the chosen ones included): a local search that polishes a plan drafted on a thinned lattice.
-    ``also`` adds more (cands, indices) pairs to centre neighbourhoods on; with ``swap`` > 0 the
-    other stations free over a centre's span get bookings within ``swap`` edges of it too."""
-    t = P.t
-    K = len(t) - 1
-    runs = [_runs(P.avail[i]) for i in range(len(P.stations))]
-    centres = [(int(C.station[c]), int(C.p[c]), int(C.q[c])) for c in chosen]
-    for cc, idx in also:
-        centres += [(int(cc.station[c]), int(cc.p[c]), int(cc.q[c])) for c in idx]
-    if swap:
-        moved = []
-        for i, p0, q0 in centres:
-            mid = min((p0 + q0) // 2, K - 1)
-            for j in range(len(P.stations)):
-                if j != i and P.avail[j, mid]:
-                    moved.append((j, p0, q0, swap))
-        centres = [(i, p0, q0, step) for i, p0, q0 in centres] + moved
-    else:
-        centres = [(i, p0, q0, step) for i, p0, q0 in centres]
-    centres = sorted(set(centres))
-    sts, ps, qs = [], [], []
-    for i, p0, q0, nb in centres:
-        off = np.arange(-nb, nb + 1)
-        run_s, run_e = runs[i]
-        anchor = min(p0, K - 1) if P.avail[i, min(p0, K - 1)] else min((p0 + q0) // 2, K - 1)
-        lo, hi = run_s[anchor], run_e[anchor] + 1
-        pp, qq = np.meshgrid(np.clip(p0 + off, lo, hi), np.clip(q0 + off, lo, hi), indexing="ij")
-        dur = t[qq] - t[pp]
-        ok = (qq > pp) & (dur >= P.min_s[i] - _TOL)
-        if P.max_s is not None:
-            ok &= dur <= P.max_s + _TOL
-        sts.append(np.full(int(ok.sum()), i))
-        ps.append(pp[ok])
-        qs.append(qq[ok])
-    if not sts:
-        return C
-    key = np.unique(np.stack([np.concatenate(sts), np.concatenate(ps), np.concatenate(qs)]), axis=1)
-    return _cands_from(P, key[0], key[1], key[2])
-
-
-
-#: branch-and-bound nodes per solve: the search is bounded by work, not by the clock, so the same
-#: input gives the same plan on an idle or a loaded machine (the time limit is only a safety net)
-NODES_EXACT = 4000
-NODES_STAGE = 30
-NODES_POLISH = 20
-
-
-@dataclass
-class _Solved:
-    chosen: np.ndarray  # candidate indices into cands
-    cands: _Cands
-    fun: float
-    status: str
-    gap: float | None
-    infeasible: bool = False
-    gap_basis: str = ""  # which bound the gap is measured against
-    clock_stopped: bool = False  # a solve ended on the wall-clock safety limit
-
-
-def _optimise(P: _Plan, time_s: float, mip_gap: float, max_candidates: int, grid_min: float, notes: list,
-              exclusive=False, day_extra=None, first=True, tick=None) -> _Solved | None:
-    """Solve the drafting MILP: exactly when the candidate set is small, else LP-guided restricted
-    solves, a solve on a thinned lattice and a polish on the full grid. Every solve is bounded by a
-    node count; ``time_s`` is a wall-clock safety net only."""
-    t0 = time.perf_counter()
-
-    def left():
-        if tick is not None:
-            tick(min(1.0, (time.perf_counter() - t0) / max(time_s, 1e-9)))
-        return time_s - (time.perf_counter() - t0)
-
-    kw = dict(exclusive=exclusive, day_extra=day_extra)
-    model_words = f"the {grid_min:g}-min grid model"
-    C, step = _choose_candidates(P, max_candidates)
-    if step == 1:
-        M, x, C, _ = _build_model(P, cands=C, **kw)
-        res = _solve(M, max(0.3, left()), mip_gap, NODES_EXACT)
-        if res.x is None:
-            return _Solved(np.zeros(0, int), C, math.inf, INFEASIBLE if res.status == 2 else TIME_LIMIT, None,
-                           infeasible=res.status == 2, clock_stopped=res.hit_time_limit)
-        bound = getattr(res, "mip_dual_bound", None)
-        fun = float(res.fun)
-        if res.status == 0:
-            gap = max(0.0, float(getattr(res, "mip_gap", 0.0) or 0.0))
-        elif bound is not None and math.isfinite(bound):
-            gap = max(0.0, (fun - float(bound)) / max(abs(fun), 1e-9))
-        else:
-            gap = None
-        return _Solved(np.flatnonzero(res.x[x] > 0.5), C, fun, OPTIMAL if res.status == 0 else TIME_LIMIT, gap,
-                       gap_basis=f"HiGHS's dual bound of {model_words} (every candidate)",
-                       clock_stopped=res.hit_time_limit)
-
-    if first:
-        notes.append(f"{len(_candidates(P, step=1))} candidate bookings on the {grid_min:g}-min grid: drafted with "
-                     f"LP-guided neighbourhoods and on a {step * grid_min:g}-min lattice (with pass edges, "
-                     f"keep-outs, midnights and monitor spans), then polished on the full grid")
-    best = None
-    clock = [False]
-    # 1. the LP relaxation gives a bound and a guide: over every candidate of the full grid when
-    #    that is quick, else over the thinned lattice (then it bounds only that restricted model)
-    full = _candidates(P, step=1)
-    guide = full if len(full) <= 3 * max_candidates else C
-    Mg, xg, guide, _ = _build_model(P, cands=guide, **kw)
-    lp_fun, lp_x = _lp_bound(Mg)
-    if lp_fun is None:
-        return _Solved(np.zeros(0, int), C, math.inf, INFEASIBLE, None, infeasible=True)
-    bound = lp_fun
-    if guide is full:
-        basis = f"the LP relaxation of {model_words} (every candidate)"
-    else:
-        basis = (f"the LP relaxation of the {step * grid_min:g}-min lattice only: a restricted model, "
-                 f"so not a bound of {model_words}")
-
-    def run(M, xs, cands, nodes):
-        nonlocal best
-        res = _solve(M, max(0.3, left()), mip_gap, nodes)
-        clock[0] |= res.hit_time_limit
-        if res.x is not None and (best is None or res.fun < best.fun - 1e-9):
-            best = _Solved(np.flatnonzero(res.x[xs] > 0.5), cands, float(res.fun), TIME_LIMIT, None)
-        return res
-
-    # 2. a restricted solve around the LP's support
-    support = np.flatnonzero(lp_x[xg] > 1e-6)
-    near = _neighbourhood(P, guide, support, 2)
-    M1, x1, near, _ = _build_model(P, cands=near, **kw)
-    run(M1, x1, near, NODES_STAGE)
-    # 3. the whole thinned lattice, only when the guided solve found nothing (its root node alone can
-    #    take many seconds, which no node limit bounds)
-    if best is None and left() > 0.5:
-        M2, x2, C, _ = _build_model(P, cands=C, **kw)
-        res2 = run(M2, x2, C, NODES_STAGE)
-        if res2.status == 0 and guide is not full:
-            bound = max(bound, float(res2.fun))
-    if best is None:
-        return _Solved(np.zeros(0, int), C, math.inf, TIME_LIMIT, None, clock_stopped=clock[0])
-    # 4. polish on the full grid, one UTC day at a time: the bookings elsewhere stay as they are
-    #    (so the incumbent is always a solution and each small solve is quick), the day's bookings
-    #    may move, stretch, shrink, vanish or go to another station
-    before = best.fun
-    days = [d for d in P.days if d + 86400.0 > P.t[0] and d < P.t[-1]]
-    for sweep, span_days in enumerate((1, 1, 1)):  # one day at a time: two-day solves cost 10 times more
-        improved = False
-        for d0 in days:
-            if left() < 0.4:
-                clock[0] = True
-                break
-            d1 = d0 + 86400.0 * span_days
-            bc = best.cands
-            inside = (bc.start[best.chosen] < d1) & (bc.end[best.chosen] > d0)
-            fixed = best.chosen[~inside]
-            g_in = support[(guide.start[support] < d1) & (guide.end[support] > d0)]
-            near = _neighbourhood(P, bc, best.chosen[inside], 3, also=[(guide, g_in)], swap=1)
-            keys = np.concatenate([np.stack([bc.station[fixed], bc.p[fixed], bc.q[fixed]]),
-                                   np.stack([near.station, near.p, near.q])], axis=1)
-            keys = np.unique(keys, axis=1)
-            cand = _cands_from(P, keys[0], keys[1], keys[2])
-            M3, x3, cand, _ = _build_model(P, cands=cand, **kw)
-            fk = set(zip(bc.station[fixed].tolist(), bc.p[fixed].tolist(), bc.q[fixed].tolist()))
-            is_fixed = np.array([k in fk for k in zip(cand.station.tolist(), cand.p.tolist(), cand.q.tolist())])
-            M3.lb[0] = np.where(is_fixed, 1.0, M3.lb[0])
-            keep = best.fun
-            run(M3, x3, cand, NODES_POLISH)
-            improved |= best.fun < keep - 1e-9
-        if not improved and sweep >= 1:
-            break
-    if best.fun < before - 1e-9:
-        notes.append(f"polishing on the {grid_min:g}-min grid saved {before - best.fun:.2f} cost-hours")
-    best.gap = max(0.0, (best.fun - bound) / max(abs(best.fun), 1e-9))
-    best.gap_basis = basis
-    best.clock_stopped = clock[0]
-    if best.gap <= mip_gap and guide is full:
-        best.status = OPTIMAL
-    return best
-
-
-def _choose_candidates(P: _Plan, max_candidates: int):
-    """The candidate set on the finest lattice that keeps at most ``max_candidates``."""
-    for step in (1, 2, 3, 4, 6, 8, 12, 18, 24):
-        C = _candidates(P, step=step)
-        if len(C) <= max_candidates:
-            break
-    return C, step
-
-
 def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, grid_min=10.0,
           passes=None, profiles=None, mip_gap=1e-3, max_candidates=MAX_CANDIDATES,
-          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None) -> DraftResult:
+          recorder_limit=1.0, progress=None, cancel=None, link_profiles=None, best_effort=False,
+          minimal_change=None) -> DraftResult:
     """Draft bookings for ``scenario`` over [start_tt, end_tt] (default: its window).
 
     ``result`` is a :class:`~contactplan.plan.pipeline.PlanResult` of the scenario
@@ -527,7 +221,11 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
     fill (0.9 keeps clear of the rules' ``recorder-high`` warning).
     ``progress(fraction)`` is called between stages; ``cancel()`` returning True
     raises :class:`~contactplan.errors.Cancelled` between solves (a running solve
-    ends at its time limit).
+    ends at its time limit). With ``best_effort`` the orbit-determination tracking requirements may
+    fall short (at a high cost per hour short) instead of making the week infeasible; the check of
+    the drafted plan then lists what is missed (``unmet``). Confirmed, frozen and locked bookings
+    stay; declined slots and busy spans are never booked; ``minimal_change`` (default: when any
+    booking is confirmed) first minimises the request changes (``changes``), then station hours.
     Nothing in ``scenario`` is modified.
     """
     t_start = time.perf_counter()
@@ -573,10 +271,16 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
         tick(0.0)
         P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin,
                                         float(recorder_limit), link_profiles=link_profiles)
+        if P.tracking is not None:
+            P.tracking.soft = bool(best_effort)
+        P.minimal_change = wants_minimal_change(scenario, minimal_change)
+        if P.minimal_change and attempt == 0:
+            notes.append("minimal change: request changes minimised first, then station hours (the gap counts "
+                         f"{CHANGE_COST:g} cost-hours per change)")
         base = DraftResult(status=INFEASIBLE, start_tt=d_start, end_tt=d_end,
                            kept=[bk.id for bk in keeps], n_candidates=0, notes=notes)
         if attempt == 0:
-            why = _explain(scenario, P)
+            why = _explain(scenario, P, tracking=not best_effort)
             if why:
                 base.explanations = why
                 base.solve_time_s = time.perf_counter() - t_start
@@ -613,6 +317,7 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
         books, reused = _bookings_from(P, xval, C, scenario, removed)
         base.bookings = books
         base.reused = reused
+        base.changes = change_requests(removed, books, reused)
         base.removed = [bk.id for bk in removed]
         hours: dict = {}
         cost_h = 0.0
@@ -630,7 +335,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
             notes.append("a solve stopped on the wall-clock safety limit before its work limit: this plan may "
                          "differ from run to run; give --time-limit more seconds")
         out = base
-        findings = _verify(scenario, passes, profiles, out, link_profiles)
+        findings = _verify(scenario, passes, profiles, out, link_profiles,
+                           ephemeris=getattr(result, "ephemeris", None))
         if findings is None:
             break
         again = False
@@ -683,6 +389,16 @@ def summary_lines(scenario, dr: DraftResult) -> list:
         lines.append(f"check of the drafted plan: {dr.check_errors} errors, {dr.check_warnings} warnings")
     for f in dr.unmet:
         lines.append(f"  not met: {f.rule}: {f.message}")
+    if dr.changes:
+        lines.append(f"change requests for the network: {len(dr.changes)}")
+        for what, b in dr.changes:
+            lines.append(f"  {what:<6} {b.id} {b.station} {_span_text(b.start_tt, b.end_tt)}")
+    else:
+        lines.append("change requests for the network: none")
+    for label, t_tt, sig, need in dr.od_checks:
+        lines.append(f"  predicted 1-sigma position at the {label} ({format_utc(t_tt, 0)}): {sig:.2f} km "
+                     f"({'met' if sig <= need else 'above'} the {need:g} km required; od-accuracy is reported, "
+                     "not drafted for)")
     if dr.recorder_end_gbit is not None:
         lines.append(f"recorder at the end: {dr.recorder_end_gbit:.1f} Gbit, lost {dr.recorder_lost_gbit:.1f} Gbit")
     lines += [f"  note: {n}" for n in dr.notes]

@@ -1,8 +1,10 @@
-"""The drafter's model: slot grid, candidate bookings and the mixed-integer programme.
+"""The drafter's slot grid and what the model is built from (:class:`_Plan`).
 
-See :mod:`contactplan.plan.drafter` for what the model means; this module builds it
-(:func:`build_plan`, :func:`candidates`, :func:`build_model`) and runs HiGHS through
-:func:`scipy.optimize.milp` (:func:`solve`, :func:`lp_bound`).
+See :mod:`contactplan.plan.drafter` for what the model means. The pieces:
+this module cuts the window into slots and gathers the plan data (:func:`_build_plan`);
+:mod:`~contactplan.plan.drafter_cands` makes the candidate bookings,
+:mod:`~contactplan.plan.drafter_rows` the MILP rows (:func:`_build_model`),
+:mod:`~contactplan.plan.drafter_solve` runs HiGHS through :func:`scipy.optimize.milp`.
 
 Times are TT seconds since J2000 (``_tt``); volumes in gigabits (1e9 bit).
 """
@@ -193,6 +195,9 @@ class _Plan:
     ko_tel: tuple | None = None  # _cover_fn of slew/other keep-outs (no telemetry track there)
     commands: list = field(default_factory=list)  # (activity id, deadline_tt, loads needed, kept (station, pass))
     lock_spans: list = field(default_factory=list)  # union of the kept bookings' tracked time
+    tracking: object = None  # drafter_tracking.Tracking: the orbit-determination tracking requirements
+    requested: list = field(default_factory=list)  # replaced bookings the network knows (requested)
+    minimal_change: bool = False  # the objective first minimises request changes (drafter_cycle)
 
 
 def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keeps, extra_edges):
@@ -234,6 +239,8 @@ def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keep
 def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0,
                 link_profiles=None):
     from contactplan.link.services import offers
+    from contactplan.plan.drafter_cycle import REQUESTED, split_bookings, status
+    from contactplan.plan.drafter_tracking import tracking_plan
     from contactplan.plan.rules import RuleContext
     from contactplan.scenario.model import VELOCITY_KINDS
 
@@ -248,14 +255,16 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     def in_range(bk):
         return bk.end_tt > d_start + _TOL and bk.start_tt < d_end - _TOL
 
-    keeps = [bk for bk in scenario.bookings if bk.locked or not in_range(bk)]
-    removed = [bk for bk in scenario.bookings if not bk.locked and in_range(bk)]
+    # confirmed, frozen and locked bookings stay; declined ones and busy spans are taken (drafter_cycle)
+    keeps, removed, taken = split_bookings(scenario, in_range)
+    requested = [bk for bk in removed if status(bk) in REQUESTED]
     keepouts = _keepout_spans(scenario)
     burns = [a for a in scenario.activities if a.kind in VELOCITY_KINDS]
     commanded = [a for a in burns if a.command_lead_h is not None]
     deadlines = [(a.start_tt - a.command_lead_h * 3600.0,) * 2 + (a.id,) for a in commanded]
-    spans = keepouts + [(*a.monitor_span_tt, a.id) for a in burns] + deadlines
-    t = _grid(scenario, model_start, model_end, d_start, d_end, grid_min * 60.0, passes, keeps, spans)
+    spans = keepouts + [(*a.monitor_span_tt, a.id) for a in burns] + deadlines + [(s0, s1, sid_) for sid_, s0, s1
+                                                                                  in taken]
+    t = _grid(scenario, model_start, model_end, d_start, d_end, grid_min * 60.0, passes, keeps + requested, spans)
     a, b = t[:-1], t[1:]
     K, S = len(a), len(stations)
     length = b - a
@@ -287,6 +296,9 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     for kb in keeps:
         if kb.station in sid:
             avail[sid[kb.station]] &= ~((a < kb.end_tt - _TOL) & (b > kb.start_tt + _TOL))
+    for st_id, s0, s1 in taken:
+        if st_id in sid:
+            avail[sid[st_id]] &= ~((a < s1 - _TOL) & (b > s0 + _TOL))
     avail &= in_draft[None, :]
     inpass &= avail
 
@@ -427,6 +439,8 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
         need_pieces=_merge_pieces(need_pieces), rates=rates, lock_tracked_day_s=lock_day,
         week0=scenario.start_tt, inpass=inpass, pass_aos=pass_aos, pass_los=pass_los, services=services,
         ko_play=ko_play, ko_tel=ko_tel, commands=commands, lock_spans=kept_union,
+        tracking=tracking_plan(scenario, ctx, stations, keeps, tracked_keep, d_start, d_end, services),
+        requested=requested,
     )
     return plan, keeps, removed
 
@@ -458,451 +472,3 @@ def _track_window(P: _Plan, i: int, k: int, run_s, run_e):
     if j0 < run_s[k] or j1 > run_e[k] or j0 < 0 or j1 >= len(t) - 1:
         return None
     return j0, j1
-
-
-#: a service is booked on a candidate only when it closes over all but this many seconds of its track
-#: (the rules allow SERVICE_TOLERANCE_S; half of it keeps clear of that edge)
-_CLOSE_SLACK_S = 60.0
-#: real-time telemetry and playback: booked wherever the link closes over part of the track
-_DATA_SERVICES = ("telemetry", "playback")
-
-
-@dataclass
-class _Cands:
-    """Candidate bookings, one entry per candidate (arrays of equal length)."""
-
-    station: np.ndarray  # station index
-    p: np.ndarray  # start edge index
-    q: np.ndarray  # end edge index
-    start: np.ndarray  # TT s
-    end: np.ndarray
-    track0: np.ndarray  # the track (after pre-pass, before post-pass), inside one pass
-    track1: np.ndarray
-    downlink: np.ndarray  # bool: carries playback (the station takes it and the track touches no keep-out)
-    vol: np.ndarray  # gigabits its playback time can return
-    cost: np.ndarray  # cost-hours
-    pass_idx: np.ndarray  # index of the pass holding the track among its station's passes
-    services: dict  # service -> bool array: booked on this candidate (offered, closes, keep-outs allow)
-
-    def __len__(self):
-        return len(self.p)
-
-    @property
-    def monitor(self) -> np.ndarray:
-        """Tracks with telemetry and doppler: they monitor burns and momentum dumps."""
-        return self.services["telemetry"] & self.services["doppler"]
-
-    def service_names(self, c: int) -> list:
-        from contactplan.scenario.model import SERVICES
-
-        return [svc for svc in SERVICES if self.services[svc][c]]
-
-
-def _anchor_nodes(P: _Plan, i: int) -> np.ndarray:
-    """Edge indices where a booking of station i may want to start or end whatever the lattice:
-    keep-out edges, UTC midnights and monitor-span pieces, and those shifted by setup and teardown."""
-    t = P.t
-    K = len(t) - 1
-    ko = P.keepout.astype(np.int8)
-    times = [t[1:-1][np.diff(ko) != 0], P.days]
-    if P.need_pieces:
-        pc = np.array(P.need_pieces)
-        times += [pc[:, 0], pc[:, 1]]
-    base = np.concatenate(times) if times else np.zeros(0)
-    nodes = [np.searchsorted(t, base - _TOL, side="left"),
-             np.searchsorted(t, base - P.setup_s[i] + _TOL, side="right") - 1,
-             np.searchsorted(t, base + P.teardown_s[i] - _TOL, side="left")]
-    out = np.concatenate(nodes)
-    return np.unique(out[(out >= 0) & (out <= K)])
-
-
-def _candidates(P: _Plan, lengths_on=True, step: int = 1) -> _Cands:
-    """Bookings of a station that start and end on slot edges inside one free run.
-
-    With ``step`` > 1 the edges are thinned to every ``step``-th edge of the run plus its ends and
-    the anchor edges (keep-outs, midnights, monitor spans), to keep large windows fast.
-    """
-    t = P.t
-    K = len(t) - 1
-    cols = {k: [] for k in ("station", "p", "q")}
-    for i in range(len(P.stations)):
-        mask = P.avail[i]
-        d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
-        lo_len = P.min_s[i] if lengths_on else P.setup_s[i] + P.teardown_s[i] + 1.0
-        hi_len = P.max_s if (lengths_on and P.max_s is not None) else np.inf
-        anchors = _anchor_nodes(P, i) if step > 1 else None
-        for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
-            nodes = np.arange(k0, k1 + 1)  # edges of the run
-            if step > 1:
-                keep = ((nodes - k0) % step == 0) | (nodes == k1) | np.isin(nodes, anchors)
-                nodes = nodes[keep]
-            pp, qq = np.meshgrid(nodes, nodes, indexing="ij")
-            dur = t[qq] - t[pp]
-            ok = (qq > pp) & (dur >= lo_len - _TOL) & (dur <= hi_len + _TOL)
-            cols["station"].append(np.full(int(ok.sum()), i))
-            cols["p"].append(pp[ok])
-            cols["q"].append(qq[ok])
-    station = np.concatenate(cols["station"]) if cols["station"] else np.zeros(0, int)
-    p = np.concatenate(cols["p"]) if cols["p"] else np.zeros(0, int)
-    q = np.concatenate(cols["q"]) if cols["q"] else np.zeros(0, int)
-    del K
-    return _cands_from(P, station, p, q)
-
-
-def _cands_from(P: _Plan, station, p, q) -> _Cands:
-    """Candidate attributes for bookings of ``station`` from edge ``p`` to edge ``q`` (index arrays);
-    those whose track does not lie inside one pass of the station are dropped."""
-    from contactplan.scenario.model import SERVICES
-
-    t = P.t
-    station, p, q = (np.asarray(v, dtype=int) for v in (station, p, q))
-    start, end = t[p], t[q]
-    track0 = start + P.setup_s[station]
-    track1 = end - P.teardown_s[station]
-    pidx = np.full(len(p), -1)
-    ok = track1 > track0 + _TOL
-    for i in np.unique(station):
-        sel = np.flatnonzero(station == i)
-        aos, los = P.pass_aos[i], P.pass_los[i]
-        if not len(aos):
-            ok[sel] = False
-            continue
-        j = np.searchsorted(aos, track0[sel] + _TOL, side="right") - 1
-        inside = (j >= 0) & (los[np.clip(j, 0, None)] >= track1[sel] - _TOL)
-        ok[sel] &= inside
-        pidx[sel] = j
-    if not np.all(ok):
-        station, p, q, start, end, track0, track1, pidx = (v[ok] for v in (station, p, q, start, end, track0,
-                                                                          track1, pidx))
-    dur = track1 - track0
-    flags = {}
-    for svc in SERVICES:
-        f = np.zeros(len(p), dtype=bool)
-        for i in np.unique(station):
-            fn = P.services.get((int(i), svc))
-            if fn is None:
-                continue
-            sel = np.flatnonzero(station == i)
-            if svc in _DATA_SERVICES:  # where the link does not close it brings no data (a warning)
-                f[sel] = _covered(fn, track0[sel], track1[sel]) > _TOL
-            else:  # commanding and two-way tracking must close over the whole track (an error)
-                f[sel] = dur[sel] - _covered(fn, track0[sel], track1[sel]) <= _CLOSE_SLACK_S
-        flags[svc] = f
-    # playback never in a keep-out; telemetry not in a slew's or other activity's (rule downlink-in-keepout)
-    flags["playback"] &= _covered(P.ko_play, track0, track1) <= _TOL
-    flags["telemetry"] &= _covered(P.ko_tel, track0, track1) <= _TOL
-    downlink = flags["playback"] & P.downlink[station]
-    vol = np.zeros(len(p))
-    for i in np.unique(station):
-        sel = (station == i) & downlink
-        if np.any(sel):
-            vol[sel] = P.rates.volume(P.stations[i].id, track0[sel], track1[sel])
-    cost = P.cost[station] * (end - start) / 3600.0
-    return _Cands(station=station, p=p, q=q, start=start, end=end, track0=track0, track1=track1,
-                  downlink=downlink, vol=vol, cost=cost, pass_idx=pidx, services=flags)
-
-
-class _Model:
-    """Sparse rows for scipy.optimize.milp, built up in numpy blocks."""
-
-    def __init__(self):
-        self.lb, self.ub, self.integ, self.cost = [], [], [], []
-        self.r, self.c, self.v = [], [], []
-        self.rlb, self.rub = [], []
-        self.nvar = 0
-
-    def vars(self, n, lb, ub, integer, cost=0.0) -> np.ndarray:
-        idx = np.arange(self.nvar, self.nvar + n)
-        self.nvar += n
-        self.lb.append(np.broadcast_to(np.asarray(lb, float), (n,)).copy())
-        self.ub.append(np.broadcast_to(np.asarray(ub, float), (n,)).copy())
-        self.integ.append(np.full(n, 1 if integer else 0))
-        self.cost.append(np.broadcast_to(np.asarray(cost, float), (n,)).copy())
-        return idx
-
-    def rows(self, n, lo, hi) -> np.ndarray:
-        start = sum(len(x) for x in self.rlb)
-        self.rlb.append(np.broadcast_to(np.asarray(lo, float), (n,)).copy())
-        self.rub.append(np.broadcast_to(np.asarray(hi, float), (n,)).copy())
-        return np.arange(start, start + n)
-
-    def coef(self, rows, cols, vals):
-        rows, cols = np.asarray(rows), np.asarray(cols)
-        self.r.append(rows.ravel())
-        self.c.append(cols.ravel())
-        self.v.append(np.broadcast_to(np.asarray(vals, float), rows.shape).ravel())
-
-    def arrays(self):
-        if self.nvar == 0:  # nothing to choose: one idle variable fixed at zero keeps the solver happy
-            self.vars(1, 0, 0, False)
-        cat = (lambda xs: np.concatenate(xs) if xs else np.zeros(0))  # noqa: E731
-        return (cat(self.cost), cat(self.lb), cat(self.ub), cat(self.integ), cat(self.r).astype(int),
-                cat(self.c).astype(int), cat(self.v), cat(self.rlb), cat(self.rub))
-
-
-def _contact_rows(M: _Model, P: _Plan, C: _Cands, x, day_extra: dict) -> None:
-    """Rows asking each whole UTC day for its contact hours over the union of tracks.
-
-    The tracks' edges cut time into pieces; ``n[m]`` counts the chosen tracks over piece m (one row per
-    piece: its change from the piece before is the tracks starting there less those ending there) and
-    ``w[m]`` in [0, 1], at most ``n[m]``, is whether piece m is tracked at all. Exact for any plan, with
-    two non-zeros per candidate. Two implied rows per day (a track gives at most the need; the day
-    needs at least this many tracks) tighten the LP."""
-    need = {}
-    for j in np.flatnonzero(P.day_need_s > 0):
-        v = P.day_need_s[j] - P.lock_tracked_day_s[j] + day_extra.get(int(j), 0.0)
-        if v > 0:
-            need[int(j)] = v
-    if not need:
-        return
-    n = len(C)
-    if n == 0:  # nothing can give contact: an empty row states the need (infeasible)
-        for j, v in need.items():
-            M.rows(1, v / 3600.0, np.inf)
-        return
-    kept = np.array(P.lock_spans, dtype=float).reshape(-1, 2)
-    edges = np.unique(np.round(np.concatenate([P.t, C.track0, C.track1, kept.ravel(), P.days]), 3))
-    m0 = np.searchsorted(edges, np.round(C.track0, 3))
-    m1 = np.searchsorted(edges, np.round(C.track1, 3))
-    lo, hi = int(m0.min()), int(m1.max())
-    npc = hi - lo  # pieces lo .. hi-1
-    cnt = M.vars(npc, 0, np.inf, False)
-    rows = M.rows(npc, 0.0, 0.0)
-    M.coef(rows, cnt, 1.0)
-    M.coef(rows[1:], cnt[:-1], -1.0)
-    M.coef(rows[m0 - lo], x, -1.0)
-    ends = m1 < hi
-    M.coef(rows[m1[ends] - lo], x[ends], 1.0)
-    mid = 0.5 * (edges[lo:hi] + edges[lo + 1:hi + 1])
-    plen = edges[lo + 1:hi + 1] - edges[lo:hi]
-    day = np.searchsorted(P.days, mid, side="right") - 1
-    in_kept = np.zeros(npc, dtype=bool)
-    if len(kept):
-        k = np.searchsorted(kept[:, 0], mid, side="right") - 1
-        in_kept = (k >= 0) & (kept[np.clip(k, 0, None), 1] > mid)
-    for j, v in need.items():
-        d0, d1 = P.days[j], P.days[j] + 86400.0
-        sel = np.flatnonzero((day == j) & ~in_kept & (mid > d0) & (mid < d1))
-        r = M.rows(1, v / 3600.0, np.inf)
-        if len(sel):
-            w = M.vars(len(sel), 0, 1, False)
-            rw = M.rows(len(sel), -np.inf, 0.0)
-            M.coef(rw, w, 1.0)
-            M.coef(rw, cnt[sel], -1.0)
-            M.coef(np.full(len(sel), r[0]), w, plen[sel] / 3600.0)
-        ov = np.maximum(0.0, np.minimum(C.track1, d1) - np.maximum(C.track0, d0))
-        cs = np.flatnonzero(ov > 0)
-        if len(cs):
-            r = M.rows(1, v / 3600.0, np.inf)
-            M.coef(np.full(len(cs), r[0]), x[cs], np.minimum(ov[cs], v) / 3600.0)
-            r = M.rows(1, math.ceil(v / float(ov[cs].max()) - 1e-9), np.inf)
-            M.coef(np.full(len(cs), r[0]), x[cs], 1.0)
-
-
-def _command_ok(P: _Plan, C: _Cands, deadline: float) -> np.ndarray:
-    """Candidates whose commanding track before ``deadline`` can carry a command load: at least
-    COMMAND_MIN_S (and a minute more) of it, the uplink closing throughout."""
-    from contactplan.plan.rules_services import COMMAND_MIN_S
-
-    end = np.minimum(C.track1, deadline)
-    ok = C.services["commanding"] & (end - C.track0 >= COMMAND_MIN_S + 60.0)
-    for i in np.unique(C.station[ok]):
-        sel = np.flatnonzero(ok & (C.station == i))
-        fn = P.services[(int(i), "commanding")]
-        ok[sel] = (end[sel] - C.track0[sel]) - _covered(fn, C.track0[sel], end[sel]) <= _TOL
-    return ok
-
-
-def _command_rows(M: _Model, P: _Plan, C: _Cands, x) -> None:
-    """Per commanded burn or dump: a usable commanding track (prime), and with a backup a second one at
-    another station or on another pass (``y[g]`` <= the tracks chosen in group g, at most 1; their sum
-    reaches the loads still needed)."""
-    for _aid, deadline, need, kept_groups in P.commands:
-        ok = _command_ok(P, C, deadline)
-        group = C.station.astype(np.int64) * 1_000_000 + C.pass_idx
-        if kept_groups:
-            ok &= ~np.isin(group, [i * 1_000_000 + j for i, j in kept_groups])
-        sel = np.flatnonzero(ok)
-        if need <= 1:
-            r = M.rows(1, 1, np.inf)
-            M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
-            continue
-        g, inv = np.unique(group[sel], return_inverse=True)
-        y = M.vars(len(g), 0, 1, False)
-        ry = M.rows(len(g), -np.inf, 0.0)
-        M.coef(ry, y, 1.0)
-        M.coef(ry[inv], x[sel], -1.0)
-        r = M.rows(1, need, np.inf)
-        M.coef(np.full(len(g), r[0]), y, 1.0)
-
-
-def _build_model(P: _Plan, drop=frozenset(), cands: _Cands | None = None, exclusive=False, day_extra=None):
-    """The MILP: one binary per candidate booking, a path of bookings and idle time per station
-    (a network, so no two bookings of a station overlap), the requirement rows and the recorder.
-    ``drop`` names requirement groups left out (for explaining infeasibility)."""
-    t = P.t
-    a, b = t[:-1], t[1:]
-    K = len(a)
-    length = b - a
-    C = cands if cands is not None else _candidates(P, "length" not in drop)
-    n = len(C)
-    M = _Model()
-    x = M.vars(n, 0, 1, True, C.cost + BOOKING_CHARGE)
-
-    # a path per station and free run: flow balance at every edge of the run
-    for i in range(len(P.stations)):
-        mask = P.avail[i]
-        d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
-        sel_i = np.flatnonzero(C.station == i)
-        for k0, k1 in zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)):
-            nn = k1 - k0 + 1  # nodes k0..k1
-            idle = M.vars(k1 - k0, 0, 1, False, 0.0)
-            rhs = np.zeros(nn)
-            rhs[0], rhs[-1] = -1.0, 1.0  # one unit enters at the first edge, leaves at the last
-            rows = M.rows(nn, rhs, rhs)
-            # inflow - outflow = rhs
-            M.coef(rows[1:], idle, 1.0)
-            M.coef(rows[:-1], idle, -1.0)
-            sel = sel_i[(C.p[sel_i] >= k0) & (C.q[sel_i] <= k1)]
-            M.coef(rows[C.q[sel] - k0], x[sel], 1.0)
-            M.coef(rows[C.p[sel] - k0], x[sel], -1.0)
-
-    # burn and momentum-dump monitor spans: every uncovered piece tracked by one booking holding
-    # telemetry and doppler (conservative: two tracks may not share one piece)
-    if "burns" not in drop:
-        mon = C.monitor
-        for lo, hi in P.need_pieces:
-            cov = np.flatnonzero(mon & (C.track0 <= lo + _TOL) & (C.track1 >= hi - _TOL))
-            r = M.rows(1, 1, np.inf)
-            M.coef(np.full(len(cov), r[0]), x[cov], 1.0)
-
-    # tracked contact per whole UTC day, all stations together (the union, as the rules measure it)
-    if "contact" not in drop:
-        _contact_rows(M, P, C, x, day_extra or {})
-
-    # ranging bookings per whole UTC day: tracked time overlapping the day
-    if "ranging" not in drop:
-        rng = C.services["ranging"]
-        for j in np.flatnonzero(P.day_ranging_need > 0):
-            m0, m1 = P.days[j], P.days[j] + 86400.0
-            sel = np.flatnonzero(rng & (C.track0 < m1) & (C.track1 > m0))
-            r = M.rows(1, P.day_ranging_need[j], np.inf)
-            M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
-
-    # command loads: prime (and backup at another station or pass) commanding before each deadline
-    if "command" not in drop:
-        _command_rows(M, P, C, x)
-
-    # station hours per 7-day block
-    if "week" not in drop:
-        for (i, wk), cap_s in P.week_cap_s.items():
-            w0 = P.week0 + wk * 7 * 86400.0
-            sel = np.flatnonzero(C.station == i)
-            ov = np.maximum(0.0, np.minimum(C.end[sel], w0 + 7 * 86400.0) - np.maximum(C.start[sel], w0))
-            sel, ov = sel[ov > 0], ov[ov > 0]
-            r = M.rows(1, -np.inf, max(cap_s, 0.0) / 3600.0)
-            M.coef(np.full(len(sel), r[0]), x[sel], ov / 3600.0)
-
-    # one transmitter: downlink times of two bookings never overlap (added when the check asks for it)
-    if exclusive:
-        dl = np.flatnonzero(C.downlink & (C.vol > 0))
-        for k in range(K):
-            sel = dl[(C.track0[dl] < b[k] - _TOL) & (C.track1[dl] > a[k] + _TOL)]
-            if len(np.unique(C.station[sel])) > 1:
-                r = M.rows(1, -np.inf, 1)
-                M.coef(np.full(len(sel), r[0]), x[sel], 1.0)
-
-    # recorder: fill at every slot edge, an upper bound of the real fill. A booking's volume leaves at
-    # the first edge after its downlink time begins, never more than is on board then.
-    F = None
-    if math.isfinite(P.capacity) and "recorder" not in drop:
-        cap = max(P.capacity, 0.0)
-        hi = np.where(np.arange(1, K + 1) <= P.fill_end_index, cap, np.inf)
-        F = np.concatenate((M.vars(1, P.fill0, P.fill0, False), M.vars(K, P.gen_gbit_s * length, hi, False)))
-        dl = np.flatnonzero(C.downlink & (C.vol > 1e-9))
-        node = np.clip(np.searchsorted(t, C.track0[dl] - _TOL, side="left"), 0, K - 1)
-        # what is produced during the downlink time goes out with it: that part leaves at the
-        # first edge after the downlink time ends, the rest at the first edge after it begins
-        node_end = np.clip(np.searchsorted(t, C.track1[dl] - _TOL, side="left"), 0, K - 1)
-        during = np.minimum(C.vol[dl], P.gen_gbit_s * (C.track1[dl] - C.track0[dl]))
-        during = np.where(node_end > node, during, 0.0)
-        first = C.vol[dl] - during
-        credit = np.zeros(K, dtype=bool)
-        credit[node] = True
-        credit[node_end[during > 0]] = True
-        credit |= P.lock_data_gbit > 0
-        gen = P.gen_gbit_s * length
-        # edge k: F[k+1] - F[k] + sum(vol x) >= gen - locked   (== gen when nothing can leave there)
-        lo = gen - np.where(P.lock_data_gbit > 0, P.lock_data_gbit, 0.0)
-        rows = M.rows(K, lo, np.where(credit, np.inf, gen))
-        M.coef(rows, F[1:], 1.0)
-        M.coef(rows, F[:-1], -1.0)
-        # no credit beyond the capacity counts (F <= cap): clipping keeps the integer plans, tightens the LP
-        M.coef(rows[node], x[dl], np.minimum(first, cap))
-        late = during > 0
-        M.coef(rows[node_end[late]], x[dl[late]], np.minimum(during[late], cap))
-        # Implied cover rows (same integer solutions, a much closer LP bound): after a downlink the
-        # fill grows by the production rate, so every edge k needs some downlink leaving within the
-        # last cap / production seconds before it (or the start's content to fit), likewise the end.
-        if P.gen_gbit_s > 0 and len(dl):
-            cn = np.where(first > 0, node, node_end)
-            lock_nodes = np.flatnonzero(P.lock_data_gbit > 0)
-            every = max(1, int(round(2 * 3600.0 / max(float(np.median(length)), 1.0))))
-            ks = list(range(every, P.fill_end_index + 1, every)) + [P.fill_end_index]
-            covers = [(kk, cap) for kk in ks]
-            if P.end_max is not None:
-                covers.append((P.fill_end_index, P.end_max))
-            for kk, limit in covers:
-                win = limit / P.gen_gbit_s
-                k_lo = int(np.searchsorted(t, t[kk] - win - _TOL, side="left"))
-                if k_lo == 0 and P.fill0 + P.gen_gbit_s * (t[kk] - t[0]) <= limit + 1e-9:
-                    continue
-                if np.any((lock_nodes >= k_lo) & (lock_nodes < kk)):
-                    continue
-                sel = np.flatnonzero((cn >= k_lo) & (cn < kk))
-                r = M.rows(1, 1, np.inf)
-                M.coef(np.full(len(sel), r[0]), x[dl[sel]], 1.0)
-        # the fill just before the booking's downlink starts is checked at that edge (F[node] <= cap)
-        if P.end_max is not None:
-            r = M.rows(1, -np.inf, P.end_max)
-            M.coef(r, F[P.fill_end_index:P.fill_end_index + 1], 1.0)
-    return M, x, C, F
-
-
-#: HiGHS runs the same way every time: one thread, a fixed seed (its default, made explicit)
-_DETERMINISTIC = {"random_seed": 0, "threads": 1}
-
-
-def _milp(M: _Model, integer: bool, options: dict):
-    """scipy's HiGHS on the model; the options scipy does not name are passed to HiGHS as they are."""
-    import warnings
-
-    from scipy.optimize import Bounds, LinearConstraint, milp
-    from scipy.sparse import csr_array
-
-    c, lb, ub, integ, r, col, v, rlb, rub = M.arrays()
-    cons = []
-    if len(rlb):
-        cons = [LinearConstraint(csr_array((v, (r, col)), shape=(len(rlb), len(c))), rlb, rub)]
-    with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", message="Unrecognized options", category=RuntimeWarning)
-        res = milp(c, integrality=integ if integer else np.zeros_like(integ), bounds=Bounds(lb, ub),
-                   constraints=cons, options={**_DETERMINISTIC, "disp": False, **options})
-    res.hit_time_limit = "time limit" in str(getattr(res, "message", "")).lower()
-    return res
-
-
-def _solve(M: _Model, time_limit_s: float, mip_gap: float = 1e-3, node_limit: int | None = None):
-    """Branch and bound bounded by work (``node_limit`` nodes) and, as a safety net only, by wall time;
-    ``res.hit_time_limit`` says when the wall clock stopped it (then the result may vary with load)."""
-    opts = {"time_limit": float(max(time_limit_s, 0.1)), "mip_rel_gap": float(mip_gap), "presolve": _PRESOLVE}
-    if node_limit is not None:
-        opts["node_limit"] = int(node_limit)
-    return _milp(M, True, opts)
-
-
-def _lp_bound(M: _Model):
-    """The LP relaxation: (objective, x) or (None, None)."""
-    res = _milp(M, False, {})
-    return (res.fun, res.x) if res.x is not None else (None, None)
-
