@@ -104,15 +104,18 @@ def draw_bookings(sc, passes, seed: int = 19) -> list:
     return out
 
 
-def plan_for(days: float, weather: bool = True):
+def plan_for(days: float, weather: bool = True, prepare=None):
     """(PlanResult with bookings drawn, seconds of geometry) for the demo stretched to ``days``
-    (``weather=False``: every link in clear sky at the reference atmosphere)."""
+    (``weather=False``: every link in clear sky at the reference atmosphere; ``prepare(scenario)``
+    runs before the geometry)."""
     from contactplan.plan.pipeline import compute_plan
     from contactplan.scenario.link_planning import LinkPlanning
 
     sc = stretched_scenario(days)
     if not weather:
         sc.link_planning = LinkPlanning(weather=False)
+    if prepare is not None:
+        prepare(sc)
     t0 = time.process_time()
     result = compute_plan(sc)
     geo = time.process_time() - t0

@@ -3,11 +3,10 @@ busy spans never used, minimal change. Invented stations and passes (test data o
 
 from __future__ import annotations
 
-from types import SimpleNamespace
-
 import pytest
 
 from contactplan.plan.drafter import draft, summary_lines
+from contactplan.scenario.model import BusySpan
 from contactplan.timescale import parse_utc
 from test_drafter_cases import make_scenario, passes_and_profiles, station
 
@@ -27,12 +26,12 @@ def cycle():
     sc = make_scenario("2027-01-12T00:00:00Z", "2027-01-13T00:00:00Z",
                        [station("AAA", setup=0, teardown=0), station("BBB", setup=0, teardown=0, cost=0.5)],
                        requirements={"contact_per_day_min_h": 5.0, "booking_min_h": 1.0}, bookings=BOOKINGS)
-    # the statuses, the freeze and the busy time as the network-cycle model gives them (getattr adapters)
+    # the statuses, the freeze and the busy time of the network-cycle model
     for bid, s in (("B001", "confirmed"), ("B002", "requested"), ("B003", "declined"), ("B004", "draft")):
         sc.booking(bid).status = s
-    sc.document.setdefault("scenario", {})["freeze"] = "2027-01-12T05:30:00Z"  # only B004 starts before it
-    sc.station("BBB").busy = [SimpleNamespace(start_tt=parse_utc("2027-01-12T20:00:00Z"),
-                                              end_tt=parse_utc("2027-01-12T23:00:00Z"), source="other user")]
+    sc.freeze_tt = parse_utc("2027-01-12T05:30:00Z")  # [scenario] freeze: only B004 starts before it
+    sc.station("BBB").busy = [BusySpan(start_tt=parse_utc("2027-01-12T20:00:00Z"),
+                                       end_tt=parse_utc("2027-01-12T23:00:00Z"), source="other user")]
     passes, profiles = passes_and_profiles([("AAA", "2027-01-12T05:00:00Z", "2027-01-12T12:00:00Z", 0.0),
                                             ("BBB", "2027-01-12T13:00:00Z", "2027-01-12T23:00:00Z", 0.0)])
     return sc, passes, profiles

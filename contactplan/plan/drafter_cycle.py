@@ -7,14 +7,16 @@
   first minimises the request changes, then station hours. A requested booking proposed again
   unchanged is no change; each added booking and each requested booking dropped is one change.
 
-The booking status, the freeze and the busy spans come from the network-cycle model when it is
-there (``plan/status.py``, ``Station.busy``); until then these adapters read them with defaults.
-Times are TT seconds since J2000 (``_tt``).
+The booking status and the freeze come from :mod:`contactplan.plan.status` (the one reading of
+``[scenario] freeze`` / ``freeze_before_start_h`` the rules use too), the busy spans from
+``Station.busy``. Times are TT seconds since J2000 (``_tt``).
 """
 
 from __future__ import annotations
 
 import numpy as np
+
+from contactplan.plan.status import freeze_tt, status_of, track_start_tt
 
 #: cost-hours charged per request change under minimal change: above any week's station hours
 CHANGE_COST = 1000.0
@@ -25,41 +27,7 @@ GONE = ("declined", "cancelled")
 
 
 def status(booking) -> str:
-    return getattr(booking, "status", "draft") or "draft"
-
-
-def freeze_tt(scenario) -> float | None:
-    """The freeze time (bookings whose track starts before it are frozen), or None."""
-    try:
-        from contactplan.plan.status import freeze_tt as _freeze
-    except ImportError:
-        _freeze = None
-    if _freeze is not None:
-        return _freeze(scenario)
-    sc = (getattr(scenario, "document", None) or {}).get("scenario", {})
-    value = sc.get("freeze")
-    if value is not None:
-        from contactplan.timescale import parse_utc
-
-        try:
-            return float(parse_utc(str(value)))
-        except Exception:  # the loader reports a bad freeze; the drafter then freezes nothing
-            return None
-    before = sc.get("freeze_before_start_h")
-    if isinstance(before, (int, float)) and not isinstance(before, bool):
-        return float(scenario.start_tt) + 3600.0 * float(before)
-    return None
-
-
-def is_frozen(scenario, booking, freeze=None) -> bool:
-    freeze = freeze_tt(scenario) if freeze is None else freeze
-    if freeze is None:
-        return False
-    try:
-        pre = scenario.station(booking.station).pre_pass_min * 60.0
-    except KeyError:
-        pre = 0.0
-    return booking.start_tt + pre < freeze
+    return status_of(booking)
 
 
 def split_bookings(scenario, in_range):
@@ -74,7 +42,7 @@ def split_bookings(scenario, in_range):
             if s == "declined":
                 taken.append((bk.station, bk.start_tt, bk.end_tt))
             continue
-        if bk.locked or not in_range(bk) or s == "confirmed" or is_frozen(scenario, bk, freeze):
+        if bk.locked or not in_range(bk) or s == "confirmed" or (freeze is not None and track_start_tt(scenario, bk) < freeze):
             keeps.append(bk)
         else:
             removed.append(bk)
