@@ -262,6 +262,7 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
 
     attempt_box = [0]
     margin = 0.0
+    end_margin = 0.0  # Gbit asked below recorder_end_max_gbit after a check found the end fill high
     exclusive = False
     day_extra: dict = {}
     notes: list = []
@@ -270,7 +271,8 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
         attempt_box[0] = attempt
         tick(0.0)
         P, keeps, removed = _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, margin,
-                                        float(recorder_limit), link_profiles=link_profiles)
+                                        float(recorder_limit), link_profiles=link_profiles,
+                                        end_margin_gbit=end_margin)
         if P.tracking is not None:
             P.tracking.soft = bool(best_effort)
         P.minimal_change = wants_minimal_change(scenario, minimal_change)
@@ -349,6 +351,14 @@ def draft(scenario, result=None, start_tt=None, end_tt=None, time_limit_s=60.0, 
             else:  # last resort: downlink times of two bookings never overlap
                 exclusive = True
                 notes.append(f"the recorder check lost {lost:.2f} Gbit: solved again with one downlink at a time")
+            again = True
+        end_max = scenario.requirements.recorder_end_max_gbit
+        if (P.end_max is not None and end_max is not None and out.recorder_end_gbit is not None
+                and any(f.rule == "recorder-end" for f in findings)):
+            excess = out.recorder_end_gbit - end_max  # the model's fill (slot volumes) ran a little low
+            end_margin += max(excess, 0.0) + 0.5
+            notes.append(f"the recorder check left {excess:.2f} Gbit too much on board at the end: solved again "
+                         f"asking {end_margin:.1f} Gbit less")
             again = True
         short_days = [f for f in findings if f.rule == "contact-per-day"]
         for f in short_days:

@@ -237,7 +237,7 @@ def _grid(scenario, model_start, model_end, d_start, d_end, grid_s, passes, keep
 
 
 def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margin_gbit=0.0, fill_fraction=1.0,
-                link_profiles=None):
+                link_profiles=None, end_margin_gbit=0.0):
     from contactplan.link.services import offers
     from contactplan.plan.drafter_cycle import REQUESTED, split_bookings, status
     from contactplan.plan.drafter_tracking import tracking_plan
@@ -423,6 +423,8 @@ def _build_plan(scenario, passes, profiles, d_start, d_end, grid_min, fill_margi
     else:
         fill0, cap, gen = 0.0, math.inf, 0.0
     end_max = req.recorder_end_max_gbit if (rec is not None and d_end >= scenario.end_tt - 1.0) else None
+    if end_max is not None:  # tightened after a check found the model's end fill a little low
+        end_max = max(0.0, end_max - end_margin_gbit)
     end_idx = int(np.searchsorted(t, d_end - _TOL, side="right"))
     cap_eff = cap * fill_fraction - FILL_GUARD_GBIT - fill_margin_gbit if math.isfinite(cap) else cap
     min_s = np.maximum((req.booking_min_h or 0.0) * 3600.0, pre_s + post_s + 60.0)
