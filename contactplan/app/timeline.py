@@ -28,6 +28,7 @@ class Timeline(pg.GraphicsLayoutWidget):
     """The lanes, the recorder strip and the elevation strip on one UTC time axis."""
 
     editPurposesRequested = Signal(str)  # booking id
+    editSpanRequested = Signal(str, object)  # ("outage" or "busy", the span): edit it in Properties
 
     def __init__(self, doc, parent=None):
         super().__init__(parent)
