@@ -123,8 +123,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self.drag_label = ""  # what the drag preview says (start - end and length)
         self.findings_stale = False  # True while a newer state is being checked: outlines faded
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
-        self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
-                                                    max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
+        self._activity_index = SpanIndex(activity_span, activity_arrays)
         # stations and activities change far less often than bookings: their index is rebuilt only
         # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
         self.records_revision = 0
@@ -559,6 +558,35 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
     def show_finding_span(self, span) -> None:
         self._finding_span = span
         self.update()
+
+
+def activity_span(a) -> tuple[float, float]:
+    """Where an activity shows on the lanes: its keep-out and its monitored span together."""
+    return (min(a.keepout_span_tt[0], a.monitor_span_tt[0]), max(a.keepout_span_tt[1], a.monitor_span_tt[1]))
+
+
+def activity_arrays(acts) -> tuple:
+    """:func:`activity_span` of every activity and the columns the dense lane paints (keep-out, whether it
+    is shown, the kind's colour code), from arrays: a few attribute reads per activity, no property calls."""
+    from contactplan.app.lanepaint import ACTIVITY_KINDS
+
+    n = len(acts)
+
+    def col(name):
+        return np.fromiter((getattr(a, name) for a in acts), dtype=float, count=n)
+
+    start, dur = col("start_tt"), col("duration_min") * 60.0
+    before, after, keep = col("monitor_before_min") * 60.0, col("monitor_after_min") * 60.0, \
+        col("downlink_keepout_min") * 60.0
+    kinds = [a.kind for a in acts]
+    end = start + dur
+    k0, k1 = start - keep, end + keep
+    lo = np.minimum(k0, start - before)
+    hi = np.maximum(k1, end + after)
+    is_burn = np.fromiter((k == "burn" for k in kinds), dtype=bool, count=n)
+    columns = {"start": start, "end": end, "keepout_start": k0, "keepout_end": k1, "keepout_shown": ((keep > 0) | is_burn).astype(float),
+               "kind": np.fromiter((ACTIVITY_KINDS.get(k, 0) for k in kinds), dtype=float, count=n)}
+    return lo, hi, columns
 
 
 def _hm(tt: float) -> str:
