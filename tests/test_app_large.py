@@ -82,6 +82,28 @@ def test_the_filter_matched_by_qt_keeps_the_rows_the_python_filter_kept(doc):
          "note 28", "note 29"]
 
 
+def _painted(add, x_range=(0.0, 100.0), y_range=(0.0, 12.0), size=(400, 120)) -> np.ndarray:
+    """[row, column] of a plot's view, True where something is painted: ``add(plot)`` adds the items."""
+    import pyqtgraph as pg
+
+    w = pg.PlotWidget()
+    w.resize(*size)
+    w.hideAxis("left")
+    w.hideAxis("bottom")
+    w.setBackground("w")
+    w.setXRange(*x_range, padding=0)
+    w.setYRange(*y_range, padding=0)
+    plot = w.getPlotItem()
+    add(plot)
+    img = w.grab().toImage()
+    vb = plot.getViewBox()
+    r = vb.sceneBoundingRect()
+    x0, x1, y0, y1 = int(r.left()) + 2, int(r.right()) - 2, int(r.top()) + 2, int(r.bottom()) - 2
+    out = np.array([[img.pixelColor(x, y).rgb() != 0xFFFFFFFF for x in range(x0, x1)] for y in range(y0, y1)])
+    w.close()
+    return out
+
+
 def _hatched_columns(spans_h, dense: bool) -> np.ndarray:
     """Per pixel column of a recorder-like plot, whether overflow hatch shows, drawn the plain way
     (a region and a bar per span, as the strip does for a few) or by OverflowMarks."""
@@ -92,32 +114,49 @@ def _hatched_columns(spans_h, dense: bool) -> np.ndarray:
     from contactplan.app.overflowmarks import OverflowMarks
 
     th = theme.current()
-    w = pg.PlotWidget()
-    w.resize(400, 120)
-    w.hideAxis("left")
-    w.hideAxis("bottom")
-    w.setBackground("w")
-    w.setXRange(0, 100, padding=0)
-    w.setYRange(0, 12, padding=0)
-    plot = w.getPlotItem()
-    if dense:
-        plot.addItem(OverflowMarks(spans_h, 10.0, th), ignoreBounds=True)
-    else:
+
+    def add(plot):
+        if dense:
+            plot.addItem(OverflowMarks(spans_h, 10.0, th), ignoreBounds=True)
+            return
         for x0, x1, _lost in spans_h:
             plot.addItem(pg.LinearRegionItem(values=(x0, x1), movable=False,
                                              brush=QBrush(th.overflow, Qt.BrushStyle.DiagCrossPattern),
                                              pen=pg.mkPen(th.capacity, width=1)), ignoreBounds=True)
             plot.addItem(pg.PlotDataItem([x0, x1], [10.0, 10.0], pen=pg.mkPen(th.capacity, width=5)),
                          ignoreBounds=True)
-    img = w.grab().toImage()
-    vb = plot.getViewBox()
-    left = int(round(vb.mapViewToDevice(pg.Point(0, 0)).x()))
-    right = int(round(vb.mapViewToDevice(pg.Point(100, 0)).x()))
-    cols = []
-    for x in range(left + 1, right - 1):
-        cols.append(any(img.pixelColor(x, y).rgb() != 0xFFFFFFFF for y in range(5, img.height() - 5)))
-    w.close()
-    return np.array(cols)
+
+    return _painted(add).any(axis=0)
+
+
+def test_the_band_at_screen_resolution_covers_the_pixels_of_the_whole_fill(qapp):
+    import pyqtgraph as pg
+    from PySide6.QtGui import QColor
+
+    from contactplan.app.forecastband import BandItem
+
+    colour = QColor(40, 90, 200, 255)
+    for n in (60, 20000):  # fewer samples than pixel columns, and many more (the band then decimated)
+        x = np.linspace(0.0, 100.0, n)
+        low = 3.0 + 2.0 * np.sin(x / 7.0)
+        high = low + 2.0 + np.abs(np.sin(x / 3.0))
+
+        def fill(plot):
+            a, b = pg.PlotDataItem(x, low, pen=pg.mkPen(None)), pg.PlotDataItem(x, high, pen=pg.mkPen(None))
+            plot.addItem(a)
+            plot.addItem(b)
+            plot.addItem(pg.FillBetweenItem(a, b, brush=colour))
+
+        def band(plot):
+            item = BandItem(x, low, high, colour)
+            plot.addItem(item)
+            band.item = item
+
+        before, after = _painted(fill), _painted(band)
+        assert before.sum() > 1000
+        differ = (before != after).sum() / before.sum()
+        assert differ < 0.03, (n, differ)  # edge pixels only
+        assert band.item.points_drawn <= 2 * 2 * 400 + 4
 
 
 def test_many_overflows_paint_the_columns_the_items_painted(qapp):
