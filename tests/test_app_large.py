@@ -190,3 +190,12 @@ def test_the_strip_takes_one_item_for_many_overflows(qapp, doc):
     tl._findings_changed()
     assert len(tl.overflow_items) == 6  # a few: a region, a bar and a label each, as before
     tl.close()
+
+
+def test_the_gui_thread_waits_little_for_the_worker_s_gil(qapp):
+    import sys
+
+    from contactplan.app.main import SWITCH_INTERVAL_S, application
+
+    application()
+    assert sys.getswitchinterval() <= SWITCH_INTERVAL_S
