@@ -157,7 +157,20 @@ class StallSampler:
         self.hb = heartbeat
         self.main = threading.main_thread().ident
         self.on = False
+        self.gc_worst = (0.0, -1)  # longest garbage collection while on: (ms, generation)
+        self._gc_t0 = None
+        import gc
+
+        gc.callbacks.append(self._gc)
         threading.Thread(target=self._watch, daemon=True).start()
+
+    def _gc(self, phase, info):
+        if phase == "start":
+            self._gc_t0 = time.perf_counter()
+        elif self._gc_t0 is not None and self.on:
+            ms = (time.perf_counter() - self._gc_t0) * 1000.0
+            if ms > self.gc_worst[0]:
+                self.gc_worst = (ms, info.get("generation", -1))
 
     def _watch(self):
         current: list = []  # stacks of the stall in progress
@@ -183,6 +196,8 @@ class StallSampler:
 
     def report(self, label: str, most: int = 10) -> None:
         stacks, self.longest = self.longest, []
+        (gc_ms, gen), self.gc_worst = self.gc_worst, (0.0, -1)
+        print(f"  the longest garbage collection: {gc_ms:.0f} ms (generation {gen})")
         if stacks:
             counts: dict = {}
             for st in stacks:

@@ -58,7 +58,7 @@ def test_the_csv_reader_takes_what_the_csv_writer_gives():
     from contactplan.errors import InputError
     from contactplan.io.busy_times import read_csv_spans
 
-    starts = st.integers(0, 364 * 24 - 2)
+    starts = st.integers(0, 364 * 24 - 49)  # (ends stay inside 2027: at most 48 h later)
     notes = st.text(st.characters(whitelist_categories=("L", "N"), whitelist_characters=" -,"), max_size=20)
 
     @settings(max_examples=30, deadline=None)

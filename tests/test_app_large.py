@@ -199,3 +199,21 @@ def test_the_gui_thread_waits_little_for_the_worker_s_gil(qapp):
 
     application()
     assert sys.getswitchinterval() <= SWITCH_INTERVAL_S
+
+
+def test_a_document_arriving_freezes_the_heap_and_a_check_pauses_the_collector(qapp):
+    import gc
+
+    from contactplan.app.checking import collector_paused, settle_heap
+
+    gc.unfreeze()
+    settle_heap()
+    assert gc.get_freeze_count() > 0
+    gc.unfreeze()
+    was = gc.isenabled()
+    with collector_paused():
+        with collector_paused():  # counted: the inner end does not bring it back
+            pass
+        assert not gc.isenabled()
+    assert gc.isenabled() == was
+    gc.unfreeze()

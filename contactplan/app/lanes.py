@@ -570,15 +570,17 @@ def activity_arrays(acts) -> tuple:
     is shown, the kind's colour code), from arrays: a few attribute reads per activity, no property calls."""
     from contactplan.app.lanepaint import ACTIVITY_KINDS
 
+    from operator import attrgetter
+
     n = len(acts)
 
     def col(name):
-        return np.fromiter((getattr(a, name) for a in acts), dtype=float, count=n)
+        return np.fromiter(map(attrgetter(name), acts), dtype=float, count=n)
 
     start, dur = col("start_tt"), col("duration_min") * 60.0
     before, after, keep = col("monitor_before_min") * 60.0, col("monitor_after_min") * 60.0, \
         col("downlink_keepout_min") * 60.0
-    kinds = [a.kind for a in acts]
+    kinds = list(map(attrgetter("kind"), acts))
     end = start + dur
     k0, k1 = start - keep, end + keep
     lo = np.minimum(k0, start - before)
