@@ -54,9 +54,6 @@ class BandItem(pg.GraphicsObject):
         return x, low, high
 
     def paint(self, painter, option, widget=None):
-        from PySide6.QtCore import QPointF
-        from PySide6.QtGui import QPolygonF
-
         vb = self.getViewBox()
         if vb is None or len(self.x) < 2:
             return
@@ -67,9 +64,14 @@ class BandItem(pg.GraphicsObject):
         if len(x) < 2:
             self.points_drawn = 0
             return
-        xs = np.concatenate((x, x[::-1])).tolist()
-        ys = np.concatenate((high, low[::-1])).tolist()
-        poly = QPolygonF([QPointF(a, b) for a, b in zip(xs, ys)])
+        from pyqtgraph import functions as fn
+
+        xs = np.concatenate((x, x[::-1]))
+        ys = np.concatenate((high, low[::-1]))
+        poly = fn.create_qpolygonf(len(xs))  # filled through numpy: no QPointF per vertex
+        arr = fn.ndarray_from_qpolygonf(poly)
+        arr[:, 0] = xs
+        arr[:, 1] = ys
         painter.setPen(Qt.PenStyle.NoPen)
         painter.setBrush(self.brush)
         painter.drawPolygon(poly)

@@ -92,8 +92,11 @@ class SpanIndex:
         per findings index (identity of ``by_subject``) and build."""
         key, col = self._severity
         if key is not by_subject or col is None or len(col) != len(self._records):
-            col = np.fromiter((by_subject.get(r.id, 0) for r in self._records), dtype=np.int8,
-                              count=len(self._records))
+            from itertools import repeat
+            from operator import attrgetter
+
+            ids = map(attrgetter("id"), self._records)  # (C-level maps: no Python frame per record)
+            col = np.fromiter(map(by_subject.get, ids, repeat(0)), dtype=np.int8, count=len(self._records))
             self._severity = (by_subject, col)
         return col
 
