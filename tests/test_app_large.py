@@ -168,12 +168,13 @@ def test_many_overflows_paint_the_columns_the_items_painted(qapp):
     assert all(np.min(np.abs(edges - d)) <= 1 for d in differ)  # at most a pixel off, at a span's edge
 
 
-def test_the_strip_takes_one_item_for_many_overflows(qapp, doc):
+def test_the_strip_takes_one_item_for_many_overflows(qtbot, doc):
     from contactplan.app.overflowmarks import ITEMS_MAX, OverflowMarks
     from contactplan.app.timeline import Timeline
     from contactplan.link.profiles import RecorderResult
 
     tl = Timeline(doc)
+    qtbot.addWidget(tl)  # (deleted at the end: its clock timer must not outlive the test)
     t0 = doc.scenario.start_tt
     spans = [(t0 + 600.0 * i, t0 + 600.0 * i + 300.0, 0.5) for i in range(ITEMS_MAX + 10)]
     t = np.array([t0, t0 + 86400.0])
@@ -189,7 +190,6 @@ def test_the_strip_takes_one_item_for_many_overflows(qapp, doc):
     doc.result.recorder.overflow_spans = spans[:2]
     tl._findings_changed()
     assert len(tl.overflow_items) == 6  # a few: a region, a bar and a label each, as before
-    tl.close()
 
 
 def test_the_gui_thread_waits_little_for_the_worker_s_gil(qapp):

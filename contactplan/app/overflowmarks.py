@@ -46,7 +46,7 @@ class OverflowMarks(pg.GraphicsObject):
 
     def in_view(self, x_lo: float, x_hi: float) -> np.ndarray:
         """Positions of the spans overlapping [x_lo, x_hi] (hours)."""
-        i0 = int(np.searchsorted(self.x0, x_lo - self.longest, side="left"))
+        i0 = int(np.searchsorted(self.x0, x_lo - self.longest * (1 + 1e-9) - 1e-9 * abs(x_lo), side="left"))
         i1 = int(np.searchsorted(self.x0, x_hi, side="right"))
         return i0 + np.nonzero(self.x1[i0:i1] >= x_lo)[0] if i1 > i0 else np.empty(0, dtype=np.intp)
 

@@ -60,7 +60,9 @@ class SpanIndex:
         self._build(records, revision)
         if not self._records:
             return np.empty(0, dtype=np.intp)
-        i0 = int(np.searchsorted(self._start, t_lo - self._longest, side="left"))
+        # (a margin for rounding: end - start may round to a hair less than the record's reach)
+        i0 = int(np.searchsorted(self._start, t_lo - self._longest * (1 + 1e-9) - 1e-9 * abs(t_lo),
+                                 side="left"))
         i1 = int(np.searchsorted(self._start, t_hi, side="right"))
         if i1 <= i0:
             return np.empty(0, dtype=np.intp)

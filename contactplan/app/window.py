@@ -660,6 +660,9 @@ class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
         self.settings.setValue("window/state", self.saveState())
         self.autosave_timer.stop()
         self.autosaver.clear()
+        import gc
+
+        gc.unfreeze()  # what the plan froze out of the collector's rounds (checking.settle_heap) may go now
         ev.accept()
 
 
