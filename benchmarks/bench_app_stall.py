@@ -18,7 +18,10 @@ bookings, the demo week with 50,000 burns, and a station whose horizon mask has
 editor (passes computed again in the worker). "Opening" is the whole path the File menu takes: read the file,
 compute in the worker, hand the result to the views, check in the worker.
 
-    QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_app_stall.py [--large-only]
+    QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_app_stall.py [--large-only] [--profile]
+
+``--profile`` samples the GUI thread's stack while the heartbeat is late and prints, after each
+figure, the functions the stalls were spent in.
 """
 
 from __future__ import annotations
@@ -141,6 +144,70 @@ def main() -> int:
     return 0 if ok and ok_ui and ok_draft and ok_large else 1
 
 
+class StallSampler:
+    """With ``--profile``: a watchdog thread that, every 2 ms while the heartbeat is over 20 ms late, reads
+    the GUI thread's stack (``sys._current_frames``) and counts its frames; :meth:`report` prints the
+    functions seen most often (where the stalls are spent). Samples, not timings: compare shapes."""
+
+    LATE_MS = 20.0
+
+    def __init__(self, heartbeat):
+        import threading
+
+        self.hb = heartbeat
+        self.main = threading.main_thread().ident
+        self.on = False
+        self.gc_worst = (0.0, -1)  # longest garbage collection while on: (ms, generation)
+        self._gc_t0 = None
+        import gc
+
+        gc.callbacks.append(self._gc)
+        threading.Thread(target=self._watch, daemon=True).start()
+
+    def _gc(self, phase, info):
+        if phase == "start":
+            self._gc_t0 = time.perf_counter()
+        elif self._gc_t0 is not None and self.on:
+            ms = (time.perf_counter() - self._gc_t0) * 1000.0
+            if ms > self.gc_worst[0]:
+                self.gc_worst = (ms, info.get("generation", -1))
+
+    def _watch(self):
+        current: list = []  # stacks of the stall in progress
+        while True:
+            time.sleep(0.002)
+            hb = self.hb
+            late = self.on and hb.last is not None and hb.clock.nsecsElapsed() / 1e6 - hb.last >= self.LATE_MS
+            if not late:
+                if len(current) > len(self.longest):
+                    self.longest = current
+                current = []
+                continue
+            frame = sys._current_frames().get(self.main)
+            stack = []
+            while frame is not None:
+                code = frame.f_code
+                if "bench_app_stall" not in code.co_filename:
+                    stack.append(f"{Path(code.co_filename).name}:{code.co_name}")
+                frame = frame.f_back
+            current.append(stack)
+
+    longest: list = []
+
+    def report(self, label: str, most: int = 10) -> None:
+        stacks, self.longest = self.longest, []
+        (gc_ms, gen), self.gc_worst = self.gc_worst, (0.0, -1)
+        print(f"  the longest garbage collection: {gc_ms:.0f} ms (generation {gen})")
+        if stacks:
+            counts: dict = {}
+            for st in stacks:
+                for key in dict.fromkeys(st):
+                    counts[key] = counts.get(key, 0) + 1
+            top = sorted(counts.items(), key=lambda kv: -kv[1])[:most]
+            print(f"  the longest stall, {len(stacks)} samples: " +
+                  "; ".join(f"{k} {100 * v / len(stacks):.0f}%" for k, v in top))
+
+
 class Heartbeat:
     """A PERIOD_MS QTimer in the GUI thread; ``worst`` is the longest gap less the period (ms)."""
 
@@ -153,6 +220,7 @@ class Heartbeat:
         self.timer.timeout.connect(self._beat)
         self.last = None
         self.worst = 0.0
+        self.sampler = StallSampler(self) if "--profile" in sys.argv else None
 
     def _beat(self):
         now = self.clock.nsecsElapsed() / 1e6
@@ -169,6 +237,8 @@ class Heartbeat:
         app.processEvents()
         t0 = time.perf_counter()
         self.last = self.clock.nsecsElapsed() / 1e6  # the action's own time counts as a stall
+        if self.sampler is not None:
+            self.sampler.on = True
         action()
         while not until() and time.perf_counter() - t0 < timeout_s:
             app.processEvents()
@@ -178,13 +248,17 @@ class Heartbeat:
             app.processEvents()
             time.sleep(0.005)
         self.timer.stop()
+        if self.sampler is not None:
+            self.sampler.on = False
         return self.worst, wall
 
 
-def _verdict(label: str, stall_ms: float) -> bool:
+def _verdict(label: str, stall_ms: float, hb=None) -> bool:
     ok = stall_ms < TARGET_MS
     print(f"{label}: longest stall {stall_ms:.1f} ms wall {CPUS} (target < {TARGET_MS:.0f} ms) "
           f"{'OK' if ok else 'OVER TARGET'}")
+    if hb is not None and hb.sampler is not None:
+        hb.sampler.report(label)
     return ok
 
 
@@ -262,7 +336,7 @@ def _open(app, win, hb, path: Path, label: str):
     n_a = len(win.doc.scenario.activities)
     print(f"{label}: opened ({n_b} bookings, {n_a} activities, {len(win.doc.result.passes)} passes, "
           f"{len(win.doc.findings)} findings) in {wall:.1f} s wall")
-    return _verdict(f"{label}, opening", stall)
+    return _verdict(f"{label}, opening", stall, hb)
 
 
 def _edit(app, win, hb, label: str, action) -> bool:
@@ -286,7 +360,7 @@ def _edit(app, win, hb, label: str, action) -> bool:
     ok_late = late_ms < 200.0
     print(f"{label}: findings {late_ms:.0f} ms after the edit beyond the check's {check_s * 1000:.0f} ms in the "
           f"worker {CPUS} (target < 200 ms) {'OK' if ok_late else 'OVER TARGET'}")
-    return _verdict(label, stall) and ok_late
+    return _verdict(label, stall, hb) and ok_late
 
 
 def _mask_edit(app, win, hb, path: Path) -> bool:
@@ -306,14 +380,22 @@ def _mask_edit(app, win, hb, path: Path) -> bool:
 
     stall, wall = hb.measure(app, edit, recomputed)
     print(f"year with 700 bookings: a station's mask edited, passes computed again in {wall:.1f} s wall")
-    ok &= _verdict("year with 700 bookings, a station's mask edited", stall)
+    ok &= _verdict("year with 700 bookings, a station's mask edited", stall, hb)
     doc.undo_stack.setClean()
     return ok
+
+
+def _only() -> str | None:
+    """``--only=TEXT``: run only the large plans whose label holds TEXT (while working on one)."""
+    return next((a.split("=", 1)[1] for a in sys.argv if a.startswith("--only=")), None)
 
 
 def large_plans(app, win, tmp: Path) -> bool:
     hb = Heartbeat()
     ok = True
+    only = _only()
+    if only is not None:
+        return _large_weeks(app, win, hb, tmp, only)
     year = _save(_year_with_bookings(2000), tmp / "year.toml")
     ok &= _open(app, win, hb, year, "year with bookings")
     doc = win.doc
@@ -324,9 +406,17 @@ def large_plans(app, win, tmp: Path) -> bool:
     ok &= _edit(app, win, hb, "year: that edit undone", doc.undo_stack.undo)
     doc.undo_stack.setClean()
     ok &= _mask_edit(app, win, hb, _save(_year_with_bookings(700), tmp / "year-700.toml"))
+    return bool(ok & _large_weeks(app, win, hb, tmp))
+
+
+def _large_weeks(app, win, hb, tmp: Path, only: str | None = None) -> bool:
+    ok = True
+    doc = win.doc
     for label, kw in (("week with 3000 bookings", {"bookings": 3000}),
                       ("week with 50,000 burns", {"burns": 50000}),
                       ("station mask of 10^5 points", {"mask_points": 100000})):
+        if only is not None and only not in label:
+            continue
         path = _save(_week_with(**kw), tmp / (label.replace(" ", "-").replace(",", "").replace("^", "") + ".toml"))
         ok &= _open(app, win, hb, path, label)
         sc = doc.scenario

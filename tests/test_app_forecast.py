@@ -44,7 +44,9 @@ def test_strip_draws_the_band_after_the_background_check(qtbot, tmp_path, demo_p
         assert fc is not None and fc.overflow_probability_pct == demo_plan.forecast.overflow_probability_pct
         win.timeline._findings_changed()
         items = win.timeline.overflow_items
-        bands = [it for it in items if isinstance(it, pg.FillBetweenItem)]
+        from contactplan.app.forecastband import BandItem
+
+        bands = [it for it in items if isinstance(it, BandItem)]
         assert len(bands) == 1 and "Overflow probability" in bands[0].toolTip()
         lines = [it for it in items if isinstance(it, pg.PlotDataItem) and it.toolTip()]
         assert len(lines) == 1  # the clear-sky line
@@ -52,7 +54,7 @@ def test_strip_draws_the_band_after_the_background_check(qtbot, tmp_path, demo_p
         assert y.tolist() == pytest.approx(fc.clear_gbit.tolist())
         # a refresh replaces them (no pile-up)
         win.timeline._findings_changed()
-        assert sum(isinstance(it, pg.FillBetweenItem) for it in win.timeline.overflow_items) == 1
+        assert sum(isinstance(it, BandItem) for it in win.timeline.overflow_items) == 1
     finally:
         win.cancel_job(wait=True)
 

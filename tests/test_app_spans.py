@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 pytest.importorskip("PySide6")
@@ -27,6 +27,7 @@ spans = st.lists(st.tuples(st.floats(-1e4, 1e4), st.floats(0.0, 500.0)), max_siz
 
 @settings(max_examples=80, deadline=None)
 @given(spans, st.floats(-1.2e4, 1.2e4), st.floats(0.0, 5e3), st.sets(st.integers(0, 59)), st.sets(st.integers(0, 59)))
+@example([(-3.93123605702665e-134, 1.0)], 1.0, 0.0, set(), set())  # end - start rounds below the reach
 def test_index_arrays_equal_a_brute_force_scan(items, lo, width, errors, warnings):
     recs = [_Rec(i, a, a + d) for i, (a, d) in enumerate(items)]
     hi = lo + width

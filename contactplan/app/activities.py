@@ -8,7 +8,7 @@ activities (docs/scenario.md, ``[[activity_series]]``).
 
 from __future__ import annotations
 
-from contactplan.app import records
+from contactplan.app import records, stationspans
 from contactplan.app.document import NOTHING, Selection
 from contactplan.app.forms import Key
 from contactplan.scenario.model import ACTIVITY_KINDS
@@ -142,51 +142,26 @@ def series_of(sc, act):
     return next((s for s in sc.series if s.id == act.series), None) if act.series else None
 
 
-# ---------------------------------------------------------------- outages
+# ---------------------------------------------------------------- outages (app/stationspans.py)
 def station_of_outage(sc, outage):
-    return next((st for st in sc.stations if any(o is outage for o in st.outages)), None)
-
-
-def _set_outages(doc, st, outage_tables: list, text: str):
-    from contactplan.app.records import read_station, station_table
-
-    d = station_table(st)
-    d["outages"] = outage_tables
-    new = read_station(d, doc.scenario)
-    records.push(doc, text, [(st, {"outages": new.outages})])
-    return new.outages
+    return stationspans.station_of(sc, "outage", outage)
 
 
 def add_outage(doc, station_id: str, start_tt: float, end_tt: float, reason: str = ""):
     """A new outage at a station (InputError when the loader refuses it); returns the Outage."""
-    st = doc.scenario.station(station_id)
-    tables = [records.encode_record(o) for o in st.outages]
-    tables.append({"start": format_time(start_tt), "end": format_time(end_tt), "reason": reason})
-    made = _set_outages(doc, st, tables, f"Outage at {st.id}")
-    doc.select(Selection("outage", made[-1]))
-    return made[-1]
+    return stationspans.add_span(doc, "outage", station_id, start_tt, end_tt, reason)
 
 
 def edit_outage(doc, outage, table: dict):
-    sc = doc.scenario
-    st = station_of_outage(sc, outage)
-    tables = [table if o is outage else records.encode_record(o) for o in st.outages]
-    made = _set_outages(doc, st, tables, f"Change an outage at {st.id}")
-    new = made[next(i for i, t in enumerate(tables) if t is table)]
-    doc.select(Selection("outage", new))
-    return new
+    return stationspans.edit_span(doc, "outage", outage, table)
 
 
 def delete_outage(doc, outage) -> None:
-    st = station_of_outage(doc.scenario, outage)
-    if st is None:
-        return
-    records.push(doc, f"Delete an outage at {st.id}", [(st, {"outages": [o for o in st.outages if o is not outage]})])
-    doc.select(NOTHING)
+    stationspans.delete_span(doc, "outage", outage)
 
 
 def delete_selected(doc) -> bool:
-    """Delete what is selected (a booking, an activity or an outage); False when nothing was."""
+    """Delete what is selected (a booking, an activity, an outage or a busy span); False when nothing was."""
     sel, sc = doc.selection, doc.scenario
     if sc is None:
         return False
@@ -200,7 +175,7 @@ def delete_selected(doc) -> bool:
         except KeyError:
             return False
         return True
-    if sel.kind == "outage" and station_of_outage(sc, sel.key) is not None:
-        delete_outage(doc, sel.key)
+    if sel.kind in stationspans.KINDS and stationspans.station_of(sc, sel.kind, sel.key) is not None:
+        stationspans.delete_span(doc, sel.kind, sel.key)
         return True
     return False

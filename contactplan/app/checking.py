@@ -81,6 +81,51 @@ def index_findings(findings) -> FindingsIndex:
     return FindingsIndex(found, ordered, by_subject, sum(f.severity == "error" for f in found), severity)
 
 
+def settle_heap() -> None:
+    """Take every object alive now out of the cyclic collector's rounds (``gc.freeze``).
+
+    A plan of 50,000 burns is millions of objects; each full collection walks them all,
+    holding the GIL for up to half a second, in whichever thread allocated last (mostly
+    the worker), and the event loop waits that long. Called when a scenario, a computed
+    result or a check arrives, so a collection only walks what was made since. Frozen
+    objects are still freed by reference counting (records, passes and findings hold no
+    cycles); cyclic garbage made before a freeze is kept until the planner closes.
+    """
+    import gc
+
+    gc.freeze()
+
+
+_PAUSE = {"n": 0}
+_PAUSE_LOCK = __import__("threading").Lock()
+
+
+class collector_paused:
+    """No automatic cyclic collection while a check runs in the worker (counted; the collector comes back
+    when the last one ends). A check makes and drops hundreds of thousands of objects (none cyclic: they
+    go by reference counting); a full collection in the middle of it would walk them holding the GIL.
+    What the check keeps is frozen by :func:`settle_heap` when it arrives."""
+
+    def __enter__(self):
+        import gc
+
+        with _PAUSE_LOCK:
+            _PAUSE["n"] += 1
+            _PAUSE["was"] = gc.isenabled() if _PAUSE["n"] == 1 else _PAUSE.get("was", True)
+            gc.disable()
+        return self
+
+    def __exit__(self, *exc):
+        import gc
+
+        with _PAUSE_LOCK:
+            _PAUSE["n"] -= 1
+            if _PAUSE["n"] == 0 and _PAUSE.get("was", True):
+                gc.freeze()  # what the check made and keeps: not walked again (see settle_heap)
+                gc.enable()
+        return False
+
+
 class BackgroundCheck(QObject):
     """Runs ``check_fn(snapshot)`` in a worker thread for the newest request; ``finished`` delivers it."""
 
@@ -152,8 +197,9 @@ class BackgroundCheck(QObject):
         t0 = time.perf_counter()
 
         def work(_progress, _cancel):
-            out = fn(snap) or snap
-            return out, index_findings(out.findings)
+            with collector_paused():
+                out = fn(snap) or snap
+                return out, index_findings(out.findings)
 
         job = Job("Check", work, self)
         self._job = job

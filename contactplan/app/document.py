@@ -117,7 +117,14 @@ class PlanDocument(QObject):
             result = PlanResult(scenario=scenario, ephemeris=None)
         self.result = result
         self.scenarioReplaced.emit()
+        self._settle()
         self.recheck()
+
+    def _settle(self) -> None:
+        if self.background is not None:  # the planner's document: large plans, a worker
+            from contactplan.app.checking import settle_heap
+
+            settle_heap()
 
     def set_result(self, result, revision: int | None = None, index=None) -> None:
         """A freshly computed PlanResult for the current scenario (bookings stay as edited).
@@ -132,6 +139,7 @@ class PlanDocument(QObject):
         self.stale = False
         self.passesStale.emit(False)
         self.resultChanged.emit()
+        self._settle()
         if revision is not None and revision == self.revision and result.findings is not None:
             if self.background is not None:
                 self.background.supersede()  # a check of an older result would only overwrite these
@@ -193,6 +201,7 @@ class PlanDocument(QObject):
             self.message.emit(self.check_error)
         self.last_check_s = seconds
         self.findingsChanged.emit()
+        self._settle()
 
     def findings_index(self):
         """The :class:`~contactplan.app.checking.FindingsIndex` of the current findings (made in the

@@ -131,7 +131,11 @@ class LanePainter:
             for sp in getattr(st, "busy", None) or ():
                 if sp.end_tt < t_lo or sp.start_tt > t_hi:
                     continue
-                painter.fillRect(rect(sp.start_tt, sp.end_tt, i + 0.04, i + 0.96), busy)
+                r = rect(sp.start_tt, sp.end_tt, i + 0.04, i + 0.96)
+                painter.fillRect(r, busy)
+                if self.doc.selection.kind == "busy" and self.doc.selection.key is sp:
+                    painter.setPen(QPen(th.selection, 1.5, Qt.PenStyle.DotLine))
+                    painter.drawRect(r.adjusted(-3, -3, 3, 3))
         # passes
         sel = self.doc.selection
         small = QFont()

@@ -28,6 +28,8 @@ MIN_BOOKING_S = 300.0
 WEEK_S = 7 * DAY_S
 #: held while dragging, draws a new span: an activity on the spacecraft lane, an outage on a station lane
 SPAN_MODIFIER = Qt.KeyboardModifier.ShiftModifier
+#: held while dragging on a station lane, draws other users' busy time there
+BUSY_MODIFIER = Qt.KeyboardModifier.ControlModifier
 
 _CANCELLED = object()  # a gesture dropped with Escape
 
@@ -71,7 +73,8 @@ class LanesViewBox(pg.ViewBox):
             return super().mouseDragEvent(ev, axis)
         if ev.isStart():
             p = self.mapSceneToView(ev.buttonDownScenePos())
-            span = bool(ev.modifiers() & SPAN_MODIFIER)
+            mods = ev.modifiers()
+            span = "busy" if mods & BUSY_MODIFIER else bool(mods & SPAN_MODIFIER)
             self._drag = self.canvas.begin_drag(p.x(), p.y(), span=span)
         if self._drag is _CANCELLED:
             ev.accept()
@@ -90,7 +93,7 @@ class LanesViewBox(pg.ViewBox):
 
 class Drag:
     """A gesture in progress: mode is create, move, start or end (the edge being dragged) for bookings,
-    activity (a new one), move-activity, or outage (a new one)."""
+    activity (a new one), move-activity, outage or busy (a new one)."""
 
     def __init__(self, mode: str, lane: int, x0: float, booking=None, activity=None):
         self.mode = mode
@@ -120,8 +123,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self.drag_label = ""  # what the drag preview says (start - end and length)
         self.findings_stale = False  # True while a newer state is being checked: outlines faded
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
-        self._activity_index = SpanIndex(lambda a: (min(a.keepout_span_tt[0], a.monitor_span_tt[0]),
-                                                    max(a.keepout_span_tt[1], a.monitor_span_tt[1])))
+        self._activity_index = SpanIndex(activity_span, activity_arrays)
         # stations and activities change far less often than bookings: their index is rebuilt only
         # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
         self.records_revision = 0
@@ -266,6 +268,17 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 return st, o
         return None, None
 
+    def busy_at(self, x: float, y: float):
+        """(station, busy span) under a point of a station lane, else (None, None); inline spans first (the
+        ones the planner edits), then those read from a calendar."""
+        st = self.station_of_lane(self.lane_of(y))
+        if st is None:
+            return None, None
+        t = self.t_of(x)
+        hits = [sp for sp in st.busy if sp.start_tt <= t <= sp.end_tt]
+        hits.sort(key=lambda sp: getattr(sp, "file", None) is not None)
+        return (st, hits[0]) if hits else (None, None)
+
     def describe(self, x: float, y: float) -> str:
         """Plain text about what lies under a point (for the hover tip)."""
         sc = self.doc.scenario
@@ -303,6 +316,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 if o.start_tt <= t <= o.end_tt:
                     lines.append(f"{st.id} out of service {utc_text(o.start_tt)} to {utc_text(o.end_tt)}"
                                  + (f": {o.reason}" if o.reason else ""))
+            for sp in st.busy:
+                if sp.start_tt <= t <= sp.end_tt:
+                    lines.append(f"{st.id} busy (another user) {utc_text(sp.start_tt)} to {utc_text(sp.end_tt)}"
+                                 + (f": {sp.source}" if sp.source else ""))
             p = self.pass_at(x, y)
             if p is not None:
                 rate = "" if p.max_rate_kbps is None else f", best {p.max_rate_kbps:,.0f} kbit/s"
@@ -355,6 +372,10 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if o is not None:
             self.doc.select(Selection("outage", o))
             return
+        _st, sp = self.busy_at(x, y)
+        if sp is not None and getattr(sp, "file", None) is None:
+            self.doc.select(Selection("busy", sp))
+            return
         st = self.station_of_lane(self.lane_of(y))
         self.doc.select(Selection("station", st.id) if st is not None else NOTHING)
 
@@ -383,10 +404,27 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
                 if b is None:
                     self.doc.select(Selection("outage", o))
                 menu.addAction(f"Delete the outage at {st.id}", lambda: delete_outage(self.doc, o))
+            self._busy_menu(menu, x, y, b is None and o is None)
         if menu.isEmpty():
             return
         if screen_pos is not None:
             menu.exec(screen_pos.toPoint() if hasattr(screen_pos, "toPoint") else screen_pos)
+
+    def _busy_menu(self, menu, x: float, y: float, select: bool) -> None:
+        """Right click on busy time: edit (in Properties) or delete an inline span; a span read from a
+        calendar says so (the file is re-read on every load)."""
+        from contactplan.app.stationspans import delete_span
+
+        st, sp = self.busy_at(x, y)
+        if sp is None:
+            return
+        if getattr(sp, "file", None) is not None:
+            menu.addAction(f"Busy time at {st.id} from {sp.file.name}: edit the calendar").setEnabled(False)
+            return
+        if select:
+            self.doc.select(Selection("busy", sp))
+        menu.addAction(f"Edit the busy time at {st.id}...", lambda: self.tl.editSpanRequested.emit("busy", sp))
+        menu.addAction(f"Delete the busy time at {st.id}", lambda: delete_span(self.doc, "busy", sp))
 
     def _spacecraft_menu(self, menu, x: float, y: float) -> None:
         """Right click on the spacecraft lane: new activities there, or the activity's own actions."""
@@ -407,12 +445,15 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
             menu.addAction(f"New {kind.replace('-', ' ')} here", lambda k=kind: acts.add_activity(doc, k, t))
         menu.addAction("New weekly series of burns from here", lambda: acts.add_series(doc, t))
 
-    def begin_drag(self, x: float, y: float, span: bool = False):
+    def begin_drag(self, x: float, y: float, span: bool | str = False):
+        """``span``: True draws a new activity or outage, "busy" new busy time on a station lane."""
         if self.doc.scenario is None:
             return None
         lane = self.lane_of(y)
-        if span and 0 <= lane < self.lanes():  # a new activity or outage drawn as a span
-            d = Drag("activity" if lane == 0 else "outage", lane, x)
+        if span == "busy" and lane < 1:
+            span = False
+        if span and 0 <= lane < self.lanes():  # a new activity, outage or busy span drawn as a span
+            d = Drag("activity" if lane == 0 else ("busy" if span == "busy" else "outage"), lane, x)
             st = self.station_of_lane(lane)
             d.station = None if st is None else st.id
             self.drag = d
@@ -442,7 +483,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
 
     def update_drag(self, d: Drag, x: float, y: float) -> None:
         t = self.t_of(x)
-        if d.mode in ("activity", "outage"):
+        if d.mode in ("activity", "outage", "busy"):
             d.start_tt, d.end_tt = sorted((self.snap(self.t_of(d.x0), None), self.snap(t, None)))
         elif d.mode == "move-activity":
             a = d.activity
@@ -482,7 +523,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         try:
             if d.start_tt is None or d.end_tt is None:
                 return
-            if d.mode in ("activity", "outage", "move-activity"):
+            if d.mode in ("activity", "outage", "busy", "move-activity"):
                 self._finish_span(d)
             elif d.mode == "create":
                 if d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
@@ -507,12 +548,47 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         elif d.end_tt - d.start_tt >= MIN_BOOKING_S - 1e-6:
             if d.mode == "activity":
                 acts.add_activity(self.doc, "other", d.start_tt, (d.end_tt - d.start_tt) / 60.0)
+            elif d.mode == "busy":
+                from contactplan.app.stationspans import add_span
+
+                add_span(self.doc, "busy", d.station, d.start_tt, d.end_tt)
             else:
                 acts.add_outage(self.doc, d.station, d.start_tt, d.end_tt)
 
     def show_finding_span(self, span) -> None:
         self._finding_span = span
         self.update()
+
+
+def activity_span(a) -> tuple[float, float]:
+    """Where an activity shows on the lanes: its keep-out and its monitored span together."""
+    return (min(a.keepout_span_tt[0], a.monitor_span_tt[0]), max(a.keepout_span_tt[1], a.monitor_span_tt[1]))
+
+
+def activity_arrays(acts) -> tuple:
+    """:func:`activity_span` of every activity and the columns the dense lane paints (keep-out, whether it
+    is shown, the kind's colour code), from arrays: a few attribute reads per activity, no property calls."""
+    from contactplan.app.lanepaint import ACTIVITY_KINDS
+
+    from operator import attrgetter
+
+    n = len(acts)
+
+    def col(name):
+        return np.fromiter(map(attrgetter(name), acts), dtype=float, count=n)
+
+    start, dur = col("start_tt"), col("duration_min") * 60.0
+    before, after, keep = col("monitor_before_min") * 60.0, col("monitor_after_min") * 60.0, \
+        col("downlink_keepout_min") * 60.0
+    kinds = list(map(attrgetter("kind"), acts))
+    end = start + dur
+    k0, k1 = start - keep, end + keep
+    lo = np.minimum(k0, start - before)
+    hi = np.maximum(k1, end + after)
+    is_burn = np.fromiter((k == "burn" for k in kinds), dtype=bool, count=n)
+    columns = {"start": start, "end": end, "keepout_start": k0, "keepout_end": k1, "keepout_shown": ((keep > 0) | is_burn).astype(float),
+               "kind": np.fromiter((ACTIVITY_KINDS.get(k, 0) for k in kinds), dtype=float, count=n)}
+    return lo, hi, columns
 
 
 def _hm(tt: float) -> str:

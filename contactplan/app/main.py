@@ -31,6 +31,10 @@ def setup_logging() -> Path | None:
     return path
 
 
+#: how long a thread may hold the GIL while another waits for it (seconds)
+SWITCH_INTERVAL_S = 0.0005
+
+
 def application():
     """The QApplication (created once) with our names, so settings and data folders are ours."""
     from PySide6.QtWidgets import QApplication
@@ -43,6 +47,10 @@ def application():
     from contactplan import __version__
 
     app.setApplicationVersion(__version__)
+    # the plan check and the pass computation run in a worker thread that holds the GIL for seconds; the
+    # GUI thread waits for it at every return from Qt into Python, up to the switch interval each time
+    # (5 ms by default: a paint with a few hundred such returns then stalls the event loop for long)
+    sys.setswitchinterval(min(sys.getswitchinterval(), SWITCH_INTERVAL_S))
     return app
 
 

@@ -95,10 +95,10 @@ class PropertyEditor(QWidget):
                     rec = sc.station(sel.key)
                 elif sel.kind == "activity":
                     rec = sc.activity(sel.key)
-                elif sel.kind == "outage":
-                    from contactplan.app.activities import station_of_outage
+                elif sel.kind in ("outage", "busy"):
+                    from contactplan.app.stationspans import station_of
 
-                    rec = sel.key if station_of_outage(sc, sel.key) is not None else None
+                    rec = sel.key if station_of(sc, sel.kind, sel.key) is not None else None
                 elif sel.kind == "pass":
                     rec = sc.station(sel.key.station)
                     sel = type(sel)("station", rec.id)
@@ -109,7 +109,7 @@ class PropertyEditor(QWidget):
             self.apply_btn.setEnabled(False)
             self.revert_btn.setEnabled(False)
             return
-        self.kind, self.key = sel.kind, getattr(rec, "id", rec)  # (an outage has no id: the record itself)
+        self.kind, self.key = sel.kind, getattr(rec, "id", rec)  # (an outage or busy span: the record itself)
         self.apply_btn.setEnabled(True)
         self.revert_btn.setEnabled(True)
         getattr(self, f"_build_{sel.kind}")(rec)
@@ -233,24 +233,42 @@ class PropertyEditor(QWidget):
             self.error.setText(str(exc))
 
     def _build_outage(self, o) -> None:
-        from contactplan.app.activities import station_of_outage
+        self._build_span("outage", o)
 
-        st = station_of_outage(self.doc.scenario, o)
-        self.title.setText(f"Outage at {st.id}")
-        self.fields["start_tt"] = QLineEdit(utc_text(o.start_tt))
-        self.fields["end_tt"] = QLineEdit(utc_text(o.end_tt))
-        self.fields["reason"] = QLineEdit(o.reason)
-        for k, label in (("start_tt", "Start (UTC)"), ("end_tt", "End (UTC)"), ("reason", "Reason")):
+    def _build_busy(self, sp) -> None:
+        self._build_span("busy", sp)
+
+    def _build_span(self, kind: str, rec) -> None:
+        from contactplan.app.stationspans import span_text, station_of
+
+        st = station_of(self.doc.scenario, kind, rec)
+        what = "Outage" if kind == "outage" else "Busy time (another user)"
+        self.title.setText(f"{what} at {st.id}")
+        self.fields["start_tt"] = QLineEdit(utc_text(rec.start_tt))
+        self.fields["end_tt"] = QLineEdit(utc_text(rec.end_tt))
+        key = "reason" if kind == "outage" else "note"
+        self.fields[key] = QLineEdit(span_text(kind, rec))
+        for k, label in (("start_tt", "Start (UTC)"), ("end_tt", "End (UTC)"), (key, key.capitalize())):
             self.fields[k].returnPressed.connect(self.apply_later)
             self.form.addRow(label, self.fields[k])
-        delete = QPushButton("Delete this outage")
-        delete.clicked.connect(lambda: later(self.delete_outage))
+        delete = QPushButton("Delete this outage" if kind == "outage" else "Delete this busy time")
+        delete.clicked.connect(lambda: later(self.delete_span))
         self.form.addRow("", delete)
 
-    def delete_outage(self) -> None:
-        from contactplan.app.activities import delete_outage
+    def delete_span(self) -> None:
+        from contactplan.app.stationspans import delete_span
 
-        delete_outage(self.doc, self.key)
+        delete_span(self.doc, self.kind, self.key)
+
+    delete_outage = delete_span
+
+    def focus_first(self) -> None:
+        """Put the cursor in the form's first field (a span picked from the lane's menu)."""
+        for w in self.fields.values():
+            if isinstance(w, QLineEdit):
+                w.setFocus()
+                w.selectAll()
+                return
 
     # ------------------------------------------------------------ apply
     def values(self) -> dict:
@@ -282,8 +300,8 @@ class PropertyEditor(QWidget):
     def apply(self) -> None:
         self.error.setText("")
         try:
-            if self.kind == "outage":
-                self._apply_outage()
+            if self.kind in ("outage", "busy"):
+                self._apply_span()
                 return
             vals = self.values()
             if self.kind == "booking":
@@ -317,15 +335,19 @@ class PropertyEditor(QWidget):
                 table.pop("command_backup", None)
         edit_activity(self.doc, a, table)
 
-    def _apply_outage(self) -> None:
-        from contactplan.app.activities import edit_outage
-        from contactplan.app.records import encode_record
+    def _apply_span(self) -> None:
+        from contactplan.app.stationspans import KINDS, edit_span, table_of
 
-        o = self.key
-        table = encode_record(o)
-        for k, key, old in (("start_tt", "start", o.start_tt), ("end_tt", "end", o.end_tt)):
+        rec = self.key
+        table = table_of(self.kind, rec)
+        for k, key, old in (("start_tt", "start", rec.start_tt), ("end_tt", "end", rec.end_tt)):
             text = self.fields[k].text().strip()
             if text != utc_text(old):
                 table[key] = text
-        table["reason"] = self.fields["reason"].text()
-        edit_outage(self.doc, o, table)
+        text_key = KINDS[self.kind][1]
+        text = self.fields[text_key].text()
+        if text or self.kind == "outage":
+            table[text_key] = text
+        else:
+            table.pop(text_key, None)
+        edit_span(self.doc, self.kind, rec, table)

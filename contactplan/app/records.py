@@ -47,7 +47,9 @@ class Change(QUndoCommand):
         sc.activities.sort(key=lambda a: a.start_tt)
         doc.revision += 1
         sel = doc.selection
-        gone = sel.kind == "outage" and not any(o is sel.key for st in sc.stations for o in st.outages)
+        from contactplan.app.stationspans import selected_gone
+
+        gone = selected_gone(doc)
         if sel.kind in ("station", "activity", "booking"):
             try:
                 doc._record(sel.kind, sel.key)

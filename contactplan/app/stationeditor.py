@@ -4,8 +4,10 @@ The form shows the station as it would be written; Apply (or Enter in a field) r
 it back through the loader's station reader (:func:`contactplan.app.records.read_station`),
 so a value the loader refuses is refused with the same message, and the change is
 one undo step. Renaming a station takes its bookings along; deleting one deletes its
-bookings in the same step. Changes to position, lowest elevation, mask or services
-make the passes out of date (they are computed again).
+bookings in the same step. Outages and other users' busy time (inline ``busy`` spans; those
+read from a calendar are listed, not edited) are tables of start, end and text, each with an
+import from an iCalendar or CSV file (:mod:`contactplan.io.busy_times`). Changes to position,
+lowest elevation, mask or services make the passes out of date (they are computed again).
 """
 
 from __future__ import annotations
@@ -33,7 +35,7 @@ STATION_KEYS = (
 )
 #: the Station fields an edit may change (the form's keys, the mask, the services and the outages)
 FIELDS = ("id", "name", "latitude_deg", "longitude_deg", "height_m", "min_elevation_deg", "pre_pass_min",
-          "post_pass_min", "cost_per_hour", "max_hours_per_week", "horizon_mask", "services", "outages")
+          "post_pass_min", "cost_per_hour", "max_hours_per_week", "horizon_mask", "services", "outages", "busy")
 
 
 def _item(text: str, editable: bool = True) -> QTableWidgetItem:
@@ -41,6 +43,100 @@ def _item(text: str, editable: bool = True) -> QTableWidgetItem:
     if not editable:
         it.setFlags(it.flags() & ~Qt.ItemFlag.ItemIsEditable)
     return it
+
+
+class SpanTable:
+    """A station's outages or inline busy spans in the editor: a title row (add, remove, import) and a
+    table of start, end and text."""
+
+    def __init__(self, editor, kind: str, title: str, text_label: str):
+        from contactplan.app.stationspans import KINDS
+
+        self.editor, self.kind = editor, kind
+        self.text_key = KINDS[kind][1]
+        row = QHBoxLayout()
+        row.addWidget(QLabel(title))
+        row.addStretch(1)
+        word = "outage" if kind == "outage" else "busy time"
+        add = QPushButton(f"Add {word}")
+        add.clicked.connect(self.add_row)
+        remove = QPushButton(f"Remove {word}")
+        remove.clicked.connect(self.remove_row)
+        imp = QPushButton("Import...")
+        imp.setToolTip(f"Add {word} from an iCalendar (.ics: VFREEBUSY periods, opaque events) "
+                       f"or CSV file (start, end, {self.text_key})")
+        imp.clicked.connect(self.import_dialog)
+        self.buttons = (add, remove, imp)
+        for b in self.buttons:
+            row.addWidget(b)
+        editor.layout().addLayout(row)
+        self.table = QTableWidget(0, 3)
+        self.table.setHorizontalHeaderLabels(["Start (UTC)", "End (UTC)", text_label])
+        self.table.verticalHeader().setVisible(False)
+        self.table.horizontalHeader().setStretchLastSection(True)
+        editor.layout().addWidget(self.table)
+
+    def widgets(self) -> tuple:
+        return (self.table, *self.buttons)
+
+    def fill(self, st) -> None:
+        from contactplan.app.stationspans import inline, table_of
+
+        spans = inline(st, self.kind)
+        self.table.setRowCount(len(spans))
+        for r, o in enumerate(spans):
+            t = table_of(self.kind, o)
+            start = _item(time_text(t.get("start")))
+            start.setData(Qt.ItemDataRole.UserRole, o)
+            self.table.setItem(r, 0, start)
+            self.table.setItem(r, 1, _item(time_text(t.get("end"))))
+            self.table.setItem(r, 2, _item(str(t.get(self.text_key, ""))))
+
+    def add_row(self) -> None:
+        sc = self.editor.doc.scenario
+        r = self.table.rowCount()
+        self.table.setRowCount(r + 1)
+        from contactplan.app.models import utc_text
+
+        self.table.setItem(r, 0, _item(utc_text(sc.start_tt)))
+        self.table.setItem(r, 1, _item(utc_text(sc.start_tt + 3600.0)))
+        self.table.setItem(r, 2, _item(""))
+
+    def remove_row(self) -> None:
+        r = self.table.currentRow()
+        if r >= 0:
+            self.table.removeRow(r)
+
+    def tables(self) -> list:
+        """The spans' tables as the rows say (a row's unchanged times keep their text as written)."""
+        from contactplan.app.stationspans import table_of
+
+        out = []
+        cell = self.editor._cell
+        for r in range(self.table.rowCount()):
+            first = self.table.item(r, 0)
+            old = None if first is None else first.data(Qt.ItemDataRole.UserRole)
+            o = table_of(self.kind, old) if old is not None else {}
+            for c, k in ((0, "start"), (1, "end")):
+                text = cell(self.table, r, c)
+                if old is None or text != time_text(o.get(k)):
+                    o[k] = text
+            text = cell(self.table, r, 2)
+            if text or (self.text_key in o and self.kind == "outage"):
+                o[self.text_key] = text
+            else:
+                o.pop(self.text_key, None)
+            out.append(o)
+        return out
+
+    def import_dialog(self) -> None:
+        from PySide6.QtWidgets import QFileDialog
+
+        what = "outages" if self.kind == "outage" else "busy time"
+        path, _ = QFileDialog.getOpenFileName(self.editor, f"Import {what}", "",
+                                              "Calendars and tables (*.ics *.csv *.txt);;All files (*)")
+        if path:
+            self.editor.import_spans(self.kind, path)
 
 
 class StationEditor(QWidget):
@@ -89,25 +185,13 @@ class StationEditor(QWidget):
         self.services.setToolTip("down links: the station's G/T; up links: its EIRP; "
                                  "zenith attenuation empty: from ITU-R P.676 at the link frequency")
         lay.addWidget(self.services)
-        orow = QHBoxLayout()
-        orow.addWidget(QLabel("Outages"))
-        orow.addStretch(1)
-        self.add_outage_btn = QPushButton("Add outage")
-        self.add_outage_btn.clicked.connect(self.add_outage_row)
-        self.del_outage_btn = QPushButton("Remove outage")
-        self.del_outage_btn.clicked.connect(self.remove_outage_row)
-        self.import_outages_btn = QPushButton("Import...")
-        self.import_outages_btn.setToolTip("Busy times from an iCalendar (.ics) or CSV file (start, end, reason)")
-        self.import_outages_btn.clicked.connect(self.import_outages_dialog)
-        orow.addWidget(self.add_outage_btn)
-        orow.addWidget(self.del_outage_btn)
-        orow.addWidget(self.import_outages_btn)
-        lay.addLayout(orow)
-        self.outages = QTableWidget(0, 3)
-        self.outages.setHorizontalHeaderLabels(["Start (UTC)", "End (UTC)", "Reason"])
-        self.outages.verticalHeader().setVisible(False)
-        self.outages.horizontalHeader().setStretchLastSection(True)
-        lay.addWidget(self.outages)
+        self.outage_spans = SpanTable(self, "outage", "Outages", "Reason")
+        self.busy_spans = SpanTable(self, "busy", "Busy time (other users)", "Note")
+        self.busy_files = QLabel("")
+        lay.addWidget(self.busy_files)
+        self.outages = self.outage_spans.table
+        self.busy = self.busy_spans.table
+        self.add_outage_btn, self.del_outage_btn, self.import_outages_btn = self.outage_spans.buttons
         self.error, self.apply_btn, self.revert_btn = apply_row(lay, self.apply, self.reload)
         doc.scenarioReplaced.connect(self._scenario_replaced)
         doc.recordsChanged.connect(self.reload)
@@ -168,8 +252,8 @@ class StationEditor(QWidget):
             st = self.station()
         self._fill_picker()
         has = st is not None
-        for w in (self.form, self.mask_btn, self.services, self.outages, self.apply_btn, self.revert_btn,
-                  self.dup_btn, self.del_btn, self.add_outage_btn, self.del_outage_btn, self.import_outages_btn):
+        for w in (self.form, self.mask_btn, self.services, self.apply_btn, self.revert_btn, self.dup_btn,
+                  self.del_btn, *self.outage_spans.widgets(), *self.busy_spans.widgets()):
             w.setEnabled(has)
         self.new_btn.setEnabled(sc is not None)
         if not has:
@@ -178,6 +262,8 @@ class StationEditor(QWidget):
             self.mask_label.setText("")
             self.services.setRowCount(0)
             self.outages.setRowCount(0)
+            self.busy.setRowCount(0)
+            self.busy_files.setText("")
             return
         from contactplan.scenario.save import encode
 
@@ -185,7 +271,12 @@ class StationEditor(QWidget):
         self.mask = st.horizon_mask  # read only here: the mask editor and Apply make new lists
         self._mask_text()
         self._fill_services(st)
-        self._fill_outages(st)
+        self.outage_spans.fill(st)
+        self.busy_spans.fill(st)
+        files = sorted({sp.file.name for sp in st.busy if getattr(sp, "file", None) is not None})
+        n = sum(getattr(sp, "file", None) is not None for sp in st.busy)
+        self.busy_files.setText(f"plus {n} busy span(s) read from {', '.join(files)} (edit the calendar)"
+                                if n else "")
 
     def _mask_text(self) -> None:
         n = len(self.mask)
@@ -209,30 +300,11 @@ class StationEditor(QWidget):
             self.services.setItem(r, 2, _item(number_text(value)))
             self.services.setItem(r, 3, _item(number_text(None if sv is None else sv.zenith_attenuation_db)))
 
-    def _fill_outages(self, st) -> None:
-        self.outages.setRowCount(len(st.outages))
-        for r, o in enumerate(st.outages):
-            t = records.encode_record(o)
-            start = _item(time_text(t.get("start")))
-            start.setData(Qt.ItemDataRole.UserRole, o)
-            self.outages.setItem(r, 0, start)
-            self.outages.setItem(r, 1, _item(time_text(t.get("end"))))
-            self.outages.setItem(r, 2, _item(str(t.get("reason", ""))))
-
     def add_outage_row(self) -> None:
-        sc = self.doc.scenario
-        r = self.outages.rowCount()
-        self.outages.setRowCount(r + 1)
-        from contactplan.app.models import utc_text
-
-        self.outages.setItem(r, 0, _item(utc_text(sc.start_tt)))
-        self.outages.setItem(r, 1, _item(utc_text(sc.start_tt + 3600.0)))
-        self.outages.setItem(r, 2, _item(""))
+        self.outage_spans.add_row()
 
     def remove_outage_row(self) -> None:
-        r = self.outages.currentRow()
-        if r >= 0:
-            self.outages.removeRow(r)
+        self.outage_spans.remove_row()
 
     # ------------------------------------------------------------ form -> table -> loader
     def _cell(self, table, r: int, c: int) -> str:
@@ -262,20 +334,11 @@ class StationEditor(QWidget):
                     sv.pop(k, None)
             services.append(sv)
         d["services"] = services
-        outages = []
-        for r in range(self.outages.rowCount()):
-            first = self.outages.item(r, 0)
-            old = None if first is None else first.data(Qt.ItemDataRole.UserRole)
-            o = records.encode_record(old) if old is not None else {}
-            for c, k in ((0, "start"), (1, "end")):
-                text = self._cell(self.outages, r, c)
-                if old is None or text != time_text(o.get(k)):
-                    o[k] = text
-            reason = self._cell(self.outages, r, 2)
-            if reason or "reason" in o:
-                o["reason"] = reason
-            outages.append(o)
-        d["outages"] = outages
+        d["outages"] = self.outage_spans.tables()
+        files = [t for t in d.get("busy", []) if isinstance(t, dict) and "ics" in t]
+        d["busy"] = files + self.busy_spans.tables()
+        if not d["busy"]:
+            d.pop("busy")
         return d
 
     def validated(self, d: dict | None = None):
@@ -358,32 +421,36 @@ class StationEditor(QWidget):
         self.reload()
 
     def import_outages_dialog(self) -> None:
-        from PySide6.QtWidgets import QFileDialog
-
-        path, _ = QFileDialog.getOpenFileName(self, "Import busy times", "",
-                                              "Calendars and tables (*.ics *.csv *.txt);;All files (*)")
-        if path:
-            self.import_outages(path)
+        self.outage_spans.import_dialog()
 
     def import_outages(self, path) -> bool:
-        """Add the busy times of an iCalendar or CSV file to the station's outages (one undo step)."""
-        from contactplan.io.busy_times import read_busy_times
+        """Add the spans of an iCalendar or CSV file to the station's outages (one undo step)."""
+        return self.import_spans("outage", path)
+
+    def import_busy(self, path) -> bool:
+        """Add the spans of an iCalendar or CSV file to the station's busy time (one undo step)."""
+        return self.import_spans("busy", path)
+
+    def import_spans(self, kind: str, path) -> bool:
+        from pathlib import Path
+
+        from contactplan.app.stationspans import KINDS
+        from contactplan.io.busy_times import read_spans, span_tables
 
         st = self.station()
         if st is None:
             return False
+        key, text_key, what = KINDS[kind]
         try:
-            rows = read_busy_times(path)
+            rows = span_tables(read_spans(path), text_key)
             d = records.station_table(st)
-            d["outages"] = list(d.get("outages", [])) + rows
+            d[key] = list(d.get(key, [])) + rows
             new = self.validated(d)
         except (InputError, ValueError) as exc:
             self.error.setText(records.message(exc))
             return False
-        from pathlib import Path
-
-        records.push(self.doc, f"Import {len(rows)} outage(s) at {st.id} from {Path(path).name}",
-                     [(st, {"outages": new.outages})])
+        records.push(self.doc, f"Import {len(rows)} {what} span(s) at {st.id} from {Path(path).name}",
+                     [(st, {key: getattr(new, key)})])
         self.reload()
         return True
 

@@ -21,6 +21,7 @@ from contactplan.app.lanes import (EDGE_PX, GRID_S, MIN_BOOKING_S, SNAP_PX, WEEK
                                    LanesViewBox)
 from contactplan.app.timeaxis import LaneAxis, TimeAxis, _weekday  # noqa: F401
 from contactplan.app.models import short_text
+from contactplan.app.overflowmarks import ITEMS_MAX, OverflowMarks
 from contactplan.timescale import now_tt, utc_day_start
 
 
@@ -28,6 +29,7 @@ class Timeline(pg.GraphicsLayoutWidget):
     """The lanes, the recorder strip and the elevation strip on one UTC time axis."""
 
     editPurposesRequested = Signal(str)  # booking id
+    editSpanRequested = Signal(str, object)  # ("outage" or "busy", the span): edit it in Properties
 
     def __init__(self, doc, parent=None):
         super().__init__(parent)
@@ -72,7 +74,8 @@ class Timeline(pg.GraphicsLayoutWidget):
                                                                        "anchors": [(0, 0), (0, 0)]})
         self.rec_plot.addItem(self.capacity_line)
         self.overflow_items: list = []
-        self.overflow_texts: list = []  # "full 01-18 05:25 to 01-19 00:00: 160.6 Gbit lost", one per span
+        self._overflow_spans: list = []  # the recorder's overflow spans shown (overflow_texts says them)
+        self._overflow_texts = (None, [])
 
         self.el_axis = TimeAxis(0.0, "bottom")
         self.el_plot = self.addPlot(row=2, col=0, axisItems={"bottom": self.el_axis})
@@ -241,11 +244,20 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.rec_plot.setYRange(0, max(rec.capacity_gbit, float(np.nanmax(rec.fill_gbit)) if len(x) else 0) * 1.12,
                                 padding=0)
         cap = float(rec.capacity_gbit)
-        self.overflow_texts = []
-        for (t0, t1, lost) in rec.overflow_spans or []:
+        spans = self._overflow_spans = list(rec.overflow_spans or [])
+        if len(spans) > ITEMS_MAX:  # thousands of spans: one item painting them from arrays
+            se = np.asarray(spans, dtype=float).reshape(-1, 3)
+            x = np.column_stack(((se[:, 0] - self.origin_tt) / 3600.0,
+                                 (np.maximum(se[:, 1], se[:, 0] + 60.0) - self.origin_tt) / 3600.0, se[:, 2]))
+            marks = OverflowMarks(x, cap, th)
+            marks.setToolTip(f"recorder full {len(spans)} times, {float(se[:, 2].sum()):.1f} Gbit lost in all "
+                             "(the Findings list each)")
+            self.rec_plot.addItem(marks, ignoreBounds=True)
+            self.overflow_items.append(marks)
+            return
+        for (t0, t1, lost) in spans:
             x0, x1 = self.x_of(t0), self.x_of(max(t1, t0 + 60))
-            a, b = (short_text(t) for t in (t0, t1))
-            text = f"full {a} to {b}: {lost:.1f} Gbit lost"
+            text = _overflow_text(t0, t1, lost)
             reg = pg.LinearRegionItem(values=(x0, x1), movable=False,  # cross-hatched: read without colour
                                       brush=QBrush(th.overflow, Qt.BrushStyle.DiagCrossPattern),
                                       pen=pg.mkPen(th.capacity, width=1))
@@ -265,8 +277,17 @@ class Timeline(pg.GraphicsLayoutWidget):
             label.overflow_span = (x0, x1, cap)
             self.rec_plot.addItem(label, ignoreBounds=True)
             self.overflow_items.append(label)
-            self.overflow_texts.append(text)
         self._place_overflow_labels()
+
+    @property
+    def overflow_texts(self) -> list:
+        """"full 01-18 05:25 to 01-19 00:00: 160.6 Gbit lost", one per overflow span shown (made when asked)."""
+        spans = self._overflow_spans
+        key, texts = self._overflow_texts
+        if key is not spans:
+            texts = [_overflow_text(t0, t1, lost) for t0, t1, lost in spans]
+            self._overflow_texts = (spans, texts)
+        return texts
 
     def _place_overflow_labels(self, *_args) -> None:
         """Keep each "Gbit lost" label just under the capacity line, inside the view when its span is."""
@@ -416,3 +437,7 @@ class Timeline(pg.GraphicsLayoutWidget):
         else:
             return super().keyPressEvent(ev)
         ev.accept()
+
+
+def _overflow_text(t0: float, t1: float, lost: float) -> str:
+    return f"full {short_text(t0)} to {short_text(t1)}: {lost:.1f} Gbit lost"

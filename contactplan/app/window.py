@@ -64,6 +64,7 @@ class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
         self.nav_strip = NavigationStrip(self.timeline, self.doc)  # predicted OD accuracy, in the background
         self.setCentralWidget(self.timeline)
         self.timeline.editPurposesRequested.connect(self.edit_purposes)
+        self.timeline.editSpanRequested.connect(self.edit_span)
         self._build_docks()
         self._build_actions()
         self._build_menus()
@@ -196,6 +197,12 @@ class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
         self.tabifyDockWidget(self.props_dock, self.stations_dock)
         self.tabifyDockWidget(self.stations_dock, self.history_dock)
         self.props_dock.raise_()
+
+    def edit_span(self, kind: str, span) -> None:
+        """An outage or busy span picked on the lane: select it and show it in Properties."""
+        self.doc.select(Selection(kind, span))
+        self.props_dock.raise_()
+        self.props.focus_first()
 
     def _act(self, text, slot, shortcut=None, icon=None, tip=None) -> QAction:
         a = QAction(text, self)
@@ -653,6 +660,9 @@ class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
         self.settings.setValue("window/state", self.saveState())
         self.autosave_timer.stop()
         self.autosaver.clear()
+        import gc
+
+        gc.unfreeze()  # what the plan froze out of the collector's rounds (checking.settle_heap) may go now
         ev.accept()
 
 

@@ -104,7 +104,8 @@ class HelpMixin:
         html = "<table cellspacing=6>" + "".join(f"<tr><td>{a}</td><td>{b}</td></tr>" for a, b in rows) + "</table>"
         html += ("<p>Drag across a pass to book it; drag a booking to move it, its ends to resize "
                  "(snaps to pass edges and a 5-minute grid); Escape drops a drag. Shift-drag draws an activity "
-                 "on the spacecraft lane or an outage on a station lane; right-click offers more. "
+                 "on the spacecraft lane or an outage on a station lane, Ctrl-drag other users' busy time there; "
+                 "right-click offers more. "
                  "Delete removes, double-click edits services. "
                  "Arrows pan, +/- zoom, Page Up/Down or Alt+Left/Right change week, Ctrl+G goes to a given week, "
                  "Home shows the whole window.</p>")

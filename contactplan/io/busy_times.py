@@ -1,108 +1,85 @@
-"""A station's busy times (maintenance, other users) from an iCalendar file or a CSV file.
+"""Spans of a station's time read from a file: other users' busy time, or outages.
 
-- iCalendar (RFC 5545): every VEVENT with DTSTART and DTEND (or DURATION); times with a
-  zone or an offset are turned to UTC, times without one are taken as UTC, an all-day
-  date as 00:00 UTC. SUMMARY becomes the reason.
-- CSV: ``start, end[, reason]`` per row, times in either scenario form (calendar or day of
-  year, UTC); a header row before the first time is skipped.
+- iCalendar (``BEGIN:VCALENDAR`` first): read by :mod:`contactplan.io.freebusy`, the one
+  iCalendar reader (RFC 5545 VFREEBUSY periods and opaque VEVENTs, floating local times
+  refused, the line in every error); each span's text is its source (``file.ics line N: summary``).
+- CSV: ``start, end[, note]`` per row, times in either scenario form (calendar or day of year,
+  UTC); a header row before the first time is skipped, ``#`` rows are comments, and a note
+  may hold commas (the rest of the row).
 
-Returns ``[{"start": text, "end": text, "reason": text}]``: the ``outages`` tables of a
-station, checked afterwards by the scenario loader (end after start, valid times).
+Both give :class:`contactplan.scenario.model.BusySpan` records sorted by start; the station
+editor turns them into ``busy`` spans ``{ start, end, note }`` or ``outages`` ``{ start, end,
+reason }`` and the scenario loader checks them there.
 """
 
 from __future__ import annotations
 
 import csv
-import datetime as dt
 import io
 from pathlib import Path
 
-from contactplan.errors import InputError
+from contactplan.errors import InputError, show_id
+from contactplan.scenario.model import BusySpan
 
-MAX_EVENTS = 10_000
-
-
-def _utc_text(value, path, what: str) -> str:
-    if isinstance(value, dt.datetime):
-        if value.tzinfo is not None:
-            value = value.astimezone(dt.timezone.utc).replace(tzinfo=None)
-        return value.strftime("%Y-%m-%dT%H:%M:%SZ")
-    if isinstance(value, dt.date):
-        return value.strftime("%Y-%m-%dT00:00:00Z")
-    raise InputError(f"{what}: not a date or time ({value!r})", path)
+MAX_ROWS = 10_000
 
 
-def _zoned(prop, path, what: str):
-    """The property's date or time; a time naming a zone that could not be resolved is refused (it would
-    otherwise be read as UTC, hours off)."""
-    value = prop.dt
-    tzid = getattr(prop, "params", {}).get("TZID")
-    if tzid and isinstance(value, dt.datetime) and value.tzinfo is None:
-        raise InputError(f"{what}: time zone {tzid!r} is not known; give UTC times or a zone name "
-                         "such as Europe/Madrid", path)
-    return value
-
-
-def read_ical(path: str | Path, data: bytes) -> list:
-    import icalendar
-
-    try:
-        cal = icalendar.Calendar.from_ical(data)
-    except (ValueError, KeyError, IndexError) as exc:
-        raise InputError(f"not an iCalendar file: {exc}", path) from None
-    out = []
-    for i, ev in enumerate(cal.walk("VEVENT"), start=1):
-        what = f"event {i}"
-        start = ev.get("DTSTART")
-        if start is None:
-            raise InputError(f"{what} has no DTSTART", path)
-        t0 = _zoned(start, path, what)
-        if ev.get("DTEND") is not None:
-            t1 = _zoned(ev.get("DTEND"), path, what)
-        elif ev.get("DURATION") is not None:
-            t1 = t0 + ev.get("DURATION").dt
-        else:
-            raise InputError(f"{what} has no DTEND or DURATION", path)
-        out.append({"start": _utc_text(t0, path, what), "end": _utc_text(t1, path, what),
-                    "reason": str(ev.get("SUMMARY", "") or "")})
-        if len(out) > MAX_EVENTS:
-            raise InputError(f"more than {MAX_EVENTS} events", path)
-    if not out:
-        raise InputError("no events (VEVENT) in the calendar", path)
-    return out
-
-
-def read_csv_rows(path: str | Path, text: str) -> list:
+def read_csv_spans(path, text: str) -> list[BusySpan]:
+    """The spans of CSV text ``start, end[, note]`` (see the module doc); errors name the line."""
     from contactplan.timescale import parse_utc
 
-    out = []
+    out: list[BusySpan] = []
     for no, row in enumerate(csv.reader(io.StringIO(text)), start=1):
         cells = [c.strip() for c in row]
         if not any(cells) or cells[0].startswith("#"):
             continue
         if len(cells) < 2:
-            raise InputError("expected start, end and an optional reason", path, no)
+            raise InputError("expected start, end and an optional note", path, no)
         try:
-            parse_utc(cells[0])
+            t0 = parse_utc(cells[0])
         except InputError:
             if not out:
                 continue  # a header row
-            raise InputError(f"start {cells[0]!r} is not a UTC time", path, no) from None
-        out.append({"start": cells[0], "end": cells[1], "reason": ",".join(row[2:]).strip()})
-        if len(out) > MAX_EVENTS:
-            raise InputError(f"more than {MAX_EVENTS} rows", path, no)
+            raise InputError(f"start {show_id(cells[0], 40)!r} is not a UTC time", path, no) from None
+        try:
+            t1 = parse_utc(cells[1])
+        except InputError:
+            raise InputError(f"end {show_id(cells[1], 40)!r} is not a UTC time", path, no) from None
+        if t1 <= t0:
+            raise InputError("the span ends before it starts", path, no)
+        out.append(BusySpan(start_tt=t0, end_tt=t1, source=",".join(row[2:]).strip()))
+        if len(out) > MAX_ROWS:
+            raise InputError(f"more than {MAX_ROWS} rows", path, no)
     if not out:
         raise InputError("no rows with a start and an end", path)
+    out.sort(key=lambda s: (s.start_tt, s.end_tt))
     return out
 
 
-def read_busy_times(path: str | Path) -> list:
-    """The busy times of an ``.ics`` or a CSV file (by its first bytes, not its name)."""
+def read_spans(path) -> list[BusySpan]:
+    """The spans of an ``.ics`` or a CSV file (told apart by the first bytes, not the name)."""
     from contactplan.fileio import read_input
 
-    data = read_input(Path(path))
-    if data.lstrip()[:15].upper().startswith(b"BEGIN:VCALENDAR"):
-        return read_ical(path, data)
+    path = Path(path)
+    data = read_input(path)
+    head = data[3:] if data.startswith(b"\xef\xbb\xbf") else data
+    if head.lstrip()[:15].upper().startswith(b"BEGIN:VCALENDAR"):
+        from contactplan.io.freebusy import read_busy
+
+        return [BusySpan(start_tt=s.start_tt, end_tt=s.end_tt, source=s.source) for s in read_busy(path)]
     from contactplan.io.mask_text import utf8_text
 
-    return read_csv_rows(path, utf8_text(data, path))
+    return read_csv_spans(path, utf8_text(data, path))
+
+
+def span_tables(spans, text_key: str) -> list[dict]:
+    """``[{start, end, <text_key>}]`` tables of spans (``note`` for busy time, ``reason`` for outages)."""
+    from contactplan.scenario.save import format_time
+
+    out = []
+    for s in spans:
+        t = {"start": format_time(s.start_tt), "end": format_time(s.end_tt)}
+        if s.source:
+            t[text_key] = s.source
+        out.append(t)
+    return out
