@@ -172,3 +172,16 @@ def test_busy_time_shades_its_station_lane(win):
     assert before != after
     st.busy = []
     assert win.timeline.grab().toImage() == before
+
+
+def test_draft_options_default_to_best_effort_and_minimal_change_once_a_booking_is_confirmed(minimal_path):
+    from contactplan.app.draftdialog import default_options
+    from contactplan.scenario import load_scenario
+
+    sc = load_scenario(minimal_path)
+    o = default_options(sc)
+    assert o.best_effort and not o.minimal_change
+    assert o.kwargs()["best_effort"] is True and o.kwargs()["minimal_change"] is False
+    sc.booking("B001").status = "confirmed"
+    o = default_options(sc)
+    assert o.minimal_change and o.kwargs()["minimal_change"] is True

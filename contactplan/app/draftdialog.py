@@ -34,8 +34,10 @@ class DraftOptions:
         """Keyword arguments of the drafter (minimal change only where the drafter takes it)."""
         kw = {"start_tt": self.start_tt, "end_tt": self.end_tt, "grid_min": self.grid_min,
               "time_limit_s": self.time_limit_s, "recorder_limit": self.recorder_limit}
-        if self.minimal_change and drafter_takes("minimal_change"):
-            kw["minimal_change"] = True
+        if drafter_takes("minimal_change"):
+            kw["minimal_change"] = bool(self.minimal_change)
+        if drafter_takes("best_effort"):
+            kw["best_effort"] = bool(self.best_effort)
         return kw
 
 
@@ -49,8 +51,12 @@ def drafter_takes(name: str) -> bool:
 
 
 def default_options(sc) -> DraftOptions:
-    """The scenario's whole window, the drafter's own defaults."""
-    return DraftOptions(start_tt=sc.start_tt, end_tt=sc.end_tt)
+    """The scenario's whole window; best effort on (the planner drafts what can be met and lists the
+    rest); minimal change on when the network has confirmed any booking (as the drafter's own default)."""
+    from contactplan.plan.status import status_of
+
+    confirmed = any(status_of(b) == "confirmed" for b in sc.bookings)
+    return DraftOptions(start_tt=sc.start_tt, end_tt=sc.end_tt, best_effort=True, minimal_change=confirmed)
 
 
 class DraftDialog(QDialog):
