@@ -170,9 +170,21 @@ def node_grid(start_tt: float, end_tt: float, states_at, events_tt=(), split_moo
     t = np.unique(np.concatenate([t, [end_tt], ev]))
     # drop nodes closer than 1 s to an event (keep the event itself)
     if ev.size:
-        near = np.min(np.abs(t[:, None] - ev[None, :]), axis=1)
+        near = distance_to_nearest(t, ev)
         t = t[(near == 0.0) | (near > 1.0)]
     return t
+
+
+def distance_to_nearest(t_tt, events_tt) -> np.ndarray:
+    """Per time of ``t_tt``, the distance (s) to the nearest of ``events_tt`` (non-empty), by bisection
+    on the sorted events: a table of every time against every event would grow with both (a week of
+    50,000 burns asked for 69 GiB)."""
+    t = np.asarray(t_tt, dtype=float)
+    ev = np.sort(np.asarray(events_tt, dtype=float))
+    i = np.searchsorted(ev, t)
+    after = np.abs(ev[np.minimum(i, ev.size - 1)] - t)
+    before = np.abs(t - ev[np.maximum(i - 1, 0)])
+    return np.minimum(after, before)
 
 
 def propagate(t_tt, x0, with_stm: bool = False, split_moon: bool = True):
