@@ -20,7 +20,8 @@ _INT = re.compile(r"^[+-]?\d+$")
 
 @dataclass(frozen=True)
 class Key:
-    """One key of a table: ``kind`` is num, int, text, time, bool, choice, list (numbers) or set (choices)."""
+    """One key of a table: ``kind`` is num, int, text, time, bool, choice, list (numbers), set (choices) or
+    tristate (an optional true/false: ``choices`` are the texts of unset, true and false)."""
 
     key: str
     label: str
@@ -83,6 +84,10 @@ class TableForm(QWidget):
     def _widget(self, k: Key):
         if k.kind == "bool":
             return QCheckBox()
+        if k.kind == "tristate":
+            box = QComboBox()
+            box.addItems(list(k.choices))
+            return box
         if k.kind == "choice":
             box = QComboBox()
             if k.optional:
@@ -112,6 +117,8 @@ class TableForm(QWidget):
             v = table.get(k.key)
             if k.kind == "bool":
                 w.setChecked(bool(v))
+            elif k.kind == "tristate":
+                w.setCurrentIndex(0 if not isinstance(v, bool) else 1 if v else 2)
             elif k.kind == "choice":
                 w.setCurrentText("" if v is None else str(v))
             elif k.kind == "set":
@@ -148,6 +155,12 @@ class TableForm(QWidget):
                 if w.isChecked() or k.key in table:
                     out[k.key] = w.isChecked()
                 continue
+            if k.kind == "tristate":
+                if w.currentIndex() == 0:
+                    out.pop(k.key, None)
+                else:
+                    out[k.key] = w.currentIndex() == 1
+                continue
             if k.kind == "choice":
                 value = w.currentText()
             elif k.kind == "set":
@@ -161,6 +174,8 @@ class TableForm(QWidget):
             if value == "":  # optional: its default applies; required: the loader says it is missing
                 out.pop(k.key, None)
                 continue
+            if k.kind == "time" and k.key in table and value == time_text(table[k.key]):
+                continue  # unchanged: the time as written (fractional seconds and its form kept)
             if k.kind in ("num", "int"):
                 value = parse_number(value)
             elif k.kind == "list":

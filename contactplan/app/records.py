@@ -151,8 +151,9 @@ def read_link(data: dict):
 
 
 def read_section(name: str, data: dict):
-    """A settings section (``recorder``, ``requirements``, ``geometry``, ``orbit_determination``) as the
-    loader reads it; None for an empty optional recorder or orbit-determination table."""
+    """A settings section (``recorder``, ``requirements``, ``geometry``, ``orbit_determination``,
+    ``link_planning``) as the loader reads it; None for an empty optional recorder or orbit-determination
+    table."""
     from contactplan.scenario import load
 
     if name == "recorder":
@@ -166,6 +167,10 @@ def read_section(name: str, data: dict):
         from contactplan.scenario.orbit_determination import read_orbit_determination
 
         return read_orbit_determination(Table({"orbit_determination": data}, None, ""))
+    if name == "link_planning":
+        from contactplan.scenario.link_planning import read_link_planning
+
+        return read_link_planning(load.Table({"link_planning": data}, None, ""))
     raise KeyError(name)
 
 

@@ -1,4 +1,5 @@
-"""Mission settings: one page per section (links, recorder, requirements, geometry, orbit determination).
+"""Mission settings: one page per section (mission and orbit, network cycle, links, weather, recorder,
+requirements, tracking, geometry, orbit determination).
 
 Each page shows its section as it would be written and reads it back through the
 loader's own section reader (:func:`contactplan.app.records.read_section`,
@@ -33,12 +34,14 @@ LINK_KEYS = (
     Key("margin_db", "Margin (dB)", "num", True, "demanded above the requirement, 0 to 40 (default 3)"),
     Key("other_losses_db", "Other losses (dB)", "num", True, "polarisation, pointing, implementation, 0 to 60"),
     Key("carries", "Carries", "set", True, "the services the link serves", SERVICES),
+    Key("availability_pct", "Plan in weather at (% of a year)", "num", True,
+        "down links: 50 to 99.999; empty: the Weather page's availability"),
 )
-DOWN_ONLY = {"eirp_dbw", "required_ebn0_db", "max_rate_changes_per_pass"}
+DOWN_ONLY = {"eirp_dbw", "required_ebn0_db", "max_rate_changes_per_pass", "availability_pct"}
 UP_ONLY = {"required_pt_dbhz", "spacecraft_g_over_t_dbk"}
 LINK_FIELDS = ("id", "direction", "band", "frequency_mhz", "eirp_dbw", "required_ebn0_db", "margin_db",
                "other_losses_db", "rates_kbps", "carries", "max_rate_changes_per_pass", "required_pt_dbhz",
-               "spacecraft_g_over_t_dbk")
+               "spacecraft_g_over_t_dbk", "availability_pct")
 
 RECORDER_KEYS = (
     Key("capacity_gbit", "Capacity (Gbit)", "num", False, "recorder size, > 0"),
@@ -50,18 +53,42 @@ REQUIREMENT_KEYS = (
     Key("ranging_per_day_min", "Ranging bookings per day at least", "int", True, "no-ranging, 0 to 48"),
     Key("booking_min_h", "Booking at least (h)", "num", True, "booking-too-short, 0 to 24"),
     Key("booking_max_h", "Booking at most (h)", "num", True, "booking-too-long, > 0 to 48"),
-    Key("recorder_end_max_gbit", "Left on board at the end at most (Gbit)", "num", True, "recorder-end, >= 0"),
     Key("handover_min", "Handover overlap at least (min)", "num", True, "handover-gap, 0 to 600"),
-    Key("tracking_per_day_min_h", "Two-way tracking per day at least (h)", "num", True, "tracking-per-day"),
+    Key("recorder_end_max_gbit", "Left on board at the end at most (Gbit)", "num", True, "recorder-end, >= 0"),
+    Key("recorder_overflow_availability_pct", "Recorder rules in weather at (%)", "num", True,
+        "links in weather: every weather pass at this availability, 50 to 99.999 (default 95)"),
+    Key("overflow_risk_max_pct", "Overflow probability at most (%)", "num", True,
+        "overflow-risk: the weather draws' overflow probability, 0 to 100"),
+)
+#: the tracking keys of [requirements] (their own page, the same section)
+TRACKING_KEYS = (
+    Key("tracking_per_day_min_h", "Two-way tracking per day at least (h)", "num", True,
+        "tracking-per-day, 0 to 24"),
     Key("tracking_stations_per_window_min", "Tracking stations per window at least", "int", True,
-        "tracking-spread, 1 to 20"),
-    Key("tracking_spread_window_h", "... in every window of (h)", "num", True, "default 72"),
-    Key("tracking_latitude_spread_min_deg", "Latitude spread at least (deg)", "num", True, "0 to 180"),
-    Key("post_manoeuvre_tracking_h", "Tracking after a burn at least (h)", "num", True, "post-manoeuvre-tracking"),
-    Key("post_manoeuvre_window_h", "... within (h) after it", "num", True, "default 24"),
-    Key("cutoff_arc_min_h", "Tracking before a data cut-off at least (h)", "num", True, "cutoff-arc"),
-    Key("cutoff_before_burn_h", "Data cut-off before a burn (h)", "num", True, "default 48"),
-    Key("cutoff_lookback_h", "Arc ending at the cut-off (h)", "num", True, "default 96"),
+        "tracking-spread, 1 to 20 (2 when only the spread is given)"),
+    Key("tracking_spread_window_h", "... in every window of (h)", "num", True, "> 0 to 744 (default 72)"),
+    Key("tracking_latitude_spread_min_deg", "Latitude spread at least (deg)", "num", True,
+        "tracking-spread, 0 to 180"),
+    Key("post_manoeuvre_tracking_h", "Tracking after a burn at least (h)", "num", True,
+        "post-manoeuvre-tracking, 0 to 168"),
+    Key("post_manoeuvre_window_h", "... within (h) after it", "num", True, "> 0 to 336 (default 24)"),
+    Key("cutoff_arc_min_h", "Tracking before a data cut-off at least (h)", "num", True, "cutoff-arc, 0 to 336"),
+    Key("cutoff_before_burn_h", "Data cut-off before a burn (h)", "num", True, "0 to 336 (default 48)"),
+    Key("cutoff_lookback_h", "Arc ending at the cut-off (h)", "num", True, "> 0 to 744 (default 96)"),
+)
+#: [link_planning]: links in weather and the recorder forecast
+WEATHER_KEYS = (
+    Key("availability_pct", "Plan links in weather at (% of a year)", "num", True,
+        "rate plans and volumes hold this share of an average year, 50 to 99.999 (default 95)"),
+    Key("weather", "Links in weather", "tristate", True,
+        "which down links are planned in weather",
+        ("down links at 17 GHz and up, and links with their own availability", "every down link with a budget",
+         "none: clear sky at the reference atmosphere")),
+    Key("band_availability_pct", "Recorder forecast band (%, %)", "list", True,
+        "the fill with every weather pass at p1 and at p2, each 50 to 99.999 (default 50, 95)"),
+    Key("forecast_draws", "Weather draws of the overflow probability", "int", True,
+        "Monte Carlo draws, 0 to 100000 (0: none; default 1000)"),
+    Key("forecast_seed", "Seed of the draws", "int", True, "0 to 4294967295 (the same seed, the same figures)"),
 )
 GEOMETRY_KEYS = (
     Key("refraction", "Radio refraction (ITU-R P.834)", "bool", True, "added to elevations"),
@@ -69,25 +96,29 @@ GEOMETRY_KEYS = (
     Key("sun_separation_min_deg", "Sun separation at least (deg)", "num", True, "sun-in-beam, 0 to 180"),
 )
 OD_KEYS = (
-    Key("range_sigma_m", "Range noise (m)", "num", True, "two-way, per normal point (default 2)"),
-    Key("range_interval_min", "One range point every (min)", "num", True, "default 10"),
-    Key("doppler_sigma_mm_s", "Range-rate noise (mm/s)", "num", True, "per count interval (default 0.1)"),
-    Key("doppler_interval_s", "Doppler count interval (s)", "num", True, "default 60"),
-    Key("apriori_position_km", "A priori position (km)", "num", True, "1-sigma per axis at the start (default 50)"),
-    Key("apriori_velocity_mm_s", "A priori velocity (mm/s)", "num", True, "default 10"),
-    Key("manoeuvre_sigma_mm_s", "Burn execution error (mm/s)", "num", True, "1-sigma per axis (default 2)"),
-    Key("momentum_dump_sigma_mm_s", "Momentum dump error (mm/s)", "num", True, "default 0.5"),
-    Key("required_position_km", "Required position (km)", "num", True, "od-accuracy above this (default 10)"),
+    Key("range_sigma_m", "Range noise (m)", "num", True, "two-way, per normal point, > 0 (default 2)"),
+    Key("range_interval_min", "One range point every (min)", "num", True, "> 0 to 1440 (default 10)"),
+    Key("doppler_sigma_mm_s", "Range-rate noise (mm/s)", "num", True, "per count interval, > 0 (default 0.1)"),
+    Key("doppler_interval_s", "Doppler count interval (s)", "num", True, "> 0 to 3600 (default 60)"),
+    Key("apriori_position_km", "A priori position (km)", "num", True,
+        "1-sigma per axis at the start, > 0 (default 50)"),
+    Key("apriori_velocity_mm_s", "A priori velocity (mm/s)", "num", True, "1-sigma per axis, > 0 (default 10)"),
+    Key("manoeuvre_sigma_mm_s", "Burn execution error (mm/s)", "num", True, "1-sigma per axis, >= 0 (default 2)"),
+    Key("momentum_dump_sigma_mm_s", "Momentum dump error (mm/s)", "num", True, ">= 0 (default 0.5)"),
+    Key("required_position_km", "Required position (km)", "num", True,
+        "od-accuracy above this, > 0 (default 10)"),
 )
 
 
 class SectionPage(QWidget):
-    """One settings section: a form, an optional "use this section" switch, Apply and the error line."""
+    """One settings section (or a part of one: ``keys``): a form, an optional "use this section" switch,
+    Apply and the error line. ``title``: what the undo step says it changes."""
 
-    def __init__(self, doc, name: str, keys, switch: str | None = None, parent=None):
+    def __init__(self, doc, name: str, keys, switch: str | None = None, parent=None, title: str | None = None):
         super().__init__(parent)
         self.doc = doc
         self.name = name
+        self.title = title or f"the {name.replace('_', ' ')}"
         lay = QVBoxLayout(self)
         self.switch = QCheckBox(switch) if switch else None
         if self.switch is not None:
@@ -102,7 +133,8 @@ class SectionPage(QWidget):
     def record(self):
         sc = self.doc.scenario
         return {"recorder": lambda: sc.spacecraft.recorder, "requirements": lambda: sc.requirements,
-                "geometry": lambda: sc.geometry, "orbit_determination": lambda: sc.orbit_determination}[self.name]()
+                "geometry": lambda: sc.geometry, "orbit_determination": lambda: sc.orbit_determination,
+                "link_planning": lambda: sc.link_planning}[self.name]()
 
     def owner(self):
         sc = self.doc.scenario
@@ -133,15 +165,19 @@ class SectionPage(QWidget):
         except (InputError, ValueError) as exc:
             self.error.setText(records.message(exc))
             return False
-        if rec is None and new is None:
-            return True
+        if rec is None and (new is None or (self.switch is None and not records.encode_record(new))):
+            return True  # (an optional section left at its defaults stays unwritten)
         if rec is not None and new is not None and records.encode_record(rec) == records.encode_record(new):
             return True
         owner, attr = self.owner()
-        stale = self.name in ("geometry", "orbit_determination")  # elevations, beam flags, the OD model
-        records.push(self.doc, f"Change the {self.name.replace('_', ' ')}", [(owner, {attr: new})], stale=stale)
+        stale = self.name in STALE_SECTIONS
+        records.push(self.doc, f"Change {self.title}", [(owner, {attr: new})], stale=stale)
         self.reload()
         return True
+
+
+#: sections whose change moves elevations, beam flags, link volumes or the OD model (computed again)
+STALE_SECTIONS = frozenset({"geometry", "orbit_determination", "link_planning"})
 
 
 class LinksPage(QWidget):
@@ -299,25 +335,36 @@ class LinksPage(QWidget):
         return True
 
 
+#: the pages of the settings dialog, in tab order: (name, tab title)
+PAGES = (("mission", "Mission"), ("cycle", "Network cycle"), ("links", "Links"), ("weather", "Weather"),
+         ("recorder", "Recorder"), ("requirements", "Requirements"), ("tracking", "Tracking"),
+         ("geometry", "Geometry"), ("orbit_determination", "Orbit determination"))
+
+
 class SettingsDialog(QDialog):
     """The mission settings, one tab per section; stays open beside the planner."""
 
     def __init__(self, doc, parent=None):
         super().__init__(parent)
+        from contactplan.app.missionpage import CyclePage, MissionPage
+
         self.doc = doc
         self.setWindowTitle("Mission settings")
         self.tabs = QTabWidget()
         self.links = LinksPage(doc)
         self.pages = {
+            "mission": MissionPage(doc),
+            "cycle": CyclePage(doc),
             "links": self.links,
+            "weather": SectionPage(doc, "link_planning", WEATHER_KEYS, title="the planning in weather"),
             "recorder": SectionPage(doc, "recorder", RECORDER_KEYS, "Simulate an on-board recorder"),
             "requirements": SectionPage(doc, "requirements", REQUIREMENT_KEYS),
+            "tracking": SectionPage(doc, "requirements", TRACKING_KEYS, title="the tracking requirements"),
             "geometry": SectionPage(doc, "geometry", GEOMETRY_KEYS),
             "orbit_determination": SectionPage(doc, "orbit_determination", OD_KEYS,
                                                "Predict the navigation accuracy of the planned tracking"),
         }
-        for name, title in (("links", "Links"), ("recorder", "Recorder"), ("requirements", "Requirements"),
-                            ("geometry", "Geometry"), ("orbit_determination", "Orbit determination")):
+        for name, title in PAGES:
             self.tabs.addTab(self.pages[name], title)
         lay = QVBoxLayout(self)
         lay.addWidget(QLabel("Each page is applied on its own (Apply or Enter); every change can be undone."))
@@ -325,6 +372,9 @@ class SettingsDialog(QDialog):
         bb = QDialogButtonBox(QDialogButtonBox.StandardButton.Close)
         bb.rejected.connect(self.close)
         lay.addWidget(bb)
+        for b in self.findChildren(QPushButton):  # Enter in a field applies its page, and clicks nothing else
+            b.setAutoDefault(False)
+            b.setDefault(False)
         doc.scenarioReplaced.connect(self.reload)
         doc.recordsChanged.connect(self.reload)
         self.reload()
@@ -332,3 +382,22 @@ class SettingsDialog(QDialog):
     def reload(self, *_args) -> None:
         for page in self.pages.values():
             page.reload()
+
+    def editors(self) -> dict:
+        """{section as docs/scenario.md names it: {key: the page's title}} for every key a page edits."""
+        out: dict = {}
+        titles = dict(PAGES)
+        for name, page in self.pages.items():
+            if isinstance(page, SectionPage):
+                parts = [(SECTION_PATHS.get(page.name, page.name), page.form)]
+            elif isinstance(page, LinksPage):
+                parts = [("spacecraft.links", page.form)]
+            else:
+                parts = [(p.section, p.form) for p in page.parts]
+            for section, form in parts:
+                out.setdefault(section, {}).update({k: titles[name] for k in form.widgets})
+        return out
+
+
+#: where a settings section sits in the scenario file when it is not at the top
+SECTION_PATHS = {"recorder": "spacecraft.recorder"}

@@ -33,6 +33,11 @@ STATION_KEYS = (
     Key("cost_per_hour", "Cost per hour", "num", True, "used by the drafter to choose stations (default 1)"),
     Key("max_hours_per_week", "Hours per week at most", "num", True, "bookable hours per 7 days, 0 to 168"),
 )
+#: the columns of the services table (one row per spacecraft link)
+SERVICE_COLUMNS = ("Link", "Direction", "G/T (dB/K) or EIRP (dBW)", "Zenith attenuation (dB)",
+                   "System noise (K)")
+#: the keys of a service table the services table edits (``link``: the ticked row)
+SERVICE_KEYS = ("link", "g_over_t_dbk", "eirp_dbw", "zenith_attenuation_db", "system_noise_k")
 #: the Station fields an edit may change (the form's keys, the mask, the services and the outages)
 FIELDS = ("id", "name", "latitude_deg", "longitude_deg", "height_m", "min_elevation_deg", "pre_pass_min",
           "post_pass_min", "cost_per_hour", "max_hours_per_week", "horizon_mask", "services", "outages", "busy")
@@ -177,13 +182,14 @@ class StationEditor(QWidget):
         mrow.addWidget(self.mask_btn)
         lay.addLayout(mrow)
         lay.addWidget(QLabel("Services (tick the links the station receives or sends)"))
-        self.services = QTableWidget(0, 4)
-        self.services.setHorizontalHeaderLabels(["Link", "Direction", "G/T (dB/K) or EIRP (dBW)",
-                                                 "Zenith attenuation (dB)"])
+        self.services = QTableWidget(0, len(SERVICE_COLUMNS))
+        self.services.setHorizontalHeaderLabels(list(SERVICE_COLUMNS))
         self.services.verticalHeader().setVisible(False)
         self.services.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         self.services.setToolTip("down links: the station's G/T; up links: its EIRP; "
-                                 "zenith attenuation empty: from ITU-R P.676 at the link frequency")
+                                 "zenith attenuation empty: from ITU-R P.676 at the link frequency; "
+                                 "system noise (down links, 1 to 10000 K, clear sky): with it the G/T falls "
+                                 "with the sky noise of rain and cloud, empty: G/T held constant")
         lay.addWidget(self.services)
         self.outage_spans = SpanTable(self, "outage", "Outages", "Reason")
         self.busy_spans = SpanTable(self, "busy", "Busy time (other users)", "Note")
@@ -197,6 +203,13 @@ class StationEditor(QWidget):
         doc.recordsChanged.connect(self.reload)
         doc.selectionChanged.connect(self._selection)
         self._scenario_replaced()
+
+    def editors(self) -> dict:
+        """{section as docs/scenario.md names it: {key: where it is edited}} for what this editor edits."""
+        station = {k: "the form" for k in self.form.widgets}
+        station.update(horizon_mask="Edit mask...", services="the services table", outages="Outages",
+                       busy="Busy time")
+        return {"stations": station, "stations.services": {k: "the services table" for k in SERVICE_KEYS}}
 
     # ------------------------------------------------------------ which station
     def station(self):
@@ -299,6 +312,8 @@ class StationEditor(QWidget):
             value = None if sv is None else (sv.g_over_t_dbk if lk.direction == "down" else sv.eirp_dbw)
             self.services.setItem(r, 2, _item(number_text(value)))
             self.services.setItem(r, 3, _item(number_text(None if sv is None else sv.zenith_attenuation_db)))
+            down = lk.direction == "down"  # (the system noise of a receive chain: down links only)
+            self.services.setItem(r, 4, _item(number_text(None if sv is None else sv.system_noise_k), down))
 
     def add_outage_row(self) -> None:
         self.outage_spans.add_row()
@@ -326,8 +341,9 @@ class StationEditor(QWidget):
             old = st.service(lk.id)
             sv = records.encode_record(old) if old is not None else {"link": lk.id}
             key = "g_over_t_dbk" if lk.direction == "down" else "eirp_dbw"
-            for k, text in ((key, self._cell(self.services, r, 2)), ("zenith_attenuation_db",
-                                                                     self._cell(self.services, r, 3))):
+            cells = [(key, 2), ("zenith_attenuation_db", 3)] + ([("system_noise_k", 4)] if key == "g_over_t_dbk"
+                                                                 else [])
+            for k, text in ((k, self._cell(self.services, r, c)) for k, c in cells):
                 if text:
                     sv[k] = parse_number(text)
                 else:

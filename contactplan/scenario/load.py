@@ -552,21 +552,9 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     root = Table(doc, path, "", tables)
     root.read.add("format_version")
     sc = root.sub("scenario")
-    name = sc.str("name")
-    start = sc.time("start")
-    end = sc.time("end")
-    if end <= start:
-        sc.fail("end", "planning window ends before it starts")
-    from contactplan.bounds import window_problem
-
-    bad = window_problem(start, end)  # a typo such as 2927 must not stall the planner for minutes
-    if bad is not None:
-        sc.fail(bad[0], bad[1])
-    revision = sc.num("revision", 0, lo=0, integer=True)
-    freeze = sc.time("freeze", None)
-    freeze_h = sc.num("freeze_before_start_h", None, lo=0, hi=24 * 366)
-    if freeze is not None and freeze_h is not None:
-        sc.fail("freeze_before_start_h", "give one of freeze (a UTC time) or freeze_before_start_h, not both")
+    head = read_scenario_head(sc)
+    name, start, end, revision = head["name"], head["start_tt"], head["end_tt"], head["revision"]
+    freeze, freeze_h = head["freeze_tt"], head["freeze_before_start_h"]
 
     sp = root.sub("spacecraft")
     sp.read.add("object_id")  # read by the ephemeris export (OEM OBJECT_ID)
@@ -610,6 +598,25 @@ def parse_document(doc: dict, path: Path | None = None) -> m.Scenario:
     sc.keep(scen)  # raw/loaded of the [scenario] table
     scen.unknown_keys = unknown_keys(tables, path)
     return scen
+
+
+def read_scenario_head(sc: Table) -> dict:
+    """The keys of the ``[scenario]`` table as Scenario fields (also used by the planner's mission page)."""
+    out = {"name": sc.str("name")}
+    start, end = out["start_tt"], out["end_tt"] = sc.time("start"), sc.time("end")
+    if end <= start:
+        sc.fail("end", "planning window ends before it starts")
+    from contactplan.bounds import window_problem
+
+    bad = window_problem(start, end)  # a typo such as 2927 must not stall the planner for minutes
+    if bad is not None:
+        sc.fail(bad[0], bad[1])
+    out["revision"] = sc.num("revision", 0, lo=0, integer=True)
+    out["freeze_tt"] = sc.time("freeze", None)
+    out["freeze_before_start_h"] = sc.num("freeze_before_start_h", None, lo=0, hi=24 * 366)
+    if out["freeze_tt"] is not None and out["freeze_before_start_h"] is not None:
+        sc.fail("freeze_before_start_h", "give one of freeze (a UTC time) or freeze_before_start_h, not both")
+    return out
 
 
 def read_requirements(rq: Table) -> m.Requirements:

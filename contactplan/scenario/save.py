@@ -184,6 +184,11 @@ def dump_document(sc: m.Scenario) -> dict:
         doc.pop("orbit_determination", None)
     else:
         doc["orbit_determination"] = encode(sc.orbit_determination)
+    lp = getattr(sc, "link_planning", None)
+    if lp is None:  # (set or taken away in the planner: written as it now is)
+        doc.pop("link_planning", None)
+    else:
+        doc["link_planning"] = encode(lp)
     return doc
 
 
