@@ -21,8 +21,7 @@ pytest.importorskip("pyqtgraph")
 
 from PySide6.QtCore import Qt  # noqa: E402
 
-from contactplan.scenario import load_scenario, save_scenario  # noqa: E402
-from editor_scenario import planner_window  # noqa: E402
+from test_app_editors import _saved_and_read, planner  # noqa: E402, F401 (the main window on the small scenario)
 
 DOCS = Path(__file__).resolve().parents[1] / "docs" / "scenario.md"
 
@@ -91,15 +90,6 @@ def test_the_docs_walk_finds_every_key_table():
                                          "system_noise_k"]
 
 
-@pytest.fixture
-def planner(qtbot, tmp_path, monkeypatch):
-    w = planner_window(qtbot, tmp_path, monkeypatch)
-    yield w
-    w.doc.undo_stack.setClean()
-    w.cancel_job(wait=True)
-    w.doc.wait_checked()
-
-
 def _property_keys(win, kind: str, key) -> set:
     """The table keys the property editor shows for a selected record."""
     from contactplan.app.document import Selection
@@ -133,12 +123,6 @@ def test_every_documented_key_has_an_editor_in_the_planner(planner):
     assert set(win.cycle.status_actions) == {"draft", "requested", "confirmed", "declined", "cancelled"}
 
 
-def _saved_and_read(doc, tmp_path):
-    out = tmp_path / "saved.toml"
-    save_scenario(doc.scenario, out)
-    return load_scenario(out)
-
-
 def _enter(qtbot, form, key, text):
     form.widgets[key].setText(text)
     qtbot.keyClick(form.widgets[key], Qt.Key.Key_Return)
@@ -153,12 +137,17 @@ def test_network_cycle_keys_by_enter_refused_as_the_loader_refuses_undone_and_sa
     f = {**page.freeze_part.form.widgets, **page.confirm_part.form.widgets}
     assert f["freeze"].text() == "" and f["confirm_lead_h"].text() == ""
     assert "revision 0" in page.note.text()
-    f["freeze"].setText("2027-03-03T00:00:00Z")
+    f["freeze"].setText("2027-03-03T00:00:00.250Z")
     _enter(qtbot, page.confirm_part.form, "confirm_lead_h", "48")
     assert dlg.isVisible()  # Enter applied the page, it did not close the dialog
     assert sc.requirements.confirm_lead_h == 48 and sc.freeze_tt is not None
     assert doc.undo_stack.undoText() == "Change the network cycle"
     assert doc.is_frozen(sc.booking("B001"))  # its track starts on 2 March, before the freeze
+    freeze = sc.freeze_tt
+    assert f["freeze"].text() == "2027-03-03T00:00:00Z"  # shown to the second...
+    _enter(qtbot, page.confirm_part.form, "confirm_lead_h", "49")
+    assert sc.freeze_tt == freeze and sc.requirements.confirm_lead_h == 49  # ...kept to the millisecond
+    doc.undo_stack.undo()
     # both forms of the freeze: refused with the loader's message, nothing changed
     count = doc.undo_stack.count()
     _enter(qtbot, page.freeze_part.form, "freeze_before_start_h", "24")
@@ -201,6 +190,7 @@ def test_mission_page_window_spacecraft_and_orbit_one_step_each(planner, qtbot, 
                                                                                        "south")
     assert sc.end_tt - start == pytest.approx(4 * 86400.0) and sc.start_tt == start
     assert doc.undo_stack.undoText() == "Change the mission" and doc.stale
+    assert win.windowTitle().startswith("Editor week 2 - ")
     # the loader's checks: a window ending before it starts, an amplitude out of range
     w["end"].setText("2027-03-01T00:00:00Z")
     assert not page.apply()

@@ -246,7 +246,8 @@ class MainWindow(FilesMixin, JobsMixin, HelpMixin, QMainWindow):
         self.bookings_view.addAction(self.act_delete)
         self.act_purposes = self._act("Edit &services...", lambda: self.edit_purposes(None), "Ctrl+E")
         self.act_settings = self._act("Mission &settings...", self.show_settings, "Ctrl+,", None,
-                                      "Links, recorder, requirements, geometry and orbit determination")
+                                      "Mission and orbit, network cycle, links, weather, recorder, requirements, "
+                                      "tracking, geometry, orbit determination")
         self.act_book_pass = self._act("&Book the selected pass", self.book_selected_pass, "Ctrl+B")
         self.act_zoom_in = self._act("Zoom &in", lambda: self.timeline.zoom(0.5), K.ZoomIn, "zoom-in")
         self.act_zoom_out = self._act("Zoom &out", lambda: self.timeline.zoom(2.0), K.ZoomOut, "zoom-out")
