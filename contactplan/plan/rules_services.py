@@ -147,7 +147,7 @@ def _latest_pass(ctx: RuleContext, deadline: float, exclude: set) -> object | No
     for sid, plist in ctx.passes_by_station.items():
         if not plist or (ctx.links_modelled and not ctx.offers(sid, "commanding")):
             continue
-        k = bisect_right(ctx.pass_aos[sid], deadline - COMMAND_MIN_S)
+        k = bisect_right(ctx._pass_bounds(sid)[0], deadline - COMMAND_MIN_S)
         for p in reversed(plist[max(k - 3, 0):k]):
             if p.key in exclude or min(p.los_tt, deadline) - p.aos_tt < COMMAND_MIN_S:
                 continue
