@@ -78,13 +78,18 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
     out = []
     if not ctx.links_modelled:
         return out
+    here: dict = {}  # (station, service) -> (offered, its service index or None), looked up once per check
     for b in ctx.scenario.bookings:
         st = ctx.stations.get(b.station)
         if st is None:
             continue
         tracked = None
         for svc in b.services:
-            if not ctx.offers(b.station, svc):
+            got = here.get((b.station, svc))
+            if got is None:
+                ok = ctx.offers(b.station, svc)
+                got = here[(b.station, svc)] = (ok, ctx.service_index(b.station, svc) if ok else None)
+            if not got[0]:
                 why = ctx._cache.get(("missing", b.station, svc))
                 if why is None:
                     from contactplan.link.services import missing_direction
@@ -100,8 +105,8 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
             if not tracked:
                 continue
             # only the service spans overlapping the tracked time matter (bisection)
-            index = ctx.service_index(b.station, svc)
-            if all(index.covers(t0, t1) for t0, t1 in tracked):
+            index = got[1]
+            if len(tracked) == 1 and index.covers(*tracked[0]) or all(index.covers(t0, t1) for t0, t1 in tracked):
                 continue  # closes all the time (the common case): no gap
             closes = index.overlapping(tracked[0][0], tracked[-1][1])
             gaps = [(g0, g1) for g0, g1 in subtract(tracked, closes) if g1 - g0 > EDGE_TOLERANCE_S]

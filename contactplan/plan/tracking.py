@@ -198,8 +198,11 @@ def arc_requirements(ctx) -> list[ArcRequirement]:
     time inside ``r.windows`` (overlaps counted once) >= ``r.need_h``."""
     from contactplan.plan.twoway import manoeuvres
 
-    rq = ctx.scenario.requirements
     idx = track_index(ctx)
+    cached = getattr(ctx, "_arc_requirements", None)  # three rules read them: once per context and tracks
+    if cached is not None and cached[0] is idx:
+        return list(cached[1])
+    rq = ctx.scenario.requirements
     out = []
     per_day = getattr(rq, "tracking_per_day_min_h", None)
     if per_day:
@@ -226,6 +229,7 @@ def arc_requirements(ctx) -> list[ArcRequirement]:
     for r in out:
         r.have_h = idx.hours(r.windows)
     out.sort(key=lambda r: (r.windows[0][0], r.rule))
+    ctx._arc_requirements = (idx, list(out))
     return out
 
 
