@@ -90,22 +90,101 @@ def _others_overlapping(ctx: RuleContext, booking, a: float, b: float) -> list:
     return [(x0, x1) for x0, x1, x in bl[lo:hi] if x is not booking and x1 > a]
 
 
-def _free_pieces(ctx: RuleContext, booking, w0: float, w1: float) -> list:
-    """``subtract([(w0, w1)], holes)`` for the holes busy time, outages and the station's other bookings:
-    the station's free time (:func:`_station_free`) clipped to the window by bisection, minus the other
-    bookings in one sweep (the same pieces: a set's sorted disjoint pieces with positive gaps are unique)."""
+def free_fit(ctx: RuleContext, booking):
+    """(pass, booking start, booking end) of the free part of the booking's pass that fits it best, or
+    (pass, None, None) when nothing of the pass is free, or None when the booking's track is in no pass.
+
+    The booking may reach ``pre_pass_min`` before AOS and ``post_pass_min`` after LOS; free means
+    outside busy time, outages and the station's other bookings. Best: the piece whose track overlaps
+    the booking's track most, then the longest."""
+    return _fit(_station_state(ctx, booking.station), booking)
+
+
+def _taken(hits, a: float, b: float) -> list:
+    """``union`` of the busy spans ``hits`` (sorted by start, each overlapping (a, b)) clipped to [a, b]:
+    one sweep, the clipped starts being sorted already."""
+    out: list = []
+    for s in hits:
+        lo, hi = s.start_tt, s.end_tt
+        lo, hi = a if a > lo else lo, b if b < hi else hi  # max(start, a), min(end, b)
+        if hi <= lo:
+            continue
+        lo, hi = float(lo), float(hi)
+        if out and lo <= out[-1][1]:
+            if hi > out[-1][1]:
+                out[-1] = (out[-1][0], hi)
+        else:
+            out.append((lo, hi))
+    return out
+
+
+def _pass_key(p) -> str:
+    """``p.key`` from the cached time text (the same string)."""
+    return f"{p.station}@{t_text(p.aos_tt)}"
+
+
+def _station_state(ctx: RuleContext, sid: str) -> tuple:
+    """Everything the rule reads of one station, looked up once per check (see :func:`free_fit`)."""
+    spans, starts, reach = busy_index(ctx, sid)
+    pre, post = ctx._pre_post_s(sid)
+    plist = ctx.passes_by_station.get(sid, [])
+    p_aos, p_reach = ctx._pass_bounds(sid) if plist else ([], [])
+    f_start, f_end = _station_free(ctx, sid)
+    _others_overlapping(ctx, _NoBooking(sid), 0.0, 0.0)  # fills the station's other-bookings index
+    others = ctx._cache[("busy-bookings", sid)]
+    return spans, starts, reach, pre, post, plist, p_aos, p_reach, f_start, f_end, others
+
+
+class _NoBooking:
+    __slots__ = ("station",)
+
+    def __init__(self, sid):
+        self.station = sid
+
+
+def _fit(state, booking):
+    """:func:`free_fit` from a station's :func:`_station_state` (the same steps, inline)."""
+    _, _, _, pre, post, plist, p_aos, p_reach, f_start, f_end, (bl, o_starts, longest) = state
+    a, b = booking.start_tt + pre, booking.end_tt - post  # the track
+    t0, t1 = a, b
+    if b <= a:
+        a, b = booking.start_tt, booking.end_tt
+    best_p, best_s = None, 0.0  # RuleContext.pass_holding
+    for q in plist[bisect_right(p_reach, a):bisect_left(p_aos, b)]:
+        q0, q1 = q.aos_tt, q.los_tt
+        if q1 > a:
+            ov = (b if b < q1 else q1) - (a if a > q0 else q0)  # min(los, b) - max(aos, a)
+            if ov > best_s:
+                best_p, best_s = q, ov
+    if best_p is None:
+        return None
+    aos, los = best_p.aos_tt, best_p.los_tt
+    w0, w1 = aos - pre, los + post
     if w1 <= w0:
-        return []
+        return (best_p, None, None)
     w0, w1 = float(w0), float(w1)
-    f_start, f_end = _station_free(ctx, booking.station)  # lists of floats
     lo, hi = bisect_right(f_end, w0), bisect_left(f_start, w1)
-    if hi - lo == 1:  # the common case: one free piece
-        pieces = [(max(f_start[lo], w0), min(f_end[lo], w1))]
-    else:
-        pieces = [(max(a, w0), min(b, w1)) for a, b in zip(f_start[lo:hi], f_end[lo:hi])]
-    others = _others_overlapping(ctx, booking, w0, w1)
-    if not others or not pieces:
-        return pieces
+    # (conditional expressions in place of max() and min(): the same values, a call less each)
+    pieces = [(w0 if w0 > x else x, w1 if w1 < y else y) for x, y in zip(f_start[lo:hi], f_end[lo:hi])]
+    holes = [(x0, x1) for x0, x1, x in bl[bisect_left(o_starts, w0 - longest):bisect_left(o_starts, w1)]
+             if x is not booking and x1 > w0]
+    if holes and pieces:
+        pieces = _minus(pieces, holes)
+    best, best_key = None, None
+    for f0, f1 in pieces:
+        k0, k1 = f0 + pre, f1 - post
+        k0, k1 = aos if aos > k0 else k0, los if los < k1 else k1
+        if k1 <= k0:
+            continue
+        ov = (t1 if t1 < k1 else k1) - (t0 if t0 > k0 else k0)
+        rank = (ov if ov > 0.0 else 0.0, k1 - k0)
+        if best_key is None or rank > best_key:
+            best, best_key = (k0 - pre, k1 + post), rank
+    return (best_p, None, None) if best is None else (best_p, best[0], best[1])
+
+
+def _minus(pieces, others) -> list:
+    """``pieces`` (sorted, disjoint) minus ``others`` in one sweep over them sorted by start."""
     out = []
     holes = sorted((float(a), float(b)) for a, b in others if b > a)
     for a, b in pieces:
@@ -123,52 +202,6 @@ def _free_pieces(ctx: RuleContext, booking, w0: float, w1: float) -> list:
     return out
 
 
-def free_fit(ctx: RuleContext, booking):
-    """(pass, booking start, booking end) of the free part of the booking's pass that fits it best, or
-    (pass, None, None) when nothing of the pass is free, or None when the booking's track is in no pass.
-
-    The booking may reach ``pre_pass_min`` before AOS and ``post_pass_min`` after LOS; free means
-    outside busy time, outages and the station's other bookings. Best: the piece whose track overlaps
-    the booking's track most, then the longest."""
-    pre, post = ctx._pre_post_s(booking.station)
-    t0, t1 = booking.start_tt + pre, booking.end_tt - post  # the track (RuleContext.track)
-    p = ctx.pass_holding(booking, *((t0, t1) if t1 > t0 else (booking.start_tt, booking.end_tt)))
-    if p is None:
-        return None
-    aos, los = p.aos_tt, p.los_tt
-    best, best_key = None, None
-    for f0, f1 in _free_pieces(ctx, booking, aos - pre, los + post):
-        k0, k1 = max(f0 + pre, aos), min(f1 - post, los)
-        if k1 <= k0:
-            continue
-        rank = (max(0.0, min(k1, t1) - max(k0, t0)), k1 - k0)
-        if best_key is None or rank > best_key:
-            best, best_key = (k0 - pre, k1 + post), rank
-    return (p, None, None) if best is None else (p, best[0], best[1])
-
-
-def _taken(hits, a: float, b: float) -> list:
-    """``union`` of the busy spans ``hits`` (sorted by start, each overlapping (a, b)) clipped to [a, b]:
-    one sweep, the clipped starts being sorted already."""
-    out: list = []
-    for s in hits:
-        lo, hi = max(s.start_tt, a), min(s.end_tt, b)
-        if hi <= lo:
-            continue
-        lo, hi = float(lo), float(hi)
-        if out and lo <= out[-1][1]:
-            if hi > out[-1][1]:
-                out[-1] = (out[-1][0], hi)
-        else:
-            out.append((lo, hi))
-    return out
-
-
-def _pass_key(p) -> str:
-    """``p.key`` from the cached time text (the same string)."""
-    return f"{p.station}@{t_text(p.aos_tt)}"
-
-
 def rule_station_busy(ctx: RuleContext) -> list:
     """``station-busy`` (error): a booking (pre-pass and post-pass included) on another user's busy time."""
     out = []
@@ -179,10 +212,10 @@ def rule_station_busy(ctx: RuleContext) -> list:
         if not _active(b) or b.end_tt <= b.start_tt:
             continue
         a0, a1 = b.start_tt, b.end_tt
-        got = index.get(b.station)
-        if got is None:
-            got = index[b.station] = busy_index(ctx, b.station)
-        spans, starts, reach = got
+        state = index.get(b.station)
+        if state is None:
+            state = index[b.station] = _station_state(ctx, b.station)
+        spans, starts, reach = state[0], state[1], state[2]
         if not spans:
             continue
         hits = [s for s in spans[bisect_right(reach, a0):bisect_left(starts, a1)]
@@ -196,7 +229,7 @@ def rule_station_busy(ctx: RuleContext) -> list:
             named += f" and {len(hits) - SPANS_NAMED} more"
         msg = (f"{b.id} at {b.station} ({tt(a0)} to {tt(a1)}, pre-pass and post-pass "
                f"included) overlaps another user's busy time for {minutes(total_s(taken))}: {named}")
-        fit = free_fit(ctx, b)
+        fit = _fit(state, b)
         fix = []
         if fit is None:
             msg += "; its track is in no pass of the station"
@@ -204,7 +237,7 @@ def rule_station_busy(ctx: RuleContext) -> list:
             msg += f"; no part of the pass {_pass_key(fit[0])} is free: move it to another pass or station"
         else:
             p, s0, s1 = fit
-            pre, post = ctx._pre_post_s(b.station)
+            pre, post = state[3], state[4]
             msg += (f"; the free part of the pass {_pass_key(p)} that would fit: {tt(s0)} to {tt(s1)} "
                     f"(track {tt(s0 + pre)} to {tt(s1 - post)})")
             fix = [(float(s0), float(s1))]
