@@ -39,14 +39,15 @@ def busy_index(ctx: RuleContext, sid: str):
         st = ctx.stations.get(sid)
         spans = list(getattr(st, "busy", None) or [])
         starts = [s.start_tt for s in spans]
+        s_arr = np.array(starts, dtype=float)
         ends = np.array([s.end_tt for s in spans], dtype=float)
-        if spans and bool((np.diff(starts) < 0).any()):  # the loader sorts them; an edit may not have
-            order = np.argsort(starts, kind="stable")
-            spans, ends = [spans[i] for i in order.tolist()], ends[order]
-            starts = [spans[i].start_tt for i in range(len(spans))]
+        if spans and bool((s_arr[1:] < s_arr[:-1]).any()):  # the loader sorts them; an edit may not have
+            order = np.argsort(s_arr, kind="stable")
+            spans, ends, s_arr = [spans[i] for i in order.tolist()], ends[order], s_arr[order]
+            starts = [s.start_tt for s in spans]
         reach = np.maximum.accumulate(ends) if spans else np.zeros(0)
         got = ctx._cache[key] = (spans, starts, reach.tolist())  # lists: bisect is quickest per call
-        ctx._cache[("busy-arrays", sid)] = (np.asarray(starts, dtype=float), ends)
+        ctx._cache[("busy-arrays", sid)] = (s_arr, ends)
     return got
 
 
