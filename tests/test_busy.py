@@ -491,3 +491,50 @@ def test_import_busy_keeps_periods_outside_the_window_and_counts_them(tmp_path):
     assert import_busy(sc, "KAL", _write(tmp_path, _calendar(fb))) == (2, 1, 2)
     assert _spans(sc.station("KAL").busy) == [("2027-01-14T06:00:00Z", "2027-01-14T07:00:00Z"),
                                               ("2027-03-02T06:00:00Z", "2027-03-02T07:00:00Z")]
+
+
+def _free_fit_by_set_operations(ctx, b):
+    """free_fit as the set operations say it (the reference for the indexed form): the pass holding the
+    track, the pass window minus busy time, outages and the station's other active bookings, best piece."""
+    from contactplan.intervals import subtract
+
+    p = ctx.pass_holding(b)
+    if p is None:
+        return None
+    pre, post = ctx.setup_s(b), ctx.teardown_s(b)
+    w0, w1 = p.aos_tt - pre, p.los_tt + post
+    st_ = ctx.stations[b.station]
+    holes = [(s.start_tt, s.end_tt) for s in st_.busy] + [(o.start_tt, o.end_tt) for o in st_.outages]
+    holes += [(x.start_tt, x.end_tt) for x in ctx.scenario.bookings
+              if x is not b and x.station == b.station and getattr(x, "status", "draft") not in ("declined", "cancelled")]
+    t0, t1 = ctx.track(b)
+    best, key = None, None
+    for f0, f1 in subtract([(w0, w1)], holes):
+        k0, k1 = max(f0 + pre, p.aos_tt), min(f1 - post, p.los_tt)
+        if k1 <= k0:
+            continue
+        rank = (max(0.0, min(k1, t1) - max(k0, t0)), k1 - k0)
+        if key is None or rank > key:
+            best, key = (k0 - pre, k1 + post), rank
+    return (p, None, None) if best is None else (p, best[0], best[1])
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 6 * 24 * 4), st.integers(1, 24)), max_size=25),
+       st.lists(st.tuples(st.integers(0, 6 * 24 * 4), st.integers(0, 20)), min_size=1, max_size=12),
+       st.lists(st.tuples(st.integers(0, 6 * 24 * 4), st.integers(1, 16)), max_size=3))
+def test_free_fit_is_the_set_operations(busy, books, outages):
+    """The indexed free fit (station free time by bisection, other bookings swept) names the same piece as
+    the pass window minus every busy span, outage and other booking (quarter-hour units, random)."""
+    from contactplan.plan.rules_busy import free_fit
+
+    sc = make_scenario([m.Booking(id=f"B{i}", station="NRV", start_tt=T0 + q * 900.0, end_tt=T0 + (q + d) * 900.0,
+                                  purposes=["downlink"]) for i, (q, d) in enumerate(books)])
+    st_ = sc.station("NRV")
+    st_.busy = sorted((m.BusySpan(start_tt=T0 + q * 900.0, end_tt=T0 + (q + d) * 900.0, source="x")
+                       for q, d in busy), key=lambda s: s.start_tt)
+    st_.outages = [m.Outage(start_tt=T0 + q * 900.0, end_tt=T0 + (q + d) * 900.0, reason="x") for q, d in outages]
+    ctx = RuleContext.build(sc, PASSES)
+    for b in ctx.scenario.bookings:
+        assert free_fit(ctx, b) == _free_fit_by_set_operations(ctx, b)
+    assert len(rule_station_busy(ctx)) <= len(books)

@@ -115,25 +115,106 @@ def _build(station, passes, t, offsets, el, rng, link, level, set_fields=True):
     volume_gbit = (cum[offsets[1:] - 1] - cum[offsets[:-1]]) * 1e-6
     max_rate = np.maximum.reduceat(seg_rate, offsets[:-1]) if seg_rate.size else np.zeros(len(passes))
     limit = getattr(link, "max_rate_changes_per_pass", None)
+    plans = _rate_plans(t, offsets, seg_rate, limit) if limit is not None else None
+    # per pass below only slices and plain floats (numpy scalars and indices cost more one by one)
+    offs = np.asarray(offsets).tolist()
+    culm = margin[_first_argmax(el, offsets)].tolist() if len(passes) else []
+    vols, peaks_kbps = volume_gbit.tolist(), max_rate.tolist()
+    link_id = getattr(link, "id", "")
 
     out = {}
     for i, p in enumerate(passes):
-        a, b = offsets[i], offsets[i + 1]
-        peak = a + int(np.argmax(el[a:b])) if b > a else a
+        a, b = offs[i], offs[i + 1]
         prof = PassProfile(station=station.id, t_tt=t[a:b], elevation_deg=el[a:b], rate_kbps=rate[a:b],
                            ebn0_db=None if ebn0 is None else ebn0[a:b], range_km=rng[a:b],
-                           link_id=getattr(link, "id", ""), margin_db=margin[a:b], closes=closes[a:b],
-                           culmination_margin_db=float(margin[peak]) if b > a else None)
-        vol = float(volume_gbit[i])
-        if limit is not None:
-            edges, steps = prof.profile_steps()
-            prof.plan_edges_tt, prof.plan_rates_kbps, kbit = best_rate_plan(edges, steps, limit)
+                           link_id=link_id, margin_db=margin[a:b], closes=closes[a:b],
+                           culmination_margin_db=culm[i] if b > a else None)
+        vol = vols[i]
+        if plans is not None:
+            got = plans(i)
+            if got is None:  # samples not strictly increasing: the profile's own steps
+                edges, steps = prof.profile_steps()
+                got = best_rate_plan(edges, steps, limit)
+            prof.plan_edges_tt, prof.plan_rates_kbps, kbit = got
             vol = kbit * 1e-6
         out[id(p)] = prof
         if set_fields:
-            p.max_rate_kbps = float(max_rate[i])
+            p.max_rate_kbps = peaks_kbps[i]
             p.volume_gbit = vol
     return out
+
+
+def _first_argmax(values, offsets) -> list:
+    """``a + argmax(values[a:b])`` of every pass (a, b consecutive offsets), all passes at once."""
+    starts, counts = offsets[:-1], np.diff(offsets)
+    if len(starts) == 0:
+        return []
+    if (counts <= 0).any() or offsets[-1] != values.size:
+        return [a + int(np.argmax(values[a:b])) if b > a else a for a, b in zip(starts.tolist(), offsets[1:].tolist())]
+    top = np.maximum.reduceat(values, starts)
+    at = np.flatnonzero(values == np.repeat(top, counts))  # where each pass reaches its maximum
+    k = np.searchsorted(at, starts)
+    first = at[np.minimum(k, max(at.size - 1, 0))] if at.size else np.full(len(starts), values.size)
+    odd = (k >= at.size) | (first >= offsets[1:])  # no sample equals the maximum (a NaN): argmax's own answer
+    out = first.tolist()
+    for i in np.flatnonzero(odd).tolist():
+        out[i] = int(starts[i]) + int(np.argmax(values[starts[i]:offsets[i + 1]]))
+    return out
+
+
+def _rate_plans(t, offsets, seg_rate, limit):
+    """``plan(i)`` -> (plan edges, plan rates, kbit) of pass i, as ``best_rate_plan(*prof.profile_steps(),
+    limit)`` gives them, from the merged steps of every pass found at once; None for a pass whose samples
+    do not strictly increase (left to the profile itself)."""
+    from contactplan.link.rateplan import best_rate_plan
+
+    starts, ends = offsets[:-1], offsets[1:]
+    nseg = seg_rate.size
+    valid = np.ones(nseg, dtype=bool)
+    valid[ends[:-1] - 1] = False  # the spans joining one pass to the next
+    first = np.zeros(nseg, dtype=bool)
+    first[starts[starts < nseg]] = True
+    change = np.ones(nseg, dtype=bool)
+    change[1:] = seg_rate[1:] != seg_rate[:-1]
+    kept = np.flatnonzero(valid & (first | change))  # each pass's merged steps (profile_steps)
+    bad = valid & ~(np.diff(t) > 0)
+    few = np.diff(offsets) < 2
+    irregular = (np.logical_or.reduceat(bad, starts) | few if nseg and not few.any() and offsets[-1] == t.size
+                 else np.ones(len(starts), dtype=bool))
+    k0 = np.searchsorted(kept, starts)
+    k1 = np.searchsorted(kept, ends - 1)  # pass i's steps are kept[k0[i]:k1[i]], k1[i] == k0[i + 1]
+    kr = seg_rate[kept]
+    groups = int(limit) + 1
+    # every pass's plan edges back to back: its kept step starts, then its LOS (pass i from k0[i] + i)
+    edges_all = np.insert(t[kept], k1, t[ends - 1])
+    m = k1 - k0
+    simple = ~irregular & (m <= groups)  # no more steps than pieces allowed: the plan is the profile
+    kbit = None
+    if groups < 8 and simple.any():
+        # best_rate_plan's float(np.sum(rates * np.diff(edges))): numpy sums fewer than 8 terms one after
+        # another from 0, so the columns are added in that order (zeros past a pass's last step add nothing)
+        d_all = np.diff(edges_all)
+        at0 = k0 + np.arange(len(starts))
+        kbit = np.zeros(len(starts))
+        for j in range(int(m[simple].max())):
+            use = simple & (j < m)
+            r = kr[np.minimum(k0 + j, max(kr.size - 1, 0))] if kr.size else np.zeros(len(starts))
+            d = d_all[np.minimum(at0 + j, max(d_all.size - 1, 0))] if d_all.size else np.zeros(len(starts))
+            kbit = kbit + np.where(use, r * d, 0.0)
+        kbit = kbit.tolist()
+    k0, k1, irregular, simple = k0.tolist(), k1.tolist(), irregular.tolist(), simple.tolist()
+
+    def plan(i):
+        if irregular[i]:
+            return None
+        a, b = k0[i], k1[i]
+        edges = edges_all[a + i:b + i + 1]
+        if simple[i]:
+            rates = kr[a:b]
+            return edges, rates, kbit[i] if kbit is not None else float(np.sum(rates * np.diff(edges)))
+        return best_rate_plan(edges, kr[a:b], limit)
+
+    return plan
 
 
 def geometry_nodes(passes, ref_tt: float, node_step_s: float):

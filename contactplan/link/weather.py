@@ -28,6 +28,7 @@ to fill a missing table, inside :func:`_tabulate`.
 
 from __future__ import annotations
 
+import functools
 import warnings
 from dataclasses import dataclass
 
@@ -136,7 +137,10 @@ def penalty_db(table: SiteWeather, elevation_deg, system_noise_k: float | None):
 
 
 # ---------------------------------------------------------------- tables
+@functools.lru_cache(maxsize=1)
 def _itur_version() -> str:
+    """The installed ``itur`` version, part of every table's cache key (read once per process: the
+    distribution metadata look-up costs milliseconds and the installation does not change under it)."""
     try:
         from importlib.metadata import version
 

@@ -56,20 +56,31 @@ def add_noise(s: np.ndarray, q: np.ndarray) -> np.ndarray:
     return _tri(np.hstack([s, info_factor(q).T]))
 
 
-def sqrt_filter(p0: np.ndarray, phis: np.ndarray, infos: dict, kicks: dict) -> np.ndarray:
+def sqrt_filter(p0: np.ndarray, phis: np.ndarray, infos: dict, kicks: dict, start: int = 0,
+                prior: np.ndarray | None = None) -> np.ndarray:
     """Covariance factors at every node (K, n, n).
 
     ``p0`` covariance at node 0 (before its data); ``phis`` (K-1, n, n) transitions from
     node k-1 to node k; ``infos`` {node: information (n, n)} applied at that node;
     ``kicks`` {node: Q (n, n)} added after the node's measurement update.
-    The factor stored for node k is after both."""
+    The factor stored for node k is after both.
+
+    ``start`` > 0 with ``prior``: the factors of an earlier run whose inputs were the same before node
+    ``start``; nodes before it are taken from it and the recursion resumes there (the same numbers as a run
+    from node 0: each factor depends only on the one before and the node's own inputs)."""
     n = p0.shape[0]
     k_nodes = phis.shape[0] + 1
     out = np.empty((k_nodes, n, n))
-    s = np.linalg.cholesky(p0)
-    keys = sorted(infos)
+    start = int(start) if prior is not None and prior.shape == out.shape else 0
+    start = min(max(start, 0), k_nodes)
+    if start:
+        out[:start] = prior[:start]
+        s = out[start - 1]
+    else:
+        s = np.linalg.cholesky(p0)
+    keys = [k for k in sorted(infos) if k >= start]
     factors = dict(zip(keys, info_factors(np.array([infos[k] for k in keys])))) if keys else {}
-    for k in range(k_nodes):
+    for k in range(start, k_nodes):
         if k:
             s = phis[k - 1] @ s
         u = factors.get(k)

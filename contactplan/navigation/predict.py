@@ -157,6 +157,7 @@ class NavigationModel:
         phi = dynamics.interval_stms(self.nodes, pos, self.split_moon)
         self.phis = phi * (_D[None, :, None] / _D[None, None, :])  # D Phi D^-1
         self._track_cache: dict = {}
+        self._last = None  # the last run's inputs and factors (run resumes from them)
         self.measured = 0  # tracks measured since built (for tests and benchmarks)
 
     # ------------------------------------------------------------ measurements
@@ -260,7 +261,31 @@ class NavigationModel:
         return {int(k): s for k, s in zip(n[first], sums)}, count
 
     # ------------------------------------------------------------ covariance
+    def _per_node(self, s, start: int, last):
+        """(covariance km, 1-sigma position km, velocity mm/s, largest axis km, its angle deg) at every node from
+        the factors ``s``; nodes before ``start`` copied from ``last`` (the same factors there)."""
+        if last is None or start <= 0:
+            return self._post(s)
+        if start >= len(s):
+            return last["post"]
+        new = self._post(s[start:], start)
+        return tuple(np.concatenate((old[:start], n)) for old, n in zip(last["post"], new))
+
+    def _post(self, s, first: int = 0):
+        p = np.einsum("kij,klj->kil", s, s) / (_D[None, :, None] * _D[None, None, :])
+        pos = np.sqrt(np.clip(np.trace(p[:, :3, :3], axis1=1, axis2=2), 0.0, None))
+        vel = np.sqrt(np.clip(np.trace(p[:, 3:, 3:], axis1=1, axis2=2), 0.0, None)) * 1e6
+        w, v = np.linalg.eigh(p[:, :3, :3])
+        axis = v[:, :, -1]
+        r = self.node_r_km[first:]
+        los = r / np.linalg.norm(r, axis=1, keepdims=True)
+        ang = np.degrees(np.arccos(np.clip(np.abs(np.einsum("ni,ni->n", axis, los)), 0.0, 1.0)))
+        big = np.sqrt(np.clip(w[:, -1], 0.0, None))
+        return p, pos, vel, big, ang
+
     def run(self, tracks) -> NavigationResult:
+        """The prediction for ``tracks``. The filter's factors are kept from the run before: when only some
+        nodes' information changed (a booking edited), the filter resumes at the first of them."""
         tracks = list(tracks)
         od = self.od
         infos, count = self.information(tracks)
@@ -272,15 +297,15 @@ class NavigationModel:
             q = np.zeros((6, 6))
             q[3:, 3:] = np.eye(3) * (m.sigma_mm_s * 1e-6 * TIME_UNIT_S) ** 2
             kicks[k] = kicks.get(k, 0.0) + q
-        s = covariance.sqrt_filter(p0, self.phis, infos, kicks)
-        p = np.einsum("kij,klj->kil", s, s) / (_D[None, :, None] * _D[None, None, :])
-        pos = np.sqrt(np.clip(np.trace(p[:, :3, :3], axis1=1, axis2=2), 0.0, None))
-        vel = np.sqrt(np.clip(np.trace(p[:, 3:, 3:], axis1=1, axis2=2), 0.0, None)) * 1e6
-        w, v = np.linalg.eigh(p[:, :3, :3])
-        axis = v[:, :, -1]
-        los = self.node_r_km / np.linalg.norm(self.node_r_km, axis=1, keepdims=True)
-        ang = np.degrees(np.arccos(np.clip(np.abs(np.einsum("ni,ni->n", axis, los)), 0.0, 1.0)))
-        big = np.sqrt(np.clip(w[:, -1], 0.0, None))
+        key = (p0.tobytes(), tuple((k, q.tobytes()) for k, q in sorted(kicks.items())))
+        last = self._last  # one snapshot: another thread may replace it meanwhile
+        start = _first_change(last, key, infos, len(self.nodes)) if last is not None else 0
+        s = covariance.sqrt_filter(p0, self.phis, infos, kicks, start=start,
+                                   prior=last["s"] if last is not None else None)
+        p, pos, vel, big, ang = self._per_node(s, start, last)
+        self._last = {"key": key, "info_nodes": np.array(sorted(infos), dtype=np.int64),
+                      "info": np.array([infos[k] for k in sorted(infos)]).reshape(-1, 6, 6), "s": s,
+                      "post": (p, pos, vel, big, ang)}
         res = NavigationResult(t_tt=self.nodes.copy(), position_sigma_km=pos, velocity_sigma_mm_s=vel,
                                largest_axis_km=big, largest_axis_angle_deg=ang,
                                required_position_km=od.required_position_km, covariance_km=p,
@@ -290,6 +315,25 @@ class NavigationModel:
             res.checks.append(CheckValue(label, kind, float(self.nodes[k]), act, float(pos[k]), float(vel[k]),
                                          float(big[k]), float(ang[k]), od.required_position_km))
         return res
+
+
+def _first_change(last: dict, key, infos: dict, nodes: int) -> int:
+    """The first node whose filter inputs differ from ``last``'s (``nodes`` when none does; 0 when the a
+    priori or the kicks differ)."""
+    if last["key"] != key:
+        return 0
+    old_k, old_m = last["info_nodes"], last["info"]
+    new_k = np.array(sorted(infos), dtype=np.int64)
+    new_m = np.array([infos[k] for k in new_k.tolist()]).reshape(-1, 6, 6)
+    m = min(old_k.size, new_k.size)
+    same = (old_k[:m] == new_k[:m]) & np.all(old_m[:m] == new_m[:m], axis=(1, 2))
+    bad = np.flatnonzero(~same)
+    if bad.size:
+        j = int(bad[0])
+        return int(min(old_k[j], new_k[j]))
+    if old_k.size != new_k.size:
+        return int((old_k if old_k.size > m else new_k)[m])
+    return nodes
 
 
 def signature(tracks, manoeuvres) -> tuple:

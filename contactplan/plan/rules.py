@@ -101,6 +101,7 @@ class RuleContext:
     _cache: dict = field(default_factory=dict, repr=False)
     _pre_post: dict = field(default_factory=dict, repr=False)  # station id -> (pre-pass s, post-pass s)
     _outage_index: dict = field(default_factory=dict, repr=False)  # station id -> (outage starts, longest)
+    _pass_lists: dict = field(default_factory=dict, repr=False)  # station id -> (AOS list, LOS running max list)
 
     @classmethod
     def build(cls, scenario, passes, profiles=None, recorder=None, coverage=None,
@@ -161,9 +162,18 @@ class RuleContext:
         plist = self.passes_by_station.get(sid, [])
         if not plist:
             return []
-        hi = bisect_left(self.pass_aos[sid], b)  # passes with AOS < b
-        lo = int(np.searchsorted(self.pass_los_max[sid], a, side="right"))  # before lo every LOS <= a
+        aos, reach = self._pass_bounds(sid)
+        hi = bisect_left(aos, b)  # passes with AOS < b
+        lo = bisect_right(reach, a)  # before lo every LOS <= a
         return [p for p in plist[lo:hi] if p.los_tt > a]
+
+    def _pass_bounds(self, sid: str) -> tuple[list, list]:
+        """(AOS, running LOS maximum) of a station's passes as lists (bisect on a list is quickest per call)."""
+        got = self._pass_lists.get(sid)
+        if got is None:
+            got = self._pass_lists[sid] = (np.asarray(self.pass_aos[sid], dtype=float).tolist(),
+                                           np.asarray(self.pass_los_max[sid], dtype=float).tolist())
+        return got
 
     def track(self, booking) -> tuple[float, float]:
         """(BOT, EOT) of a booking (see module doc); EOT may precede BOT for a very short booking."""
@@ -428,7 +438,7 @@ def rule_outside_pass(ctx: RuleContext) -> list[Finding]:
             out.append(_finding("outside-pass", ERROR, [b.id, b.station], t0, t1, msg, [(lo - pre, hi + post)]))
             continue
         mid = 0.5 * (t0 + t1)
-        k = bisect_left(ctx.pass_aos[b.station], mid)
+        k = bisect_left(ctx._pass_bounds(b.station)[0], mid)
         near = [q for q in plist[max(k - 1, 0):k + 1]]
         p = min(near, key=lambda q: min(abs(q.aos_tt - mid), abs(q.los_tt - mid)))
         msg = (f"{b.id} at {b.station} tracks in no pass of {b.station}; the nearest pass is {p.key} "

@@ -78,13 +78,18 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
     out = []
     if not ctx.links_modelled:
         return out
+    here: dict = {}  # (station, service) -> (offered, its service index or None), looked up once per check
     for b in ctx.scenario.bookings:
         st = ctx.stations.get(b.station)
         if st is None:
             continue
         tracked = None
         for svc in b.services:
-            if not ctx.offers(b.station, svc):
+            got = here.get((b.station, svc))
+            if got is None:
+                ok = ctx.offers(b.station, svc)
+                got = here[(b.station, svc)] = (ok, ctx.service_index(b.station, svc) if ok else None)
+            if not got[0]:
                 why = ctx._cache.get(("missing", b.station, svc))
                 if why is None:
                     from contactplan.link.services import missing_direction
@@ -100,8 +105,8 @@ def rule_service_unavailable(ctx: RuleContext) -> list[Finding]:
             if not tracked:
                 continue
             # only the service spans overlapping the tracked time matter (bisection)
-            index = ctx.service_index(b.station, svc)
-            if all(index.covers(t0, t1) for t0, t1 in tracked):
+            index = got[1]
+            if len(tracked) == 1 and index.covers(*tracked[0]) or all(index.covers(t0, t1) for t0, t1 in tracked):
                 continue  # closes all the time (the common case): no gap
             closes = index.overlapping(tracked[0][0], tracked[-1][1])
             gaps = [(g0, g1) for g0, g1 in subtract(tracked, closes) if g1 - g0 > EDGE_TOLERANCE_S]
@@ -147,7 +152,7 @@ def _latest_pass(ctx: RuleContext, deadline: float, exclude: set) -> object | No
     for sid, plist in ctx.passes_by_station.items():
         if not plist or (ctx.links_modelled and not ctx.offers(sid, "commanding")):
             continue
-        k = bisect_right(ctx.pass_aos[sid], deadline - COMMAND_MIN_S)
+        k = bisect_right(ctx._pass_bounds(sid)[0], deadline - COMMAND_MIN_S)
         for p in reversed(plist[max(k - 3, 0):k]):
             if p.key in exclude or min(p.los_tt, deadline) - p.aos_tt < COMMAND_MIN_S:
                 continue

@@ -26,13 +26,14 @@ as (window, stations needed, station pairs far enough apart in latitude).
 
 from __future__ import annotations
 
+from bisect import bisect_left
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from contactplan.intervals import subtract, total_s, union
+from contactplan.intervals import SpanIndex, subtract, total_s, union
 from contactplan.plan.findings import WARNING
-from contactplan.plan.rules import _finding, _whole_days, span_text, t_text
+from contactplan.plan.rules import _finding, _outages_overlapping, _whole_days, span_text, t_text
 from contactplan.plan.twoway import two_way_stations, two_way_tracks
 from contactplan.scenario.orbit_determination import TRACKING_DEFAULTS
 
@@ -77,6 +78,7 @@ class TrackIndex:
     def __init__(self, tracks):
         self.tracks = list(tracks)
         self.all = _Cover(union((t.start_tt, t.end_tt) for t in self.tracks))
+        self.index = SpanIndex(self.all.spans, merged=True)  # the same union, for range look-ups
         by: dict = {}
         for t in self.tracks:
             by.setdefault(t.station, []).append((t.start_tt, t.end_tt))
@@ -122,15 +124,26 @@ def _pass_index(ctx):
     cached = getattr(ctx, "_pass_index", None)
     if cached is None:
         plist = sorted(ctx.passes, key=lambda p: p.aos_tt)
-        aos = np.array([p.aos_tt for p in plist], dtype=float)
+        aos = [float(p.aos_tt) for p in plist]  # a list: bisect is quickest per call
         longest = max((p.los_tt - p.aos_tt for p in plist), default=0.0)
         cached = ctx._pass_index = (plist, aos, longest)
     return cached
 
 
+def _free_of_outages(ctx, sid: str, a: float, b: float) -> list:
+    """``subtract([(a, b)], outages of sid)``, reading only the outages overlapping (a, b) (bisection)."""
+    outs = _outages_overlapping(ctx, sid, a, b)
+    if not outs:
+        return [(float(a), float(b))] if b > a else []
+    return subtract([(a, b)], [(o0, o1) for o0, o1, _ in outs])
+
+
 def closing_passes(ctx, windows, need_s: float, stations=None) -> list:
     """Passes whose untracked time inside ``windows`` would add up to ``need_s`` (largest first):
-    [(Pass, free seconds)]. Only stations that can track two-way; ``stations``: only these of them."""
+    [(Pass, free seconds)]. Only stations that can track two-way; ``stations``: only these of them.
+
+    Passes are found by bisection on their AOS, outages and tracked time by bisection on their
+    indexes: the cost is that of the passes in ``windows``, not of the plan."""
     plist, aos, longest = _pass_index(ctx)
     idx = track_index(ctx)
     able = getattr(ctx, "_two_way_stations", None)
@@ -139,22 +152,23 @@ def closing_passes(ctx, windows, need_s: float, stations=None) -> list:
     stations = able if stations is None else set(stations) & able
     cand = []
     for w0, w1 in union(windows):
-        i0 = int(np.searchsorted(aos, w0 - longest, side="left"))
-        i1 = int(np.searchsorted(aos, w1, side="left"))
+        i0 = bisect_left(aos, w0 - longest)
+        i1 = bisect_left(aos, w1)
         for p in plist[i0:i1]:
             if p.los_tt <= w0 or p.station not in stations:
                 continue
-            a, b = max(p.aos_tt, w0), min(p.los_tt, w1)
-            outs = [(o0, o1) for o0, o1, _ in ctx.outages.get(p.station, [])]
-            free = subtract([(a, b)], outs)
+            free = _free_of_outages(ctx, p.station, max(p.aos_tt, w0), min(p.los_tt, w1))
             if free:
-                cand.append((p, free))
+                cand.append((p, free, total_s(free)))
     chosen, taken, got = [], [], 0.0
-    covered = list(idx.all.spans)
-    for p, free in sorted(cand, key=lambda c: -total_s(c[1])):
+    covered = idx.index
+    for p, free, _ in sorted(cand, key=lambda c: -c[2]):
         if got >= need_s - 1.0:
             break
-        add = total_s(subtract(free, union(covered + taken)))
+        # only the tracked and taken spans overlapping the pass's free time can cut it
+        f0, f1 = free[0][0], free[-1][1]
+        holes = covered.overlapping(f0, f1) + [s for s in taken if s[1] > f0 and s[0] < f1]
+        add = total_s(subtract(free, holes))
         if add <= 60.0:
             continue
         chosen.append((p, add))
@@ -184,8 +198,11 @@ def arc_requirements(ctx) -> list[ArcRequirement]:
     time inside ``r.windows`` (overlaps counted once) >= ``r.need_h``."""
     from contactplan.plan.twoway import manoeuvres
 
-    rq = ctx.scenario.requirements
     idx = track_index(ctx)
+    cached = getattr(ctx, "_arc_requirements", None)  # three rules read them: once per context and tracks
+    if cached is not None and cached[0] is idx:
+        return list(cached[1])
+    rq = ctx.scenario.requirements
     out = []
     per_day = getattr(rq, "tracking_per_day_min_h", None)
     if per_day:
@@ -212,6 +229,7 @@ def arc_requirements(ctx) -> list[ArcRequirement]:
     for r in out:
         r.have_h = idx.hours(r.windows)
     out.sort(key=lambda r: (r.windows[0][0], r.rule))
+    ctx._arc_requirements = (idx, list(out))
     return out
 
 
