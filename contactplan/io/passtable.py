@@ -18,7 +18,6 @@ attenuation; ``held-constant``: no ``system_noise_k`` given); without weather th
 
 from __future__ import annotations
 
-import csv
 import io
 import json
 from operator import attrgetter
@@ -222,6 +221,8 @@ def passes_csv_text(passes, columns=None, link_profiles=None) -> str:
     n = len(table["station"])
     cells = [_csv_column(c, table[c]) if c in table else [""] * n for c in cols]
     if len(cols) < 2:  # csv quotes a lone empty cell: leave such a table to it
+        import csv
+
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\r\n")
         w.writerow(cols)
