@@ -274,13 +274,12 @@ def test_in_pass_rows_as_the_row_by_row_lookup():
 # ---------------------------------------------------------------- node tables kept per user
 @pytest.fixture
 def cache_dir(tmp_path, monkeypatch):
+    """An empty user cache, and no node block remembered by this process."""
     from contactplan.ephemeris import bodies
 
-    folder = tmp_path / "cache"
-    monkeypatch.setenv("CONTACTPLAN_CACHE_DIR", str(folder))
-    bodies._blocks_mem.clear()
-    yield folder
-    bodies._blocks_mem.clear()
+    monkeypatch.setenv("CONTACTPLAN_CACHE_DIR", str(tmp_path / "cache"))
+    monkeypatch.setattr(bodies, "_blocks_mem", {})
+    return tmp_path / "cache"
 
 
 def test_sun_moon_nodes_are_the_kernel_values_and_read_back(cache_dir, monkeypatch):
@@ -293,7 +292,7 @@ def test_sun_moon_nodes_are_the_kernel_values_and_read_back(cache_dir, monkeypat
     assert np.array_equal(tab[:, 0:3], bodies.sun_km(t, velocity=True)[0])
     assert np.array_equal(tab[:, 9:12], bodies.moon_km(t, velocity=True)[1])
     assert len(list((cache_dir / "bodies").glob("*.bin"))) == 2
-    bodies._blocks_mem.clear()
+    bodies._blocks_mem.clear()  # a new process: only the files are left
     monkeypatch.setattr(bodies, "_node_table", lambda t: pytest.fail("recomputed a kept block"))
     assert np.array_equal(bodies.sun_moon_nodes(k0 + 5, k1, 3600.0), tab[5:])
 

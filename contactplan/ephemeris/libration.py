@@ -25,7 +25,10 @@ How it is built
        included in the velocity) is computed every hour over the span and
        interpolated between with cubic Hermite polynomials (position and
        velocity at both ends), which reproduces the exact construction to far
-       below a metre.
+       below a metre. Those hourly states are kept in the user cache for the
+       same orbit and span (:meth:`HaloEphemeris._node_states`), so a later
+       process on the same scenario window reads them back instead of reading
+       DE421 again.
 """
 
 from __future__ import annotations
