@@ -96,6 +96,19 @@ def test_passes_command_import_chain_stays_light(tmp_path):
     assert (tmp_path / "a.csv").read_text(encoding="utf-8").count("\n") > 2  # header and passes of both
 
 
+@pytest.mark.parametrize("given, expected", [(None, "1"), ("3", "3")])
+def test_passes_command_runs_blas_on_one_thread_unless_told(given, expected):
+    env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS",
+                                                              "OMP_NUM_THREADS")}
+    if given is not None:
+        env["OPENBLAS_NUM_THREADS"] = given
+    code = ("import os, sys; import contactplan.commands.passes; "
+            "print(os.environ.get('OPENBLAS_NUM_THREADS'), 'numpy' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+    assert out.returncode == 0, out.stderr[-2000:]
+    assert out.stdout.split() == [expected, "False"]  # set before numpy (and its BLAS) is loaded
+
+
 # ---------------------------------------------------------------- rounded numbers as text
 _TIES = [0.5, 1.5, 2.5, -2.5, 2.675, 0.125, 0.375, 1.0005, 1e-5, -1e-5, 5e-5, 0.0001, 0.00015, -0.0004, 0.0, -0.0,
          1e15, 1e16, 1e17, 123456789.123456789, 359.9995, 359.99949999999995, 1671359.2074999999]
