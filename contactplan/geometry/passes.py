@@ -18,7 +18,7 @@ Method
        (false position, every pass at once).
 
 Measured (benchmarks/bench_passes.py, CPU): a year, six masked stations, built-in
-halo orbit: about 0.3 s, 1.5 times the arithmetic floor counted there and some 230
+halo orbit: about 0.17 s, 1.6 times the arithmetic floor counted there and some 290
 times less than a plain astropy search at 60-s sampling, events agreeing within its
 1-s bisection. Results depend on each bracket alone (never on the rest of the batch),
 which lets :mod:`contactplan.plan.parallel` split a search and get the same passes.
