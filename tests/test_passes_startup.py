@@ -96,6 +96,30 @@ def test_passes_command_import_chain_stays_light(tmp_path):
     assert (tmp_path / "a.csv").read_text(encoding="utf-8").count("\n") > 2  # header and passes of both
 
 
+def test_passes_on_an_oem_stays_light_too(tmp_path):
+    import math
+
+    from contactplan.io.oem import write_oem
+    from contactplan.timescale import parse_utc
+
+    t0 = parse_utc("2026-12-31T00:00:00Z")
+    nodes = t0 + np.arange(0.0, 4 * 86400.0 + 1.0, 600.0)
+    w = 2 * math.pi / (180 * 86400.0)  # an invented L2-like loop, 1.5 million km out
+    x = w * (nodes - t0)
+    pos = np.stack([1.5e6 + 2.5e5 * np.cos(x), 7.5e5 * np.sin(x), 3.0e5 * np.cos(x + 0.3)], 1)
+    vel = np.stack([-2.5e5 * w * np.sin(x), 7.5e5 * w * np.cos(x), -3.0e5 * w * np.sin(x + 0.3)], 1)
+    write_oem(tmp_path / "probe.oem", nodes, pos, vel, "INVENTED PROBE", "2026-901A", creation_tt=t0)
+    scen = tmp_path / "oem.toml"
+    scen.write_text(SCENARIO.replace('[spacecraft.ephemeris.libration]\nepoch = "2027-01-01T00:00:00Z"\n',
+                                     'ephemeris = { oem = "probe.oem" }\n'), encoding="utf-8")
+    cache = tmp_path / "cache"
+    _passes_process(scen, tmp_path / "a.csv", cache)  # indexes the file, fills the cache
+    warm = _passes_process(scen, tmp_path / "b.csv", cache)
+    assert _loaded(warm, HEAVY + FIRST_RUN_ONLY) == []
+    assert "contactplan.ephemeris.oem" in warm
+    assert (tmp_path / "a.csv").read_bytes() == (tmp_path / "b.csv").read_bytes()
+
+
 @pytest.mark.parametrize("given, expected", [(None, "1"), ("3", "3")])
 def test_passes_command_runs_blas_on_one_thread_unless_told(given, expected):
     env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS",
