@@ -52,7 +52,9 @@ class _OneLineParser(argparse.ArgumentParser):
         self.exit(2, f"contactplan: error: {escape_text(' '.join(message.split()))}{hint}\n")
 
 
-def _parser() -> argparse.ArgumentParser:
+def _parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The command-line parser; with ``only`` (the sub-command being run) the other sub-commands'
+    modules are not imported (they are listed, without their options)."""
     p = _OneLineParser(
         prog="contactplan",
         usage="contactplan [FILE]\n       contactplan [-h] [--version] COMMAND ...",
@@ -67,6 +69,8 @@ def _parser() -> argparse.ArgumentParser:
         sp = sub.add_parser(name, prog=f"contactplan {name}", help=help_text, description=help_text,
                             formatter_class=argparse.RawDescriptionHelpFormatter)
         sp.set_defaults(_module=module)
+        if only is not None and name != only:
+            continue
         try:
             mod = importlib.import_module(module)
         except ModuleNotFoundError as exc:
@@ -93,7 +97,7 @@ def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     if not argv or (argv[0] not in COMMANDS and not argv[0].startswith("-")):
         return main_gui(argv[0] if argv else None)
-    parser = _parser()
+    parser = _parser(argv[0] if argv[0] in COMMANDS else None)
     args = parser.parse_args(argv)
     if args.command is None:
         parser.print_help()

@@ -18,7 +18,6 @@ from __future__ import annotations
 import functools
 import re
 import warnings
-from importlib import resources
 from pathlib import Path
 
 import numpy as np
@@ -36,13 +35,31 @@ class NetworkAccessWarning(UserWarning):
     """Something tried to reach the network; tests turn this into an error."""
 
 
+@functools.lru_cache(maxsize=None)
+def _package_dir(name: str) -> Path:
+    """Folder of an installed package, found without importing it (nor ``importlib.resources``' readers,
+    which take milliseconds to import); ``importlib.resources`` where the package is not a plain folder."""
+    from importlib.util import find_spec
+
+    try:
+        spec = find_spec(name)
+        for loc in (spec.submodule_search_locations or []) if spec is not None else []:
+            if Path(loc).is_dir():
+                return Path(loc)
+    except (ImportError, ValueError):
+        pass
+    from importlib import resources
+
+    return Path(str(resources.files(name)))
+
+
 def _iers_dir() -> Path:
-    return Path(str(resources.files("astropy_iers_data") / "data"))
+    return _package_dir("astropy_iers_data") / "data"
 
 
 def skyfield_data_dir() -> Path:
     """Folder holding ``de421.bsp`` (and an older ``finals2000A.all`` we do not use)."""
-    return Path(str(resources.files("skyfield_data") / "data"))
+    return _package_dir("skyfield_data") / "data"
 
 
 @functools.lru_cache(maxsize=1)

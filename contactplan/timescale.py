@@ -289,11 +289,12 @@ def format_utc(tt, decimals: int = 3, doy: bool = False):
     parts += [ord("T"), _digits(hh, 2), colon, _digits(mm, 2), colon, _digits(ss, 2)]
     if decimals:
         parts += [ord("."), _digits(fr, decimals)]
-    parts.append(ord("Z"))
+    parts += [ord("Z"), ord("\n")]
     n = arr.size
     cols = [np.full((n, 1), p, dtype=np.uint8) if isinstance(p, int) else p for p in parts]
-    text = np.ascontiguousarray(np.concatenate(cols, axis=1))
-    return text.view(f"S{text.shape[1]}").ravel().astype(str).tolist()
+    text = np.concatenate(cols, axis=1).tobytes().decode("ascii").split("\n")  # one line per time
+    text.pop()
+    return text
 
 
 def _digits(values, width: int) -> np.ndarray:

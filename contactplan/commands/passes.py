@@ -6,7 +6,14 @@ format (``.csv``, ``.json``, ``.xlsx``, ``.txt`` for the aligned table).
 
 from __future__ import annotations
 
+import os
 import sys
+
+# The search's matrix products are (N, 3) x (3, 3): BLAS helper threads add nothing to them but
+# the CPU they spend waiting for work. One thread, unless the user chose (read when numpy loads,
+# which for this command is after this module; process-pool workers inherit it).
+if not any(os.environ.get(v) for v in ("OPENBLAS_NUM_THREADS", "GOTO_NUM_THREADS", "OMP_NUM_THREADS")):
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
 
 HELP = "predict passes of each station over a window"
 

@@ -103,3 +103,71 @@ def emb_km(t_tt, velocity: bool = False):
 def sun_from_emb_km(t_tt, velocity: bool = False):
     """Sun relative to the Earth-Moon barycentre."""
     return _combine(t_tt, [(1, (_SSB, _SUN)), (-1, (_SSB, _EMB))], velocity)
+
+
+# ---------------------------------------------------------------- node tables kept per user
+#: bump when what :func:`sun_moon_nodes` stores changes (the segment chains, TDB-TT, the layout)
+NODE_CACHE_FORMAT = 1
+#: nodes computed (and kept per user) together
+NODE_BLOCK = 720
+_blocks_mem: dict = {}  # (step_s, block) -> (NODE_BLOCK, 12) table, the last few used in this process
+_BLOCKS_MEM_MAX = 64
+_blocks_lock = __import__("threading").Lock()
+
+
+def kernel_key() -> list | None:
+    """What identifies the packaged DE421 file (path, size, modification time) for caches built from it."""
+    try:
+        path = skyfield_data_dir() / "de421.bsp"
+        st = path.stat()
+        return [str(path), st.st_size, st.st_mtime_ns]
+    except OSError:
+        return None
+
+
+def _node_table(t_tt) -> np.ndarray:
+    """(N, 12): geocentric Sun position, velocity, Moon position, velocity (km, km/s) at ``t_tt``."""
+    sp, sv = sun_km(t_tt, velocity=True)
+    mp, mv = moon_km(t_tt, velocity=True)
+    return np.concatenate([sp, sv, mp, mv], axis=1)
+
+
+def sun_moon_nodes(k0: int, k1: int, step_s: float) -> np.ndarray:
+    """Geocentric Sun and Moon position and velocity at ``k * step_s`` (TT s) for k = k0..k1: (N, 12),
+    columns Sun x y z, vx vy vz, Moon x y z, vx vy vz (km, km/s).
+
+    The values are those of :func:`sun_km` and :func:`moon_km` at the same instants (each instant
+    is computed on its own, so the grouping does not change a bit). They are computed
+    :data:`NODE_BLOCK` nodes at a time, and each block is kept per user
+    (:mod:`contactplan.cachefile`, checked against the DE421 file and :data:`NODE_CACHE_FORMAT`),
+    so a later process reads a year's nodes back in a few milliseconds instead of evaluating
+    the kernel. A block reaching past DE421 is not kept: those nodes are computed as asked."""
+    from contactplan import cachefile
+
+    k0, k1 = int(k0), int(k1)
+    src = kernel_key()
+    parts = []
+    for b in range(k0 // NODE_BLOCK, k1 // NODE_BLOCK + 1):
+        lo, hi = max(k0, b * NODE_BLOCK), min(k1, (b + 1) * NODE_BLOCK - 1)
+        with _blocks_lock:
+            table = _blocks_mem.get((step_s, b))
+        if table is None:
+            key = None if src is None else {"bodies": NODE_CACHE_FORMAT, "step_s": float(step_s), "block": b,
+                                            "block_nodes": NODE_BLOCK, "de421": src}
+            path = cachefile.path_for("bodies", f"sun-moon-{float(step_s):g}s-{b}.bin")
+            table = cachefile.load(path, key) if key else None
+            if table is None or table.shape != (NODE_BLOCK, 12) or not np.all(np.isfinite(table)):
+                try:
+                    table = _node_table(np.arange(b * NODE_BLOCK, (b + 1) * NODE_BLOCK) * float(step_s))
+                except OutOfSpanError:  # the block reaches past DE421: only the nodes asked for
+                    parts.append(_node_table(np.arange(lo, hi + 1) * float(step_s)))
+                    continue
+                if key:
+                    cachefile.store(path, key, table)
+            table.flags.writeable = False  # shared by every caller
+            with _blocks_lock:
+                while len(_blocks_mem) >= _BLOCKS_MEM_MAX:
+                    _blocks_mem.pop(next(iter(_blocks_mem)))
+                _blocks_mem[(step_s, b)] = table
+        parts.append(table[lo - b * NODE_BLOCK:hi - b * NODE_BLOCK + 1])
+    return np.concatenate(parts)

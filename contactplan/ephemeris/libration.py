@@ -25,7 +25,10 @@ How it is built
        included in the velocity) is computed every hour over the span and
        interpolated between with cubic Hermite polynomials (position and
        velocity at both ends), which reproduces the exact construction to far
-       below a metre.
+       below a metre. Those hourly states are kept in the user cache for the
+       same orbit and span (:meth:`HaloEphemeris._node_states`), so a later
+       process on the same scenario window reads them back instead of reading
+       DE421 again.
 """
 
 from __future__ import annotations
@@ -41,6 +44,21 @@ from contactplan.errors import InputError
 NODE_STEP_S = 3600.0
 #: half-step of the central difference giving the EMB's heliocentric acceleration, s
 _ACC_STEP_S = 600.0
+#: bump when the exact construction (:meth:`HaloEphemeris.exact_state`) changes: cached nodes then go stale
+NODE_CACHE_FORMAT = 1
+#: node tables kept in the user cache (one per orbit and span; the oldest are removed)
+NODE_CACHE_FILES = 12
+_NODE_FILE_PREFIX = "halo-nodes-"
+
+
+def _prune_node_files(folder) -> None:
+    """Keep the newest :data:`NODE_CACHE_FILES` node tables in ``folder`` (quietly)."""
+    try:
+        files = sorted(folder.glob(f"{_NODE_FILE_PREFIX}*.bin"), key=lambda p: p.stat().st_mtime_ns)
+        for old in files[:-NODE_CACHE_FILES]:
+            old.unlink()
+    except OSError:
+        pass
 
 
 def _cross(a, b):
@@ -129,7 +147,7 @@ class HaloEphemeris(Ephemeris):
         if self._h > 0:
             nodes = self.start_tt + self._h * np.arange(n)
             nodes[-1] = self.end_tt
-            self._pos, self._vel = self.exact_state(nodes)
+            self._pos, self._vel = self._node_states(nodes)
             self._n = n
             # Cubic Hermite per interval in the local variable s in [0, 1] (common practice,
             # no source): p(s) = c0 + c1 s + c2 s^2 + c3 s^3 with p, dp/ds matching the
@@ -200,6 +218,59 @@ class HaloEphemeris(Ephemeris):
             + dist * (q[:, 0:1] * f["dex"] + q[:, 1:2] * f["dey"] + q[:, 2:3] * f["dez"])
             + dist * (qd[:, 0:1] * ex + qd[:, 1:2] * ey + qd[:, 2:3] * ez)
         )
+        return pos, vel
+
+    def _node_key(self, nodes) -> dict | None:
+        """What the node states depend on, for the user cache (None: do not cache)."""
+        import hashlib
+
+        from contactplan.ephemeris.bodies import kernel_key
+
+        de421 = kernel_key()
+        if de421 is None:
+            return None
+        o = self.orbit
+        h = hashlib.sha256()
+        for a in (o.state0, o.coef_cos, o.coef_sin, [o.mu, o.period]):
+            h.update(np.ascontiguousarray(a, dtype="<f8").tobytes())
+        h.update(np.asarray(o.coef_cos.shape, dtype="<i8").tobytes())
+        return {"halo_nodes": NODE_CACHE_FORMAT, "orbit": h.hexdigest(), "epoch_tt": self.epoch_tt,
+                "phase_deg": self.phase0_deg, "time_unit_s": self.time_unit_s, "start_tt": self.start_tt,
+                "end_tt": self.end_tt, "nodes": int(nodes.size), "first": float(nodes[0]),
+                "last": float(nodes[-1]), "de421": de421}
+
+    def _node_states(self, nodes) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`exact_state` at the interpolation nodes, kept per user for the same orbit and span.
+
+        The exact construction reads DE421 five times per node (some 60 ms for a year). Its result
+        is stored in the user cache (:mod:`contactplan.cachefile`) under a key naming everything it
+        depends on (the orbit's numbers, epoch, phase, span, node count, the DE421 file and
+        :data:`NODE_CACHE_FORMAT`), so a later process with the same scenario window reads the very
+        same numbers back. The last :data:`NODE_CACHE_FILES` spans are kept."""
+        import hashlib
+        import json
+        import os
+
+        from contactplan import cachefile
+
+        try:
+            key = self._node_key(nodes)
+        except (TypeError, ValueError, AttributeError):
+            key = None
+        path = None
+        if key is not None:
+            digest = hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:20]
+            path = cachefile.path_for("orbits", f"{_NODE_FILE_PREFIX}{digest}.bin")
+            table = cachefile.load(path, key)
+            if table is not None and table.shape == (nodes.size, 6) and np.all(np.isfinite(table)):
+                try:
+                    os.utime(path)  # the newest used is the last pruned
+                except OSError:
+                    pass
+                return table[:, :3].copy(), table[:, 3:].copy()
+        pos, vel = self.exact_state(nodes)
+        if path is not None and cachefile.store(path, key, np.concatenate([pos, vel], axis=1)):
+            _prune_node_files(path.parent)
         return pos, vel
 
     # ------------------------------------------------------------ interpolated (fast) path

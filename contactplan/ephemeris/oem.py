@@ -171,7 +171,7 @@ class OemEphemeris(Ephemeris):
     def _state(self, t_tt: np.ndarray):
         t = t_tt
         seg_of = self._segment_of(t)
-        segs = np.unique(seg_of)
+        segs = np.flatnonzero(np.bincount(seg_of, minlength=len(self._tables)))  # np.unique would import numpy.ma
         for s in segs:
             loaded = self._tables[int(s)].loaded
             if loaded is not None:

@@ -114,14 +114,13 @@ class _NodeCache:
         from contactplan import cachefile
         from contactplan.data import eop_source_key
 
-        import erfa
-
         src = eop_source_key()
+        erfa_version = _erfa_version()
         mats, ut1, keys = [], [], []
-        for b in np.unique(np.floor_divide(missing, NODE_BLOCK)):
+        for b in _sorted_unique(np.floor_divide(missing, NODE_BLOCK)):
             k = np.arange(b * NODE_BLOCK, (b + 1) * NODE_BLOCK, dtype=np.int64)
             key = None if src is None else {"nodes": NODE_CACHE_FORMAT, "step_s": NODE_STEP_S, "block": int(b),
-                                            "erfa": getattr(erfa, "__version__", "?"), "tables": src}
+                                            "erfa": erfa_version, "tables": src}
             path = cachefile.path_for("earth", f"nodes-{int(b)}.bin")
             table = cachefile.load(path, key) if key else None
             if table is None or table.shape != (NODE_BLOCK, 19) or not np.all(np.isfinite(table)):
@@ -137,7 +136,10 @@ class _NodeCache:
     def rows(self, keys_needed: np.ndarray) -> np.ndarray:
         """Row numbers in the cache of the given node keys (computing missing ones)."""
         with self._lock:
-            missing = np.setdiff1d(keys_needed, self.keys, assume_unique=False)
+            have = np.searchsorted(self.keys, keys_needed)
+            known = have < self.keys.size
+            known[known] = self.keys[have[known]] == keys_needed[known]
+            missing = _sorted_unique(keys_needed[~known])
             if missing.size:
                 missing, mats, ut1 = self._blocks(missing)
                 new = ~np.isin(missing, self.keys)  # a block may hold nodes already in memory
@@ -151,6 +153,37 @@ class _NodeCache:
 
 
 _nodes = _NodeCache()
+
+
+def _erfa_version() -> str:
+    """``erfa.__version__``, read from the installed package's version file while erfa is not loaded
+    (importing it, some milliseconds, is then left to the first node block computed)."""
+    import sys
+
+    mod = sys.modules.get("erfa")
+    if mod is None:
+        import re
+        from importlib.util import find_spec
+        from pathlib import Path
+
+        try:
+            folder = Path(find_spec("erfa").submodule_search_locations[0])
+            if not (folder / "_dev").exists():  # a development copy takes its version from git: ask erfa
+                m = re.search(r"^(?:__version__\s*=\s*)?version\s*=\s*['\"]([^'\"]+)['\"]",
+                              (folder / "_version.py").read_text(encoding="utf-8"), re.M)
+                if m:
+                    return m.group(1)
+        except (AttributeError, TypeError, IndexError, ImportError, ValueError, OSError):
+            pass
+        import erfa as mod
+    return getattr(mod, "__version__", "?")
+
+
+def _sorted_unique(a: np.ndarray) -> np.ndarray:
+    """``np.unique`` of a 1-d integer array (sorted, each value once) without importing ``numpy.ma``,
+    which ``np.unique`` does on its first call (some 40 ms of a short process)."""
+    a = np.sort(np.asarray(a).ravel())
+    return a[np.concatenate([[True], a[1:] != a[:-1]])] if a.size else a
 
 
 class EarthRotation:
@@ -169,7 +202,7 @@ class EarthRotation:
             i0 = k - k0
             i1 = i0 + 1
         else:  # a few instants far apart: only the nodes they need
-            uk = np.unique(np.concatenate([k, k + 1]))
+            uk = _sorted_unique(np.concatenate([k, k + 1]))
             i0 = np.searchsorted(uk, k)
             i1 = np.searchsorted(uk, k + 1)
         rows = _nodes.rows(uk)

@@ -147,31 +147,38 @@ def extremum_candidates(t, g):
         z = np.zeros(0)
         return z, z, z, z, z
     pos = g > 0
-    gl = np.concatenate([[np.nan], g[:-1]])
-    gr = np.concatenate([g[1:], [np.nan]])
     pl = np.concatenate([[pos[0]], pos[:-1]])
     pr = np.concatenate([pos[1:], [pos[-1]]])
-    dl = np.where(np.isnan(gl), 0.0, np.abs(g - gl))
-    dr = np.where(np.isnan(gr), 0.0, np.abs(gr - g))
+    # local extrema first (comparisons only, every sample); the reach test below only at those
+    up_l, up_r, dn_l, dn_r = (np.ones(n, bool) for _ in range(4))  # true at an end (no neighbour there)
+    with np.errstate(invalid="ignore"):
+        nan_l, nan_r = np.isnan(g[:-1]), np.isnan(g[1:])
+        up_l[1:] = nan_l | (g[1:] > g[:-1])
+        up_r[:-1] = nan_r | (g[:-1] >= g[1:])
+        dn_l[1:] = nan_l | (g[1:] < g[:-1])
+        dn_r[:-1] = nan_r | (g[:-1] <= g[1:])
+    ext = np.flatnonzero((~pos & ~pl & ~pr & up_l & up_r) | (pos & pl & pr & dn_l & dn_r))
+    is_max = ~pos[ext]
+    gi = g[ext]
+    has_l, has_r = ext > 0, ext < n - 1
+    gl = np.where(has_l, g[np.maximum(ext - 1, 0)], np.nan)
+    gr = np.where(has_r, g[np.minimum(ext + 1, n - 1)], np.nan)
+    dl = np.where(np.isnan(gl), 0.0, np.abs(gi - gl))
+    dr = np.where(np.isnan(gr), 0.0, np.abs(gr - gi))
     # Unequal spacing (extra samples at mask corners): the slope seen over one side, carried over
     # the other (wider) side, bounds how far the function may reach between the samples.
-    hl = np.concatenate([[0.0], np.diff(t)])
-    hr = np.concatenate([np.diff(t), [0.0]])
+    ti = t[ext]
+    hl = np.where(has_l, ti - t[np.maximum(ext - 1, 0)], 0.0)
+    hr = np.where(has_r, t[np.minimum(ext + 1, n - 1)] - ti, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         carry_l = np.where(hl > 0, dl * hr / hl, 0.0)
         carry_r = np.where(hr > 0, dr * hl / hr, 0.0)
     slack = np.maximum(np.maximum(dl, dr), np.maximum(carry_l, carry_r))
-    with np.errstate(invalid="ignore"):
-        up_l = np.isnan(gl) | (g > gl)
-        up_r = np.isnan(gr) | (g >= gr)
-        dn_l = np.isnan(gl) | (g < gl)
-        dn_r = np.isnan(gr) | (g <= gr)
-    cand_max = ~pos & ~pl & ~pr & up_l & up_r & (g + slack > 0)
-    cand_min = pos & pl & pr & dn_l & dn_r & (g - slack <= 0)
-    idx = np.nonzero(cand_max | cand_min)[0]
+    keep = np.where(is_max, gi + slack > 0, gi - slack <= 0)
+    idx = ext[keep]
     i0 = np.maximum(idx - 1, 0)
     i1 = np.minimum(idx + 1, n - 1)
-    return t[i0], t[i1], np.where(cand_max[idx], 1.0, -1.0), g[i0], g[i1]
+    return t[i0], t[i1], np.where(is_max[keep], 1.0, -1.0), g[i0], g[i1]
 
 
 def hidden_brackets(a, b, sign, ga, gb, tm, fm):

@@ -36,7 +36,8 @@ class ShadowSpan(NamedTuple):
 class BodyTrack:
     """Geocentric Sun and Moon (km) by cubic Hermite interpolation on an hourly DE421 grid.
 
-    Hourly nodes with velocities leave errors well under a kilometre for the Moon.
+    Hourly nodes with velocities leave errors well under a kilometre for the Moon. The node
+    values are kept per user (:func:`contactplan.ephemeris.bodies.sun_moon_nodes`).
     """
 
     STEP_S = 3600.0
@@ -48,8 +49,9 @@ class BodyTrack:
         n1 = np.ceil(end_tt / self.STEP_S) + 1
         self.t0 = n0 * self.STEP_S
         self.nodes = np.arange(n0, n1 + 1) * self.STEP_S
-        self._sun = self._cubic(*bodies.sun_km(self.nodes, velocity=True))
-        self._moon = self._cubic(*bodies.moon_km(self.nodes, velocity=True))
+        tab = bodies.sun_moon_nodes(int(n0), int(n1), self.STEP_S)
+        self._sun = self._cubic(tab[:, 0:3], tab[:, 3:6])
+        self._moon = self._cubic(tab[:, 6:9], tab[:, 9:12])
 
     def _cubic(self, p, v):
         """Per-interval coefficients (4, N-1, 3) of the cubic Hermite piece p0 + s (c1 + s (c2 + s c3))."""

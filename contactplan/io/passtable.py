@@ -18,9 +18,9 @@ attenuation; ``held-constant``: no ``system_noise_k`` given); without weather th
 
 from __future__ import annotations
 
-import csv
 import io
 import json
+from operator import attrgetter
 
 from contactplan.io.cells import csv_text
 
@@ -57,6 +57,96 @@ def _outage_text(outages) -> str:
     return "; ".join(parts)
 
 
+#: columns that hold a number rounded to this many decimals (always present, never None)
+ROUNDED_COLUMNS = {
+    "duration_s": 3, "max_elevation_deg": 3, "aos_azimuth_deg": 3, "los_azimuth_deg": 3, "min_range_km": 3,
+    "max_range_km": 3, "light_time_s": 6, "sun_separation_min_deg": 3, "moon_separation_min_deg": 3,
+    "sun_earth_probe_deg": 3,
+}
+
+
+_REQUIRED = object()
+
+
+def _table(passes, link_profiles=None) -> dict:
+    """The columns of :func:`pass_columns`, the :data:`ROUNDED_COLUMNS` as float arrays not yet rounded."""
+    import numpy as np
+
+    from contactplan.timescale import format_doy, format_utc
+
+    ordered = sorted(passes, key=lambda p: (p.aos_tt, p.station))
+    n = len(ordered)
+
+    def attr(name, default=_REQUIRED):
+        try:
+            return list(map(attrgetter(name), ordered))
+        except AttributeError:
+            if default is _REQUIRED:
+                raise
+            return [getattr(p, name, default) for p in ordered]
+
+    def values(name):
+        return np.array(attr(name), dtype=float).reshape(n)
+
+    def optional(name, digits):
+        vals = attr(name, None)
+        if vals.count(None) == n:
+            return vals
+        return [None if v is None else round(float(v), digits) for v in vals]
+
+    aos, los = values("aos_tt"), values("los_tt")
+    gt = attr("gt_model", "")
+    cols = {
+        "station": attr("station"),
+        "aos_utc": format_utc(aos),
+        "los_utc": format_utc(los),
+        "duration_s": los - aos,
+        "max_elevation_deg": values("max_elevation_deg"),
+        "max_elevation_utc": format_utc(values("max_elevation_tt")),
+        "aos_azimuth_deg": values("aos_azimuth_deg"),
+        "los_azimuth_deg": values("los_azimuth_deg"),
+        "min_range_km": values("min_range_km"),
+        "max_range_km": values("max_range_km"),
+        "aos_doy": format_doy(aos),
+        "los_doy": format_doy(los),
+        "clipped_start": list(map(bool, attr("clipped_start"))),
+        "clipped_end": list(map(bool, attr("clipped_end"))),
+        "light_time_s": values("light_time_s"),
+        "sun_separation_min_deg": values("sun_separation_min_deg"),
+        "moon_separation_min_deg": values("moon_separation_min_deg"),
+        "sun_earth_probe_deg": values("sun_earth_probe_deg"),
+        "sun_flag": list(map(bool, attr("sun_flag", False))),
+        "moon_flag": list(map(bool, attr("moon_flag", False))),
+        "outages": [_outage_text(o) if o else "" for o in attr("outages")],
+        "max_rate_kbps": optional("max_rate_kbps", 3),
+        "volume_gbit": optional("volume_gbit", 6),
+        "clear_volume_gbit": optional("clear_volume_gbit", 6),
+        "availability_pct": attr("availability_pct", None),
+        "gt_in_weather": [None] * n if gt.count("") == n else [_GT_TEXT.get(g, None) for g in gt],
+    }
+    for link_id, per_pass in (link_profiles or {}).items():
+        margins = []
+        for p in ordered:
+            prof = per_pass.get(id(p))
+            m = None if prof is None else prof.culmination_margin_db
+            margins.append(None if m is None or not np.isfinite(m) else round(float(m), 2))
+        cols[margin_column(link_id)] = margins
+    return cols
+
+
+def pass_columns(passes, link_profiles=None) -> dict[str, list]:
+    """The pass table by column: ``{column: [value per pass]}``, the passes sorted by AOS.
+
+    The columns and values of :func:`pass_rows` (same keys in the same order, the same value in
+    each cell), built one column at a time: the times formatted all at once (the array path of
+    :func:`contactplan.timescale.format_utc`).
+    """
+    cols = _table(passes, link_profiles)
+    for name, digits in ROUNDED_COLUMNS.items():
+        cols[name] = [round(v, digits) for v in cols[name].tolist()]
+    return cols
+
+
 def pass_rows(passes, link_profiles=None) -> list[dict]:
     """Rows (dicts keyed by :data:`PASS_COLUMNS`) of the passes sorted by AOS.
 
@@ -66,62 +156,28 @@ def pass_rows(passes, link_profiles=None) -> list[dict]:
     ``link_profiles`` (``{link id: {id(pass): PassProfile}}``) adds one
     ``margin_<LINK>_db`` key per link (0.01 dB; None where the station lacks the link).
     """
-    import numpy as np
+    cols = pass_columns(passes, link_profiles)
+    names = list(cols)
+    return [dict(zip(names, values)) for values in zip(*cols.values())]
 
-    from contactplan.timescale import format_doy, format_utc
 
-    ordered = sorted(passes, key=lambda p: (p.aos_tt, p.station))
-    aos = np.array([p.aos_tt for p in ordered], dtype=float)
-    los = np.array([p.los_tt for p in ordered], dtype=float)
-    # every time column formatted at once (the array path), then picked row by row
-    aos_utc, los_utc = format_utc(aos), format_utc(los)
-    culm_utc = format_utc(np.array([p.max_elevation_tt for p in ordered], dtype=float))
-    aos_doy, los_doy = format_doy(aos), format_doy(los)
-    rows = []
-    for i, p in enumerate(ordered):
-        rows.append({
-            "station": p.station,
-            "aos_utc": aos_utc[i],
-            "los_utc": los_utc[i],
-            "duration_s": round(p.los_tt - p.aos_tt, 3),
-            "max_elevation_deg": round(p.max_elevation_deg, 3),
-            "max_elevation_utc": culm_utc[i],
-            "aos_azimuth_deg": round(p.aos_azimuth_deg, 3),
-            "los_azimuth_deg": round(p.los_azimuth_deg, 3),
-            "min_range_km": round(p.min_range_km, 3),
-            "max_range_km": round(p.max_range_km, 3),
-            "aos_doy": aos_doy[i],
-            "los_doy": los_doy[i],
-            "clipped_start": bool(p.clipped_start),
-            "clipped_end": bool(p.clipped_end),
-            "light_time_s": round(p.light_time_s, 6),
-            "sun_separation_min_deg": round(p.sun_separation_min_deg, 3),
-            "moon_separation_min_deg": round(p.moon_separation_min_deg, 3),
-            "sun_earth_probe_deg": round(p.sun_earth_probe_deg, 3),
-            "sun_flag": bool(getattr(p, "sun_flag", False)),
-            "moon_flag": bool(getattr(p, "moon_flag", False)),
-            "outages": _outage_text(p.outages),
-            "max_rate_kbps": None if p.max_rate_kbps is None else round(float(p.max_rate_kbps), 3),
-            "volume_gbit": None if p.volume_gbit is None else round(float(p.volume_gbit), 6),
-            "clear_volume_gbit": (None if getattr(p, "clear_volume_gbit", None) is None
-                                  else round(float(p.clear_volume_gbit), 6)),
-            "availability_pct": getattr(p, "availability_pct", None),
-            "gt_in_weather": _GT_TEXT.get(getattr(p, "gt_model", ""), None),
-        })
-        for link_id, per_pass in (link_profiles or {}).items():
-            prof = per_pass.get(id(p))
-            m = None if prof is None else prof.culmination_margin_db
-            rows[-1][margin_column(link_id)] = None if m is None or not np.isfinite(m) else round(float(m), 2)
-    return rows
+def _columns(has_link: bool, has_weather: bool, margins: list[str]) -> list[str]:
+    return [c for c in PASS_COLUMNS if (has_link or c not in LINK_COLUMNS)
+            and (has_weather or c not in WEATHER_COLUMNS)] + margins
+
+
+def _columns_in_table(cols: dict[str, list]) -> list[str]:
+    """:func:`columns_for` from the columns rather than the rows."""
+    return _columns(any(v is not None for c in LINK_COLUMNS for v in cols.get(c, ())),
+                    any(v is not None for v in cols.get("availability_pct", ())),
+                    [k for k in cols if k.startswith("margin_") and k.endswith("_db")] if cols.get("station") else [])
 
 
 def columns_for(rows) -> list[str]:
     """PASS_COLUMNS, without the link columns when no row has a value in them, then the margin columns."""
-    has_link = any(r.get(c) is not None for r in rows for c in LINK_COLUMNS)
-    has_weather = any(r.get("availability_pct") is not None for r in rows)
-    margins = [k for k in (rows[0] if rows else {}) if k.startswith("margin_") and k.endswith("_db")]
-    return [c for c in PASS_COLUMNS if (has_link or c not in LINK_COLUMNS)
-            and (has_weather or c not in WEATHER_COLUMNS)] + margins
+    return _columns(any(r.get(c) is not None for r in rows for c in LINK_COLUMNS),
+                    any(r.get("availability_pct") is not None for r in rows),
+                    [k for k in (rows[0] if rows else {}) if k.startswith("margin_") and k.endswith("_db")])
 
 
 def _csv_cell(v):
@@ -132,16 +188,49 @@ def _csv_cell(v):
     return csv_text(v)  # text that a spreadsheet would run as a formula gets a leading quote
 
 
+def _csv_quoted(cell: str) -> str:
+    """A cell as :mod:`csv` writes it with minimal quoting (delimiter ``,``, quote ``"``, CRLF line ends)."""
+    if "," in cell or '"' in cell or "\r" in cell or "\n" in cell:
+        return '"' + cell.replace('"', '""') + '"'
+    return cell
+
+
+_FLAG_COLUMNS = frozenset(("clipped_start", "clipped_end", "sun_flag", "moon_flag"))
+#: UTC text from format_utc: digits first, nothing to quote, never read as a formula
+_TIME_COLUMNS = frozenset(("aos_utc", "los_utc", "max_elevation_utc", "aos_doy", "los_doy"))
+
+
+def _csv_column(name: str, values) -> list[str]:
+    """The CSV text of one column of :func:`_table`, each cell as ``csv`` writes :func:`_csv_cell` of it."""
+    from contactplan.io.decimals import rounded_text
+
+    if name in ROUNDED_COLUMNS:
+        return rounded_text(values, ROUNDED_COLUMNS[name])  # = repr(round(v, digits)), all at once
+    if name in _TIME_COLUMNS:
+        return values
+    if name in _FLAG_COLUMNS:
+        return ["true" if v else "false" for v in values]
+    return [_csv_quoted(c if isinstance(c, str) else str(c)) for c in map(_csv_cell, values)]
+
+
 def passes_csv_text(passes, columns=None, link_profiles=None) -> str:
-    """RFC 4180 CSV (CRLF line ends, header first)."""
-    rows = pass_rows(passes, link_profiles)
-    cols = list(columns or columns_for(rows))
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\r\n")
-    w.writerow(cols)
-    for r in rows:
-        w.writerow([_csv_cell(r.get(c)) for c in cols])
-    return buf.getvalue()
+    """RFC 4180 CSV (CRLF line ends, header first), written column by column: the same text as
+    :mod:`csv` with minimal quoting makes of :func:`pass_rows` (tests compare the two)."""
+    table = _table(passes, link_profiles)
+    cols = list(columns or _columns_in_table(table))
+    n = len(table["station"])
+    cells = [_csv_column(c, table[c]) if c in table else [""] * n for c in cols]
+    if len(cols) < 2:  # csv quotes a lone empty cell: leave such a table to it
+        import csv
+
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\r\n")
+        w.writerow(cols)
+        w.writerows(zip(*cells))
+        return buf.getvalue()
+    lines = [",".join(_csv_quoted(c) for c in cols)]
+    lines += [",".join(row) for row in zip(*cells)]
+    return "\r\n".join(lines) + "\r\n"
 
 
 def passes_json_text(passes, scenario=None, start_tt=None, end_tt=None, stations=None, shadows=None,

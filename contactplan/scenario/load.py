@@ -152,13 +152,13 @@ class Table:
 
     def unknown(self) -> list[tuple[str, str, str | None]]:
         """(field, key, the known key it may mean or None) for each key the loader did not read."""
-        import difflib
-
         # format-1 names of keys the upgrade renamed: a misspelt old name is still recognised
         old = {k: f"{k} ({v} from format 2 on)" for k, v in _FORMAT_1_NAMES.items() if v in self.read}
         out = []
         for key in self.data:
             if key not in self.read:
+                import difflib  # only for an unknown key (the common load never needs it)
+
                 close = difflib.get_close_matches(str(key), sorted(self.read | set(old)), n=1, cutoff=0.75)
                 hint = (old.get(close[0], close[0]) if close[0] not in self.read else close[0]) if close else None
                 out.append((self._field(key), str(key), hint))
