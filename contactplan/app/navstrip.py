@@ -64,8 +64,13 @@ class NavigationStrip(QObject):
                                              labelOpts={"position": 0.08, "color": th.foreground,
                                                         "anchors": [(0, 0), (0, 0)]})
         self.plot.addItem(self.required_line)
-        self.marks = pg.ScatterPlotItem(size=9)
-        self.plot.addItem(self.marks)
+        # the check marks: one item per symbol, fed with arrays (a week of 50,000 burns has that many checks;
+        # one spot dict, brush and pen per check cost seconds in the GUI thread)
+        self.met_marks = pg.ScatterPlotItem(size=9, symbol="o")
+        self.missed_marks = pg.ScatterPlotItem(size=9, symbol="x")
+        for item in (self.met_marks, self.missed_marks):
+            self.plot.addItem(item)
+        self._drawn = None  # (NavigationResult, origin) drawn now: the same one is not drawn again
         self.apply_theme()
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
@@ -86,6 +91,10 @@ class NavigationStrip(QObject):
         self.curve.setPen(pg.mkPen(th.track, width=2))
         self.required_line.setPen(pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine))
         self.required_line.label.setColor(th.foreground)
+        self.met_marks.setPen(pg.mkPen(th.monitor, width=2))
+        self.met_marks.setBrush(pg.mkBrush(th.monitor))
+        self.missed_marks.setPen(pg.mkPen(th.error, width=2))
+        self.missed_marks.setBrush(pg.mkBrush(th.error))
 
     def _enabled(self) -> bool:
         sc = self.doc.scenario
@@ -112,12 +121,19 @@ class NavigationStrip(QObject):
         if self.plot.isVisible() != self._enabled():
             self._scenario_replaced()
 
+    #: the strip's tooltip lists this many checks at most (then says how many more)
+    TOOLTIP_CHECKS = 12
+
     def draw(self, nav) -> None:
-        """Show a NavigationResult (None: clear)."""
-        th = theme.current()
+        """Show a NavigationResult (None: clear); the one already shown is not drawn again."""
+        key = None if nav is None else (nav, self.timeline.origin_tt)
+        if key is not None and self._drawn is not None and self._drawn[0] is nav and self._drawn[1] == key[1]:
+            return
+        self._drawn = key
         if nav is None or not len(nav.t_tt):
             self.curve.setData([], [])
-            self.marks.setData([], [])
+            for item in (self.met_marks, self.missed_marks):
+                item.setData([], [])
             self.required_line.setVisible(False)
             return
         x0 = self.timeline.origin_tt
@@ -126,15 +142,21 @@ class NavigationStrip(QObject):
         self.curve.setData(x, y)
         self.required_line.setVisible(True)
         self.required_line.setValue(np.log10(nav.required_position_km))
-        spots = [{"pos": ((c.t_tt - x0) / 3600.0, np.log10(max(c.position_sigma_km, 1e-6))),
-                  "symbol": "o" if c.met else "x",
-                  "brush": pg.mkBrush(th.monitor if c.met else th.error),
-                  "pen": pg.mkPen(th.monitor if c.met else th.error, width=2)} for c in nav.checks]
-        self.marks.setData(spots)
+        checks = nav.checks
+        n = len(checks)
+        t = np.fromiter((c.t_tt for c in checks), float, n)
+        sig = np.fromiter((c.position_sigma_km for c in checks), float, n)
+        met = np.fromiter((bool(c.met) for c in checks), bool, n)
+        cx, cy = (t - x0) / 3600.0, np.log10(np.maximum(sig, 1e-6))
+        self.met_marks.setData(x=cx[met], y=cy[met])
+        self.missed_marks.setData(x=cx[~met], y=cy[~met])
         lo = float(np.log10(max(min(y.min(), nav.required_position_km) * 0.5, 1e-6)))
         hi = float(np.log10(max(y.max(), nav.required_position_km) * 2.0))
         self.plot.setYRange(lo, hi, padding=0)
-        lines = [f"{c.label}: {c.position_sigma_km:.3f} km ({'met' if c.met else 'NOT met'})" for c in nav.checks]
+        shown = checks[:self.TOOLTIP_CHECKS]
+        lines = [f"{c.label}: {c.position_sigma_km:.3f} km ({'met' if c.met else 'NOT met'})" for c in shown]
+        if n > len(shown):
+            lines.append(f"... and {n - len(shown)} more checks ({int(n - met.sum())} not met in all)")
         self.plot.setToolTip("predicted 1-sigma position (km)\n" + "\n".join(lines))
 
     # ------------------------------------------------------------ keeping it current
@@ -150,36 +172,35 @@ class NavigationStrip(QObject):
         res = self.doc.result
         nav = None if res is None else getattr(res, "navigation", None)
         self.draw(nav)
-        if res is not None and getattr(res, "ephemeris", None) is not None and self._stale(res):
-            self._timer.start(DEBOUNCE_MS)
-
-    def _stale(self, res) -> bool:
-        from contactplan.navigation.predict import signature
-        from contactplan.plan.twoway import manoeuvres
-
-        tracks = getattr(res, "navigation_tracks", None)
-        if tracks is None:
-            return False
-        nav = getattr(res, "navigation", None)
-        return nav is None or nav.signature != signature(tracks, manoeuvres(res.scenario))
+        if res is not None and getattr(res, "ephemeris", None) is not None \
+                and getattr(res, "navigation_tracks", None) is not None:
+            self._timer.start(DEBOUNCE_MS)  # the worker tells whether the prediction is stale
 
     def refresh(self):
-        """Start the background computation for the current bookings (one job at a time)."""
+        """Start the background job for the current bookings (one job at a time). The job first compares
+        the prediction's signature with the bookings' and manoeuvres' (50,000 burns take a third of a
+        second to list and compare: not in the GUI thread) and predicts only when they differ."""
         from contactplan.app.worker import Job
 
         res = self.doc.result
-        if res is None or not self._enabled() or not self._stale(res):
+        if res is None or not self._enabled() or getattr(res, "navigation_tracks", None) is None:
             return None
         if self.job is not None and self.job.running:
             self.pending = True
             return None
+        from contactplan.app.checking import snapshot_scenario
+        from contactplan.navigation.predict import signature
         from contactplan.plan.tracking import navigation_model
         from contactplan.plan.twoway import manoeuvres
 
         tracks = list(res.navigation_tracks)
-        mans = manoeuvres(res.scenario)
+        scenario = snapshot_scenario(res.scenario)  # its own activity list: edits do not move under the job
+        old = getattr(res, "navigation", None)
 
         def fn(progress, cancel):
+            mans = manoeuvres(scenario)
+            if old is not None and old.signature == signature(tracks, mans):
+                return None  # current: nothing to predict
             return navigation_model(res, mans).run(tracks)
 
         job = Job("Navigation", fn, self)
@@ -191,6 +212,8 @@ class NavigationStrip(QObject):
         return job
 
     def _done(self, res, nav) -> None:
+        if nav is None:
+            return  # the prediction was current
         self.computed += 1
         if self.doc.result is not res:
             return
