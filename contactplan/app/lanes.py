@@ -141,6 +141,18 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
     def _records_edited(self) -> None:
         self.records_revision += 1
 
+    def adopt_activity_index(self, index: SpanIndex | None) -> bool:
+        """Take an activity index made in the worker (:func:`prepared_activity_index`) for the open
+        scenario's activities, so the first paint of 50,000 burns does not build it in the GUI thread.
+        False (and nothing taken) when it was made for another list."""
+        sc = self.doc.scenario
+        key = None if index is None else index._key
+        if sc is None or key is None or key[0] != id(sc.activities) or key[1] != len(sc.activities):
+            return False
+        index._key = (key[0], key[1], self.records_revision)
+        self._activity_index = index
+        return True
+
     # ------------------------------------------------------------ geometry
     @property
     def stations(self) -> list:
@@ -589,6 +601,14 @@ def activity_arrays(acts) -> tuple:
     columns = {"start": start, "end": end, "keepout_start": k0, "keepout_end": k1, "keepout_shown": ((keep > 0) | is_burn).astype(float),
                "kind": np.fromiter((ACTIVITY_KINDS.get(k, 0) for k in kinds), dtype=float, count=n)}
     return lo, hi, columns
+
+
+def prepared_activity_index(activities: list) -> SpanIndex:
+    """The lanes' index of ``activities`` built now (in the worker that read the scenario); the canvas
+    takes it with :meth:`LanesCanvas.adopt_activity_index`. No Qt object inside."""
+    index = SpanIndex(activity_span, activity_arrays)
+    index._build(activities, None)
+    return index
 
 
 def _hm(tt: float) -> str:

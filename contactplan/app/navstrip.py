@@ -21,6 +21,7 @@ import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, QTimer
 
 from contactplan.app import theme
+from contactplan.app.checkmarks import CheckMarks, mark_arrays
 
 #: the edit settles this long (ms) before the strip computes (drags send many edits)
 DEBOUNCE_MS = 120
@@ -59,17 +60,18 @@ class NavigationStrip(QObject):
         layout.setRowMinimumHeight(3, 100)
         th = theme.current()
         self.curve = pg.PlotDataItem(pen=pg.mkPen(th.track, width=2))
+        # a prediction has a node per manoeuvre and measurement (50,000 burns: more nodes than pixels):
+        # drawn clipped to the view and reduced to the peaks of each pixel column
+        self.curve.setClipToView(True)
+        self.curve.setDownsampling(auto=True, method="peak")
         self.plot.addItem(self.curve)
         self.required_line = pg.InfiniteLine(angle=0, label="required",
                                              labelOpts={"position": 0.08, "color": th.foreground,
                                                         "anchors": [(0, 0), (0, 0)]})
         self.plot.addItem(self.required_line)
-        # the check marks: one item per symbol, fed with arrays (a week of 50,000 burns has that many checks;
-        # one spot dict, brush and pen per check cost seconds in the GUI thread)
-        self.met_marks = pg.ScatterPlotItem(size=9, symbol="o")
-        self.missed_marks = pg.ScatterPlotItem(size=9, symbol="x")
-        for item in (self.met_marks, self.missed_marks):
-            self.plot.addItem(item)
+        # the check marks: one item painted from arrays (a week of 50,000 burns has that many checks)
+        self.marks = CheckMarks()
+        self.plot.addItem(self.marks)
         self._drawn = None  # (NavigationResult, origin) drawn now: the same one is not drawn again
         self.apply_theme()
         self._timer = QTimer(self)
@@ -91,10 +93,7 @@ class NavigationStrip(QObject):
         self.curve.setPen(pg.mkPen(th.track, width=2))
         self.required_line.setPen(pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine))
         self.required_line.label.setColor(th.foreground)
-        self.met_marks.setPen(pg.mkPen(th.monitor, width=2))
-        self.met_marks.setBrush(pg.mkBrush(th.monitor))
-        self.missed_marks.setPen(pg.mkPen(th.error, width=2))
-        self.missed_marks.setBrush(pg.mkBrush(th.error))
+        self.marks.set_colours(th.monitor, th.error)
 
     def _enabled(self) -> bool:
         sc = self.doc.scenario
@@ -132,8 +131,7 @@ class NavigationStrip(QObject):
         self._drawn = key
         if nav is None or not len(nav.t_tt):
             self.curve.setData([], [])
-            for item in (self.met_marks, self.missed_marks):
-                item.setData([], [])
+            self.marks.set_marks([], [], [])
             self.required_line.setVisible(False)
             return
         x0 = self.timeline.origin_tt
@@ -144,12 +142,8 @@ class NavigationStrip(QObject):
         self.required_line.setValue(np.log10(nav.required_position_km))
         checks = nav.checks
         n = len(checks)
-        t = np.fromiter((c.t_tt for c in checks), float, n)
-        sig = np.fromiter((c.position_sigma_km for c in checks), float, n)
-        met = np.fromiter((bool(c.met) for c in checks), bool, n)
-        cx, cy = (t - x0) / 3600.0, np.log10(np.maximum(sig, 1e-6))
-        self.met_marks.setData(x=cx[met], y=cy[met])
-        self.missed_marks.setData(x=cx[~met], y=cy[~met])
+        t, cy, met = mark_arrays(nav)  # made in the worker with the prediction (see compute and refresh)
+        self.marks.set_marks((t - x0) / 3600.0, cy, met)
         lo = float(np.log10(max(min(y.min(), nav.required_position_km) * 0.5, 1e-6)))
         hi = float(np.log10(max(y.max(), nav.required_position_km) * 2.0))
         self.plot.setYRange(lo, hi, padding=0)
@@ -201,7 +195,9 @@ class NavigationStrip(QObject):
             mans = manoeuvres(scenario)
             if old is not None and old.signature == signature(tracks, mans):
                 return None  # current: nothing to predict
-            return navigation_model(res, mans).run(tracks)
+            nav = navigation_model(res, mans).run(tracks)
+            mark_arrays(nav)  # the marks' arrays, here rather than in the GUI thread
+            return nav
 
         job = Job("Navigation", fn, self)
         job.done.connect(lambda nav, res=res: self._done(res, nav))
