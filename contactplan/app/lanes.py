@@ -124,6 +124,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self.findings_stale = False  # True while a newer state is being checked: outlines faded
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
         self._activity_index = SpanIndex(activity_span, activity_arrays)
+        self._busy_index: dict = {}  # station id -> SpanIndex of its busy spans (busy_at)
         # stations and activities change far less often than bookings: their index is rebuilt only
         # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
         self.records_revision = 0
@@ -287,7 +288,11 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if st is None:
             return None, None
         t = self.t_of(x)
-        hits = [sp for sp in st.busy if sp.start_tt <= t <= sp.end_tt]
+        index = self._busy_index.get(st.id)
+        if index is None:  # per station, sorted by start: found by bisection (a year of busy time)
+            index = self._busy_index[st.id] = SpanIndex(lambda sp: (sp.start_tt, sp.end_tt))
+        busy = st.busy if isinstance(st.busy, list) else list(st.busy)
+        hits = index.visible(busy, (self.records_revision, self.doc.revision), t, t)
         hits.sort(key=lambda sp: getattr(sp, "file", None) is not None)
         return (st, hits[0]) if hits else (None, None)
 
