@@ -61,9 +61,11 @@ class NavigationStrip(QObject):
         th = theme.current()
         self.curve = pg.PlotDataItem(pen=pg.mkPen(th.track, width=2))
         # a prediction has a node per manoeuvre and measurement (50,000 burns: more nodes than pixels):
-        # drawn clipped to the view and reduced to the peaks of each pixel column
-        self.curve.setClipToView(True)
-        self.curve.setDownsampling(auto=True, method="peak")
+        # drawn clipped to the view and reduced to the peaks of each pixel column (set on the plot,
+        # which hands them to its curves; clipping needs x not to auto-range)
+        self.plot.setClipToView(True)
+        self.plot.setDownsampling(auto=True, mode="peak")
+        self.plot.getViewBox().disableAutoRange(pg.ViewBox.XAxis)
         self.plot.addItem(self.curve)
         self.required_line = pg.InfiniteLine(angle=0, label="required",
                                              labelOpts={"position": 0.08, "color": th.foreground,
