@@ -80,10 +80,21 @@ def _followed(o) -> bool:
     return mod.startswith(_OURS) and hasattr(o, "__dict__") and not isinstance(o, type)
 
 
+#: the thread pauses after this many objects ... (it must not keep the GUI thread waiting for the
+#: interpreter while a plan is opened and painted: it works in the background, in short bursts)
+BATCH = 2000
+#: ... for this long (s)
+PAUSE_S = 0.001
+
+
 def _take_apart(root: list) -> None:
     stack = root
     del root
+    n = 0
     while stack:
+        n += 1
+        if n % BATCH == 0:
+            time.sleep(PAUSE_S)
         o = stack.pop()
         # 2: ``o`` here and getrefcount's own argument; more means someone else still holds it
         if sys.getrefcount(o) > 2:
