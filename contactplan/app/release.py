@@ -41,8 +41,10 @@ def release_later(*objs) -> None:
     del kept  # (here, in the GUI thread)
     if not objs:
         return
-    _start()
-    _QUEUE.put((time.monotonic(), list(objs)))
+    objs = [o for o in objs if type(o) not in _ATOMS]
+    if objs:
+        _start()
+        _QUEUE.put((time.monotonic(), objs))
 
 
 def _start() -> None:
@@ -118,8 +120,6 @@ def _take_apart(root: list) -> None:
         _STATE["freed"] += 1
 
 
-#: how long the thread waits for the GUI thread to drop its own last references to what it handed over (s)
-HAND_OVER_S = 2.0
 #: what is handed over is taken apart no sooner than this (s): the views that still held parts of it
 #: (tables, lane indexes) have been given their new data by then and let go of the old
 SETTLE_S = 0.3
@@ -136,16 +136,9 @@ def _reap() -> None:
             wait = t_put + SETTLE_S - time.monotonic()
             if wait > 0:
                 time.sleep(wait)
-            while item:
-                o = item.pop()
-                # the caller usually still holds the object for the rest of its function: wait for it to let go
-                deadline = time.monotonic() + HAND_OVER_S
-                while sys.getrefcount(o) > 2 and time.monotonic() < deadline:
-                    time.sleep(0.01)
-                stack = [o]
-                del o
-                _take_apart(stack)
-                del stack
+            stack = item  # what the GUI thread still holds after the settling time is only let go of
+            del item
+            _take_apart(stack)
+            del stack
         except Exception:  # pragma: no cover - freeing must never take the planner down
             pass
-        del item
