@@ -163,3 +163,18 @@ def test_the_window_marks_findings_stale_while_checking_then_clears(qtbot, tmp_p
     assert win.findings_model.rowCount() == len(win.doc.findings) > 0
     assert [win.findings_model.rows[i] for i in range(win.findings_model.rowCount())] == win.doc.sorted_findings()
     win.doc.undo_stack.setClean()
+
+
+def test_findings_order_made_from_arrays_is_the_sorted_order():
+    """errors first, then by start and rule, ties in list order: as Python's stable sort on the key tuple"""
+    import random
+
+    from contactplan.app.checking import _ordered
+    from contactplan.plan.rules import Finding
+
+    rnd = random.Random(7)
+    fs = [Finding(rnd.choice(["rule-b", "rule-a", "rule-c"]), rnd.choice(["error", "warning"]), [],
+                  float(rnd.randint(0, 40)), 0.0, f"m{i}") for i in range(3000)]
+    want = sorted(fs, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+    assert [f.message for f in _ordered(fs)] == [f.message for f in want]
+    assert _ordered([]) == [] and _ordered(fs[:1]) == fs[:1]

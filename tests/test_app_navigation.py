@@ -62,3 +62,32 @@ def test_strip_follows_an_edit_off_the_event_loop(win, od_path, qtbot):
 def test_strip_hidden_without_orbit_determination(win, qtbot):
     assert win.open_path(DATA / "minimal.toml")
     assert not win.nav_strip.plot.isVisible()
+
+
+def test_check_marks_paint_what_the_screen_shows(qtbot):
+    """50,000 checks are one item; a paint draws at most one mark per kind and cell of a third of a mark."""
+    import pyqtgraph as pg
+
+    from contactplan.app.checkmarks import SIZE_PX, CheckMarks
+
+    w = pg.PlotWidget()
+    qtbot.addWidget(w)
+    w.resize(600, 200)
+    marks = CheckMarks()
+    marks.set_colours("#2f7d4a", "#c0392b")
+    n = 50_000
+    x = np.linspace(0.0, 168.0, n)
+    met = np.arange(n) % 3 != 0
+    marks.set_marks(x, np.where(met, -1.0, 0.5), met)
+    w.addItem(marks)
+    w.setXRange(0.0, 168.0, padding=0)
+    w.setYRange(-2.0, 1.0, padding=0)
+    w.show()
+    w.grab()
+    assert marks.counts() == (int(met.sum()), n - int(met.sum()))
+    cells_x = 600 / (SIZE_PX / 3.0) + 2
+    assert 0 < marks.drawn <= 2 * cells_x  # two rows of marks (met, missed), one per cell
+    w.setXRange(10.0, 10.5, padding=0)  # zoomed in: only the checks in view
+    w.grab()
+    in_view = int(((x >= 10.0) & (x <= 10.5)).sum())
+    assert 0 < marks.drawn <= in_view

@@ -70,9 +70,28 @@ class FindingsIndex:
     severity: dict = dataclasses.field(default_factory=dict)
 
 
+def _ordered(found: list) -> list:
+    """``found`` errors first, then by start and rule, stable (as ``sorted`` with that key tuple).
+
+    Sorted by numpy on arrays: a list sort of 150,000 key tuples compares them in one C call
+    that holds the interpreter for a tenth of a second, and the event loop waits that long."""
+    import numpy as np
+
+    n = len(found)
+    if n < 2:
+        return list(found)
+    rules = sorted({f.rule for f in found})
+    code = {r: i for i, r in enumerate(rules)}
+    warn = np.fromiter((f.severity != "error" for f in found), dtype=bool, count=n)
+    start = np.fromiter((f.start_tt for f in found), dtype=float, count=n)
+    rule = np.fromiter((code[f.rule] for f in found), dtype=np.int64, count=n)
+    order = np.lexsort((rule, start, warn))  # last key first; a stable merge sort
+    return [found[i] for i in order.tolist()]
+
+
 def index_findings(findings) -> FindingsIndex:
     found = findings if findings is not None else []
-    ordered = sorted(found, key=lambda f: (f.severity != "error", f.start_tt, f.rule))
+    ordered = _ordered(found)
     by_subject: dict = {}
     for f in found:
         for s in dict.fromkeys(f.subjects or []):

@@ -105,6 +105,10 @@ class PlanDocument(QObject):
         """Open a scenario (result: an already computed PlanResult, else passes are empty until computed)."""
         if self.background is not None:
             self.background.supersede()
+        from contactplan.app.release import release_later
+
+        release_later(self.scenario, self.result, self._index)  # the old plan is freed off the event loop
+        self._index = None
         self.scenario = scenario
         self.unfrozen = set()
         self.undo_stack.clear()
@@ -134,6 +138,9 @@ class PlanDocument(QObject):
         ``index``: a FindingsIndex of ``result.findings`` made in the worker.
         """
         result.scenario = self.scenario
+        from contactplan.app.release import release_later
+
+        release_later(self.result, self._index)  # the old passes and findings are freed off the event loop
         self.result = result
         self._index = index
         self.stale = False
@@ -190,10 +197,16 @@ class PlanDocument(QObject):
             return  # the result was replaced meanwhile (a new scenario or a fresh computation)
         if error is None and out is not None:
             out, index = out
+            old = [self._index]  # what the check replaces is freed off the event loop (150,000 findings)
             for key, value in vars(out).items():  # recorder, findings and whatever else the check keeps
                 if key != "scenario":
+                    old.append(vars(self.result).get(key))
                     setattr(self.result, key, value)
             self._index = index
+            from contactplan.app.release import release_later
+
+            release_later(old)
+            del old
             self.check_error = None
         elif error is not None and error != "cancelled":
             self.check_error = ("plan rules are not available in this build" if error.startswith("not available")

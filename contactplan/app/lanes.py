@@ -124,6 +124,7 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         self.findings_stale = False  # True while a newer state is being checked: outlines faded
         self._booking_index = SpanIndex(lambda b: (b.start_tt, b.end_tt))
         self._activity_index = SpanIndex(activity_span, activity_arrays)
+        self._busy_index: dict = {}  # station id -> SpanIndex of its busy spans (busy_at)
         # stations and activities change far less often than bookings: their index is rebuilt only
         # when they do (a booking edit on a plan with 50,000 burns must not rebuild the burns)
         self.records_revision = 0
@@ -140,6 +141,18 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
 
     def _records_edited(self) -> None:
         self.records_revision += 1
+
+    def adopt_activity_index(self, index: SpanIndex | None) -> bool:
+        """Take an activity index made in the worker (:func:`prepared_activity_index`) for the open
+        scenario's activities, so the first paint of 50,000 burns does not build it in the GUI thread.
+        False (and nothing taken) when it was made for another list."""
+        sc = self.doc.scenario
+        key = None if index is None else index._key
+        if sc is None or key is None or key[0] != id(sc.activities) or key[1] != len(sc.activities):
+            return False
+        index._key = (key[0], key[1], self.records_revision)
+        self._activity_index = index
+        return True
 
     # ------------------------------------------------------------ geometry
     @property
@@ -275,7 +288,11 @@ class LanesCanvas(LanePainter, pg.GraphicsObject):
         if st is None:
             return None, None
         t = self.t_of(x)
-        hits = [sp for sp in st.busy if sp.start_tt <= t <= sp.end_tt]
+        index = self._busy_index.get(st.id)
+        if index is None:  # per station, sorted by start: found by bisection (a year of busy time)
+            index = self._busy_index[st.id] = SpanIndex(lambda sp: (sp.start_tt, sp.end_tt))
+        busy = st.busy if isinstance(st.busy, list) else list(st.busy)
+        hits = index.visible(busy, (self.records_revision, self.doc.revision), t, t)
         hits.sort(key=lambda sp: getattr(sp, "file", None) is not None)
         return (st, hits[0]) if hits else (None, None)
 
@@ -589,6 +606,14 @@ def activity_arrays(acts) -> tuple:
     columns = {"start": start, "end": end, "keepout_start": k0, "keepout_end": k1, "keepout_shown": ((keep > 0) | is_burn).astype(float),
                "kind": np.fromiter((ACTIVITY_KINDS.get(k, 0) for k in kinds), dtype=float, count=n)}
     return lo, hi, columns
+
+
+def prepared_activity_index(activities: list) -> SpanIndex:
+    """The lanes' index of ``activities`` built now (in the worker that read the scenario); the canvas
+    takes it with :meth:`LanesCanvas.adopt_activity_index`. No Qt object inside."""
+    index = SpanIndex(activity_span, activity_arrays)
+    index._build(activities, None)
+    return index
 
 
 def _hm(tt: float) -> str:

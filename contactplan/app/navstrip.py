@@ -21,6 +21,7 @@ import pyqtgraph as pg
 from PySide6.QtCore import QObject, Qt, QTimer
 
 from contactplan.app import theme
+from contactplan.app.checkmarks import CheckMarks, mark_arrays
 
 #: the edit settles this long (ms) before the strip computes (drags send many edits)
 DEBOUNCE_MS = 120
@@ -59,13 +60,21 @@ class NavigationStrip(QObject):
         layout.setRowMinimumHeight(3, 100)
         th = theme.current()
         self.curve = pg.PlotDataItem(pen=pg.mkPen(th.track, width=2))
+        # a prediction has a node per manoeuvre and measurement (50,000 burns: more nodes than pixels):
+        # drawn clipped to the view and reduced to the peaks of each pixel column (set on the plot,
+        # which hands them to its curves; clipping needs x not to auto-range)
+        self.plot.setClipToView(True)
+        self.plot.setDownsampling(auto=True, mode="peak")
+        self.plot.getViewBox().disableAutoRange(pg.ViewBox.XAxis)
         self.plot.addItem(self.curve)
         self.required_line = pg.InfiniteLine(angle=0, label="required",
                                              labelOpts={"position": 0.08, "color": th.foreground,
                                                         "anchors": [(0, 0), (0, 0)]})
         self.plot.addItem(self.required_line)
-        self.marks = pg.ScatterPlotItem(size=9)
+        # the check marks: one item painted from arrays (a week of 50,000 burns has that many checks)
+        self.marks = CheckMarks()
         self.plot.addItem(self.marks)
+        self._drawn = None  # (NavigationResult, origin) drawn now: the same one is not drawn again
         self.apply_theme()
         self._timer = QTimer(self)
         self._timer.setSingleShot(True)
@@ -86,6 +95,7 @@ class NavigationStrip(QObject):
         self.curve.setPen(pg.mkPen(th.track, width=2))
         self.required_line.setPen(pg.mkPen(th.capacity, width=1.5, style=Qt.PenStyle.DashLine))
         self.required_line.label.setColor(th.foreground)
+        self.marks.set_colours(th.monitor, th.error)
 
     def _enabled(self) -> bool:
         sc = self.doc.scenario
@@ -112,12 +122,18 @@ class NavigationStrip(QObject):
         if self.plot.isVisible() != self._enabled():
             self._scenario_replaced()
 
+    #: the strip's tooltip lists this many checks at most (then says how many more)
+    TOOLTIP_CHECKS = 12
+
     def draw(self, nav) -> None:
-        """Show a NavigationResult (None: clear)."""
-        th = theme.current()
+        """Show a NavigationResult (None: clear); the one already shown is not drawn again."""
+        key = None if nav is None else (nav, self.timeline.origin_tt)
+        if key is not None and self._drawn is not None and self._drawn[0] is nav and self._drawn[1] == key[1]:
+            return
+        self._drawn = key
         if nav is None or not len(nav.t_tt):
             self.curve.setData([], [])
-            self.marks.setData([], [])
+            self.marks.set_marks([], [], [])
             self.required_line.setVisible(False)
             return
         x0 = self.timeline.origin_tt
@@ -126,15 +142,17 @@ class NavigationStrip(QObject):
         self.curve.setData(x, y)
         self.required_line.setVisible(True)
         self.required_line.setValue(np.log10(nav.required_position_km))
-        spots = [{"pos": ((c.t_tt - x0) / 3600.0, np.log10(max(c.position_sigma_km, 1e-6))),
-                  "symbol": "o" if c.met else "x",
-                  "brush": pg.mkBrush(th.monitor if c.met else th.error),
-                  "pen": pg.mkPen(th.monitor if c.met else th.error, width=2)} for c in nav.checks]
-        self.marks.setData(spots)
+        checks = nav.checks
+        n = len(checks)
+        t, cy, met = mark_arrays(nav)  # made in the worker with the prediction (see compute and refresh)
+        self.marks.set_marks((t - x0) / 3600.0, cy, met)
         lo = float(np.log10(max(min(y.min(), nav.required_position_km) * 0.5, 1e-6)))
         hi = float(np.log10(max(y.max(), nav.required_position_km) * 2.0))
         self.plot.setYRange(lo, hi, padding=0)
-        lines = [f"{c.label}: {c.position_sigma_km:.3f} km ({'met' if c.met else 'NOT met'})" for c in nav.checks]
+        shown = checks[:self.TOOLTIP_CHECKS]
+        lines = [f"{c.label}: {c.position_sigma_km:.3f} km ({'met' if c.met else 'NOT met'})" for c in shown]
+        if n > len(shown):
+            lines.append(f"... and {n - len(shown)} more checks ({int(n - met.sum())} not met in all)")
         self.plot.setToolTip("predicted 1-sigma position (km)\n" + "\n".join(lines))
 
     # ------------------------------------------------------------ keeping it current
@@ -150,37 +168,38 @@ class NavigationStrip(QObject):
         res = self.doc.result
         nav = None if res is None else getattr(res, "navigation", None)
         self.draw(nav)
-        if res is not None and getattr(res, "ephemeris", None) is not None and self._stale(res):
-            self._timer.start(DEBOUNCE_MS)
-
-    def _stale(self, res) -> bool:
-        from contactplan.navigation.predict import signature
-        from contactplan.plan.twoway import manoeuvres
-
-        tracks = getattr(res, "navigation_tracks", None)
-        if tracks is None:
-            return False
-        nav = getattr(res, "navigation", None)
-        return nav is None or nav.signature != signature(tracks, manoeuvres(res.scenario))
+        if res is not None and getattr(res, "ephemeris", None) is not None \
+                and getattr(res, "navigation_tracks", None) is not None:
+            self._timer.start(DEBOUNCE_MS)  # the worker tells whether the prediction is stale
 
     def refresh(self):
-        """Start the background computation for the current bookings (one job at a time)."""
+        """Start the background job for the current bookings (one job at a time). The job first compares
+        the prediction's signature with the bookings' and manoeuvres' (50,000 burns take a third of a
+        second to list and compare: not in the GUI thread) and predicts only when they differ."""
         from contactplan.app.worker import Job
 
         res = self.doc.result
-        if res is None or not self._enabled() or not self._stale(res):
+        if res is None or not self._enabled() or getattr(res, "navigation_tracks", None) is None:
             return None
         if self.job is not None and self.job.running:
             self.pending = True
             return None
+        from contactplan.app.checking import snapshot_scenario
+        from contactplan.navigation.predict import signature
         from contactplan.plan.tracking import navigation_model
         from contactplan.plan.twoway import manoeuvres
 
         tracks = list(res.navigation_tracks)
-        mans = manoeuvres(res.scenario)
+        scenario = snapshot_scenario(res.scenario)  # its own activity list: edits do not move under the job
+        old = getattr(res, "navigation", None)
 
         def fn(progress, cancel):
-            return navigation_model(res, mans).run(tracks)
+            mans = manoeuvres(scenario)
+            if old is not None and old.signature == signature(tracks, mans):
+                return None  # current: nothing to predict
+            nav = navigation_model(res, mans).run(tracks)
+            mark_arrays(nav)  # the marks' arrays, here rather than in the GUI thread
+            return nav
 
         job = Job("Navigation", fn, self)
         job.done.connect(lambda nav, res=res: self._done(res, nav))
@@ -191,6 +210,8 @@ class NavigationStrip(QObject):
         return job
 
     def _done(self, res, nav) -> None:
+        if nav is None:
+            return  # the prediction was current
         self.computed += 1
         if self.doc.result is not res:
             return

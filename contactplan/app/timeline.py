@@ -87,6 +87,10 @@ class Timeline(pg.GraphicsLayoutWidget):
         self.el_plot.setMenuEnabled(False)
         self.el_plot.hideButtons()
         self.el_plot.setYRange(0, 90, padding=0.02)
+        # a year of one station's elevation samples: only what is on screen, thinned keeping the peaks
+        self.el_plot.setClipToView(True)
+        self.el_plot.setDownsampling(auto=True, mode="peak")
+        self.el_plot.getViewBox().disableAutoRange(pg.ViewBox.XAxis)
         self.el_curve = pg.PlotDataItem(pen=pg.mkPen(th.track, width=1.5), connect="finite")
         self.el_plot.addItem(self.el_curve)
         self.el_min_line = pg.InfiniteLine(angle=0, pen=pg.mkPen(th.day_line, style=Qt.PenStyle.DotLine))

@@ -97,16 +97,28 @@ class FilesMixin:
         if self.job is not None and self.job.running and self.job.title == "Passes":
             self.cancel_job(wait=True)  # the old plan's passes are of no use any more
 
+        prepared = {}
+
+        def read(_progress, _cancel):
+            from contactplan.app.lanes import prepared_activity_index
+
+            sc = load_scenario(path)
+            prepared["activities"] = prepared_activity_index(sc.activities)  # the lanes' index, made here
+            return sc
+
         def done(sc):
-            self.set_scenario(sc, compute=compute)
+            self.set_scenario(sc, compute=compute, activity_index=prepared.pop("activities", None))
             self._add_recent(path)
 
-        return self.run_job("Reading", lambda _progress, _cancel: load_scenario(path), done,
+        return self.run_job("Reading", read, done,
                             lambda text: self.show_error(text, "Cannot open the scenario"))
 
-    def set_scenario(self, sc, compute: bool = True, result=None) -> None:
+    def set_scenario(self, sc, compute: bool = True, result=None, activity_index=None) -> None:
+        """Open ``sc``; ``activity_index``: the lanes' index of its activities made in the worker."""
         self.cancel_job(wait=True)
         self.doc.set_scenario(sc, result=result)
+        if activity_index is not None:
+            self.timeline.canvas.adopt_activity_index(activity_index)
         self._update_title()
         self._update_summary()
         if compute and result is None:

@@ -115,6 +115,7 @@ class JobsMixin:
             else:
                 return None
         from contactplan.app.checking import index_findings
+        from contactplan.app.checkmarks import mark_arrays
         from contactplan.plan.pipeline import compute_plan
 
         revision = self.doc.revision
@@ -126,6 +127,8 @@ class JobsMixin:
             # the passes table's keys and texts are made here too, so the window only swaps them in
             prepared["table"] = PassTable(result.passes, doy=doy, link_profiles=result.link_profiles).prepare()
             prepared["findings"] = index_findings(result.findings)
+            if getattr(result, "navigation", None) is not None:
+                mark_arrays(result.navigation)  # the navigation strip's marks, drawn from arrays
             return result
 
         def done(result):

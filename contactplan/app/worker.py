@@ -51,8 +51,15 @@ class _Runner(QObject):
             QThread.currentThread().quit()  # the thread ends as soon as the job does
 
     def _run(self) -> None:
+        from contactplan.app.checking import collector_paused
+
         try:
-            result = self.fn(self._progress, self.stop.is_set)
+            # no cyclic collection while the job runs: reading a plan or computing its passes makes
+            # millions of objects, and a full collection then walks the whole heap holding the
+            # interpreter (a fifth of a second) while the event loop waits; what the job keeps is
+            # frozen out of later rounds when the last job ends (see checking.collector_paused)
+            with collector_paused():
+                result = self.fn(self._progress, self.stop.is_set)
         except Cancelled:
             self.cancelled.emit()
         except InputError as exc:
